@@ -1,0 +1,101 @@
+//! Approximations of the normalized lowpass response and minimum order.
+//!
+//! Normalization: the passband edge is 1 rad/s, where the response has
+//! fallen by exactly the passband ripple `Ap` (Chebyshev, elliptic) or by
+//! the stated edge attenuation (Butterworth; 3.0103 dB is the classical
+//! half-power point). The maximum of |H(jw)| is 1.
+//!
+//! The squared magnitude is written with the characteristic function
+//! `R(w)`: |H(jw)|^2 = 1 / (1 + eps^2 R(w)^2), with `R(1)^2 = 1` for every
+//! family and variant. Synthesis ([`crate::synth`]) needs, beside the poles,
+//! the roots of `eps^2 R^2 + level = 0` for a level between 0 and 1 (the
+//! reflection zeros of a ladder with a flat loss); [`Prototype`] provides
+//! both.
+
+use num_complex::Complex64;
+
+/// The approximation family.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Family {
+    /// Maximally flat magnitude.
+    Butterworth,
+    /// Chebyshev type I: equiripple passband, monotonic stopband.
+    Chebyshev,
+    /// Elliptic (Cauer): equiripple passband and stopband.
+    Elliptic,
+}
+
+/// Which form of the characteristic function an even order uses.
+///
+/// A doubly terminated LC ladder cannot realize every even-order response:
+/// the standard even-order elliptic keeps a finite gain at infinity (needs
+/// coupled coils), and the standard even-order Chebyshev or elliptic has a
+/// ripple maximum of loss at DC, so it needs unequal terminations. The
+/// modified forms come from the frequency transformation of w^2 used by
+/// Saal (1963) for his types B and C (from memory).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Variant {
+    /// The classical form (scipy's for every order).
+    Standard,
+    /// Even elliptic: the highest transmission zero moved to infinity
+    /// (Saal's type B). DC keeps the ripple loss: unequal terminations.
+    ZeroAtInfinity,
+    /// Even Chebyshev or elliptic: additionally the lowest reflection zero
+    /// moved to DC (Saal's type C), so equal terminations work.
+    ReflectionAtDc,
+}
+
+/// Zeros, poles and gain of a rational transfer function of `s`.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct Zpk {
+    /// Finite zeros.
+    pub zeros: Vec<Complex64>,
+    /// Poles, all in the left half plane for a stable filter.
+    pub poles: Vec<Complex64>,
+    /// Multiplier: H(s) = gain * prod(s - z) / prod(s - p).
+    pub gain: f64,
+}
+
+impl Zpk {
+    /// Evaluates H(s).
+    pub fn eval(&self, s: Complex64) -> Complex64 {
+        let num: Complex64 = self.zeros.iter().map(|z| s - z).product();
+        let den: Complex64 = self.poles.iter().map(|p| s - p).product();
+        self.gain * num / den
+    }
+}
+
+/// Everything that fixes an approximation once its order is known.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct Params {
+    /// The family.
+    pub family: Family,
+    /// The order (number of poles), at least 1.
+    pub order: usize,
+    /// Passband ripple (Chebyshev, elliptic) or attenuation at the passband
+    /// edge (Butterworth), dB, greater than 0.
+    pub passband_ripple_db: f64,
+    /// Minimum stopband attenuation, dB (elliptic only; ignored otherwise).
+    pub stopband_attenuation_db: f64,
+    /// The form; only even orders may use a modified one.
+    pub variant: Variant,
+}
+
+/// A normalized lowpass approximation (passband edge 1 rad/s).
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct Prototype {
+    /// What it was built from.
+    pub params: Params,
+    /// The ripple factor: eps = sqrt(10^(Ap/10) - 1).
+    pub eps: f64,
+    /// H(s), with max |H(jw)| = 1.
+    pub zpk: Zpk,
+    /// Finite transmission zeros w > 0 (rad/s), ascending; each stands for
+    /// the pair +-jw. Empty for the all-pole families.
+    pub transmission_zeros: Vec<f64>,
+    /// Normalized frequency at which the stopband attenuation is first
+    /// reached (elliptic), or `None` for the all-pole families.
+    pub stopband_edge: Option<f64>,
+}

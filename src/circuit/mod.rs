@@ -1,0 +1,107 @@
+//! The netlist type shared by every stage after synthesis, and the
+//! nodal-analysis AC solver over it.
+//!
+//! A [`Netlist`] is plain data: named nodes (index 0 is ground, named
+//! `"0"`) and elements between them. It knows nothing of ladders, filters
+//! or op-amp circuits built from it.
+
+/// Model of an operational amplifier.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize, serde::Deserialize)]
+#[serde(tag = "model", rename_all = "snake_case")]
+pub enum OpAmpModel {
+    /// Nullor: zero input difference, any output current.
+    Ideal,
+    /// A(s) = A0 / (1 + s / wp), wp = 2 pi gbw_hz / A0, with an optional
+    /// series output resistance.
+    SinglePole {
+        /// DC open-loop gain A0 (V/V, not dB).
+        dc_gain: f64,
+        /// Gain-bandwidth product, Hz.
+        gbw_hz: f64,
+        /// Output resistance, ohm (0 for none).
+        output_ohm: f64,
+    },
+}
+
+/// One circuit element. Node indices refer to [`Netlist::nodes`].
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+#[serde(tag = "type", rename_all = "snake_case")]
+pub enum Element {
+    /// Resistor.
+    Resistor {
+        /// SPICE name (starts with `R`).
+        name: String,
+        /// One terminal.
+        a: usize,
+        /// The other terminal.
+        b: usize,
+        /// Ohm, > 0.
+        ohm: f64,
+    },
+    /// Capacitor.
+    Capacitor {
+        /// SPICE name (starts with `C`).
+        name: String,
+        /// One terminal.
+        a: usize,
+        /// The other terminal.
+        b: usize,
+        /// Farad, > 0.
+        farad: f64,
+    },
+    /// Inductor.
+    Inductor {
+        /// SPICE name (starts with `L`).
+        name: String,
+        /// One terminal.
+        a: usize,
+        /// The other terminal.
+        b: usize,
+        /// Henry, > 0.
+        henry: f64,
+    },
+    /// Independent voltage source with an AC magnitude (phase 0).
+    VoltageSource {
+        /// SPICE name (starts with `V`).
+        name: String,
+        /// Positive terminal.
+        pos: usize,
+        /// Negative terminal.
+        neg: usize,
+        /// AC magnitude, volt.
+        ac_volt: f64,
+    },
+    /// Operational amplifier with its output referred to ground.
+    OpAmp {
+        /// SPICE instance name (starts with `X`).
+        name: String,
+        /// Non-inverting input.
+        plus: usize,
+        /// Inverting input.
+        minus: usize,
+        /// Output.
+        out: usize,
+        /// Its model.
+        model: OpAmpModel,
+    },
+}
+
+/// A circuit: named nodes and elements.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct Netlist {
+    /// A one-line title (the first line of a SPICE deck).
+    pub title: String,
+    /// Node names; `nodes[0]` is ground and is named `"0"`.
+    pub nodes: Vec<String>,
+    /// The elements.
+    pub elements: Vec<Element>,
+}
+
+/// A frequency response: complex transfer at each frequency.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Response {
+    /// Frequencies, Hz, ascending.
+    pub freq_hz: Vec<f64>,
+    /// V(out) / V(in) at each frequency.
+    pub h: Vec<num_complex::Complex64>,
+}

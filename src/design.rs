@@ -1,0 +1,1 @@
+//! The pipeline: wires the stages in workflow order.

@@ -1,0 +1,1 @@
+//! Outputs: SPICE netlists, the JSON report, engineering notation.

@@ -1,0 +1,2 @@
+//! The `nocoil` command line: glue over the library.
+fn main() {}

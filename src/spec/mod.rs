@@ -1,0 +1,1 @@
+//! The design file (TOML): what the designer asks for, validated.

@@ -1,0 +1,76 @@
+//! Darlington synthesis of doubly terminated LC ladders.
+//!
+//! Input: a normalized [`crate::approx::Prototype`] and the ratio of the
+//! terminations. Output: a normalized [`Ladder`] (source resistance 1 ohm,
+//! passband edge 1 rad/s) whose voltage transfer from the source EMF to the
+//! load is the prototype's H(s) times the flat factor of the terminations.
+
+/// Which of the two dual ladders.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Form {
+    /// Shunt capacitor first; the inductors (and elliptic tanks) sit in the
+    /// series arms.
+    MinInductor,
+    /// Series inductor first; the capacitors (and elliptic series
+    /// resonators) sit in the shunt arms, all ending at ground.
+    MinCapacitor,
+}
+
+/// A reactive element of a normalized ladder.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Reactance {
+    /// Inductance, henry.
+    Inductor,
+    /// Capacitance, farad.
+    Capacitor,
+}
+
+/// Whether an element belongs to a series arm or a shunt arm.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Arm {
+    /// In the signal path between two ladder nodes.
+    Series,
+    /// From a ladder node to ground (possibly through an internal node).
+    Shunt,
+}
+
+/// One L or C of a ladder, between two of its nodes.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct Element {
+    /// L or C.
+    pub kind: Reactance,
+    /// Henry or farad (normalized: 1 ohm, 1 rad/s).
+    pub value: f64,
+    /// Node at one end; 0 is ground.
+    pub a: usize,
+    /// Node at the other end; 0 is ground.
+    pub b: usize,
+    /// Series or shunt arm.
+    pub arm: Arm,
+    /// Index of the arm, counted from the source (0-based).
+    pub arm_index: usize,
+}
+
+/// A doubly terminated LC ladder.
+///
+/// Node 0 is ground; node 1 is the input (where the source resistance
+/// ends); node `output` carries the load. Shunt series resonators use an
+/// internal node of their own.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct Ladder {
+    /// The dual form.
+    pub form: Form,
+    /// Source resistance, ohm (1 when normalized).
+    pub source_ohm: f64,
+    /// Load resistance, ohm.
+    pub load_ohm: f64,
+    /// Number of nodes, ground included.
+    pub nodes: usize,
+    /// The output (load) node.
+    pub output: usize,
+    /// The reactive elements, from source to load.
+    pub elements: Vec<Element>,
+}

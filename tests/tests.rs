@@ -1,0 +1,7 @@
+//! Integration tests: one entry, one module per stage.
+mod util;
+
+mod approx;
+mod circuit;
+mod cli;
+mod synth;
