@@ -1,1 +1,174 @@
 //! The design file (TOML): what the designer asks for, validated.
+//!
+//! Parsing happens in two steps, so that every problem can be reported
+//! with the file, the key and what would be accepted: serde reads the raw
+//! tables (unknown keys are rejected by name), then [`Spec::from_toml`]
+//! checks every value and their relations and builds the plain [`Spec`].
+//! Nothing here knows how a filter is computed; the vocabulary of the
+//! design file ([`Kind`], [`FamilyChoice`], [`FormChoice`]) is its own.
+
+pub mod mask;
+mod raw;
+
+pub use raw::HALF_POWER_DB;
+
+use std::path::{Path, PathBuf};
+
+/// Highest order a design file may ask for. The all-pole families stay
+/// accurate to this order in the synthesis stage; elliptic designs have a
+/// lower limit of their own, enforced where the approximation is built.
+pub const MAX_ORDER: usize = 25;
+
+/// The kind of filter.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Kind {
+    /// Passes below the passband edge.
+    Lowpass,
+    /// Passes above the passband edge.
+    Highpass,
+    /// Passes between two edges.
+    Bandpass,
+    /// Stops between two edges.
+    Bandstop,
+}
+
+impl Kind {
+    /// Whether the kind takes `[low, high]` edges.
+    pub fn is_band(self) -> bool {
+        matches!(self, Kind::Bandpass | Kind::Bandstop)
+    }
+}
+
+/// The approximation family named in a design file.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum FamilyChoice {
+    /// Maximally flat.
+    Butterworth,
+    /// Equiripple passband (type I).
+    Chebyshev,
+    /// Equiripple passband and stopband (Cauer).
+    Elliptic,
+}
+
+/// Which of the two dual ladders a design file asks for.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum FormChoice {
+    /// Shunt capacitor first.
+    MinInductor,
+    /// Series inductor first.
+    MinCapacitor,
+}
+
+/// A passband or stopband edge: one frequency, or a pair for band kinds.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+#[serde(untagged)]
+pub enum Edge {
+    /// Lowpass and highpass.
+    Single(f64),
+    /// Bandpass and bandstop: `[low, high]`, low < high.
+    Pair(f64, f64),
+}
+
+/// Where the normalized lowpass prototype comes from.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+#[serde(tag = "source", rename_all = "snake_case")]
+pub enum PrototypeSource {
+    /// Computed from an approximation family.
+    Family {
+        /// The family.
+        family: FamilyChoice,
+        /// The order, when the file fixes it; otherwise the minimum order
+        /// for the stopband mask is computed.
+        order: Option<usize>,
+        /// Passband ripple, or Butterworth edge attenuation, dB.
+        passband_ripple_db: f64,
+        /// Minimum stopband attenuation, dB (needed for an elliptic
+        /// design and for a computed order).
+        stopband_attenuation_db: Option<f64>,
+    },
+    /// Read from a prototype table file (see [`table`]).
+    Table {
+        /// The table file, resolved against the design file's folder.
+        path: PathBuf,
+    },
+}
+
+pub mod table;
+
+/// A validated design.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct Spec {
+    /// The design file it came from (for messages).
+    pub file: PathBuf,
+    /// Lowpass, highpass, bandpass or bandstop.
+    pub kind: Kind,
+    /// Family and order, or a table.
+    pub prototype: PrototypeSource,
+    /// Passband edge(s), Hz.
+    pub passband_edge_hz: Edge,
+    /// Stopband edge(s), Hz, when given.
+    pub stopband_edge_hz: Option<Edge>,
+    /// The dual form asked for, or `None` to let the pipeline choose.
+    pub form: Option<FormChoice>,
+    /// Source resistance, ohm.
+    pub source_ohm: f64,
+    /// Load resistance, ohm.
+    pub load_ohm: f64,
+}
+
+/// A problem with a design file.
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum SpecError {
+    /// The file could not be read.
+    #[error("{}: cannot read the file: {source}", file.display())]
+    Read {
+        /// The file.
+        file: PathBuf,
+        /// Why.
+        source: std::io::Error,
+    },
+    /// The file is not TOML, has an unknown or missing key, or a value of
+    /// the wrong type.
+    #[error("{}: line {line}: {message}", file.display())]
+    Syntax {
+        /// The file.
+        file: PathBuf,
+        /// 1-based line of the problem.
+        line: usize,
+        /// The parser's account, which names the key.
+        message: String,
+    },
+    /// A value is out of range or contradicts another.
+    #[error("{}: {key} = {got}: {expected}", file.display())]
+    Invalid {
+        /// The file.
+        file: PathBuf,
+        /// Dotted key, e.g. `filter.passband_edge_hz`.
+        key: &'static str,
+        /// The offending value as written.
+        got: String,
+        /// What would be accepted.
+        expected: String,
+    },
+}
+
+impl Spec {
+    /// Reads and validates a design file.
+    pub fn load(file: &Path) -> Result<Spec, SpecError> {
+        let text = std::fs::read_to_string(file).map_err(|source| SpecError::Read {
+            file: file.to_path_buf(),
+            source,
+        })?;
+        Spec::from_toml(file, &text)
+    }
+
+    /// Validates the text of a design file; `file` is used for messages
+    /// and to resolve a prototype table path.
+    pub fn from_toml(file: &Path, text: &str) -> Result<Spec, SpecError> {
+        raw::parse(file, text)
+    }
+}

@@ -1,0 +1,251 @@
+//! First step of reading a design file: the raw tables as serde sees them,
+//! then the checks that turn them into a [`Spec`].
+
+use super::mask::{check_edge, check_levels, check_sides, MaskField, MaskProblem};
+use super::{Edge, FamilyChoice, FormChoice, Kind, PrototypeSource, Spec, SpecError, MAX_ORDER};
+use serde::Deserialize;
+use std::path::Path;
+
+/// The classical half-power point, 10 log10(2) dB: the default attenuation
+/// at a Butterworth passband edge.
+pub const HALF_POWER_DB: f64 = 3.010_299_956_639_812;
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawSpec {
+    filter: RawFilter,
+    terminations: RawTerminations,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawFilter {
+    kind: Kind,
+    family: Option<FamilyChoice>,
+    prototype: Option<String>,
+    order: Option<i64>,
+    passband_edge_hz: toml::Value,
+    stopband_edge_hz: Option<toml::Value>,
+    #[serde(default, deserialize_with = "number")]
+    passband_ripple_db: Option<f64>,
+    #[serde(default, deserialize_with = "number")]
+    stopband_attenuation_db: Option<f64>,
+    form: Option<FormChoice>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawTerminations {
+    #[serde(default, deserialize_with = "number")]
+    source_ohm: Option<f64>,
+    #[serde(default, deserialize_with = "number")]
+    load_ohm: Option<f64>,
+}
+
+/// Accepts a TOML integer or float where a real number is meant, so that
+/// `load_ohm = 600` reads as well as `load_ohm = 600.0`.
+pub(super) fn number<'de, D: serde::Deserializer<'de>>(d: D) -> Result<Option<f64>, D::Error> {
+    match toml::Value::deserialize(d)? {
+        toml::Value::Integer(i) => Ok(Some(i as f64)),
+        toml::Value::Float(f) => Ok(Some(f)),
+        other => Err(serde::de::Error::custom(format!(
+            "expected a number, got {other}"
+        ))),
+    }
+}
+
+/// Builds the error for `key`.
+struct Checker<'a> {
+    file: &'a Path,
+}
+
+impl Checker<'_> {
+    fn invalid(
+        &self,
+        key: &'static str,
+        got: impl ToString,
+        expected: impl Into<String>,
+    ) -> SpecError {
+        SpecError::Invalid {
+            file: self.file.to_path_buf(),
+            key,
+            got: got.to_string(),
+            expected: expected.into(),
+        }
+    }
+
+    fn positive(&self, key: &'static str, v: f64, what: &str) -> Result<f64, SpecError> {
+        if v.is_finite() && v > 0.0 {
+            Ok(v)
+        } else {
+            Err(self.invalid(key, v, format!("expected {what} greater than 0")))
+        }
+    }
+
+    fn required(&self, key: &'static str, v: Option<f64>, what: &str) -> Result<f64, SpecError> {
+        let v = v.ok_or_else(|| self.invalid(key, "(missing)", format!("expected {what}")))?;
+        self.positive(key, v, what)
+    }
+
+    /// An edge as written: one number, or a `[low, high]` array.
+    fn edge(&self, key: &'static str, kind: Kind, v: &toml::Value) -> Result<Edge, SpecError> {
+        let as_f64 = |x: &toml::Value| match x {
+            toml::Value::Integer(i) => Some(*i as f64),
+            toml::Value::Float(f) => Some(*f),
+            _ => None,
+        };
+        let edge = match v {
+            toml::Value::Array(a) if a.len() == 2 => as_f64(&a[0])
+                .zip(as_f64(&a[1]))
+                .map(|(lo, hi)| Edge::Pair(lo, hi)),
+            x => as_f64(x).map(Edge::Single),
+        };
+        let field = if key == KEY_PASSBAND {
+            MaskField::Passband
+        } else {
+            MaskField::Stopband
+        };
+        let edge = edge.ok_or_else(|| {
+            self.invalid(
+                key,
+                v,
+                "expected a frequency in Hz, or [low, high] for a band kind",
+            )
+        })?;
+        check_edge(field, kind, edge).map_err(|p| self.problem(p))
+    }
+
+    /// A mask problem under the design file's key names.
+    fn problem(&self, p: MaskProblem) -> SpecError {
+        let key = match p.field {
+            MaskField::Passband => KEY_PASSBAND,
+            MaskField::Stopband => "filter.stopband_edge_hz",
+            MaskField::Ripple => "filter.passband_ripple_db",
+            MaskField::Attenuation => "filter.stopband_attenuation_db",
+        };
+        self.invalid(key, p.got, p.expected)
+    }
+}
+
+const KEY_PASSBAND: &str = "filter.passband_edge_hz";
+
+/// Line (1-based) of a byte offset.
+fn line_of(text: &str, offset: usize) -> usize {
+    text[..offset.min(text.len())].matches('\n').count() + 1
+}
+
+pub(super) fn syntax_error(file: &Path, text: &str, e: toml::de::Error) -> SpecError {
+    SpecError::Syntax {
+        file: file.to_path_buf(),
+        line: e.span().map_or(1, |s| line_of(text, s.start)),
+        message: e.message().trim().replace('\n', " "),
+    }
+}
+
+pub(super) fn parse(file: &Path, text: &str) -> Result<Spec, SpecError> {
+    let raw: RawSpec = toml::from_str(text).map_err(|e| syntax_error(file, text, e))?;
+    let c = Checker { file };
+    let f = raw.filter;
+    let passband = c.edge(KEY_PASSBAND, f.kind, &f.passband_edge_hz)?;
+    let stopband = match &f.stopband_edge_hz {
+        Some(v) => Some(c.edge("filter.stopband_edge_hz", f.kind, v)?),
+        None => None,
+    };
+    if let Some(s) = stopband {
+        check_sides(f.kind, passband, s).map_err(|p| c.problem(p))?;
+    }
+    let prototype = prototype_source(&c, &f, stopband.is_some())?;
+    let source_ohm = c.required(
+        "terminations.source_ohm",
+        raw.terminations.source_ohm,
+        "a resistance in ohm",
+    )?;
+    let load_ohm = c.required(
+        "terminations.load_ohm",
+        raw.terminations.load_ohm,
+        "a resistance in ohm",
+    )?;
+    Ok(Spec {
+        file: file.to_path_buf(),
+        kind: f.kind,
+        prototype,
+        passband_edge_hz: passband,
+        stopband_edge_hz: stopband,
+        form: f.form,
+        source_ohm,
+        load_ohm,
+    })
+}
+
+fn prototype_source(
+    c: &Checker,
+    f: &RawFilter,
+    has_stopband: bool,
+) -> Result<PrototypeSource, SpecError> {
+    if let Some(table) = &f.prototype {
+        if let Some(family) = f.family {
+            return Err(c.invalid(
+                "filter.family",
+                format!("{family:?}").to_lowercase(),
+                "expected no family when filter.prototype names a table (the table fixes it)",
+            ));
+        }
+        let dir = c.file.parent().unwrap_or(Path::new("."));
+        return Ok(PrototypeSource::Table {
+            path: dir.join(table),
+        });
+    }
+    let family = f.family.ok_or_else(|| {
+        c.invalid(
+            "filter.family",
+            "(missing)",
+            "expected butterworth, chebyshev or elliptic (or filter.prototype naming a table)",
+        )
+    })?;
+    let order = match f.order {
+        Some(n) if (1..=MAX_ORDER as i64).contains(&n) => Some(n as usize),
+        Some(n) => {
+            return Err(c.invalid(
+                "filter.order",
+                n,
+                format!("expected a whole number from 1 to {MAX_ORDER}"),
+            ))
+        }
+        None if has_stopband => None,
+        None => {
+            return Err(c.invalid(
+                "filter.order",
+                "(missing)",
+                format!(
+                "expected an order from 1 to {MAX_ORDER}, or filter.stopband_edge_hz to compute it"
+            ),
+            ))
+        }
+    };
+    let ripple = match (family, f.passband_ripple_db) {
+        (FamilyChoice::Butterworth, None) => HALF_POWER_DB,
+        (_, None) => {
+            return Err(c.invalid(
+                "filter.passband_ripple_db",
+                "(missing)",
+                "expected a passband ripple in dB",
+            ))
+        }
+        (_, Some(r)) => r,
+    };
+    check_levels(ripple, f.stopband_attenuation_db).map_err(|p| c.problem(p))?;
+    let needs_attenuation = family == FamilyChoice::Elliptic || order.is_none();
+    if needs_attenuation && f.stopband_attenuation_db.is_none() {
+        return Err(c.invalid(
+            "filter.stopband_attenuation_db",
+            "(missing)",
+            "expected a minimum stopband attenuation in dB (an elliptic design or a computed order needs it)",
+        ));
+    }
+    Ok(PrototypeSource::Family {
+        family,
+        order,
+        passband_ripple_db: ripple,
+        stopband_attenuation_db: f.stopband_attenuation_db,
+    })
+}

@@ -1,0 +1,163 @@
+//! Prototype tables: a normalized lowpass ladder written out element by
+//! element (from a handbook, or derived elsewhere), that a design file can
+//! name with `filter.prototype` instead of a computed family.
+//!
+//! Normalization: source resistance 1 ohm, passband edge 1 rad/s, values
+//! in henry and farad. The arms run from the source to the load; each
+//! `[[arm]]` holds exactly one of the keys below.
+//!
+//! ```toml
+//! description = "Chebyshev 0.5 dB, order 3, equal terminations"
+//! reference = "where the numbers come from"
+//! family = "chebyshev"          # optional: what generated the values
+//! order = 3
+//! passband_ripple_db = 0.5
+//! load_ohm = 1.0
+//! [[arm]]
+//! series_l = 1.5963             # inductor in a series arm
+//! [[arm]]
+//! shunt_c = 1.0967              # capacitor from the node to ground
+//! # also: series_tank = [l, c]  (parallel LC in a series arm)
+//! #       shunt_resonator = [l, c]  (series LC from the node to ground)
+//! ```
+
+use super::raw::{number, syntax_error};
+use super::{FamilyChoice, SpecError};
+use serde::Deserialize;
+use std::path::{Path, PathBuf};
+
+/// One arm of a tabulated ladder.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum TableArm {
+    /// Inductor in a series arm, henry.
+    SeriesL(f64),
+    /// Capacitor to ground, farad.
+    ShuntC(f64),
+    /// Parallel LC (henry, farad) in a series arm.
+    SeriesTank(f64, f64),
+    /// Series LC (henry, farad) from the node to ground.
+    ShuntResonator(f64, f64),
+}
+
+/// A tabulated normalized lowpass prototype.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct PrototypeTable {
+    /// The file it was read from.
+    pub file: PathBuf,
+    /// One line saying what it is.
+    pub description: String,
+    /// Where the values come from (book, table, "from memory").
+    pub reference: String,
+    /// The family that generated the values, when known.
+    pub family: Option<FamilyChoice>,
+    /// Number of reactive elements.
+    pub order: usize,
+    /// Passband ripple (or Butterworth edge attenuation), dB.
+    pub passband_ripple_db: f64,
+    /// Stopband attenuation, dB, for an elliptic table.
+    pub stopband_attenuation_db: Option<f64>,
+    /// Load resistance, ohm (source = 1 ohm).
+    pub load_ohm: f64,
+    /// The arms, from source to load.
+    pub arms: Vec<TableArm>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawTable {
+    description: String,
+    reference: String,
+    family: Option<FamilyChoice>,
+    order: usize,
+    #[serde(deserialize_with = "number")]
+    passband_ripple_db: Option<f64>,
+    #[serde(default, deserialize_with = "number")]
+    stopband_attenuation_db: Option<f64>,
+    #[serde(deserialize_with = "number")]
+    load_ohm: Option<f64>,
+    arm: Vec<RawArm>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawArm {
+    #[serde(default, deserialize_with = "number")]
+    series_l: Option<f64>,
+    #[serde(default, deserialize_with = "number")]
+    shunt_c: Option<f64>,
+    series_tank: Option<[f64; 2]>,
+    shunt_resonator: Option<[f64; 2]>,
+}
+
+impl PrototypeTable {
+    /// Reads and checks a table file.
+    pub fn load(file: &Path) -> Result<PrototypeTable, SpecError> {
+        let text = std::fs::read_to_string(file).map_err(|source| SpecError::Read {
+            file: file.to_path_buf(),
+            source,
+        })?;
+        let raw: RawTable = toml::from_str(&text).map_err(|e| syntax_error(file, &text, e))?;
+        let invalid = |key: &'static str, got: String, expected: &str| SpecError::Invalid {
+            file: file.to_path_buf(),
+            key,
+            got,
+            expected: expected.to_string(),
+        };
+        let positive = |v: f64| v.is_finite() && v > 0.0;
+        let mut arms = Vec::with_capacity(raw.arm.len());
+        for (i, a) in raw.arm.iter().enumerate() {
+            let arm = match (a.series_l, a.shunt_c, a.series_tank, a.shunt_resonator) {
+                (Some(l), None, None, None) if positive(l) => TableArm::SeriesL(l),
+                (None, Some(c), None, None) if positive(c) => TableArm::ShuntC(c),
+                (None, None, Some([l, c]), None) if positive(l) && positive(c) => TableArm::SeriesTank(l, c),
+                (None, None, None, Some([l, c])) if positive(l) && positive(c) => TableArm::ShuntResonator(l, c),
+                _ => {
+                    return Err(invalid(
+                        "arm",
+                        format!("arm {}", i + 1),
+                        "expected exactly one of series_l, shunt_c, series_tank = [l, c], shunt_resonator = [l, c], all values greater than 0",
+                    ))
+                }
+            };
+            arms.push(arm);
+        }
+        // Every arm adds one pole; a resonator's second element adds a
+        // transmission zero, not a pole, so the order is the arm count.
+        if arms.len() != raw.order {
+            return Err(invalid(
+                "order",
+                raw.order.to_string(),
+                &format!("expected {}, the number of arms listed", arms.len()),
+            ));
+        }
+        let ripple = raw
+            .passband_ripple_db
+            .filter(|r| positive(*r))
+            .ok_or_else(|| {
+                invalid(
+                    "passband_ripple_db",
+                    format!("{:?}", raw.passband_ripple_db),
+                    "expected a ripple in dB greater than 0",
+                )
+            })?;
+        let load = raw.load_ohm.filter(|r| positive(*r)).ok_or_else(|| {
+            invalid(
+                "load_ohm",
+                format!("{:?}", raw.load_ohm),
+                "expected a normalized load resistance greater than 0",
+            )
+        })?;
+        Ok(PrototypeTable {
+            file: file.to_path_buf(),
+            description: raw.description,
+            reference: raw.reference,
+            family: raw.family,
+            order: raw.order,
+            passband_ripple_db: ripple,
+            stopband_attenuation_db: raw.stopband_attenuation_db,
+            load_ohm: load,
+            arms,
+        })
+    }
+}
