@@ -1096,3 +1096,185 @@ fn engineering_notation_for_people() {
     assert_eq!(eng::format(1.5e-18, "F"), "1.5000e-18 F");
     assert_eq!(eng::format(-3.3, ""), "-3.3000");
 }
+
+/// Natural frequencies versus a closed form: the roots come from a
+/// shifted eigenvalue problem, accurate to about eps times its
+/// conditioning (below 1e3 here), so 1e-10 relative.
+const ROOT_REL_TOL: f64 = 1e-10;
+
+fn assert_roots(netlist: &Netlist, expected: &[Complex64], context: &str) {
+    let got = AcSystem::new(netlist)
+        .unwrap()
+        .natural_frequencies()
+        .unwrap();
+    assert_eq!(
+        got.len(),
+        expected.len(),
+        "{context}: roots {got:?}, expected {expected:?}"
+    );
+    assert_close_rel(expected, &got, ROOT_REL_TOL, context);
+}
+
+#[test]
+fn natural_frequencies_match_closed_forms() {
+    // RC with the source shorted: s = -1/RC.
+    let (r, l, c) = (50.0, 10e-3, 1e-6);
+    let rc = Build::new("rc")
+        .source()
+        .r("R1", "in", "out", r)
+        .c("C1", "out", "0", c)
+        .done();
+    assert_roots(&rc, &[Complex64::new(-1.0 / (r * c), 0.0)], "RC");
+    // Series RLC: roots of LC s^2 + RC s + 1, sorted by imaginary part.
+    let rlc = Build::new("rlc")
+        .source()
+        .r("R1", "in", "a", r)
+        .l("L1", "a", "out", l)
+        .c("C1", "out", "0", c)
+        .done();
+    let (alpha, wd) = (
+        r / (2.0 * l),
+        (1.0 / (l * c) - (r / (2.0 * l)).powi(2)).sqrt(),
+    );
+    assert_roots(
+        &rlc,
+        &[Complex64::new(-alpha, -wd), Complex64::new(-alpha, wd)],
+        "series RLC",
+    );
+    // Inverting amplifier, single pole: the closed-loop denominator
+    // (R1 + R2)(1 + s/wp) + A0 R1 vanishes at s = -wp (R1 + R2 + A0 R1) / (R1 + R2).
+    let (r1, r2, a0, gbw) = (1.0e3, 10.0e3, 2.0e5, 1.0e6);
+    let model = OpAmpModel::SinglePole {
+        dc_gain: a0,
+        gbw_hz: gbw,
+        output_ohm: 0.0,
+    };
+    let inv = Build::new("inv")
+        .source()
+        .r("R1", "in", "m", r1)
+        .r("R2", "m", "out", r2)
+        .opamp("X1", "0", "m", "out", model)
+        .done();
+    let wp = TAU * gbw / a0;
+    assert_roots(
+        &inv,
+        &[Complex64::new(-wp * (r1 + r2 + a0 * r1) / (r1 + r2), 0.0)],
+        "inverting, single pole",
+    );
+    // A capacitor straight across the source (shorted with it) adds no
+    // natural frequency: the highpass C1-R1 keeps its one root -1/RC.
+    let across = Build::new("across")
+        .source()
+        .c("C0", "in", "0", 1e-6)
+        .c("C1", "in", "out", c)
+        .r("R1", "out", "0", r)
+        .done();
+    assert_roots(
+        &across,
+        &[Complex64::new(-1.0 / (r * c), 0.0)],
+        "capacitor across the source",
+    );
+    // Resistors and ideal op-amps only: no dynamics at all.
+    let flat = Build::new("flat")
+        .source()
+        .r("R1", "in", "m", r1)
+        .r("R2", "m", "out", r2)
+        .opamp("X1", "0", "m", "out", OpAmpModel::Ideal)
+        .done();
+    assert_roots(&flat, &[], "ideal inverting amplifier");
+}
+
+#[test]
+fn ideal_gic_highpass_has_the_natural_frequencies_of_its_passive_model() {
+    // Source shorted, loop RS + 1/(sC) + (sL || RL) = 0, times sC (sL + RL):
+    // s^2 LC (RS + RL) + s (RS RL C + L) + RL = 0, with L = 22 mH (see
+    // `ideal_gic_simulates_its_inductor`). The nullor rows add infinite
+    // roots that must all be recognized as such.
+    let (rs, cs, rl, l) = (600.0, 100e-9, 10e3, 22e-3);
+    let (a, b, c) = (l * cs * (rs + rl), rs * rl * cs + l, rl);
+    let disc = Complex64::new(b * b - 4.0 * a * c, 0.0).sqrt();
+    let mut expected = [(-b - disc) / (2.0 * a), (-b + disc) / (2.0 * a)];
+    expected.sort_by(|x, y| y.re.total_cmp(&x.re));
+    assert_roots(
+        &gic_highpass([OpAmpModel::Ideal; 2]),
+        &expected,
+        "ideal GIC highpass",
+    );
+}
+
+/// The GIC highpass with op-amp `swap`'s inputs exchanged (or none).
+fn gic_with_swapped_inputs(models: [OpAmpModel; 2], swap: Option<&str>) -> Netlist {
+    let mut n = gic_highpass(models);
+    for element in &mut n.elements {
+        if let Element::OpAmp {
+            name, plus, minus, ..
+        } = element
+        {
+            if Some(name.as_str()) == swap {
+                std::mem::swap(plus, minus);
+            }
+        }
+    }
+    n
+}
+
+#[test]
+fn gic_stability_agrees_with_ngspice_step_responses() {
+    // The notes' arrangement of the GIC op-amps is stable with single-pole
+    // models and swapping either op-amp's inputs makes it diverge. Check
+    // the natural frequencies against live ngspice step responses: the
+    // stable one decays, and the unstable one grows at exactly the rate of
+    // its right-half-plane root.
+    let a = OpAmpModel::SinglePole {
+        dc_gain: 2e5,
+        gbw_hz: 1e6,
+        output_ohm: 0.0,
+    };
+    let roots = |n: &Netlist| AcSystem::new(n).unwrap().natural_frequencies().unwrap();
+    let stable = gic_with_swapped_inputs([a; 2], None);
+    let slowest = roots(&stable);
+    assert!(
+        slowest.iter().all(|s| s.re < 0.0),
+        "stable arrangement: {slowest:?}"
+    );
+    // Its slowest mode (about -1.4e4 1/s) has decayed by e^-13 after 1 ms.
+    let tran = spice::StepResponse {
+        step_s: 20e-9,
+        stop_s: 1e-3,
+    };
+    let trace = crate::util::ngspice_tran(&spice::step_deck(&stable, &tran).unwrap(), "out");
+    let peak = trace.iter().map(|p| p.1.abs()).fold(0.0, f64::max);
+    let last = trace.last().unwrap().1;
+    assert!(
+        peak < 2.0 && last.abs() < 1e-4,
+        "stable GIC: peak {peak} V, final {last} V"
+    );
+
+    // Growth rate of the unstable one, fitted over the last 30 % of a run
+    // that grows by e^30. Trapezoidal steps of h = 1 ns change a rate r by
+    // about (r h)^2 / 12 = 1.3e-6 relative at r = 4e6 1/s (measured: 1.3e-6
+    // with XA swapped, 8e-7 with XB); 1e-5 leaves an eightfold margin. The
+    // window opens after a growth of e^21, when the other modes no longer
+    // count (a window opening at e^12 still showed 1.3e-4 from them).
+    const GROWTH_REL_TOL: f64 = 1e-5;
+    for swap in ["XA", "XB"] {
+        let unstable = gic_with_swapped_inputs([a; 2], Some(swap));
+        let rate = roots(&unstable)[0];
+        assert!(rate.re > 0.0 && rate.im == 0.0, "{swap} swapped: {rate}");
+        let stop_s = 30.0 / rate.re;
+        let tran = spice::StepResponse {
+            step_s: 1e-9,
+            stop_s,
+        };
+        let trace = crate::util::ngspice_tran(&spice::step_deck(&unstable, &tran).unwrap(), "out");
+        let at = |t: f64| trace.iter().find(|p| p.0 >= t).unwrap();
+        let (p1, p2) = (at(0.7 * stop_s), trace.last().unwrap());
+        let fitted = (p2.1.abs() / p1.1.abs()).ln() / (p2.0 - p1.0);
+        let err = (fitted - rate.re).abs() / rate.re;
+        assert!(
+            err <= GROWTH_REL_TOL,
+            "{swap} swapped: root {:e} 1/s, ngspice growth {fitted:e} 1/s",
+            rate.re
+        );
+    }
+}

@@ -156,6 +156,12 @@ pub enum CircuitError {
         /// The frequency.
         freq_hz: f64,
     },
+    /// An iterative computation did not converge.
+    #[error("{what} did not converge")]
+    NoConvergence {
+        /// What was being computed.
+        what: &'static str,
+    },
     /// A frequency grid that cannot be built.
     #[error("frequency grid {from_hz} Hz to {to_hz} Hz in {points} points: need 0 < from < to, both finite, and at least 2 points")]
     BadGrid {

@@ -45,15 +45,21 @@ impl Lu {
         }
     }
 
-    /// Factors G + jwC; `false` if the matrix is numerically singular.
-    pub fn factor(&mut self, g: &DMatrix<f64>, c: &DMatrix<f64>, omega: f64) -> bool {
+    /// Factors G + sC; `false` if the matrix is numerically singular.
+    pub fn factor(&mut self, g: &DMatrix<f64>, c: &DMatrix<f64>, s: Complex64) -> bool {
+        self.fill(g, c, s);
+        self.equilibrate() && self.eliminate()
+    }
+
+    /// Writes G + sC; for s = jw the real part is G exactly.
+    fn fill(&mut self, g: &DMatrix<f64>, c: &DMatrix<f64>, s: Complex64) {
         let n = self.n;
         for i in 0..n {
             for j in 0..n {
-                self.a[i * n + j] = Complex64::new(g[(i, j)], omega * c[(i, j)]);
+                let (gij, cij) = (g[(i, j)], c[(i, j)]);
+                self.a[i * n + j] = Complex64::new(gij + s.re * cij, s.im * cij);
             }
         }
-        self.equilibrate() && self.eliminate()
     }
 
     /// Scales each row to a largest entry of 1; `false` on an empty row.
@@ -70,7 +76,8 @@ impl Lu {
         true
     }
 
-    /// Gaussian elimination with partial pivoting.
+    /// Gaussian elimination with partial pivoting; `false` at the first
+    /// pivot at or below [`PIVOT_FLOOR`].
     fn eliminate(&mut self) -> bool {
         let n = self.n;
         for k in 0..n {

@@ -311,7 +311,10 @@ impl AcSystem {
         if !(freq_hz.is_finite() && freq_hz >= 0.0) {
             return Err(CircuitError::BadFrequency { freq_hz });
         }
-        if !self.lu.factor(&self.g, &self.c, TAU * freq_hz) {
+        if !self
+            .lu
+            .factor(&self.g, &self.c, Complex64::new(0.0, TAU * freq_hz))
+        {
             return Err(CircuitError::Singular { freq_hz });
         }
         for (x, &b) in self.x.iter_mut().zip(self.b.iter()) {

@@ -11,12 +11,15 @@
 //! - [`reference_transfer`] (in `reference`): the slow dense oracle the
 //!   fast path is tested against.
 //! - [`log_grid`] and the [`Response`] readers (in `response`).
+//! - [`AcSystem::natural_frequencies`] (in `poles`): roots of
+//!   det(G + sC) for stability checks.
 
 mod error;
 mod layout;
 mod lu;
 mod mna;
 pub mod netlist;
+mod poles;
 mod reference;
 mod response;
 

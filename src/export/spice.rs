@@ -1,7 +1,7 @@
 //! SPICE decks that `ngspice -b` runs unmodified: a title line, the
 //! elements with their standard prefixes, op-amps as `X` instances of
 //! subcircuits defined in the deck from plain R, C and E (VCVS) elements,
-//! one `.ac` line and `.end`. Nothing beyond classic SPICE syntax: no
+//! one analysis line (`.ac`, or `.tran` for a step response) and `.end`. Nothing beyond classic SPICE syntax: no
 //! `.control` block, no parameters or expressions.
 //!
 //! Invariants: the deck is written only from a netlist that passed
@@ -39,6 +39,24 @@ pub struct AcSweep {
     pub stop_hz: f64,
 }
 
+/// A transient step response: every voltage source steps from 0 to its
+/// AC magnitude at t = 0, rising over one time step (SPICE's own default
+/// rise time for a pulse).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct StepResponse {
+    /// Time step, which is also the largest step ngspice may take, s, > 0.
+    pub step_s: f64,
+    /// End time, s, > step.
+    pub stop_s: f64,
+}
+
+/// Which analysis a deck runs.
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum Analysis<'a> {
+    Ac(&'a AcSweep),
+    Step(&'a StepResponse),
+}
+
 /// Why no deck was written.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 #[non_exhaustive]
@@ -55,6 +73,16 @@ pub enum SpiceError {
         start_hz: f64,
         /// Stop given.
         stop_hz: f64,
+    },
+    /// The step response times are out of range.
+    #[error(
+        "step response with time step {step_s} s to {stop_s} s: need 0 < step < stop, both finite"
+    )]
+    Step {
+        /// Step given.
+        step_s: f64,
+        /// Stop given.
+        stop_s: f64,
     },
 }
 
@@ -96,7 +124,12 @@ fn opamp_models(netlist: &Netlist) -> Vec<(OpAmpModel, String)> {
 }
 
 /// One element line.
-fn element_line(netlist: &Netlist, element: &Element, models: &[(OpAmpModel, String)]) -> String {
+fn element_line(
+    netlist: &Netlist,
+    element: &Element,
+    models: &[(OpAmpModel, String)],
+    analysis: Analysis,
+) -> String {
     let node = |i: usize| netlist.nodes[i].as_str();
     match element {
         Element::Resistor { name, a, b, ohm: v }
@@ -120,10 +153,11 @@ fn element_line(netlist: &Netlist, element: &Element, models: &[(OpAmpModel, Str
             neg,
             ac_volt,
         } => format!(
-            "{name} {} {} DC 0 AC {}",
+            "{name} {} {} DC 0 AC {}{}",
             node(*pos),
             node(*neg),
-            value(*ac_volt)
+            value(*ac_volt),
+            source_waveform(*ac_volt, analysis)
         ),
         Element::OpAmp {
             name,
@@ -179,21 +213,58 @@ fn subcircuit(model: &OpAmpModel, name: &str) -> String {
     }
 }
 
-fn check_sweep(sweep: &AcSweep) -> Result<(), SpiceError> {
-    let AcSweep {
-        points_per_decade,
-        start_hz,
-        stop_hz,
-    } = *sweep;
-    let finite = start_hz.is_finite() && stop_hz.is_finite();
-    if finite && points_per_decade >= 1 && start_hz > 0.0 && stop_hz > start_hz {
-        Ok(())
-    } else {
-        Err(SpiceError::Sweep {
+/// The transient waveform of a source: none for AC, else a pulse from 0
+/// to the AC magnitude at t = 0 that lasts past the end of the run.
+fn source_waveform(ac_volt: f64, analysis: Analysis) -> String {
+    match analysis {
+        Analysis::Ac(_) => String::new(),
+        Analysis::Step(t) => format!(
+            " PULSE(0 {} 0 {} {} {} {})",
+            value(ac_volt),
+            value(t.step_s),
+            value(t.step_s),
+            value(2.0 * t.stop_s),
+            value(4.0 * t.stop_s)
+        ),
+    }
+}
+
+/// Checks the analysis and writes its control line.
+fn analysis_line(analysis: Analysis) -> Result<String, SpiceError> {
+    match analysis {
+        Analysis::Ac(&AcSweep {
             points_per_decade,
             start_hz,
             stop_hz,
-        })
+        }) => {
+            let finite = start_hz.is_finite() && stop_hz.is_finite();
+            if finite && points_per_decade >= 1 && start_hz > 0.0 && stop_hz > start_hz {
+                Ok(format!(
+                    ".ac dec {points_per_decade} {} {}",
+                    value(start_hz),
+                    value(stop_hz)
+                ))
+            } else {
+                Err(SpiceError::Sweep {
+                    points_per_decade,
+                    start_hz,
+                    stop_hz,
+                })
+            }
+        }
+        Analysis::Step(&StepResponse { step_s, stop_s }) => {
+            if step_s.is_finite() && stop_s.is_finite() && step_s > 0.0 && stop_s > step_s {
+                // TSTART 0, TMAX = the step, so ngspice resolves it.
+                Ok(format!(
+                    ".tran {} {} 0 {}",
+                    value(step_s),
+                    value(stop_s),
+                    value(step_s)
+                ))
+            } else {
+                Err(SpiceError::Step { step_s, stop_s })
+            }
+        }
     }
 }
 
@@ -213,24 +284,30 @@ fn title_line(title: &str) -> String {
 
 /// A self-contained deck for an `.ac dec` sweep of the netlist.
 pub fn deck(netlist: &Netlist, sweep: &AcSweep) -> Result<String, SpiceError> {
+    write(netlist, Analysis::Ac(sweep))
+}
+
+/// A self-contained deck for the step response of the netlist (`.tran`),
+/// for stability checks: a stable circuit settles, an unstable one grows.
+pub fn step_deck(netlist: &Netlist, tran: &StepResponse) -> Result<String, SpiceError> {
+    write(netlist, Analysis::Step(tran))
+}
+
+fn write(netlist: &Netlist, analysis: Analysis) -> Result<String, SpiceError> {
     netlist.validate()?;
-    check_sweep(sweep)?;
+    let control = analysis_line(analysis)?;
     let models = opamp_models(netlist);
     let mut out = title_line(&netlist.title);
     out.push('\n');
     for element in &netlist.elements {
-        out.push_str(&element_line(netlist, element, &models));
+        out.push_str(&element_line(netlist, element, &models, analysis));
         out.push('\n');
     }
     for (model, name) in &models {
         out.push_str(&subcircuit(model, name));
     }
-    out.push_str(&format!(
-        ".ac dec {} {} {}\n.end\n",
-        sweep.points_per_decade,
-        value(sweep.start_hz),
-        value(sweep.stop_hz)
-    ));
+    out.push_str(&control);
+    out.push_str("\n.end\n");
     Ok(out)
 }
 
