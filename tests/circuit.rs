@@ -118,8 +118,47 @@ impl Build {
     }
 }
 
+/// R1 from `in` to the inverting input, R2 from there to `out`, the
+/// non-inverting input grounded.
+fn inverting_amplifier(r1: f64, r2: f64, model: OpAmpModel) -> Netlist {
+    Build::new("inverting")
+        .source()
+        .r("R1", "in", "m", r1)
+        .r("R2", "m", "out", r2)
+        .opamp("X1", "0", "m", "out", model)
+        .done()
+}
+
+/// R from `in` to `out`, C from `out` to ground.
+fn rc_lowpass(r: f64, c: f64) -> Netlist {
+    Build::new("rc")
+        .source()
+        .r("R1", "in", "out", r)
+        .c("C1", "out", "0", c)
+        .done()
+}
+
+/// R and L in series from `in` to `out`, C from `out` to ground.
+fn series_rlc(r: f64, l: f64, c: f64) -> Netlist {
+    Build::new("rlc")
+        .source()
+        .r("R1", "in", "a", r)
+        .l("L1", "a", "out", l)
+        .c("C1", "out", "0", c)
+        .done()
+}
+
 fn s_of(f: f64) -> Complex64 {
     Complex64::new(0.0, TAU * f)
+}
+
+/// A single-pole op-amp model.
+fn single_pole(dc_gain: f64, gbw_hz: f64, output_ohm: f64) -> OpAmpModel {
+    OpAmpModel::SinglePole {
+        dc_gain,
+        gbw_hz,
+        output_ohm,
+    }
 }
 
 /// Single-pole gain A(s) = A0 / (1 + s/wp), wp = 2 pi gbw / A0.
@@ -173,11 +212,7 @@ const FREQS: [f64; 7] = [0.0, 1.0, 120.0, 1591.5494, 1e4, 3.3e5, 1e7];
 fn rc_lowpass_matches_its_closed_form() {
     // Voltage divider of R and 1/(sC): H = 1 / (1 + sRC).
     let (r, c) = (1.0e3, 100e-9);
-    let n = Build::new("rc")
-        .source()
-        .r("R1", "in", "out", r)
-        .c("C1", "out", "0", c)
-        .done();
+    let n = rc_lowpass(r, c);
     check_closed_form(&n, &FREQS, |s| 1.0 / (1.0 + s * r * c), "RC lowpass");
 }
 
@@ -185,12 +220,7 @@ fn rc_lowpass_matches_its_closed_form() {
 fn series_rlc_matches_its_closed_form() {
     // Divider of R + sL and 1/(sC): H = 1 / (1 + sRC + s^2 LC).
     let (r, l, c) = (50.0, 10e-3, 1e-6);
-    let n = Build::new("rlc")
-        .source()
-        .r("R1", "in", "a", r)
-        .l("L1", "a", "out", l)
-        .c("C1", "out", "0", c)
-        .done();
+    let n = series_rlc(r, l, c);
     check_closed_form(
         &n,
         &FREQS,
@@ -225,12 +255,7 @@ fn wheatstone_bridge_at_dc_matches_thevenin() {
 fn inverting_amplifier_with_ideal_opamp_is_minus_r2_over_r1() {
     // Virtual ground at the inverting input: H = -R2/R1 at every frequency.
     let (r1, r2) = (1.0e3, 4.7e3);
-    let n = Build::new("inv")
-        .source()
-        .r("R1", "in", "m", r1)
-        .r("R2", "m", "out", r2)
-        .opamp("X1", "0", "m", "out", OpAmpModel::Ideal)
-        .done();
+    let n = inverting_amplifier(r1, r2, OpAmpModel::Ideal);
     check_closed_form(
         &n,
         &FREQS,
@@ -244,17 +269,8 @@ fn inverting_amplifier_with_single_pole_opamp_matches_closed_loop_form() {
     // v_o = -A v_-, v_- = (R2 v_in + R1 v_o) / (R1 + R2) gives
     // H = -A R2 / (R1 + R2 + A R1) with A = A0 / (1 + s/wp).
     let (r1, r2) = (1.0e3, 10.0e3);
-    let model = OpAmpModel::SinglePole {
-        dc_gain: 2.0e5,
-        gbw_hz: 1.0e6,
-        output_ohm: 0.0,
-    };
-    let n = Build::new("inv")
-        .source()
-        .r("R1", "in", "m", r1)
-        .r("R2", "m", "out", r2)
-        .opamp("X1", "0", "m", "out", model)
-        .done();
+    let model = single_pole(2.0e5, 1.0e6, 0.0);
+    let n = inverting_amplifier(r1, r2, model);
     check_closed_form(
         &n,
         &FREQS,
@@ -271,11 +287,7 @@ fn follower_with_output_resistance_matches_closed_loop_form() {
     // Follower sensing its loaded output: v_o = k A (v_in - v_o) with the
     // divider k = RL / (Ro + RL), so H = k A / (1 + k A).
     let (ro, rl) = (75.0, 600.0);
-    let model = OpAmpModel::SinglePole {
-        dc_gain: 1.0e5,
-        gbw_hz: 3.0e6,
-        output_ohm: ro,
-    };
+    let model = single_pole(1.0e5, 3.0e6, ro);
     let n = Build::new("follower")
         .source()
         .opamp("X1", "in", "out", "out", model)
@@ -447,11 +459,7 @@ fn refills_match_reference_and_a_fresh_build() {
                             unreachable!()
                         };
                         let new = match *model {
-                            OpAmpModel::Ideal => OpAmpModel::SinglePole {
-                                dc_gain: 1e5,
-                                gbw_hz: 1e6,
-                                output_ohm: 0.0,
-                            },
+                            OpAmpModel::Ideal => single_pole(1e5, 1e6, 0.0),
                             OpAmpModel::SinglePole {
                                 output_ohm: 0.0, ..
                             } => OpAmpModel::Ideal,
@@ -514,17 +522,8 @@ fn group_delay_is_exact_for_rc_and_rlc() {
         a * (1.0 + b * w * w) / ((1.0 - b * w * w).powi(2) + (a * w).powi(2))
     };
     let (r, l, c) = (50.0, 10e-3, 1e-6);
-    let rc = Build::new("rc")
-        .source()
-        .r("R1", "in", "out", r)
-        .c("C1", "out", "0", c)
-        .done();
-    let rlc = Build::new("rlc")
-        .source()
-        .r("R1", "in", "a", r)
-        .l("L1", "a", "out", l)
-        .c("C1", "out", "0", c)
-        .done();
+    let rc = rc_lowpass(r, c);
+    let rlc = series_rlc(r, l, c);
     for (netlist, a, b) in [(rc, r * c, 0.0), (rlc, r * c, l * c)] {
         let mut system = AcSystem::new(&netlist).unwrap();
         let (out, inp) = (
@@ -554,11 +553,7 @@ fn response_group_delay_tracks_the_closed_form_within_its_truncation_error() {
     // the end formula errs by 2.144 (ln q)^2 at 50 points per decade
     // (computed), so each bound carries the factor (1 + 2 ln q).
     let (r, c) = (1.0e3, 159.15494e-9);
-    let n = Build::new("rc")
-        .source()
-        .r("R1", "in", "out", r)
-        .c("C1", "out", "0", c)
-        .done();
+    let n = rc_lowpass(r, c);
     let per_decade = 50;
     let freqs = log_grid(1.0, 1e6, 6 * per_decade + 1).unwrap();
     let ln_q = std::f64::consts::LN_10 / per_decade as f64;
@@ -707,11 +702,7 @@ fn parallel_voltage_sources_are_singular() {
 
 #[test]
 fn solver_rejects_bad_queries_with_the_offending_value() {
-    let n = Build::new("rc")
-        .source()
-        .r("R1", "in", "out", 1e3)
-        .c("C1", "out", "0", 1e-9)
-        .done();
+    let n = rc_lowpass(1e3, 1e-9);
     let mut s = AcSystem::new(&n).unwrap();
     let (out, inp) = (n.node_index("out").unwrap(), n.node_index("in").unwrap());
     assert_eq!(
@@ -888,16 +879,27 @@ fn netlist_checks_name_the_offender() {
 
 #[test]
 fn opamp_output_alone_fixes_a_node() {
-    // A follower whose output drives nothing but its own inverting input:
-    // the output node has two terminals; a second follower's output alone
-    // on a node is also fine, being driven.
-    let n = Build::new("buffers")
-        .source()
-        .r("R1", "in", "0", 1e3)
-        .opamp("X1", "in", "out", "out", OpAmpModel::Ideal)
-        .done();
+    // An op-amp output is the one terminal allowed alone on a node. With a
+    // finite gain it fixes the node: open loop, V(out) = A(s) V(in). A
+    // nullor alone has no equation for its output (only feedback sets it),
+    // so the solve reports that as singular.
+    let model = single_pole(1e5, 1e6, 0.0);
+    let open_loop = |model| {
+        Build::new("open loop")
+            .source()
+            .r("R1", "in", "0", 1e3)
+            .opamp("X1", "in", "0", "out", model)
+            .done()
+    };
+    let n = open_loop(model);
     assert_eq!(n.validate(), Ok(()));
-    check_closed_form(&n, &[1e3], |_| Complex64::new(1.0, 0.0), "ideal follower");
+    check_closed_form(
+        &n,
+        &FREQS,
+        |s| single_pole_gain(model, s),
+        "open-loop op-amp",
+    );
+    assert_singular(&open_loop(OpAmpModel::Ideal), 1e3);
 }
 
 /// ngspice versus this solver: the brief's 0.001 dB and 0.01 degree.
@@ -1003,16 +1005,8 @@ fn ideal_opamp_decks_match_ngspice() {
 
 #[test]
 fn single_pole_opamp_decks_match_ngspice() {
-    let a = OpAmpModel::SinglePole {
-        dc_gain: 2e5,
-        gbw_hz: 1e6,
-        output_ohm: 0.0,
-    };
-    let b = OpAmpModel::SinglePole {
-        dc_gain: 1e5,
-        gbw_hz: 3e6,
-        output_ohm: 50.0,
-    };
+    let a = single_pole(2e5, 1e6, 0.0);
+    let b = single_pole(1e5, 3e6, 50.0);
     check_against_ngspice(&gic_highpass([a, b]), SWEEP, "GIC, single pole");
     let follower = Build::new("follower")
         .source()
@@ -1119,19 +1113,10 @@ fn assert_roots(netlist: &Netlist, expected: &[Complex64], context: &str) {
 fn natural_frequencies_match_closed_forms() {
     // RC with the source shorted: s = -1/RC.
     let (r, l, c) = (50.0, 10e-3, 1e-6);
-    let rc = Build::new("rc")
-        .source()
-        .r("R1", "in", "out", r)
-        .c("C1", "out", "0", c)
-        .done();
+    let rc = rc_lowpass(r, c);
     assert_roots(&rc, &[Complex64::new(-1.0 / (r * c), 0.0)], "RC");
     // Series RLC: roots of LC s^2 + RC s + 1, sorted by imaginary part.
-    let rlc = Build::new("rlc")
-        .source()
-        .r("R1", "in", "a", r)
-        .l("L1", "a", "out", l)
-        .c("C1", "out", "0", c)
-        .done();
+    let rlc = series_rlc(r, l, c);
     let (alpha, wd) = (
         r / (2.0 * l),
         (1.0 / (l * c) - (r / (2.0 * l)).powi(2)).sqrt(),
@@ -1144,17 +1129,8 @@ fn natural_frequencies_match_closed_forms() {
     // Inverting amplifier, single pole: the closed-loop denominator
     // (R1 + R2)(1 + s/wp) + A0 R1 vanishes at s = -wp (R1 + R2 + A0 R1) / (R1 + R2).
     let (r1, r2, a0, gbw) = (1.0e3, 10.0e3, 2.0e5, 1.0e6);
-    let model = OpAmpModel::SinglePole {
-        dc_gain: a0,
-        gbw_hz: gbw,
-        output_ohm: 0.0,
-    };
-    let inv = Build::new("inv")
-        .source()
-        .r("R1", "in", "m", r1)
-        .r("R2", "m", "out", r2)
-        .opamp("X1", "0", "m", "out", model)
-        .done();
+    let model = single_pole(a0, gbw, 0.0);
+    let inv = inverting_amplifier(r1, r2, model);
     let wp = TAU * gbw / a0;
     assert_roots(
         &inv,
@@ -1175,12 +1151,7 @@ fn natural_frequencies_match_closed_forms() {
         "capacitor across the source",
     );
     // Resistors and ideal op-amps only: no dynamics at all.
-    let flat = Build::new("flat")
-        .source()
-        .r("R1", "in", "m", r1)
-        .r("R2", "m", "out", r2)
-        .opamp("X1", "0", "m", "out", OpAmpModel::Ideal)
-        .done();
+    let flat = inverting_amplifier(r1, r2, OpAmpModel::Ideal);
     assert_roots(&flat, &[], "ideal inverting amplifier");
 }
 
@@ -1225,11 +1196,7 @@ fn gic_stability_agrees_with_ngspice_step_responses() {
     // the natural frequencies against live ngspice step responses: the
     // stable one decays, and the unstable one grows at exactly the rate of
     // its right-half-plane root.
-    let a = OpAmpModel::SinglePole {
-        dc_gain: 2e5,
-        gbw_hz: 1e6,
-        output_ohm: 0.0,
-    };
+    let a = single_pole(2e5, 1e6, 0.0);
     let roots = |n: &Netlist| AcSystem::new(n).unwrap().natural_frequencies().unwrap();
     let stable = gic_with_swapped_inputs([a; 2], None);
     let slowest = roots(&stable);

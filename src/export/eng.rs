@@ -1,6 +1,6 @@
 //! Engineering notation: a mantissa with a fixed number of significant
 //! digits and a power of ten that is a multiple of 3, spelled with an SI
-//! prefix for people ([`format`]) and with a SPICE suffix for decks
+//! prefix for people ([`format()`]) and with a SPICE suffix for decks
 //! ([`crate::export::spice::value`]).
 //!
 //! The digits come from Rust's own correctly rounded `{:e}` formatting
