@@ -102,8 +102,8 @@ fn opamp_coefficients(model: &OpAmpModel) -> (f64, f64, f64) {
 /// Emits every stamp of one element.
 fn stamps(element: &Element, extras: Extras, layout: &Layout, emit: &mut dyn FnMut(Target, f64)) {
     let node = |n: usize| layout.node(n);
-    // Layout::new gives every L, V and op-amp a current unknown, so the
-    // fallback index is never used; it keeps this function total.
+    // Layout::new gives every L, V and op-amp a current unknown and R, C
+    // never read k, so the placeholder cannot reach a matrix.
     let k = extras.current.unwrap_or(usize::MAX);
     match *element {
         Element::Resistor { a, b, ohm, .. } => {

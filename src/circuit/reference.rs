@@ -59,6 +59,7 @@ fn assemble(
     let mut rhs = DVector::zeros(n);
     let node = |i: usize| layout.node(i);
     for (element, extras) in netlist.elements.iter().zip(&layout.extras) {
+        // Only L, V and op-amps read k, and Layout::new gives each one.
         let k = extras.current.unwrap_or(usize::MAX);
         match *element {
             Element::Resistor { a, b, ohm, .. } => {
