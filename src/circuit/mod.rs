@@ -4,6 +4,30 @@
 //! A [`Netlist`] is plain data: named nodes (index 0 is ground, named
 //! `"0"`) and elements between them. It knows nothing of ladders, filters
 //! or op-amp circuits built from it.
+//!
+//! - [`netlist`]: building and validating a netlist.
+//! - [`AcSystem`] (in `mna`): the fast solver, built once per netlist and
+//!   refilled in place when a value changes.
+//! - [`reference_transfer`] (in `reference`): the slow dense oracle the
+//!   fast path is tested against.
+//! - [`log_grid`] and the [`Response`] readers (in `response`).
+//! - [`AcSystem::natural_frequencies`] (in `poles`): roots of
+//!   det(G + sC) for stability checks.
+
+mod error;
+mod layout;
+mod lu;
+mod mna;
+pub mod netlist;
+mod poles;
+mod reference;
+mod response;
+
+pub use error::CircuitError;
+pub use mna::AcSystem;
+pub use netlist::{ElementKind, Terminal};
+pub use reference::reference_transfer;
+pub use response::log_grid;
 
 /// Model of an operational amplifier.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize, serde::Deserialize)]

@@ -1,1 +1,4 @@
 //! Outputs: SPICE netlists, the JSON report, engineering notation.
+
+pub mod eng;
+pub mod spice;

@@ -1,0 +1,331 @@
+//! SPICE decks that `ngspice -b` runs unmodified: a title line, the
+//! elements with their standard prefixes, op-amps as `X` instances of
+//! subcircuits defined in the deck from plain R, C and E (VCVS) elements,
+//! one analysis line (`.ac`, or `.tran` for a step response) and `.end`. Nothing beyond classic SPICE syntax: no
+//! `.control` block, no parameters or expressions.
+//!
+//! Invariants: the deck is written only from a netlist that passed
+//! [`Netlist::validate`], so every name is a plain SPICE token, unique
+//! ignoring case; node `0` is ground; values carry at least 9
+//! significant digits ([`SPICE_DIGITS`]).
+
+use crate::circuit::{CircuitError, Element, Netlist, OpAmpModel};
+use crate::export::eng;
+
+/// Significant digits of values in a deck. The brief asks for at least 9;
+/// 10 keeps the rounding (at most 5e-11 relative) far below ngspice's own
+/// numerical noise (about 1e-6) and the 0.001 dB (1.2e-4) comparisons,
+/// while the values stay readable.
+pub const SPICE_DIGITS: usize = 10;
+
+/// SPICE scale suffixes from 1e-15 to 1e12. `meg`, not `m`: SPICE reads
+/// `m` (either case) as milli.
+const SPICE_SUFFIXES: [&str; 10] = ["f", "p", "n", "u", "m", "", "k", "meg", "g", "t"];
+
+/// Gain of the VCVS that stands for an ideal op-amp. A loop with noise
+/// gain N errs by about N / A: at 1e9 that is 1e-7 for N up to 100 (below
+/// 1e-6 dB), while the VCVS row (entries 1 and 1e9 against conductances
+/// of 1e-6..1e-2 S) still leaves ngspice's pivoted LU about 8 good digits.
+pub const IDEAL_VCVS_GAIN: f64 = 1e9;
+
+/// The `.ac dec` sweep of a deck.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct AcSweep {
+    /// Points per decade, at least 1.
+    pub points_per_decade: usize,
+    /// First frequency, Hz, > 0.
+    pub start_hz: f64,
+    /// Last frequency, Hz, > start.
+    pub stop_hz: f64,
+}
+
+/// A transient step response: every voltage source steps from 0 to its
+/// AC magnitude at t = 0, rising over one time step (SPICE's own default
+/// rise time for a pulse).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct StepResponse {
+    /// Time step, which is also the largest step ngspice may take, s, > 0.
+    pub step_s: f64,
+    /// End time, s, > step.
+    pub stop_s: f64,
+}
+
+/// Which analysis a deck runs.
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum Analysis<'a> {
+    Ac(&'a AcSweep),
+    Step(&'a StepResponse),
+}
+
+/// Why no deck was written.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum SpiceError {
+    /// The netlist is invalid.
+    #[error("netlist: {0}")]
+    Netlist(#[from] CircuitError),
+    /// The sweep is empty or out of range.
+    #[error("AC sweep {points_per_decade} points per decade from {start_hz} Hz to {stop_hz} Hz: need at least 1 point per decade and 0 < start < stop, both finite")]
+    Sweep {
+        /// Points per decade given.
+        points_per_decade: usize,
+        /// Start given.
+        start_hz: f64,
+        /// Stop given.
+        stop_hz: f64,
+    },
+    /// The step response times are out of range.
+    #[error(
+        "step response with time step {step_s} s to {stop_s} s: need 0 < step < stop, both finite"
+    )]
+    Step {
+        /// Step given.
+        step_s: f64,
+        /// Stop given.
+        stop_s: f64,
+    },
+}
+
+/// A value for a deck: [`SPICE_DIGITS`] significant digits, trailing
+/// zeros dropped, with a SPICE suffix ("1.5963m", "47n", "10k",
+/// "2.2meg"); outside 1e-15..1e15 in exponent form ("1.5e-18"). Zero is
+/// "0". Non-finite values have no SPICE spelling (a validated netlist has
+/// none); they come out as Rust prints them.
+pub fn value(v: f64) -> String {
+    let Some((mantissa, exp3)) = eng::split(v, SPICE_DIGITS) else {
+        return if v == 0.0 { "0".into() } else { v.to_string() };
+    };
+    let mantissa = match mantissa.contains('.') {
+        true => mantissa.trim_end_matches('0').trim_end_matches('.'),
+        false => &mantissa,
+    };
+    match eng::prefix(&SPICE_SUFFIXES, exp3) {
+        Some(suffix) => format!("{mantissa}{suffix}"),
+        None => format!("{mantissa}e{exp3}"),
+    }
+}
+
+/// The distinct op-amp models of a netlist, in order of first use, each
+/// with the subcircuit name its instances refer to.
+fn opamp_models(netlist: &Netlist) -> Vec<(OpAmpModel, String)> {
+    let mut models: Vec<(OpAmpModel, String)> = Vec::new();
+    for element in &netlist.elements {
+        if let Element::OpAmp { model, .. } = element {
+            if !models.iter().any(|(m, _)| m == model) {
+                let name = match model {
+                    OpAmpModel::Ideal => "opamp_ideal".to_string(),
+                    OpAmpModel::SinglePole { .. } => format!("opamp_pole{}", models.len() + 1),
+                };
+                models.push((*model, name));
+            }
+        }
+    }
+    models
+}
+
+/// One element line.
+fn element_line(
+    netlist: &Netlist,
+    element: &Element,
+    models: &[(OpAmpModel, String)],
+    analysis: Analysis,
+) -> String {
+    let node = |i: usize| netlist.nodes[i].as_str();
+    match element {
+        Element::Resistor { name, a, b, ohm: v }
+        | Element::Capacitor {
+            name,
+            a,
+            b,
+            farad: v,
+        }
+        | Element::Inductor {
+            name,
+            a,
+            b,
+            henry: v,
+        } => {
+            format!("{name} {} {} {}", node(*a), node(*b), value(*v))
+        }
+        Element::VoltageSource {
+            name,
+            pos,
+            neg,
+            ac_volt,
+        } => format!(
+            "{name} {} {} DC 0 AC {}{}",
+            node(*pos),
+            node(*neg),
+            value(*ac_volt),
+            source_waveform(*ac_volt, analysis)
+        ),
+        Element::OpAmp {
+            name,
+            plus,
+            minus,
+            out,
+            model,
+        } => {
+            let subckt = models
+                .iter()
+                .find(|(m, _)| m == model)
+                .map_or("", |(_, s)| s);
+            format!(
+                "{name} {} {} {} {subckt}",
+                node(*plus),
+                node(*minus),
+                node(*out)
+            )
+        }
+    }
+}
+
+/// The subcircuit of one op-amp model, ports (plus, minus, out).
+fn subcircuit(model: &OpAmpModel, name: &str) -> String {
+    match *model {
+        OpAmpModel::Ideal => format!(
+            "* ideal op-amp: a VCVS of gain {}\n.subckt {name} p m o\nE1 o 0 p m {}\n.ends {name}\n",
+            value(IDEAL_VCVS_GAIN),
+            value(IDEAL_VCVS_GAIN)
+        ),
+        OpAmpModel::SinglePole {
+            dc_gain,
+            gbw_hz,
+            output_ohm,
+        } => {
+            // E1 (gain A0) into R1 = 1 ohm and C1 = 1/wp: the pole
+            // 1 / (1 + s/wp), wp = 2 pi gbw / A0; E2 buffers it.
+            let c = dc_gain / (std::f64::consts::TAU * gbw_hz);
+            let (buffer, resistor) = if output_ohm > 0.0 {
+                ("c", format!("RO c o {}\n", value(output_ohm)))
+            } else {
+                ("o", String::new())
+            };
+            format!(
+                "* single-pole op-amp: A0 = {}, GBW = {} Hz, output {} ohm\n.subckt {name} p m o\nE1 a 0 p m {}\nR1 a b 1\nC1 b 0 {}\nE2 {buffer} 0 b 0 1\n{resistor}.ends {name}\n",
+                value(dc_gain),
+                value(gbw_hz),
+                value(output_ohm),
+                value(dc_gain),
+                value(c)
+            )
+        }
+    }
+}
+
+/// The transient waveform of a source: none for AC, else a pulse from 0
+/// to the AC magnitude at t = 0 that lasts past the end of the run.
+fn source_waveform(ac_volt: f64, analysis: Analysis) -> String {
+    match analysis {
+        Analysis::Ac(_) => String::new(),
+        Analysis::Step(t) => format!(
+            " PULSE(0 {} 0 {} {} {} {})",
+            value(ac_volt),
+            value(t.step_s),
+            value(t.step_s),
+            value(2.0 * t.stop_s),
+            value(4.0 * t.stop_s)
+        ),
+    }
+}
+
+/// Checks the analysis and writes its control line.
+fn analysis_line(analysis: Analysis) -> Result<String, SpiceError> {
+    match analysis {
+        Analysis::Ac(&AcSweep {
+            points_per_decade,
+            start_hz,
+            stop_hz,
+        }) => {
+            let finite = start_hz.is_finite() && stop_hz.is_finite();
+            if finite && points_per_decade >= 1 && start_hz > 0.0 && stop_hz > start_hz {
+                Ok(format!(
+                    ".ac dec {points_per_decade} {} {}",
+                    value(start_hz),
+                    value(stop_hz)
+                ))
+            } else {
+                Err(SpiceError::Sweep {
+                    points_per_decade,
+                    start_hz,
+                    stop_hz,
+                })
+            }
+        }
+        Analysis::Step(&StepResponse { step_s, stop_s }) => {
+            if step_s.is_finite() && stop_s.is_finite() && step_s > 0.0 && stop_s > step_s {
+                // TSTART 0, TMAX = the step, so ngspice resolves it.
+                Ok(format!(
+                    ".tran {} {} 0 {}",
+                    value(step_s),
+                    value(stop_s),
+                    value(step_s)
+                ))
+            } else {
+                Err(SpiceError::Step { step_s, stop_s })
+            }
+        }
+    }
+}
+
+/// The title line: SPICE takes the whole first line as the title, so line
+/// breaks and control characters become spaces; an empty title would
+/// leave the line blank, so it gets a placeholder.
+fn title_line(title: &str) -> String {
+    let line: String = title
+        .chars()
+        .map(|c| if c.is_control() { ' ' } else { c })
+        .collect();
+    match line.trim() {
+        "" => "untitled circuit".to_string(),
+        t => t.to_string(),
+    }
+}
+
+/// A self-contained deck for an `.ac dec` sweep of the netlist.
+pub fn deck(netlist: &Netlist, sweep: &AcSweep) -> Result<String, SpiceError> {
+    write(netlist, Analysis::Ac(sweep))
+}
+
+/// A self-contained deck for the step response of the netlist (`.tran`),
+/// for stability checks: a stable circuit settles, an unstable one grows.
+pub fn step_deck(netlist: &Netlist, tran: &StepResponse) -> Result<String, SpiceError> {
+    write(netlist, Analysis::Step(tran))
+}
+
+fn write(netlist: &Netlist, analysis: Analysis) -> Result<String, SpiceError> {
+    netlist.validate()?;
+    let control = analysis_line(analysis)?;
+    let models = opamp_models(netlist);
+    let mut out = title_line(&netlist.title);
+    out.push('\n');
+    for element in &netlist.elements {
+        out.push_str(&element_line(netlist, element, &models, analysis));
+        out.push('\n');
+    }
+    for (model, name) in &models {
+        out.push_str(&subcircuit(model, name));
+    }
+    out.push_str(&control);
+    out.push_str("\n.end\n");
+    Ok(out)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn values_use_spice_suffixes_with_ten_digits() {
+        assert_eq!(value(1.5963e-3), "1.5963m");
+        assert_eq!(value(47e-9), "47n");
+        assert_eq!(value(2.2e6), "2.2meg");
+        assert_eq!(value(1.0), "1");
+        assert_eq!(value(1e9), "1g");
+        assert_eq!(value(123456.789012), "123.456789k");
+        assert_eq!(value(1.0 / 3.0), "333.3333333m");
+        assert_eq!(value(2.5e-18), "2.5e-18");
+        assert_eq!(value(0.0), "0");
+        assert_eq!(value(-4.7e3), "-4.7k");
+    }
+}
