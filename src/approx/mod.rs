@@ -14,6 +14,41 @@
 
 use num_complex::Complex64;
 
+mod butterworth;
+mod characteristic;
+mod decibel;
+mod equiripple;
+mod error;
+mod jacobi;
+mod order;
+mod prototype;
+mod scalar;
+mod variant;
+
+pub use error::ApproxError;
+pub use order::{min_order, ORDER_TOLERANCE};
+
+/// Largest order of the all-pole families (Butterworth, Chebyshev). The
+/// poles come from closed forms and stay accurate far beyond this; the cap
+/// is where ladder synthesis stops being trustworthy (design notes,
+/// section 2).
+pub const MAX_ORDER: usize = 25;
+
+/// Largest elliptic order. Measured against a 40-digit mpmath oracle (see
+/// tests/approx.rs) the zpk keeps a relative error below 1e-12 up to this
+/// order for every fixture mask whose transition is wider than 1e-9.
+pub const ELLIPTIC_MAX_ORDER: usize = 25;
+
+/// Smallest accepted passband ripple, dB. Below this (a reflection
+/// coefficient under 5e-7) no double-precision ladder could realize the
+/// difference, and such a value is surely a unit mistake; it also keeps
+/// 1/eps far from overflow.
+pub const MIN_RIPPLE_DB: f64 = 1e-12;
+
+/// Largest accepted ripple or attenuation, dB: 15 decades of amplitude,
+/// beyond any analog filter, and 10^(dB/10) stays far from overflow.
+pub const MAX_LEVEL_DB: f64 = 300.0;
+
 /// The approximation family.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 #[serde(rename_all = "lowercase")]
@@ -24,6 +59,16 @@ pub enum Family {
     Chebyshev,
     /// Elliptic (Cauer): equiripple passband and stopband.
     Elliptic,
+}
+
+impl Family {
+    /// The largest order [`Prototype::new`] and [`min_order`] accept.
+    pub fn max_order(self) -> usize {
+        match self {
+            Family::Butterworth | Family::Chebyshev => MAX_ORDER,
+            Family::Elliptic => ELLIPTIC_MAX_ORDER,
+        }
+    }
 }
 
 /// Which form of the characteristic function an even order uses.
@@ -96,6 +141,10 @@ pub struct Prototype {
     /// the pair +-jw. Empty for the all-pole families.
     pub transmission_zeros: Vec<f64>,
     /// Normalized frequency at which the stopband attenuation is first
-    /// reached (elliptic), or `None` for the all-pole families.
+    /// reached (elliptic: 1/k, moved outwards by a modified variant), or
+    /// `None` for the all-pole families.
     pub stopband_edge: Option<f64>,
+    /// The characteristic function, kept for [`Prototype::reflection_roots`].
+    #[serde(skip)]
+    characteristic: characteristic::Characteristic,
 }
