@@ -19,9 +19,9 @@
 //! (level 0), so their orientation is fixed: see
 //! [`SynthError::EvenOrderOrientation`].
 
-use super::extraction::{extract, other_orders, usual_order, Section};
-use super::poly::Poly;
-use super::{ArmValues, Form, Ladder, SynthError};
+use super::ends::ladder_arms;
+use super::poly::{cdd, cdiv, div, Cdd, Poly};
+use super::{Form, Ladder, SynthError};
 use num_complex::Complex64;
 
 /// Largest relative imaginary residue accepted when a root set is
@@ -35,11 +35,6 @@ const CONJUGATE_TOLERANCE: f64 = 1e-10;
 /// about n * 1e-16; a difference of 1e-9 in |S11| moves the transmission
 /// by under 1e-8 dB, while roots taken at the wrong level miss by far more.
 pub(crate) const REFLECTION_TOLERANCE: f64 = 1e-9;
-
-/// Largest relative difference accepted between the resistance left after
-/// the last element and the load. Measured: below 1e-12 over the test
-/// matrix. A load off by 1e-9 changes the passband gain by about 4e-9 dB.
-const REMAINDER_TOLERANCE: f64 = 1e-9;
 
 /// The roots that fix a doubly terminated lowpass ladder, at the flat-loss
 /// level its terminations need.
@@ -76,15 +71,17 @@ pub fn synthesize_characteristic(
         Form::MinInductor => 1.0 / load_ratio,
     };
     let f_roots = oriented_reflection_zeros(ch, rho, form, load_ratio)?;
-    let e = real_poly(&ch.poles, "poles")?;
-    let f = real_poly(&f_roots, "reflection zeros")?;
-    check_dc_reflection(&e, &f, rho)?;
-    let n = ch.poles.len();
-    // E and F^ are both monic of degree n: s^n cancels exactly in E - F^.
-    let num = e.add_signed(&f, 1.0);
-    let den = e.add_signed(&f, -1.0).truncated(n - 1);
-    let sections = sections_for(&num, &den, &ch.transmission_zeros, rho, load_ratio, form)?;
-    let mut ladder = Ladder::from_arms(arm_values(&sections, form), load_ratio);
+    check_dc_reflection(&ch.poles, &f_roots, rho)?;
+    let f = real_poly(
+        &f_roots.iter().copied().map(cdd).collect::<Vec<_>>(),
+        "reflection zeros",
+    )?;
+    let e = real_poly(
+        &refined_poles(&ch.poles, &f, &ch.transmission_zeros)?,
+        "poles",
+    )?;
+    let arms = ladder_arms(&e, &f, &ch.transmission_zeros, load_ratio, form)?;
+    let mut ladder = Ladder::from_arms(arms, load_ratio);
     ladder.flat_gain = load_ratio / ((1.0 + load_ratio) * ch.dc_gain);
     Ok(ladder)
 }
@@ -163,7 +160,7 @@ fn relative_im(z: Complex64) -> f64 {
 }
 
 /// The real polynomial of a conjugate-closed root set.
-fn real_poly(roots: &[Complex64], which: &'static str) -> Result<Poly, SynthError> {
+fn real_poly(roots: &[Cdd], which: &'static str) -> Result<Poly, SynthError> {
     let (p, residue) = Poly::from_roots(roots);
     if residue <= CONJUGATE_TOLERANCE {
         Ok(p)
@@ -176,9 +173,14 @@ fn real_poly(roots: &[Complex64], which: &'static str) -> Result<Poly, SynthErro
     }
 }
 
-/// |S11(0)| = |F^(0)/E(0)| must be |rho - 1|/(rho + 1).
-fn check_dc_reflection(e: &Poly, f: &Poly, rho: f64) -> Result<(), SynthError> {
-    let got = f64::from(f.coef(0) / e.coef(0)).abs();
+/// |S11(0)| = |prod(-f) / prod(-p)| must be |rho - 1|/(rho + 1).
+fn check_dc_reflection(
+    poles: &[Complex64],
+    f_roots: &[Complex64],
+    rho: f64,
+) -> Result<(), SynthError> {
+    let ratio: Complex64 = f_roots.iter().zip(poles).map(|(f, p)| f / p).product();
+    let got = ratio.norm();
     let expected = ((rho - 1.0) / (rho + 1.0)).abs();
     if (got - expected).abs() <= REFLECTION_TOLERANCE {
         Ok(())
@@ -191,79 +193,53 @@ fn check_dc_reflection(e: &Poly, f: &Poly, rho: f64) -> Result<(), SynthError> {
     }
 }
 
-/// Tries the orders of zero removal, the usual one first, until one gives
-/// positive elements and ends in the load.
-fn sections_for(
-    num: &Poly,
-    den: &Poly,
-    zeros: &[f64],
-    rho: f64,
-    load_ratio: f64,
-    form: Form,
-) -> Result<Vec<Section>, SynthError> {
-    let attempt = |order: &[f64]| {
-        let x = extract(num.clone(), den.clone(), order)?;
-        check_load(x.primary_load, rho, load_ratio, form)?;
-        Ok(x.sections)
-    };
-    let usual = usual_order(zeros);
-    let first = match attempt(&usual) {
-        Ok(sections) => return Ok(sections),
-        Err(e) => e,
-    };
-    let mut tried = 1;
-    for order in other_orders(&usual) {
-        tried += 1;
-        if let Ok(sections) = attempt(&order) {
-            return Ok(sections);
-        }
-    }
-    Err(if tried == 1 {
-        first
-    } else {
-        SynthError::NoZeroOrder {
-            tried,
-            first: Box::new(first),
-        }
-    })
-}
+/// Newton steps that polish each f64 pole on the Feldtkeller polynomial.
+/// Newton converges quadratically from the f64 start (1e-16 relative): one
+/// step reaches the double-double level, the second and third absorb a
+/// start that is a few decades worse (close poles of high orders).
+const NEWTON_STEPS: usize = 3;
 
-/// The remainder, as a resistance, must equal the load.
-fn check_load(primary_load: f64, rho: f64, load_ratio: f64, form: Form) -> Result<(), SynthError> {
-    if ((primary_load - rho) / rho).abs() <= REMAINDER_TOLERANCE {
-        return Ok(());
-    }
-    let got = match form {
-        Form::MinCapacitor => primary_load,
-        Form::MinInductor => 1.0 / primary_load,
-    };
-    Err(SynthError::RemainderMismatch {
-        expected: load_ratio,
-        got,
-        tolerance: REMAINDER_TOLERANCE,
-    })
-}
+/// Largest relative move accepted while polishing a pole: f64 poles of the
+/// same characteristic move by about 1e-15; poles of another
+/// characteristic (wrong ripple, wrong level) move by far more than 1e-9.
+const POLE_MOVE_TOLERANCE: f64 = 1e-9;
 
-/// Reads the form-independent sections as arms of `form`: arm i is series
-/// when i is even in the `MinCapacitor` form and odd in `MinInductor`;
-/// series arms hold inductors (or parallel tanks), shunt arms capacitors
-/// (or series resonators). The primary kind is L in `MinCapacitor` and C in
-/// `MinInductor`.
-fn arm_values(sections: &[Section], form: Form) -> Vec<ArmValues> {
-    sections
+/// The poles polished so that E E* = F F* + k P P* holds to double-double
+/// precision (the Feldtkeller equation, domain.md section 2), with k fixed
+/// at DC by the given poles.
+///
+/// Why: a ladder exists only for an exactly consistent E, F, P. The f64
+/// poles violate the identity by about 1e-16 relative, which puts
+/// spurious transmission zeros at large finite frequencies; the continued
+/// fraction then amplifies the violation by many decades (measured: 7e-10
+/// relative element error at order 10 for Butterworth, and orders above 10
+/// failing the structure check). With polished poles the ladder is exact
+/// for the given F and P, and only their own rounding remains.
+fn refined_poles(poles: &[Complex64], f: &Poly, zeros: &[f64]) -> Result<Vec<Cdd>, SynthError> {
+    let p = Poly::from_jw_pairs(zeros);
+    let e0: Cdd = poles.iter().map(|z| -cdd(*z)).product();
+    let k = div(e0.re * e0.re - f.coef(0) * f.coef(0), p.coef(0) * p.coef(0));
+    let feldtkeller = f
+        .mul(&f.mirrored())
+        .add_signed(&p.mul(&p.mirrored()).scaled(k), 1.0);
+    poles
         .iter()
-        .enumerate()
-        .map(|(i, section)| {
-            let series = (i % 2 == 0) == (form == Form::MinCapacitor);
-            match (*section, series) {
-                (Section::Single(v), true) => ArmValues::SeriesL(v),
-                (Section::Single(v), false) => ArmValues::ShuntC(v),
-                (Section::Resonator { primary, dual }, true) => {
-                    ArmValues::SeriesTank(dual, primary)
-                }
-                (Section::Resonator { primary, dual }, false) => {
-                    ArmValues::ShuntResonator(primary, dual)
-                }
+        .map(|&start| {
+            let polished = (0..NEWTON_STEPS).fold(cdd(start), |z, _| {
+                let (v, d) = feldtkeller.value_and_slope(z);
+                z - cdiv(v, d)
+            });
+            let moved = (Complex64::new(polished.re.into(), polished.im.into()) - start).norm()
+                / start.norm();
+            if moved <= POLE_MOVE_TOLERANCE {
+                Ok(polished)
+            } else {
+                Err(SynthError::InconsistentPole {
+                    re: start.re,
+                    im: start.im,
+                    moved,
+                    tolerance: POLE_MOVE_TOLERANCE,
+                })
             }
         })
         .collect()

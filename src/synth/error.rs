@@ -6,7 +6,7 @@
 //! roots are inconsistent with each other or the arithmetic ran out of
 //! precision.
 
-use super::Form;
+use super::{ArmValues, Form};
 use crate::approx::Variant;
 
 /// A synthesis failure.
@@ -115,6 +115,22 @@ pub enum SynthError {
         /// |S11| from the roots given.
         got: f64,
     },
+    /// A pole that is not a root of the Feldtkeller polynomial of the
+    /// reflection and transmission zeros given.
+    #[error(
+        "pole {re} + {im}j does not fit the reflection and transmission zeros: \
+         polishing it moved it by {moved:e} relative (accepted: {tolerance:e})"
+    )]
+    InconsistentPole {
+        /// Real part.
+        re: f64,
+        /// Imaginary part.
+        im: f64,
+        /// Relative move while polishing.
+        moved: f64,
+        /// Accepted relative move.
+        tolerance: f64,
+    },
     /// An element came out zero, negative or not finite.
     #[error("arm {arm} came out with the non-positive value {value}: this order of zero removal does not give a ladder")]
     NegativeElement {
@@ -146,13 +162,20 @@ pub enum SynthError {
         /// Accepted relative remainder.
         tolerance: f64,
     },
-    /// The resistance left after the last element is not the load.
-    #[error("the remainder after the last element is {got} ohm but the load is {expected} ohm (relative tolerance {tolerance:e})")]
-    RemainderMismatch {
-        /// The load resistance, ohm.
-        expected: f64,
-        /// The remainder, as a resistance, ohm.
-        got: f64,
+    /// The ladder extracted from the source end and the one extracted from
+    /// the load end disagree on the middle arm: the roots do not describe
+    /// one ladder with these terminations (or precision ran out).
+    #[error(
+        "arm {arm} is {from_source:?} from the source end but {from_load:?} from the load end \
+         (relative tolerance {tolerance:e})"
+    )]
+    JunctionMismatch {
+        /// The middle arm, counted from the source (0-based).
+        arm: usize,
+        /// Its values extracted from the source end.
+        from_source: ArmValues,
+        /// Its values extracted from the load end.
+        from_load: ArmValues,
         /// Accepted relative difference.
         tolerance: f64,
     },

@@ -95,6 +95,18 @@ impl Ladder {
     }
 }
 
+impl ArmValues {
+    /// The arm scaled to impedance level `r`: L times r, C over r.
+    pub(crate) fn impedance_scaled(self, r: f64) -> ArmValues {
+        match self {
+            ArmValues::SeriesL(l) => ArmValues::SeriesL(l * r),
+            ArmValues::ShuntC(c) => ArmValues::ShuntC(c / r),
+            ArmValues::SeriesTank(l, c) => ArmValues::SeriesTank(l * r, c / r),
+            ArmValues::ShuntResonator(l, c) => ArmValues::ShuntResonator(l * r, c / r),
+        }
+    }
+}
+
 /// The modified nodal matrix under construction: node voltages first
 /// (node k at row k - 1, ground dropped), then one current per inductor.
 struct Mna {

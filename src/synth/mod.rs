@@ -5,17 +5,20 @@
 //! passband edge 1 rad/s) whose voltage transfer from the source EMF to the
 //! load is the prototype's H(s) times the flat factor of the terminations.
 //!
-//! The stages, one file each: [`terminations`](variant_for) (what the ratio
-//! forces: variant, flat-loss level), `darlington` (E, F and the input
-//! immittance from the roots), `extraction` (zero shifting and the
-//! continued fraction, in double-double `poly` arithmetic), `ladder`
-//! (node layout and the reference evaluator [`Ladder::transfer`]).
+//! The stages, one file each: `terminations` ([`variant_for`], the
+//! flat-loss level), `darlington` (E and F from the roots, polished to
+//! double-double consistency), `ends` (extraction from both ends, joined
+//! in the middle), `extraction` (zero shifting and the continued
+//! fraction, in double-double `poly` arithmetic), `ladder` (node layout
+//! and the reference evaluator [`Ladder::transfer`]).
 //!
 //! Invariants of every [`Ladder`] built here: all element values positive;
-//! the resistance left after the last element equals the load (checked to
-//! a named tolerance); arms alternate series and shunt from the source.
+//! the halves extracted from the source and from the load agree on the
+//! middle arm (to a named tolerance), which a ladder with the wrong
+//! terminations or roots cannot do; arms alternate series and shunt.
 
 mod darlington;
+mod ends;
 mod error;
 mod extraction;
 mod ladder;

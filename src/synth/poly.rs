@@ -19,9 +19,46 @@ use twofloat::TwoFloat;
 /// Double-double real number (about 106 significant bits).
 pub(crate) type Dd = TwoFloat;
 
+/// Double-double complex number.
+pub(crate) type Cdd = Complex<Dd>;
+
 /// The double-double value of an f64.
 pub(crate) fn dd(x: f64) -> Dd {
     Dd::from(x)
+}
+
+/// `a / b` to double-double accuracy, by long division: a quotient digit
+/// from the high words, the remainder computed exactly enough with the
+/// (accurate) double-double times f64 product, twice more (the accurate
+/// division of Y. Hida, X. S. Li and D. H. Bailey, "Algorithms for
+/// quad-double precision floating point arithmetic", ARITH-15, 2001).
+///
+/// Why not `a / b`: twofloat 0.8.4 forms the correction `1 - b.hi * th`
+/// of its double-double division without a fused multiply-add, so the
+/// quotient is only f64-accurate (measured: its 1/3 has a zero low word);
+/// the synthesis lost about one digit per order through it. Every
+/// division of two double-double numbers in this module goes through here.
+pub(crate) fn div(a: Dd, b: Dd) -> Dd {
+    let q1 = a.hi() / b.hi();
+    let r = a - b * q1;
+    let q2 = r.hi() / b.hi();
+    let r = r - b * q2;
+    let q3 = r.hi() / b.hi();
+    Dd::new_add(q1, q2) + q3
+}
+
+/// `a / b` for double-double complex numbers, through [`div`].
+pub(crate) fn cdiv(a: Cdd, b: Cdd) -> Cdd {
+    let den = b.re * b.re + b.im * b.im;
+    Complex::new(
+        div(a.re * b.re + a.im * b.im, den),
+        div(a.im * b.re - a.re * b.im, den),
+    )
+}
+
+/// The double-double value of a complex f64.
+pub(crate) fn cdd(z: Complex64) -> Cdd {
+    Complex::new(dd(z.re), dd(z.im))
 }
 
 /// A real polynomial in `s`, coefficients in ascending powers.
@@ -40,7 +77,10 @@ pub(crate) struct AtJw {
 impl AtJw {
     /// Imaginary part of `self / den`.
     pub(crate) fn im_ratio(self, den: AtJw) -> Dd {
-        (self.im * den.re - self.re * den.im) / (den.re * den.re + den.im * den.im)
+        div(
+            self.im * den.re - self.re * den.im,
+            den.re * den.re + den.im * den.im,
+        )
     }
 }
 
@@ -52,33 +92,80 @@ impl Poly {
     }
 
     /// Expands `prod (s - r)` over the roots, and returns it with the
-    /// largest imaginary part left in a coefficient, relative to that
-    /// coefficient's scale (the same coefficient of `prod (s + |r|)`).
-    /// The residue is zero (to double-double rounding) exactly when the
-    /// roots come in conjugate pairs.
-    pub(crate) fn from_roots(roots: &[Complex64]) -> (Poly, f64) {
+    /// largest imaginary part left in a coefficient, relative to the
+    /// largest coefficient of `prod (s + |r|)` (a bound on every
+    /// coefficient's terms). The residue is zero (to double-double
+    /// rounding) exactly when the roots come in conjugate pairs; a root
+    /// without its partner leaves a residue of order 1. (A per-coefficient
+    /// scale would not do: a root at 1e-17 j, rounding of a root at 0,
+    /// would count as unpaired.)
+    pub(crate) fn from_roots(roots: &[Cdd]) -> (Poly, f64) {
         let zero = Complex::new(dd(0.0), dd(0.0));
         let mut c = vec![Complex::new(dd(1.0), dd(0.0))];
         let mut scale = vec![1.0_f64];
         for r in roots {
-            let rd = Complex::new(dd(r.re), dd(r.im));
+            let size = f64::from(r.re).hypot(f64::from(r.im));
             let mut next = vec![zero; c.len() + 1];
             let mut next_scale = vec![0.0; c.len() + 1];
             for (k, ck) in c.iter().enumerate() {
                 next[k + 1] += *ck;
-                next[k] -= rd * *ck;
+                next[k] -= *r * *ck;
                 next_scale[k + 1] += scale[k];
-                next_scale[k] += r.norm() * scale[k];
+                next_scale[k] += size * scale[k];
             }
             c = next;
             scale = next_scale;
         }
+        let largest = scale.iter().copied().fold(0.0, f64::max);
         let residue = c
             .iter()
-            .zip(&scale)
-            .map(|(ck, sk)| f64::from(ck.im).abs() / sk)
-            .fold(0.0, f64::max);
+            .map(|ck| f64::from(ck.im).abs())
+            .fold(0.0, f64::max)
+            / largest;
         (Poly::new(c.into_iter().map(|ck| ck.re).collect()), residue)
+    }
+
+    /// `prod (s^2 + w^2)` over the frequencies.
+    pub(crate) fn from_jw_pairs(ws: &[f64]) -> Poly {
+        ws.iter().fold(Poly::new(vec![dd(1.0)]), |p, &w| {
+            p.mul(&Poly::new(vec![Dd::new_mul(w, w), dd(0.0), dd(1.0)]))
+        })
+    }
+
+    /// `p(-s)`.
+    pub(crate) fn mirrored(&self) -> Poly {
+        let sign = |k: usize| if k % 2 == 0 { 1.0 } else { -1.0 };
+        Poly::new(
+            self.c
+                .iter()
+                .enumerate()
+                .map(|(k, ck)| *ck * sign(k))
+                .collect(),
+        )
+    }
+
+    /// The product of two polynomials.
+    pub(crate) fn mul(&self, other: &Poly) -> Poly {
+        let mut c = vec![dd(0.0); self.c.len() + other.c.len() - 1];
+        for (i, a) in self.c.iter().enumerate() {
+            for (j, b) in other.c.iter().enumerate() {
+                c[i + j] += *a * *b;
+            }
+        }
+        Poly::new(c)
+    }
+
+    /// `k p(s)`.
+    pub(crate) fn scaled(&self, k: Dd) -> Poly {
+        Poly::new(self.c.iter().map(|ck| *ck * k).collect())
+    }
+
+    /// Value and derivative at a complex point (Horner, both at once).
+    pub(crate) fn value_and_slope(&self, z: Cdd) -> (Cdd, Cdd) {
+        let zero = Complex::new(dd(0.0), dd(0.0));
+        self.c.iter().rev().fold((zero, zero), |(v, d), ck| {
+            (v * z + Complex::new(*ck, dd(0.0)), d * z + v)
+        })
     }
 
     /// Degree (the index of the last stored coefficient).
@@ -179,8 +266,10 @@ mod tests {
     /// and (s^2 + 4)(s + 3) + 5 s + 7 divided by s^2 + 4.
     #[test]
     fn expansion_and_division_match_hand_arithmetic() {
-        let (p, residue) =
-            Poly::from_roots(&[Complex64::new(-1.0, 0.0), Complex64::new(-2.0, 0.0)]);
+        let (p, residue) = Poly::from_roots(&[
+            cdd(Complex64::new(-1.0, 0.0)),
+            cdd(Complex64::new(-2.0, 0.0)),
+        ]);
         let got: Vec<f64> = (0..=2).map(|k| f64::from(p.coef(k))).collect();
         assert_eq!(got, vec![2.0, 3.0, 1.0]);
         assert_eq!(residue, 0.0);
@@ -200,21 +289,66 @@ mod tests {
         );
     }
 
-    /// s^3 + 2 s + 1 at s = 2j is -8j + 4j + 1 = 1 - 4j.
+    /// s^3 + 2 s + 1 at s = 2j is -8j + 4j + 1 = 1 - 4j; its derivative
+    /// 3 s^2 + 2 is -10 there; p(-s) = -s^3 - 2 s + 1; (s^2 + 4)(s^2 + 1)
+    /// = s^4 + 5 s^2 + 4 (hand arithmetic).
     #[test]
-    fn value_on_the_imaginary_axis() {
+    fn values_products_and_mirror() {
         let p = Poly::new(vec![dd(1.0), dd(2.0), dd(0.0), dd(1.0)]);
         let v = p.at_jw(2.0);
         assert_eq!((f64::from(v.re), f64::from(v.im)), (1.0, -4.0));
+        let (v, d) = p.value_and_slope(cdd(Complex64::new(0.0, 2.0)));
+        assert_eq!(
+            (
+                f64::from(v.re),
+                f64::from(v.im),
+                f64::from(d.re),
+                f64::from(d.im)
+            ),
+            (1.0, -4.0, -10.0, 0.0)
+        );
+        let m: Vec<f64> = (0..=3).map(|k| f64::from(p.mirrored().coef(k))).collect();
+        assert_eq!(m, vec![1.0, -2.0, 0.0, -1.0]);
+        let q: Vec<f64> = (0..=4)
+            .map(|k| f64::from(Poly::from_jw_pairs(&[2.0, 1.0]).coef(k)))
+            .collect();
+        assert_eq!(q, vec![4.0, 0.0, 5.0, 0.0, 1.0]);
+    }
+
+    /// 1/3 and 2/7 to double-double accuracy: the residual of
+    /// q * b - a is below 1e-31 (double-double unit roundoff is 1.1e-32).
+    #[test]
+    fn division_is_double_double_accurate() {
+        for (a, b) in [(1.0, 3.0), (2.0, 7.0), (-5.0, 0.1)] {
+            let q = div(dd(a), dd(b));
+            let residual = f64::from(q * b - dd(a)).abs() / a.abs();
+            assert!(residual < 1e-31, "{a}/{b}: residual {residual:e}");
+            // twofloat's double-double by f64 division is accurate as is
+            let residual = f64::from((dd(a) / b) * b - dd(a)).abs() / a.abs();
+            assert!(residual < 1e-31, "{a}/{b} by f64: residual {residual:e}");
+        }
+        let z = cdiv(
+            cdd(Complex64::new(1.0, 2.0)),
+            cdd(Complex64::new(3.0, -1.0)),
+        );
+        // (1 + 2j)/(3 - j) = (1 + 2j)(3 + j)/10 = (1 + 7j)/10
+        let back = z * cdd(Complex64::new(3.0, -1.0));
+        assert!(
+            f64::from(back.re - dd(1.0)).abs() < 1e-31
+                && f64::from(back.im - dd(2.0)).abs() < 1e-31
+        );
     }
 
     /// A root set that is not closed under conjugation leaves an
     /// imaginary residue; a conjugate pair leaves none.
     #[test]
     fn conjugate_residue() {
-        let pair = [Complex64::new(-0.5, 0.8), Complex64::new(-0.5, -0.8)];
+        let pair = [
+            cdd(Complex64::new(-0.5, 0.8)),
+            cdd(Complex64::new(-0.5, -0.8)),
+        ];
         assert_eq!(Poly::from_roots(&pair).1, 0.0);
-        let lone = [Complex64::new(-0.5, 0.8)];
+        let lone = [cdd(Complex64::new(-0.5, 0.8))];
         assert!(Poly::from_roots(&lone).1 > 0.5);
     }
 }
