@@ -342,3 +342,297 @@ fn chebyshev_matches_printed_table() {
         }
     }
 }
+
+/// Elements for arbitrary terminations, the closed form credited to
+/// H. Takahasi (1951) as given in L. Weinberg, "Network Analysis and
+/// Synthesis", 1962, ch. 13 (from memory; confirmed here to 1e-12 against
+/// the synthesis, whose response is checked independently):
+/// with a_k = sin((2k-1) pi / 2n),
+/// g_1 = 2 a_1 / (eta - xi),
+/// g_k g_(k+1) = 4 a_k a_(k+1) / (eta^2 + xi^2 + c sin^2(k pi / n) - 2 eta xi cos(k pi / n)),
+/// Chebyshev (c = 1): eta = sinh(asinh(1/eps) / n), xi = sinh(asinh(sqrt(level)/eps) / n);
+/// Butterworth (c = 0): eta = eps^(-1/n), xi = (sqrt(level)/eps)^(1/n).
+/// This is the ladder with every reflection zero in the left half plane,
+/// whose load in the series-first reading is above the source (with -xi,
+/// the mirrored zeros, it is the same ladder reversed).
+fn takahasi_g(approx: AllPole, level: f64) -> Vec<f64> {
+    let n = approx.order();
+    let nf = n as f64;
+    let eps = approx.eps();
+    let (eta, xi, c) = match approx {
+        AllPole::Butterworth { .. } => (
+            eps.powf(-1.0 / nf),
+            (level.sqrt() / eps).powf(1.0 / nf),
+            0.0,
+        ),
+        AllPole::Chebyshev { .. } => (
+            ((1.0 / eps).asinh() / nf).sinh(),
+            ((level.sqrt() / eps).asinh() / nf).sinh(),
+            1.0,
+        ),
+    };
+    let a = |k: usize| ((2 * k - 1) as f64 * PI / (2.0 * nf)).sin();
+    let mut g = vec![2.0 * a(1) / (eta - xi)];
+    for k in 1..n {
+        let t = k as f64 * PI / nf;
+        let d = eta * eta + xi * xi + c * t.sin().powi(2) - 2.0 * eta * xi * t.cos();
+        g.push(4.0 * a(k) * a(k + 1) / (d * g[k - 1]));
+    }
+    g
+}
+
+/// The all-pole approximations the matrix tests run over.
+fn all_pole_matrix(n: usize) -> Vec<AllPole> {
+    let mut v = vec![
+        AllPole::Butterworth { n, eps: 1.0 },
+        AllPole::Butterworth {
+            n,
+            eps: eps_of(1.0),
+        },
+    ];
+    v.extend([0.01, 0.1, 0.5, 1.0, 3.0].map(|ap| AllPole::Chebyshev { n, eps: eps_of(ap) }));
+    v
+}
+
+/// Whether a ladder with this ratio and form exists: the level must not be
+/// negative, and an even order fixes the side of 1 the ratio lies on
+/// (series first: above; shunt first: below).
+fn realizable(approx: AllPole, r: f64, form: Form) -> bool {
+    let even = approx.order() % 2 == 0;
+    let side_ok = !even || r == 1.0 || (r > 1.0) == (form == Form::MinCapacitor);
+    approx.level(r) >= 0.0 && side_ok
+}
+
+const RATIOS: [f64; 5] = [1.0, 0.5, 2.0, 0.2, 5.0];
+
+// Unequal terminations: the Takahasi closed form (see takahasi_g) for
+// Butterworth and Chebyshev, odd and even, n = 1..25, every realizable
+// ratio and form whose series-first reading has its load above the source
+// (in the shunt-first form the values are those of the series-first dual
+// with the inverse ratio). The other orientation, possible for odd orders
+// only, mirrors just the real reflection zero: a third ladder with no
+// closed form here, checked by its response in the matrix below.
+#[test]
+fn unequal_terminations_match_takahasi_closed_form() {
+    let mut worst = 0.0_f64;
+    for n in 1..=25 {
+        for approx in all_pole_matrix(n) {
+            for r in RATIOS.into_iter().filter(|&r| r != 1.0) {
+                for form in FORMS.into_iter().filter(|&f| realizable(approx, r, f)) {
+                    let series_first_load = if form == Form::MinCapacitor {
+                        r
+                    } else {
+                        1.0 / r
+                    };
+                    if series_first_load < 1.0 {
+                        continue;
+                    }
+                    let ladder = checked_ladder(approx, r, form);
+                    let expected = takahasi_g(approx, approx.level(r));
+                    let what = format!("{approx:?}, r = {r}, {form:?}");
+                    worst = worst.max(max_rel_error(
+                        &what,
+                        &values(&ladder),
+                        &expected,
+                        ELEMENT_TOLERANCE,
+                    ));
+                }
+            }
+        }
+    }
+    println!("unequal terminations, n <= 25: largest relative element error {worst:e}");
+}
+
+// The response matrix: every all-pole family above, n = 1..25, every
+// realizable ratio, both forms. checked_ladder compares each ladder with
+// flat_gain * |H| (the closed-form poles); here the two duals are also
+// compared with each other point by point, within the same budget.
+#[test]
+fn all_pole_responses_match_the_prototype_in_both_forms() {
+    let mut worst = 0.0_f64;
+    for n in 1..=25 {
+        for approx in all_pole_matrix(n) {
+            for r in RATIOS {
+                let ladders: Vec<Ladder> = FORMS
+                    .into_iter()
+                    .filter(|&f| realizable(approx, r, f))
+                    .map(|f| checked_ladder(approx, r, f))
+                    .collect();
+                for ladder in &ladders {
+                    worst = worst.max(response_error_db(ladder, |s| approx.h(s)));
+                }
+                if let [a, b] = &ladders[..] {
+                    let dual_gap = response_error_db(a, |s| b.transfer(s) / b.flat_gain);
+                    assert!(
+                        dual_gap <= RESPONSE_TOLERANCE_DB,
+                        "{approx:?}, r = {r}: duals differ by {dual_gap} dB"
+                    );
+                }
+            }
+        }
+    }
+    println!("all-pole, n <= 25: largest response error {worst:e} dB");
+}
+
+/// The load ratio at which the even-order standard Chebyshev needs no
+/// flat loss, coth^2(beta/4) (MYJ 1964 section 4.05, as in chebyshev_myj).
+fn chebyshev_even_boundary(ap_db: f64) -> f64 {
+    chebyshev_myj(2, ap_db).1
+}
+
+// variant_for against the closed-form boundary coth^2(beta/4) of MYJ 1964
+// section 4.05 (and its inverse): just outside the band around 1 the
+// standard (or, elliptic, zero-at-infinity) form is feasible, just inside
+// it the terminations need the reflection zero at DC.
+#[test]
+fn variant_for_follows_the_termination_boundary() {
+    use nocoil::approx::{Family, Variant};
+    const SIDE: f64 = 1e-9; // relative step off the boundary, above the level tolerance
+    for ap in [0.01, 0.1, 0.5, 1.0, 3.0] {
+        let eps = eps_of(ap);
+        let upper = chebyshev_even_boundary(ap);
+        for (family, keeps_dc) in [
+            (Family::Chebyshev, Variant::Standard),
+            (Family::Elliptic, Variant::ZeroAtInfinity),
+        ] {
+            for n in [2, 4, 10] {
+                for boundary in [upper, 1.0 / upper] {
+                    let outside = if boundary > 1.0 {
+                        boundary * (1.0 + SIDE)
+                    } else {
+                        boundary * (1.0 - SIDE)
+                    };
+                    let inside = if boundary > 1.0 {
+                        boundary * (1.0 - SIDE)
+                    } else {
+                        boundary * (1.0 + SIDE)
+                    };
+                    assert_eq!(
+                        nocoil::synth::variant_for(family, n, eps, outside),
+                        keeps_dc,
+                        "{family:?} {ap} dB r = {outside}"
+                    );
+                    assert_eq!(
+                        nocoil::synth::variant_for(family, n, eps, inside),
+                        Variant::ReflectionAtDc
+                    );
+                }
+                assert_eq!(
+                    nocoil::synth::variant_for(family, n, eps, 1.0),
+                    Variant::ReflectionAtDc
+                );
+                assert_eq!(
+                    nocoil::synth::variant_for(family, n + 1, eps, 1.0),
+                    Variant::Standard
+                );
+            }
+        }
+        for n in [1, 2, 7, 8] {
+            assert_eq!(
+                nocoil::synth::variant_for(Family::Butterworth, n, eps, 1.0),
+                Variant::Standard
+            );
+        }
+    }
+}
+
+/// A Chebyshev characteristic for the error tests.
+fn chebyshev(n: usize, ap_db: f64, r: f64) -> Characteristic {
+    AllPole::Chebyshev {
+        n,
+        eps: eps_of(ap_db),
+    }
+    .characteristic(r)
+}
+
+#[test]
+fn bad_input_gives_the_right_error() {
+    let ch = chebyshev(5, 0.5, 1.0);
+    for r in [0.0, -1.0, f64::NAN, f64::INFINITY] {
+        let got = synthesize_characteristic(&ch, r, Form::MinCapacitor);
+        assert!(
+            matches!(got, Err(SynthError::InvalidLoadRatio { .. })),
+            "r = {r}: {got:?}"
+        );
+    }
+
+    // An even order with the load below the source cannot start with a
+    // series inductor; the error names the inverse ratio, which works.
+    let below = 1.0 / chebyshev_even_boundary(0.5);
+    let got = synthesize_characteristic(&chebyshev(4, 0.5, below), below, Form::MinCapacitor);
+    match got {
+        Err(SynthError::EvenOrderOrientation { inverse, needs, .. }) => {
+            assert!(
+                (inverse - 1.0 / below).abs() < 1e-12 && needs == "above",
+                "{got:?}"
+            );
+            assert!(synthesize_characteristic(
+                &chebyshev(4, 0.5, inverse),
+                inverse,
+                Form::MinCapacitor
+            )
+            .is_ok());
+        }
+        other => panic!("expected EvenOrderOrientation, got {other:?}"),
+    }
+
+    // Reflection zeros of another ratio.
+    let got = synthesize_characteristic(&chebyshev(5, 0.5, 2.0), 3.0, Form::MinCapacitor);
+    assert!(
+        matches!(got, Err(SynthError::InconsistentReflection { .. })),
+        "{got:?}"
+    );
+
+    let mut unstable = ch.clone();
+    unstable.poles[0].re = -unstable.poles[0].re;
+    let got = synthesize_characteristic(&unstable, 1.0, Form::MinCapacitor);
+    assert!(
+        matches!(got, Err(SynthError::UnstablePole { .. })),
+        "{got:?}"
+    );
+
+    let mut short = ch.clone();
+    short.reflection_zeros.pop();
+    let got = synthesize_characteristic(&short, 1.0, Form::MinCapacitor);
+    assert!(matches!(got, Err(SynthError::RootCount { .. })), "{got:?}");
+    let mut crowded = ch.clone();
+    crowded.transmission_zeros = vec![2.0, 3.0, 4.0];
+    let got = synthesize_characteristic(&crowded, 1.0, Form::MinCapacitor);
+    assert!(matches!(got, Err(SynthError::RootCount { .. })), "{got:?}");
+    let mut negative = ch.clone();
+    negative.transmission_zeros = vec![-2.0];
+    let got = synthesize_characteristic(&negative, 1.0, Form::MinCapacitor);
+    assert!(
+        matches!(got, Err(SynthError::InvalidTransmissionZero { .. })),
+        "{got:?}"
+    );
+
+    // One reflection zero doubled in place of its conjugate: same |S11(0)|,
+    // but no real polynomial.
+    let mut unpaired = chebyshev(5, 0.5, 2.0);
+    let partner = unpaired
+        .reflection_zeros
+        .iter()
+        .position(|z| z.im < -1e-3)
+        .unwrap();
+    unpaired.reflection_zeros[partner] = unpaired.reflection_zeros[partner].conj();
+    let got = synthesize_characteristic(&unpaired, 2.0, Form::MinCapacitor);
+    assert!(
+        matches!(got, Err(SynthError::NotConjugate { .. })),
+        "{got:?}"
+    );
+
+    // Butterworth poles with Chebyshev reflection zeros (equal terminations,
+    // so |S11(0)| = 0 agrees): the poles do not fit.
+    let mut mixed = ch.clone();
+    mixed.poles = AllPole::Butterworth {
+        n: 5,
+        eps: eps_of(0.5),
+    }
+    .roots(1.0);
+    let got = synthesize_characteristic(&mixed, 1.0, Form::MinCapacitor);
+    assert!(
+        matches!(got, Err(SynthError::InconsistentPole { .. })),
+        "{got:?}"
+    );
+}

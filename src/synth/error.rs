@@ -139,28 +139,20 @@ pub enum SynthError {
         /// The value, henry or farad.
         value: f64,
     },
-    /// A coefficient that the ladder's structure makes zero was not
-    /// negligible: the immittance is not that of this ladder.
-    #[error("arm {arm}: a coefficient that must vanish is {residue:e} of its terms (accepted: {tolerance:e})")]
-    StructureResidue {
-        /// The arm being removed.
-        arm: usize,
-        /// The coefficient relative to the terms that made it.
-        residue: f64,
-        /// Accepted relative residue.
-        tolerance: f64,
-    },
-    /// Zero shifting did not leave an exact factor `s^2 + w^2`.
-    #[error("arm {arm}: the transmission zero {w} rad/s left a relative remainder {residue:e} (accepted: {tolerance:e})")]
-    ZeroNotRemoved {
-        /// The arm being removed.
-        arm: usize,
-        /// The zero, rad/s.
-        w: f64,
-        /// Remainder relative to the dividend's size at jw.
-        residue: f64,
-        /// Accepted relative remainder.
-        tolerance: f64,
+    /// The extractions from the two ends lost accuracy before they met.
+    #[error(
+        "order {order}: only {from_source} arms from the source end and {from_load} from the load end \
+         stayed accurate (rounding residue <= {limit:e}); they must overlap in at least one arm"
+    )]
+    NoJunction {
+        /// The order (number of arms).
+        order: usize,
+        /// Arms extracted accurately from the source end.
+        from_source: usize,
+        /// Arms extracted accurately from the load end.
+        from_load: usize,
+        /// The residue limit.
+        limit: f64,
     },
     /// The ladder extracted from the source end and the one extracted from
     /// the load end disagree on the middle arm: the roots do not describe
