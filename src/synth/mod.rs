@@ -4,6 +4,30 @@
 //! terminations. Output: a normalized [`Ladder`] (source resistance 1 ohm,
 //! passband edge 1 rad/s) whose voltage transfer from the source EMF to the
 //! load is the prototype's H(s) times the flat factor of the terminations.
+//!
+//! The stages, one file each: `terminations` ([`variant_for`], the
+//! flat-loss level), `darlington` (E and F from the roots, polished to
+//! double-double consistency), `ends` (extraction from both ends, joined
+//! in the middle), `extraction` (zero shifting and the continued
+//! fraction, in double-double `poly` arithmetic), `ladder` (node layout
+//! and the reference evaluator [`Ladder::transfer`]).
+//!
+//! Invariants of every [`Ladder`] built here: all element values positive;
+//! the halves extracted from the source and from the load agree on the
+//! middle arm (to a named tolerance), which a ladder with the wrong
+//! terminations or roots cannot do; arms alternate series and shunt.
+
+mod darlington;
+mod ends;
+mod error;
+mod extraction;
+mod ladder;
+mod poly;
+mod terminations;
+
+pub use darlington::{synthesize_characteristic, Characteristic};
+pub use error::SynthError;
+pub use terminations::variant_for;
 
 /// Which of the two dual ladders.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
@@ -73,4 +97,23 @@ pub struct Ladder {
     pub output: usize,
     /// The reactive elements, from source to load.
     pub elements: Vec<Element>,
+    /// The flat factor of the terminations: V(load)/V(source EMF) =
+    /// `flat_gain` * H(s) for the prototype H the ladder was synthesized
+    /// from; `sqrt(K_t) sqrt(r) / 2 = r / ((1 + r) |H(0)|)`.
+    pub flat_gain: f64,
+}
+
+/// The values of one arm, henry and farad, for [`Ladder::from_arms`].
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ArmValues {
+    /// An inductor in a series arm.
+    SeriesL(f64),
+    /// A capacitor from the node to ground.
+    ShuntC(f64),
+    /// A parallel LC tank (L, C) in a series arm.
+    SeriesTank(f64, f64),
+    /// A series LC (L, C) from the node to ground, the inductor on the
+    /// ladder side.
+    ShuntResonator(f64, f64),
 }
