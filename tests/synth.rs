@@ -5,8 +5,10 @@
 //! independently of the approx stage, so these checks test the synthesis
 //! alone.
 
+use nocoil::approx::{Family, Params, Prototype, Variant};
 use nocoil::synth::{
-    synthesize_characteristic, Arm, Characteristic, Form, Ladder, Reactance, SynthError,
+    synthesize, synthesize_characteristic, Arm, Characteristic, Element, Form, Ladder, Reactance,
+    SynthError,
 };
 use num_complex::Complex64;
 use std::f64::consts::{LN_10, PI};
@@ -187,25 +189,44 @@ fn chebyshev_myj(n: usize, ap_db: f64) -> (Vec<f64>, f64) {
     (g, load)
 }
 
-/// The ladder must alternate series and shunt arms from the source, start
-/// as its form says, hold inductors in series arms and capacitors in shunt
-/// arms (all-pole), and have positive values.
-fn assert_all_pole_structure(ladder: &Ladder, form: Form) {
-    for (i, e) in ladder.elements.iter().enumerate() {
+/// The ladder must start as its form says and alternate series and shunt
+/// arms; a series arm holds an inductor or a parallel tank (L, C), a shunt
+/// arm a capacitor or a series resonator (L to an inner node, C to
+/// ground); there are `resonators` tanks or resonators; all values are
+/// positive.
+fn assert_structure(ladder: &Ladder, form: Form, resonators: usize) {
+    assert_eq!(ladder.form, form);
+    let arms = ladder
+        .elements
+        .iter()
+        .map(|e| e.arm_index + 1)
+        .max()
+        .unwrap_or(0);
+    let mut found = 0;
+    for i in 0..arms {
+        let arm: Vec<&Element> = ladder
+            .elements
+            .iter()
+            .filter(|e| e.arm_index == i)
+            .collect();
         let series = (i % 2 == 0) == (form == Form::MinCapacitor);
-        let (arm, kind) = if series {
+        let (side, single) = if series {
             (Arm::Series, Reactance::Inductor)
         } else {
             (Arm::Shunt, Reactance::Capacitor)
         };
-        assert_eq!(
-            (e.arm, e.kind, e.arm_index),
-            (arm, kind, i),
-            "element {i} of {ladder:?}"
+        assert!(
+            arm.iter().all(|e| e.arm == side && e.value > 0.0),
+            "arm {i} of {ladder:?}"
         );
-        assert!(e.value > 0.0, "element {i} of {ladder:?}");
+        let kinds: Vec<Reactance> = arm.iter().map(|e| e.kind).collect();
+        match kinds[..] {
+            [k] => assert_eq!(k, single, "arm {i} of {ladder:?}"),
+            [Reactance::Inductor, Reactance::Capacitor] => found += 1,
+            _ => panic!("arm {i} of {ladder:?}"),
+        }
     }
-    assert_eq!(ladder.form, form);
+    assert_eq!(found, resonators, "{ladder:?}");
 }
 
 /// Largest |dB difference| between the ladder's transfer and flat_gain * H
@@ -229,7 +250,7 @@ fn response_error_db(ladder: &Ladder, h: impl Fn(Complex64) -> Complex64) -> f64
 fn checked_ladder(approx: AllPole, r: f64, form: Form) -> Ladder {
     let ladder = synthesize_characteristic(&approx.characteristic(r), r, form)
         .unwrap_or_else(|e| panic!("{approx:?}, r = {r}, {form:?}: {e}"));
-    assert_all_pole_structure(&ladder, form);
+    assert_structure(&ladder, form, 0);
     assert_eq!((ladder.source_ohm, ladder.load_ohm), (1.0, r));
     let err = response_error_db(&ladder, |s| approx.h(s));
     assert!(
@@ -635,4 +656,209 @@ fn bad_input_gives_the_right_error() {
         matches!(got, Err(SynthError::InconsistentPole { .. })),
         "{got:?}"
     );
+}
+
+/// A prototype from approx (checked there against scipy.signal's buttap,
+/// cheb1ap and ellipap and a 40-digit mpmath oracle, tests/approx.rs).
+fn prototype(family: Family, n: usize, ap_db: f64, as_db: f64, variant: Variant) -> Prototype {
+    Prototype::new(Params {
+        family,
+        order: n,
+        passband_ripple_db: ap_db,
+        stopband_attenuation_db: as_db,
+        variant,
+    })
+    .unwrap_or_else(|e| panic!("{family:?} n = {n}: {e}"))
+}
+
+/// Synthesizes a prototype, checks structure and response against its zpk,
+/// and returns the ladder.
+fn checked_prototype_ladder(proto: &Prototype, r: f64, form: Form) -> Ladder {
+    let what = format!("{:?}, r = {r}, {form:?}", proto.params);
+    let ladder = synthesize(proto, r, form).unwrap_or_else(|e| panic!("{what}: {e}"));
+    assert_structure(&ladder, form, proto.transmission_zeros.len());
+    let err = response_error_db(&ladder, |s| proto.zpk.eval(s));
+    assert!(
+        err <= RESPONSE_TOLERANCE_DB,
+        "{what}: response off by {err} dB"
+    );
+    ladder
+}
+
+// Through the approx stage: Butterworth at the 3.0103 dB edge (eps = 1)
+// against g_k = 2 sin((2k-1) pi / 2n), Chebyshev odd (equal terminations)
+// and even (load coth^2(beta/4)) against the MYJ 1964 section 4.05
+// recursion, n = 1..25, both forms; and the flat gain's |H(0)| against
+// the prototype's own zpk.
+#[test]
+fn all_pole_prototypes_match_closed_forms() {
+    let mut worst = 0.0_f64;
+    let three_db = 10.0 * 2f64.log10();
+    for n in 1..=25 {
+        let proto = prototype(Family::Butterworth, n, three_db, 0.0, Variant::Standard);
+        for form in FORMS {
+            let ladder = checked_prototype_ladder(&proto, 1.0, form);
+            let what = format!("Butterworth n = {n}, {form:?}");
+            worst = worst.max(max_rel_error(
+                &what,
+                &values(&ladder),
+                &butterworth_g(n),
+                ELEMENT_TOLERANCE,
+            ));
+        }
+        for ap in [0.01, 0.1, 0.5, 1.0, 3.0] {
+            let proto = prototype(Family::Chebyshev, n, ap, 0.0, Variant::Standard);
+            let (g, load) = chebyshev_myj(n, ap);
+            for (form, r) in [(Form::MinCapacitor, load), (Form::MinInductor, 1.0 / load)] {
+                let ladder = checked_prototype_ladder(&proto, r, form);
+                let what = format!("Chebyshev {ap} dB n = {n}, {form:?}");
+                worst = worst.max(max_rel_error(
+                    &what,
+                    &values(&ladder),
+                    &g,
+                    ELEMENT_TOLERANCE,
+                ));
+                let h0 = proto.zpk.eval(Complex64::new(0.0, 0.0)).norm();
+                let expected_flat = r / ((1.0 + r) * h0);
+                assert!(
+                    (ladder.flat_gain - expected_flat).abs() <= 1e-14 * expected_flat,
+                    "{what}"
+                );
+            }
+        }
+    }
+    println!("all-pole prototypes, n <= 25: largest relative element error {worst:e}");
+}
+
+/// The (variant, ratio, form) cases an elliptic order runs: odd orders
+/// with equal and unequal terminations; even orders in the zero-at-infinity
+/// form just outside the band its DC loss excludes, and in the
+/// reflection-at-DC form with equal and unequal terminations (the
+/// orientation an even order fixes: series first above 1, shunt first
+/// below).
+fn elliptic_cases(n: usize, ap_db: f64) -> Vec<(Variant, f64, Form)> {
+    use Form::{MinCapacitor as Series, MinInductor as Shunt};
+    if n % 2 == 1 {
+        let both = |r: f64| {
+            [
+                (Variant::Standard, r, Series),
+                (Variant::Standard, r, Shunt),
+            ]
+        };
+        return [both(1.0), both(2.0), both(0.5)].concat();
+    }
+    let eps = eps_of(ap_db);
+    let beyond = 1.5 * ((1.0 + eps * eps).sqrt() + eps).powi(2);
+    vec![
+        (Variant::ZeroAtInfinity, beyond, Series),
+        (Variant::ZeroAtInfinity, 1.0 / beyond, Shunt),
+        (Variant::ReflectionAtDc, 1.0, Series),
+        (Variant::ReflectionAtDc, 1.0, Shunt),
+        (Variant::ReflectionAtDc, 2.0, Series),
+        (Variant::ReflectionAtDc, 0.5, Shunt),
+    ]
+}
+
+// Elliptic ladders against the prototype's response (its zpk; see
+// prototype()) for several (Ap, As), each up to the highest order it
+// holds (measured; beyond it the synthesis refuses with a typed error,
+// never a wrong ladder): odd orders 3..15 and even 4..14 in both modified
+// forms for the ordinary masks, lower orders for the two narrow
+// transitions (ws - 1 = 6e-5 at (1, 15) n = 9 and 6e-6 at (3, 10) n = 7).
+// Both forms; where both forms exist for one ratio, they must agree.
+#[test]
+fn elliptic_ladders_realize_the_prototype() {
+    const SPECS: [(f64, f64, usize); 7] = [
+        (0.01, 80.0, 16),
+        (0.1, 70.0, 16),
+        (0.5, 60.0, 15),
+        (0.1, 40.0, 14),
+        (1.0, 30.0, 11),
+        (1.0, 15.0, 9),
+        (3.0, 10.0, 7),
+    ];
+    let mut worst = 0.0_f64;
+    for (ap, att, highest) in SPECS {
+        for n in 3..=highest {
+            for (variant, r, form) in elliptic_cases(n, ap) {
+                let proto = prototype(Family::Elliptic, n, ap, att, variant);
+                let ladder = checked_prototype_ladder(&proto, r, form);
+                worst = worst.max(response_error_db(&ladder, |s| proto.zpk.eval(s)));
+                if n % 2 == 1 {
+                    let other = if form == Form::MinCapacitor {
+                        Form::MinInductor
+                    } else {
+                        Form::MinCapacitor
+                    };
+                    let dual = checked_prototype_ladder(&proto, r, other);
+                    let gap = response_error_db(&ladder, |s| dual.transfer(s) / dual.flat_gain);
+                    assert!(
+                        gap <= RESPONSE_TOLERANCE_DB,
+                        "({ap}, {att}) n = {n}, r = {r}: duals differ by {gap} dB"
+                    );
+                }
+            }
+        }
+    }
+    println!("elliptic: largest response error {worst:e} dB");
+}
+
+// What the prototype entry refuses: the standard even elliptic (a finite
+// gain at infinity), and a ratio inside the band around 1 that an even
+// standard Chebyshev cannot reach (the error names the boundary ratios,
+// the MYJ coth^2(beta/4) and its inverse).
+#[test]
+fn prototype_entry_refuses_what_no_ladder_realizes() {
+    let even_standard = prototype(Family::Elliptic, 4, 0.1, 40.0, Variant::Standard);
+    let got = synthesize(&even_standard, 1.0, Form::MinCapacitor);
+    assert!(
+        matches!(got, Err(SynthError::NotALadder { order: 4 })),
+        "{got:?}"
+    );
+
+    let chebyshev = prototype(Family::Chebyshev, 4, 0.5, 0.0, Variant::Standard);
+    match synthesize(&chebyshev, 1.0, Form::MinCapacitor) {
+        Err(SynthError::InfeasibleRatio { lower, upper, .. }) => {
+            let boundary = chebyshev_even_boundary(0.5);
+            assert!(
+                (upper - boundary).abs() < 1e-12 * boundary
+                    && (lower * boundary - 1.0).abs() < 1e-12
+            );
+        }
+        other => panic!("expected InfeasibleRatio, got {other:?}"),
+    }
+}
+
+// Time per synthesis (the report asks for n = 15 elliptic and n = 25
+// Chebyshev), with the ladders checked like every other.
+#[test]
+fn synthesis_time_at_the_highest_orders() {
+    let cases = [
+        (
+            prototype(Family::Elliptic, 15, 0.01, 80.0, Variant::Standard),
+            1.0,
+        ),
+        (
+            prototype(Family::Chebyshev, 25, 0.1, 0.0, Variant::Standard),
+            1.0,
+        ),
+    ];
+    for (proto, r) in &cases {
+        const RUNS: u32 = 20;
+        let start = std::time::Instant::now();
+        for _ in 0..RUNS {
+            checked_synthesis(proto, *r);
+        }
+        println!(
+            "{:?}: {:?} per synthesis",
+            proto.params,
+            start.elapsed() / RUNS
+        );
+        checked_prototype_ladder(proto, *r, Form::MinCapacitor);
+    }
+}
+
+/// One synthesis, whose result must be a ladder.
+fn checked_synthesis(proto: &Prototype, r: f64) {
+    assert!(synthesize(proto, r, Form::MinCapacitor).is_ok());
 }

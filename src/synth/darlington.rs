@@ -34,7 +34,7 @@ const CONJUGATE_TOLERANCE: f64 = 1e-10;
 /// the terminations require. It compares f64 products of n roots, good to
 /// about n * 1e-16; a difference of 1e-9 in |S11| moves the transmission
 /// by under 1e-8 dB, while roots taken at the wrong level miss by far more.
-pub(crate) const REFLECTION_TOLERANCE: f64 = 1e-9;
+const REFLECTION_TOLERANCE: f64 = 1e-9;
 
 /// The roots that fix a doubly terminated lowpass ladder, at the flat-loss
 /// level its terminations need.
@@ -179,17 +179,27 @@ fn check_dc_reflection(
     f_roots: &[Complex64],
     rho: f64,
 ) -> Result<(), SynthError> {
-    let ratio: Complex64 = f_roots.iter().zip(poles).map(|(f, p)| f / p).product();
+    check_reflection(poles, f_roots, 0.0, ((rho - 1.0) / (rho + 1.0)).abs())
+}
+
+/// |S11(jw)| = |prod(jw - f) / prod(jw - p)| must be `expected`.
+pub(crate) fn check_reflection(
+    poles: &[Complex64],
+    f_roots: &[Complex64],
+    w: f64,
+    expected: f64,
+) -> Result<(), SynthError> {
+    let s = Complex64::new(0.0, w);
+    let ratio: Complex64 = f_roots
+        .iter()
+        .zip(poles)
+        .map(|(f, p)| (s - f) / (s - p))
+        .product();
     let got = ratio.norm();
-    let expected = ((rho - 1.0) / (rho + 1.0)).abs();
     if (got - expected).abs() <= REFLECTION_TOLERANCE {
         Ok(())
     } else {
-        Err(SynthError::InconsistentReflection {
-            w: 0.0,
-            expected,
-            got,
-        })
+        Err(SynthError::InconsistentReflection { w, expected, got })
     }
 }
 
@@ -199,10 +209,16 @@ fn check_dc_reflection(
 /// start that is a few decades worse (close poles of high orders).
 const NEWTON_STEPS: usize = 3;
 
-/// Largest relative move accepted while polishing a pole: f64 poles of the
-/// same characteristic move by about 1e-15; poles of another
-/// characteristic (wrong ripple, wrong level) move by far more than 1e-9.
-const POLE_MOVE_TOLERANCE: f64 = 1e-9;
+/// Largest move accepted while polishing a pole, relative to the pole's
+/// distance from the jw axis, |Re p|: that distance sets how much the
+/// move can change the response (near w = Im p, |jw - p| changes by at
+/// most the move, so the loss by at most 8.7 |dp| / |Re p| dB). 1e-5 keeps
+/// that below 1e-4 dB, inside the 0.001 dB budget. f64 poles of the same
+/// characteristic move by 1e-14 of |p| or less for ordinary designs; the
+/// high-Q poles of narrow-transition elliptics move further, because the
+/// f64 rounding of the reflection zeros then fixes the poles only loosely;
+/// poles of another characteristic move by far more.
+const POLE_MOVE_TOLERANCE: f64 = 1e-5;
 
 /// The poles polished so that E E* = F F* + k P P* holds to double-double
 /// precision (the Feldtkeller equation, domain.md section 2), with k fixed
@@ -230,7 +246,7 @@ fn refined_poles(poles: &[Complex64], f: &Poly, zeros: &[f64]) -> Result<Vec<Cdd
                 z - cdiv(v, d)
             });
             let moved = (Complex64::new(polished.re.into(), polished.im.into()) - start).norm()
-                / start.norm();
+                / start.re.abs();
             if moved <= POLE_MOVE_TOLERANCE {
                 Ok(polished)
             } else {

@@ -89,9 +89,10 @@ impl End {
         }
     }
 
-    /// The arms this end yields accurately, removing `zeros` in order.
-    fn extract(&self, zeros: &[f64]) -> Result<Extraction, SynthError> {
-        extract(self.num.clone(), self.den.clone(), zeros)
+    /// The arms this end yields accurately, after `leading_full` full
+    /// removals, removing `zeros` in order.
+    fn extract(&self, zeros: &[f64], leading_full: usize) -> Result<Extraction, SynthError> {
+        extract(self.num.clone(), self.den.clone(), zeros, leading_full)
     }
 }
 
@@ -106,9 +107,11 @@ fn join(
     form: Form,
 ) -> Result<Vec<ArmValues>, SynthError> {
     let n = source.order;
-    let from_source = source.extract(order)?;
+    let from_source = source.extract(order, 0)?;
+    // Seen from the load, the zeros at infinity come first (see extract).
     let reversed: Vec<f64> = order.iter().rev().copied().collect();
-    let from_load = load.extract(&reversed)?;
+    let at_infinity = n - 2 * order.len();
+    let from_load = load.extract(&reversed, at_infinity - 1)?;
     let middle = junction(&from_source, &from_load, n).ok_or(SynthError::NoJunction {
         order: n,
         from_source: from_source.sections.len(),
@@ -124,7 +127,8 @@ fn join(
             .map(|a| a.impedance_scaled(load_ratio))
             .collect();
     let mismatch = relative_mismatch(arms[middle], tail[0]);
-    if !(mismatch <= JUNCTION_TOLERANCE) {
+    // Never NaN: every value was checked positive and finite.
+    if mismatch > JUNCTION_TOLERANCE {
         return Err(SynthError::JunctionMismatch {
             arm: middle,
             from_source: arms[middle],

@@ -119,14 +119,14 @@ pub enum SynthError {
     /// reflection and transmission zeros given.
     #[error(
         "pole {re} + {im}j does not fit the reflection and transmission zeros: \
-         polishing it moved it by {moved:e} relative (accepted: {tolerance:e})"
+         polishing it moved it by {moved:e} of its distance from the jw axis (accepted: {tolerance:e})"
     )]
     InconsistentPole {
         /// Real part.
         re: f64,
         /// Imaginary part.
         im: f64,
-        /// Relative move while polishing.
+        /// The move while polishing, over |Re p|.
         moved: f64,
         /// Accepted relative move.
         tolerance: f64,

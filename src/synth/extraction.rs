@@ -7,8 +7,9 @@
 //! at infinity. The first arm removes part (or all) of it; its element is
 //! of the *primary* kind (inductor when `X` is an impedance, capacitor
 //! when it is an admittance), the next arm works on `1/X` with the *dual*
-//! kind, and so on. Arms at even indices are primary, at odd indices dual;
-//! every resonator sits at an odd index.
+//! kind, and so on: arms at even indices are primary, at odd indices dual.
+//! A resonator takes the index after the partial removal that prepares
+//! its zero.
 //!
 //! Accuracy: every coefficient that theory cancels (the s^m coefficient in
 //! the continued fraction, the remainder of each division by s^2 + w^2) is
@@ -82,23 +83,43 @@ struct Immittance {
     den: Poly,
 }
 
-/// Extracts the ladder of `num/den`, removing the finite transmission
-/// zeros (rad/s) in the order given, then the zeros at infinity, as far as
-/// the remainders stay accurate (possibly to the end).
-pub(crate) fn extract(num: Poly, den: Poly, zeros: &[f64]) -> Result<Extraction, SynthError> {
+/// Extracts the ladder of `num/den` as far as the remainders stay
+/// accurate (possibly to the end): first `leading_full` full removals of
+/// the pole at infinity, then the finite transmission zeros (rad/s) in the
+/// order given, each by zero shifting, then full removals to the end.
+///
+/// The layout this reads (or builds): seen from the source, a zero section
+/// for each finite zero and the remaining zeros at infinity at the load
+/// end; seen from the load, those arms come first, but the last of them
+/// is the partial removal that starts the first zero section, so
+/// `leading_full` is one less than the number of zeros at infinity there.
+pub(crate) fn extract(
+    num: Poly,
+    den: Poly,
+    zeros: &[f64],
+    leading_full: usize,
+) -> Result<Extraction, SynthError> {
     let mut out = Extraction {
         sections: Vec::new(),
         residues: Vec::new(),
         worst: 0.0,
     };
-    let mut x = Immittance { num, den };
-    for &w in zeros {
-        match remove_zero(x, w, &mut out)? {
-            Some(rest) => x = rest,
+    let mut x = Some(Immittance { num, den });
+    for _ in 0..leading_full {
+        x = match x {
+            Some(y) => full_step(y, &mut out)?,
             None => return Ok(out),
-        }
+        };
     }
-    cauer_tail(x, &mut out)?;
+    for &w in zeros {
+        x = match x {
+            Some(y) => remove_zero(y, w, &mut out)?,
+            None => return Ok(out),
+        };
+    }
+    while let Some(y) = x {
+        x = full_step(y, &mut out)?;
+    }
     Ok(out)
 }
 
@@ -137,31 +158,26 @@ fn remove_zero(
         .then_some(Immittance { num: q, den: rest }))
 }
 
-/// The continued fraction about infinity: full removal of the pole at
-/// infinity, inversion, and again, until only the termination is left or
-/// a remainder is no longer accurate.
-fn cauer_tail(mut x: Immittance, out: &mut Extraction) -> Result<(), SynthError> {
-    loop {
-        let m = x.den.degree();
-        let a = div(x.num.lead(), x.den.lead());
-        positive(f64::from(a), out.sections.len())?;
-        out.push(Section::Single(f64::from(a)));
-        if m == 0 {
-            return Ok(());
-        }
-        // The choice of `a` cancels s^(m+1); the ladder structure cancels
-        // s^m too, since the inverse of the rest must again have a pole at
-        // infinity.
-        let rest = x.num.sub_shifted(a, &x.den);
-        let terms = f64::from(x.num.coef(m)).abs() + f64::from(a * x.den.coef(m - 1)).abs();
-        if !out.accept(f64::from(rest.coef(m)).abs() / terms) {
-            return Ok(());
-        }
-        x = Immittance {
-            num: x.den,
-            den: rest.truncated(m - 1),
-        };
+/// One step of the continued fraction about infinity: full removal of
+/// the pole at infinity, and the inverse of the rest; `None` when only the
+/// termination is left or the rest is no longer accurate.
+fn full_step(x: Immittance, out: &mut Extraction) -> Result<Option<Immittance>, SynthError> {
+    let m = x.den.degree();
+    let a = div(x.num.lead(), x.den.lead());
+    positive(f64::from(a), out.sections.len())?;
+    out.push(Section::Single(f64::from(a)));
+    if m == 0 {
+        return Ok(None);
     }
+    // The choice of `a` cancels s^(m+1); the ladder structure cancels s^m
+    // too, since the inverse of the rest must again have a pole at infinity.
+    let rest = x.num.sub_shifted(a, &x.den);
+    let terms = f64::from(x.num.coef(m)).abs() + f64::from(a * x.den.coef(m - 1)).abs();
+    let accurate = out.accept(f64::from(rest.coef(m)).abs() / terms);
+    Ok(accurate.then(|| Immittance {
+        num: x.den,
+        den: rest.truncated(m - 1),
+    }))
 }
 
 /// Accepts a positive finite element value.
@@ -251,7 +267,7 @@ mod tests {
     fn continued_fraction_of_a_known_ladder() {
         let num = Poly::new(vec![dd(3.0), dd(1.0), dd(6.0)]);
         let den = Poly::new(vec![dd(1.0), dd(6.0)]);
-        let got = extract(num, den, &[]).unwrap();
+        let got = extract(num, den, &[], 0).unwrap();
         assert_eq!(
             got.sections,
             vec![Section::Single(1.0), Section::Single(2.0)]
@@ -269,7 +285,7 @@ mod tests {
     fn zero_shifting_of_a_known_ladder() {
         let num = Poly::new(vec![dd(1.0), dd(2.0), dd(2.0), dd(3.0)]);
         let den = Poly::new(vec![dd(1.0), dd(1.0), dd(2.0)]);
-        let got = extract(num, den, &[1.0]).unwrap().sections;
+        let got = extract(num, den, &[1.0], 0).unwrap().sections;
         let expected = [
             Section::Single(1.0),
             Section::Resonator {

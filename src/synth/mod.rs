@@ -5,7 +5,8 @@
 //! passband edge 1 rad/s) whose voltage transfer from the source EMF to the
 //! load is the prototype's H(s) times the flat factor of the terminations.
 //!
-//! The stages, one file each: `terminations` ([`variant_for`], the
+//! The stages, one file each: `prototype` ([`synthesize`], the entry from
+//! the approximation), `terminations` ([`variant_for`], the
 //! flat-loss level), `darlington` (E and F from the roots, polished to
 //! double-double consistency), `ends` (extraction from both ends, joined
 //! in the middle), `extraction` (zero shifting and the continued
@@ -23,10 +24,12 @@ mod error;
 mod extraction;
 mod ladder;
 mod poly;
+mod prototype;
 mod terminations;
 
 pub use darlington::{synthesize_characteristic, Characteristic};
 pub use error::SynthError;
+pub use prototype::synthesize;
 pub use terminations::variant_for;
 
 /// Which of the two dual ladders.

@@ -15,9 +15,9 @@
 
 use crate::approx::{Family, Params, Variant};
 
-/// Largest negative flat-loss level taken as zero. The level is computed
-/// from `r` and `eps` with a few roundings (about 1e-16 relative to
-/// `4 r e0`, which is at most of order 1); a level this small changes
+/// Largest flat-loss level, of either sign, taken as zero. The level is
+/// computed from `r` and `eps` with a few roundings (about 1e-16 relative
+/// to `4 r e0`, which is at most of order 1); a level this small changes
 /// |S21|^2 by at most 1e-12, i.e. 4e-12 dB, far inside the 0.001 dB
 /// budget, while an infeasible ratio misses by far more than 1e-12.
 pub(crate) const LEVEL_TOLERANCE: f64 = 1e-12;
