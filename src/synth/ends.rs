@@ -1,4 +1,4 @@
-//! Extraction from both ends of the ladder, joined at the middle arm.
+//! Extraction from both ends of the ladder, joined where they meet.
 //!
 //! Why: each step of the continued fraction (and of zero shifting)
 //! amplifies the rounding left in the remainder, by up to two decades per
