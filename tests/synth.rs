@@ -628,6 +628,14 @@ fn bad_input_gives_the_right_error() {
         "{got:?}"
     );
 
+    let mut no_gain = ch.clone();
+    no_gain.dc_gain = 0.0;
+    let got = synthesize_characteristic(&no_gain, 1.0, Form::MinCapacitor);
+    assert!(
+        matches!(got, Err(SynthError::InvalidDcGain { .. })),
+        "{got:?}"
+    );
+
     // One reflection zero doubled in place of its conjugate: same |S11(0)|,
     // but no real polynomial.
     let mut unpaired = chebyshev(5, 0.5, 2.0);

@@ -95,7 +95,7 @@ pub(crate) fn check_ratio(load_ratio: f64) -> Result<(), SynthError> {
     }
 }
 
-/// Root counts, pole stability and zero frequencies.
+/// Root counts, pole stability, zero frequencies and the DC gain.
 fn validate(ch: &Characteristic) -> Result<(), SynthError> {
     let n = ch.poles.len();
     if n == 0 || ch.reflection_zeros.len() != n || 2 * ch.transmission_zeros.len() >= n {
@@ -114,6 +114,11 @@ fn validate(ch: &Characteristic) -> Result<(), SynthError> {
         .find(|w| !(**w > 0.0 && w.is_finite()))
     {
         return Err(SynthError::InvalidTransmissionZero { w });
+    }
+    if !(ch.dc_gain > 0.0 && ch.dc_gain.is_finite()) {
+        return Err(SynthError::InvalidDcGain {
+            dc_gain: ch.dc_gain,
+        });
     }
     Ok(())
 }

@@ -93,6 +93,12 @@ pub enum SynthError {
         /// The frequency given.
         w: f64,
     },
+    /// A DC gain that is not a positive finite number.
+    #[error("DC gain {dc_gain} is not accepted: |H(0)| must be positive and finite")]
+    InvalidDcGain {
+        /// The gain given.
+        dc_gain: f64,
+    },
     /// A root set that is not closed under complex conjugation, so its
     /// polynomial is not real.
     #[error("the {which} are not in conjugate pairs: imaginary residue {residue:e} exceeds {tolerance:e}")]

@@ -29,12 +29,13 @@ use super::poly::{dd, div, Dd, Poly};
 use super::SynthError;
 
 /// Largest rounding residue (relative, see the module doc) of the
-/// remainders an arm may be computed from. Measured on Butterworth and
-/// Chebyshev ladders, the relative element error stays about a tenth of the
-/// residue, so 1e-13 keeps each trusted element near 1e-14, far inside
-/// what the 0.001 dB response budget needs (about 1e-5), and leaves room
-/// for the junction check of the two ends (1e-9) to catch any real
-/// inconsistency.
+/// remainders an arm may be computed from. A residue is a relative
+/// perturbation of a remainder, so 1e-9 bounds the perturbation of the
+/// immittance an element is read from far inside what the 0.001 dB budget
+/// allows (about 1e-5). The residue overstates the element error: over the
+/// all-pole test matrix the junction arms were read from remainders with
+/// residues up to 3.5e-11, yet both ends agreed to 2.3e-14 and the elements
+/// matched closed forms to 3.6e-14.
 pub(crate) const ACCURACY_LIMIT: f64 = 1e-9;
 
 /// One arm, in form-independent terms (see the module doc).

@@ -9,13 +9,13 @@
 //! the approximation), `terminations` ([`variant_for`], the
 //! flat-loss level), `darlington` (E and F from the roots, polished to
 //! double-double consistency), `ends` (extraction from both ends, joined
-//! in the middle), `extraction` (zero shifting and the continued
+//! where they meet), `extraction` (zero shifting and the continued
 //! fraction, in double-double `poly` arithmetic), `ladder` (node layout
 //! and the reference evaluator [`Ladder::transfer`]).
 //!
 //! Invariants of every [`Ladder`] built here: all element values positive;
-//! the halves extracted from the source and from the load agree on the
-//! middle arm (to a named tolerance), which a ladder with the wrong
+//! the parts extracted from the source and from the load agree on the arm
+//! where they meet (to a named tolerance), which a ladder with the wrong
 //! terminations or roots cannot do; arms alternate series and shunt.
 
 mod darlington;
