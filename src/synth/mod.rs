@@ -32,6 +32,13 @@ pub use error::SynthError;
 pub use prototype::synthesize;
 pub use terminations::variant_for;
 
+/// Highest elliptic order the synthesis is asked for. For ordinary masks
+/// ((0.01 dB, 80 dB), (0.1 dB, 70 dB)) ladders up to order 16 hold their
+/// response to 2e-4 dB; masks with very narrow transitions fail earlier
+/// (order 7 to 11) with a [`SynthError`] rather than a wrong ladder. The
+/// limit comes from the double-precision roots of the prototype.
+pub const ELLIPTIC_MAX_ORDER: usize = 16;
+
 /// Which of the two dual ladders.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 #[serde(rename_all = "snake_case")]
