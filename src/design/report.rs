@@ -232,15 +232,17 @@ impl Design {
         };
         let hz = |e: Edge| match e {
             Edge::Single(f) => eng::format(f, "Hz"),
-            Edge::Pair(a, b) => format!("{} to {}", eng::format(a, "Hz"), eng::format(b, "Hz")),
+            Edge::Pair(a, b) => format!("{} and {}", eng::format(a, "Hz"), eng::format(b, "Hz")),
         };
+        // dB figures as a designer writes them: 0.1, 3.0103.
+        let db = |x: f64| (x * 1e4).round() / 1e4;
         let _ = writeln!(s, "{what} {kind}, order {} ({how})", r.order);
         let _ = writeln!(s, "  {}; {form}", r.variant_note);
         let _ = writeln!(
             s,
-            "  passband {}, ripple {} dB",
+            "  passband edge {}, ripple {} dB",
             hz(r.passband_edge_hz),
-            r.passband_ripple_db
+            db(r.passband_ripple_db)
         );
         if let (Some(stop), Some(a)) = (r.stopband_edge_hz, r.stopband_attenuation_db) {
             let reached = self
@@ -248,7 +250,12 @@ impl Design {
                 .attenuation_at_stopband_edge_db
                 .map(|x| format!(", {x:.2} dB reached there"))
                 .unwrap_or_default();
-            let _ = writeln!(s, "  stopband from {} at {a} dB{reached}", hz(stop));
+            let _ = writeln!(
+                s,
+                "  stopband edge {}, {} dB asked{reached}",
+                hz(stop),
+                db(a)
+            );
         }
         if self.mask.meets_mask == Some(false) {
             let _ = writeln!(
