@@ -11,6 +11,7 @@ use nocoil::design::{self, Design, DesignError};
 use nocoil::export::{self, spice::AcSweep};
 use nocoil::spec::mask::{check_edge, check_levels, check_sides, MaskField, MaskProblem};
 use nocoil::spec::{Edge, Kind, Spec};
+use nocoil::synth::ELLIPTIC_MAX_ORDER;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
@@ -224,6 +225,9 @@ fn run_order(
     for family in [Family::Butterworth, Family::Chebyshev, Family::Elliptic] {
         let name = format!("{family:?}").to_lowercase();
         match min_order(family, ws, ripple, attenuation) {
+            Ok(n) if family == Family::Elliptic && n > ELLIPTIC_MAX_ORDER => {
+                println!("  {name:<12} {n} (above the synthesis limit {ELLIPTIC_MAX_ORDER}: relax the mask)")
+            }
             Ok(n) => println!("  {name:<12} {n}"),
             Err(e) => println!("  {name:<12} - ({e})"),
         }
