@@ -1,7 +1,9 @@
 //! Integration tests: one entry, one module per stage.
 mod util;
 
+mod analysis;
 mod approx;
 mod circuit;
 mod cli;
+mod parts;
 mod synth;
