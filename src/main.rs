@@ -1,2 +1,236 @@
 //! The `nocoil` command line: glue over the library.
-fn main() {}
+//!
+//! `main -> run(parse()) -> Result`; errors print as `nocoil: ` and the
+//! chain, with exit status 2 for bad input and 1 for anything else.
+
+use anyhow::Context;
+use clap::{Parser, Subcommand, ValueEnum};
+use nocoil::approx::{min_order, Family};
+use nocoil::circuit::log_grid;
+use nocoil::design::{self, Design, DesignError};
+use nocoil::export::{self, spice::AcSweep};
+use nocoil::spec::mask::{check_edge, check_levels, check_sides, MaskField, MaskProblem};
+use nocoil::spec::{Edge, Kind, Spec};
+use nocoil::synth::ELLIPTIC_MAX_ORDER;
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+
+/// Inductorless active filters with the low sensitivity of a doubly
+/// terminated LC ladder.
+#[derive(Parser)]
+#[command(name = "nocoil", version, about, long_about = None)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand)]
+enum Command {
+    /// Design the filter a TOML design file describes: print a summary and
+    /// write the SPICE netlist and the JSON report into a folder.
+    Design {
+        /// The design file (TOML).
+        spec: PathBuf,
+        /// Folder for the outputs (created if missing).
+        #[arg(long, value_name = "DIR")]
+        out: PathBuf,
+    },
+    /// Print the frequency response of the passive ideal as CSV.
+    Sweep {
+        /// The design file (TOML).
+        spec: PathBuf,
+        /// First frequency, Hz (default: a decade below the lowest edge).
+        #[arg(long, value_name = "HZ")]
+        from: Option<f64>,
+        /// Last frequency, Hz (default: a decade above the highest edge).
+        #[arg(long, value_name = "HZ")]
+        to: Option<f64>,
+        /// Number of log-spaced points, both ends included.
+        #[arg(long, value_name = "N", default_value_t = 401)]
+        points: usize,
+    },
+    /// Print the minimum order of every family for a mask given by flags.
+    Order {
+        /// Filter kind.
+        #[arg(long, value_enum)]
+        kind: KindArg,
+        /// Passband edge, Hz; two values (low,high) for band kinds.
+        #[arg(long, value_name = "HZ", value_delimiter = ',', required = true)]
+        passband: Vec<f64>,
+        /// Stopband edge, Hz; two values (low,high) for band kinds.
+        #[arg(long, value_name = "HZ", value_delimiter = ',', required = true)]
+        stopband: Vec<f64>,
+        /// Largest loss allowed across the passband, dB (the ripple; for
+        /// Butterworth the loss at the passband edge).
+        #[arg(long, value_name = "DB")]
+        ripple: f64,
+        /// Minimum stopband attenuation, dB.
+        #[arg(long, value_name = "DB")]
+        attenuation: f64,
+    },
+}
+
+#[derive(Clone, Copy, ValueEnum)]
+enum KindArg {
+    Lowpass,
+    Highpass,
+    Bandpass,
+    Bandstop,
+}
+
+impl From<KindArg> for Kind {
+    fn from(k: KindArg) -> Kind {
+        match k {
+            KindArg::Lowpass => Kind::Lowpass,
+            KindArg::Highpass => Kind::Highpass,
+            KindArg::Bandpass => Kind::Bandpass,
+            KindArg::Bandstop => Kind::Bandstop,
+        }
+    }
+}
+
+/// An error the user caused: exit status 2.
+#[derive(Debug, thiserror::Error)]
+#[error("{0}")]
+struct BadInput(String);
+
+fn main() -> ExitCode {
+    match run(Cli::parse()) {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(e) => {
+            eprintln!("nocoil: {e:#}");
+            let bad_input = e.downcast_ref::<BadInput>().is_some()
+                || e.downcast_ref::<DesignError>()
+                    .is_some_and(DesignError::is_bad_input);
+            ExitCode::from(if bad_input { 2 } else { 1 })
+        }
+    }
+}
+
+fn run(cli: Cli) -> anyhow::Result<()> {
+    match cli.command {
+        Command::Design { spec, out } => run_design(&spec, &out),
+        Command::Sweep {
+            spec,
+            from,
+            to,
+            points,
+        } => run_sweep(&spec, from, to, points),
+        Command::Order {
+            kind,
+            passband,
+            stopband,
+            ripple,
+            attenuation,
+        } => run_order(kind.into(), &passband, &stopband, ripple, attenuation),
+    }
+}
+
+/// Resolution of the `.ac` line in exported decks: fine enough to see
+/// every elliptic notch of a 15th-order design on a plot.
+const DECK_POINTS_PER_DECADE: usize = 100;
+
+fn load_design(spec: &Path) -> anyhow::Result<Design> {
+    let spec = Spec::load(spec).map_err(DesignError::from)?;
+    Ok(design::design(&spec)?)
+}
+
+fn run_design(spec: &Path, out: &Path) -> anyhow::Result<()> {
+    let d = load_design(spec)?;
+    let (from, to) = d.default_band();
+    let sweep = AcSweep {
+        points_per_decade: DECK_POINTS_PER_DECADE,
+        start_hz: from,
+        stop_hz: to,
+    };
+    let deck = export::spice::deck(&d.passive, &sweep)?;
+    let report = serde_json::to_string_pretty(&d.report()).context("serializing the report")?;
+    // Everything is computed before the folder is touched, and each file
+    // is written to a temporary name and renamed, so a failure leaves no
+    // half-written output.
+    std::fs::create_dir_all(out).with_context(|| format!("creating {}", out.display()))?;
+    export::write_atomic(&out.join("passive.cir"), deck.as_bytes())?;
+    export::write_atomic(&out.join("report.json"), report.as_bytes())?;
+    print!("{}", d.summary());
+    println!(
+        "wrote {} and {}",
+        out.join("passive.cir").display(),
+        out.join("report.json").display()
+    );
+    Ok(())
+}
+
+fn run_sweep(spec: &Path, from: Option<f64>, to: Option<f64>, points: usize) -> anyhow::Result<()> {
+    let d = load_design(spec)?;
+    let (lo, hi) = d.default_band();
+    let (from, to) = (from.unwrap_or(lo), to.unwrap_or(hi));
+    let positive = |f: f64| f.is_finite() && f > 0.0;
+    if !(positive(from) && positive(to) && from < to) {
+        return Err(BadInput(format!(
+            "--from {from} --to {to}: expected 0 < from < to, in Hz"
+        ))
+        .into());
+    }
+    if points < 2 {
+        return Err(BadInput(format!("--points {points}: expected at least 2")).into());
+    }
+    let freqs = log_grid(from, to, points)?;
+    let response = d.passive_response(&freqs)?;
+    let (db, phase, delay) = (
+        response.db(),
+        response.phase_deg(),
+        response.group_delay_s()?,
+    );
+    let mut csv = String::from("freq_hz,passive_db,passive_phase_deg,passive_group_delay_s\n");
+    for i in 0..freqs.len() {
+        csv.push_str(&format!(
+            "{:.9e},{:.9},{:.6},{:.9e}\n",
+            freqs[i], db[i], phase[i], delay[i]
+        ));
+    }
+    print!("{csv}");
+    Ok(())
+}
+
+fn run_order(
+    kind: Kind,
+    passband: &[f64],
+    stopband: &[f64],
+    ripple: f64,
+    attenuation: f64,
+) -> anyhow::Result<()> {
+    let flag = |p: MaskProblem| {
+        let name = match p.field {
+            MaskField::Passband => "--passband",
+            MaskField::Stopband => "--stopband",
+            MaskField::Ripple => "--ripple",
+            MaskField::Attenuation => "--attenuation",
+        };
+        BadInput(format!("{name} {}: {}", p.got, p.expected))
+    };
+    let edge = |field: MaskField, v: &[f64]| {
+        let e = match *v {
+            [f] => Edge::Single(f),
+            [a, b] => Edge::Pair(a, b),
+            _ => Edge::Single(f64::NAN),
+        };
+        check_edge(field, kind, e).map_err(flag)
+    };
+    let pass = edge(MaskField::Passband, passband)?;
+    let stop = edge(MaskField::Stopband, stopband)?;
+    check_sides(kind, pass, stop).map_err(flag)?;
+    check_levels(ripple, Some(attenuation)).map_err(flag)?;
+    let ws = design::normalized_stopband(design::mapping(kind, pass), stop);
+    println!("minimum order (normalized stopband edge {ws:.6})");
+    for family in [Family::Butterworth, Family::Chebyshev, Family::Elliptic] {
+        let name = format!("{family:?}").to_lowercase();
+        match min_order(family, ws, ripple, attenuation) {
+            Ok(n) if family == Family::Elliptic && n > ELLIPTIC_MAX_ORDER => {
+                println!("  {name:<12} {n} (above the synthesis limit {ELLIPTIC_MAX_ORDER}: relax the mask)")
+            }
+            Ok(n) => println!("  {name:<12} {n}"),
+            Err(e) => println!("  {name:<12} - ({e})"),
+        }
+    }
+    Ok(())
+}

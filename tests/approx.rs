@@ -125,6 +125,18 @@ struct MaskCase {
     scipy_order: Option<usize>,
 }
 
+impl MaskCase {
+    /// Our answer for this mask, and the mask in words for messages.
+    fn ours(&self) -> (Result<usize, ApproxError>, String) {
+        let got = min_order(self.family, self.ws, self.ripple_db, self.attenuation_db);
+        let what = format!(
+            "{:?} ws={} Ap={} As={}",
+            self.family, self.ws, self.ripple_db, self.attenuation_db
+        );
+        (got, what)
+    }
+}
+
 fn fixtures() -> &'static Fixtures {
     static CELL: OnceLock<Fixtures> = OnceLock::new();
     CELL.get_or_init(|| {
@@ -414,18 +426,10 @@ fn min_order_matches_scipy_ord() {
     let mut too_high = 0;
     let mut worst_needed: f64 = 0.0;
     for c in &f.min_order {
-        let got = min_order(c.family, c.ws, c.ripple_db, c.attenuation_db);
+        let (got, what) = c.ours();
         let needed = c.needed.expect("min_order cases record scipy's real order");
         if c.order <= c.family.max_order() {
-            assert_eq!(
-                got,
-                Ok(c.order),
-                "{:?} ws={} {} {}",
-                c.family,
-                c.ws,
-                c.ripple_db,
-                c.attenuation_db
-            );
+            assert_eq!(got, Ok(c.order), "{what}");
             continue;
         }
         too_high += 1;
@@ -442,10 +446,7 @@ fn min_order_matches_scipy_ord() {
                 );
                 worst_needed = worst_needed.max(relative(ours, needed));
             }
-            other => panic!(
-                "{:?} ws={}: expected OrderTooHigh, got {other:?}",
-                c.family, c.ws
-            ),
+            other => panic!("{what}: expected OrderTooHigh, got {other:?}"),
         }
     }
     println!(
@@ -462,16 +463,8 @@ fn min_order_of_exact_integer_masks_is_not_rounded_up() {
     let f = fixtures();
     let mut scipy_rounded_up = 0;
     for c in &f.integer_masks {
-        let got = min_order(c.family, c.ws, c.ripple_db, c.attenuation_db);
-        assert_eq!(
-            got,
-            Ok(c.order),
-            "{:?} ws={} {} {}",
-            c.family,
-            c.ws,
-            c.ripple_db,
-            c.attenuation_db
-        );
+        let (got, what) = c.ours();
+        assert_eq!(got, Ok(c.order), "{what}");
         scipy_rounded_up += usize::from(c.scipy_order != Some(c.order));
     }
     println!(

@@ -1,1 +1,360 @@
-//! Tests of cli.
+//! Tests of the `nocoil` binary: bad input, and the outputs of a good run.
+
+use std::path::{Path, PathBuf};
+use std::process::Command;
+
+fn nocoil(args: &[&str]) -> std::process::Output {
+    Command::new(env!("CARGO_BIN_EXE_nocoil"))
+        .args(args)
+        .output()
+        .expect("the nocoil binary runs")
+}
+
+/// A fresh scratch folder under the target directory.
+fn scratch(name: &str) -> PathBuf {
+    let dir = Path::new(env!("CARGO_TARGET_TMPDIR")).join(name);
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(&dir).unwrap();
+    dir
+}
+
+const GOOD: &str = r#"
+[filter]
+kind = "lowpass"
+family = "chebyshev"
+order = 5
+passband_edge_hz = 1000.0
+passband_ripple_db = 0.5
+[terminations]
+source_ohm = 600
+load_ohm = 600
+"#;
+
+/// Writes `text` as a design file, runs `nocoil design` on it and checks
+/// the bad-input contract: exit status 2, one line on stderr that starts
+/// with `nocoil: `, names the file and contains every `needle`, and no
+/// file written in the output folder.
+fn rejects(case: &str, text: &str, needles: &[&str]) {
+    let dir = scratch(&format!("bad-{case}"));
+    let spec = dir.join("spec.toml");
+    std::fs::write(&spec, text).unwrap();
+    let out = dir.join("out");
+    let run = nocoil(&[
+        "design",
+        spec.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+    ]);
+    let stderr = String::from_utf8_lossy(&run.stderr);
+    assert_eq!(
+        run.status.code(),
+        Some(2),
+        "{case}: exit status; stderr: {stderr}"
+    );
+    assert_eq!(
+        stderr.trim_end().lines().count(),
+        1,
+        "{case}: one line expected, got:\n{stderr}"
+    );
+    assert!(
+        stderr.starts_with("nocoil: "),
+        "{case}: prefix; got {stderr}"
+    );
+    assert!(
+        stderr.contains("spec.toml"),
+        "{case}: names the file; got {stderr}"
+    );
+    for n in needles {
+        assert!(stderr.contains(n), "{case}: expected {n:?} in:\n{stderr}");
+    }
+    assert!(
+        !out.exists(),
+        "{case}: nothing may be written, but {} exists",
+        out.display()
+    );
+    assert!(!stderr.contains("panicked"), "{case}: {stderr}");
+}
+
+/// The standard output of a run that must succeed.
+fn succeeds(run: &std::process::Output) -> String {
+    let stderr = String::from_utf8_lossy(&run.stderr);
+    assert!(run.status.success(), "{stderr}");
+    String::from_utf8_lossy(&run.stdout).into_owned()
+}
+
+/// `nocoil order` for a 3400 Hz lowpass, 0.1 dB, 70 dB, with the given
+/// stopband edge.
+fn order_command(stopband: &str) -> std::process::Output {
+    nocoil(&[
+        "order",
+        "--kind",
+        "lowpass",
+        "--passband",
+        "3400",
+        "--stopband",
+        stopband,
+        "--ripple",
+        "0.1",
+        "--attenuation",
+        "70",
+    ])
+}
+
+fn with(find: &str, replace: &str) -> String {
+    assert!(
+        GOOD.contains(find),
+        "test bug: {find:?} not in the base spec"
+    );
+    GOOD.replace(find, replace)
+}
+
+#[test]
+fn good_spec_designs() {
+    let dir = scratch("good");
+    let spec = dir.join("spec.toml");
+    std::fs::write(&spec, GOOD).unwrap();
+    let out = dir.join("out");
+    let run = nocoil(&[
+        "design",
+        spec.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+    ]);
+    assert!(
+        run.status.success(),
+        "stderr: {}",
+        String::from_utf8_lossy(&run.stderr)
+    );
+    for f in ["passive.cir", "report.json"] {
+        assert!(out.join(f).is_file(), "{f} written");
+    }
+    let leftovers: Vec<_> = std::fs::read_dir(&out)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().into_string().unwrap())
+        .filter(|n| n != "passive.cir" && n != "report.json")
+        .collect();
+    assert!(
+        leftovers.is_empty(),
+        "no temporary files left: {leftovers:?}"
+    );
+}
+
+/// Bad design files, each a change to the good one: (case, find,
+/// replace, what the message must contain).
+const BAD_EDITS: &[(&str, &str, &str, &[&str])] = &[
+    (
+        "missing",
+        "passband_edge_hz = 1000.0\n",
+        "",
+        &["passband_edge_hz", "missing"],
+    ),
+    (
+        "unknown",
+        "order = 5",
+        "order = 5\nripple = 0.5",
+        &["unknown field `ripple`", "passband_ripple_db"],
+    ),
+    (
+        "negative",
+        "1000.0",
+        "-1000.0",
+        &["filter.passband_edge_hz", "-1000", "greater than 0"],
+    ),
+    (
+        "zero",
+        "1000.0",
+        "0",
+        &["filter.passband_edge_hz", "greater than 0"],
+    ),
+    (
+        "wrong-side",
+        "order = 5",
+        "stopband_edge_hz = 500.0\nstopband_attenuation_db = 40",
+        &["filter.stopband_edge_hz", "above the passband edge"],
+    ),
+    (
+        "ripple",
+        "passband_ripple_db = 0.5",
+        "passband_ripple_db = 3\nstopband_attenuation_db = 3",
+        &[
+            "filter.stopband_attenuation_db",
+            "greater than the passband ripple",
+        ],
+    ),
+    (
+        "order-zero",
+        "order = 5",
+        "order = 0",
+        &["filter.order", "from 1 to 25"],
+    ),
+    (
+        "order-absurd",
+        "order = 5",
+        "order = 400",
+        &["filter.order", "400", "from 1 to 25"],
+    ),
+    (
+        "pair",
+        "1000.0",
+        "[1000.0, 2000.0]",
+        &["filter.passband_edge_hz", "one frequency"],
+    ),
+    (
+        "wrong-type",
+        "order = 5",
+        "order = \"five\"",
+        &["order", "expected a whole number"],
+    ),
+    (
+        "termination",
+        "load_ohm = 600",
+        "load_ohm = 0",
+        &["terminations.load_ohm", "greater than 0"],
+    ),
+    (
+        "gbw",
+        "load_ohm = 600",
+        "load_ohm = 600\n[opamp]\ngbw_hz = 0",
+        &["opamp.gbw_hz", "greater than 0"],
+    ),
+    (
+        "gain",
+        "load_ohm = 600",
+        "load_ohm = 600\n[opamp]\ndc_gain_db = -20",
+        &["opamp.dc_gain_db", "greater than 0"],
+    ),
+    (
+        "method",
+        "load_ohm = 600",
+        "load_ohm = 600\n[active]\nmethod = \"magic\"",
+        &["method", "auto", "gic", "fdnr"],
+    ),
+];
+
+#[test]
+fn bad_design_files_are_rejected() {
+    for (case, find, replace, needles) in BAD_EDITS {
+        rejects(case, &with(find, replace), needles);
+    }
+}
+
+#[test]
+fn elliptic_order_beyond_its_limit() {
+    let text = with("family = \"chebyshev\"", "family = \"elliptic\"")
+        .replace("order = 5", "order = 24\nstopband_attenuation_db = 60");
+    rejects(
+        "elliptic-order",
+        &text,
+        &["filter.order = 24", "at most 16"],
+    );
+}
+
+#[test]
+fn bandpass_edges_reversed() {
+    let text =
+        with("kind = \"lowpass\"", "kind = \"bandpass\"").replace("1000.0", "[2000.0, 1000.0]");
+    rejects(
+        "reversed",
+        &text,
+        &["filter.passband_edge_hz", "low < high"],
+    );
+}
+
+#[test]
+fn not_toml() {
+    rejects("not-toml", "this is = = not toml\n", &["line 1"]);
+}
+
+#[test]
+fn file_not_found() {
+    let dir = scratch("not-found");
+    let out = dir.join("out");
+    let spec = dir.join("spec.toml");
+    let run = nocoil(&[
+        "design",
+        spec.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+    ]);
+    let stderr = String::from_utf8_lossy(&run.stderr);
+    assert_eq!(run.status.code(), Some(2), "{stderr}");
+    assert!(
+        stderr.starts_with("nocoil: ")
+            && stderr.contains("spec.toml")
+            && stderr.contains("cannot read"),
+        "{stderr}"
+    );
+    assert!(!out.exists());
+}
+
+#[test]
+fn order_command_reports_every_family() {
+    // The minimum orders of this mask (wp = 3400 Hz, ws = 4300 Hz, 0.1 dB,
+    // 70 dB) are checked against scipy in tests/approx.rs; here the
+    // command must print one line per family.
+    let stdout = succeeds(&order_command("4300"));
+    for family in ["butterworth", "chebyshev", "elliptic"] {
+        assert!(
+            stdout.lines().any(|l| l.trim_start().starts_with(family)),
+            "{family} in:\n{stdout}"
+        );
+    }
+}
+
+#[test]
+fn order_command_rejects_bad_flags() {
+    let run = order_command("3000");
+    let stderr = String::from_utf8_lossy(&run.stderr);
+    assert_eq!(run.status.code(), Some(2), "{stderr}");
+    assert!(stderr.starts_with("nocoil: --stopband 3000"), "{stderr}");
+}
+
+#[test]
+fn sweep_prints_csv() {
+    let dir = scratch("sweep");
+    let spec = dir.join("spec.toml");
+    std::fs::write(&spec, GOOD).unwrap();
+    let run = nocoil(&[
+        "sweep",
+        spec.to_str().unwrap(),
+        "--from",
+        "10",
+        "--to",
+        "1e5",
+        "--points",
+        "21",
+    ]);
+    let stdout = succeeds(&run);
+    let mut lines = stdout.lines();
+    assert!(lines.next().unwrap().starts_with("freq_hz,passive_db"));
+    let rows: Vec<Vec<f64>> = lines
+        .map(|l| l.split(',').map(|x| x.parse().unwrap()).collect())
+        .collect();
+    assert_eq!(rows.len(), 21);
+    assert!((rows[0][0] - 10.0).abs() < 1e-9 && (rows[20][0] - 1e5).abs() < 1e-4);
+    // At 10 Hz, far inside the passband of an odd-order Chebyshev with equal
+    // terminations, the ladder is a wire between two equal resistors:
+    // 20 log10(1/2) = -6.0206 dB (common practice), within the 0.5 dB ripple.
+    assert!(
+        rows[0][1] <= -6.0206 + 1e-6 && rows[0][1] > -6.0206 - 0.5,
+        "{:?}",
+        rows[0]
+    );
+}
+
+#[test]
+fn even_order_form_that_cannot_carry_the_terminations() {
+    // A 4th-order standard Chebyshev with a load below the source fits only
+    // the shunt-capacitor-first ladder (Matthaei, Young and Jones 1964,
+    // section 4.05: even orders terminate in g5 = coth^2(beta/4) or its
+    // inverse, from memory). Asking for the other form is the user's to
+    // change.
+    let text = GOOD
+        .replace("order = 5", "order = 4\nform = \"min_capacitor\"")
+        .replace("source_ohm = 600", "source_ohm = 1200");
+    rejects(
+        "even-form",
+        &text,
+        &["filter.form = min_capacitor", "other form"],
+    );
+}

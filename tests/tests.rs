@@ -5,5 +5,6 @@ mod analysis;
 mod approx;
 mod circuit;
 mod cli;
+mod design;
 mod parts;
 mod synth;

@@ -156,6 +156,12 @@ pub enum CircuitError {
         /// The frequency.
         freq_hz: f64,
     },
+    /// A node the caller needs is not in the netlist.
+    #[error("the netlist has no node named {name:?}")]
+    NoSuchNode {
+        /// The name asked for.
+        name: String,
+    },
     /// An iterative computation did not converge.
     #[error("{what} did not converge")]
     NoConvergence {

@@ -282,6 +282,14 @@ impl Netlist {
         self.nodes.iter().position(|n| n.eq_ignore_ascii_case(name))
     }
 
+    /// The index of the node with this name, or an error naming it.
+    pub fn require_node(&self, name: &str) -> Result<usize, CircuitError> {
+        self.node_index(name)
+            .ok_or_else(|| CircuitError::NoSuchNode {
+                name: name.to_string(),
+            })
+    }
+
     /// The index of the node with this name, created if new. `"0"` is
     /// ground (index 0). Names are checked by [`Netlist::validate`].
     pub fn node(&mut self, name: &str) -> usize {

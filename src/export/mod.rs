@@ -2,3 +2,19 @@
 
 pub mod eng;
 pub mod spice;
+
+/// Writes `bytes` to `path` through a temporary file in the same folder
+/// and a rename, so that `path` never holds a half-written file and a
+/// failure leaves nothing behind.
+pub fn write_atomic(path: &std::path::Path, bytes: &[u8]) -> std::io::Result<()> {
+    use std::io::Write;
+    let dir = path
+        .parent()
+        .filter(|d| !d.as_os_str().is_empty())
+        .unwrap_or(std::path::Path::new("."));
+    let mut tmp = tempfile::NamedTempFile::new_in(dir)?;
+    tmp.write_all(bytes)?;
+    tmp.as_file().sync_all()?;
+    tmp.persist(path).map_err(|e| e.error)?;
+    Ok(())
+}

@@ -62,6 +62,62 @@ pub enum FormChoice {
     MinCapacitor,
 }
 
+impl FormChoice {
+    /// The value as a design file writes it.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            FormChoice::MinInductor => "min_inductor",
+            FormChoice::MinCapacitor => "min_capacitor",
+        }
+    }
+}
+
+/// How the inductors are to be removed.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum MethodChoice {
+    /// The realization with the fewest op-amps that serves every element.
+    Auto,
+    /// Simulated inductors (generalized impedance converters).
+    Gic,
+    /// Bruton's transformation to frequency-dependent negative resistors
+    /// (lowpass only).
+    Fdnr,
+}
+
+/// The `[active]` table.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct ActiveSpec {
+    /// The realization asked for (default `auto`).
+    pub method: MethodChoice,
+    /// Whether to choose the converters' free values numerically, for the
+    /// least passband error with the op-amp model (default false: the
+    /// balanced-converter rule).
+    pub optimize: bool,
+}
+
+/// The `[opamp]` table: a single-pole model.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct OpAmpSpec {
+    /// Gain-bandwidth product, Hz (default 10 MHz).
+    pub gbw_hz: f64,
+    /// Open-loop DC gain, dB (default 100 dB).
+    pub dc_gain_db: f64,
+    /// Output resistance, ohm (default 0).
+    pub output_ohm: f64,
+}
+
+impl Default for OpAmpSpec {
+    /// A general-purpose audio op-amp of the common kind.
+    fn default() -> OpAmpSpec {
+        OpAmpSpec {
+            gbw_hz: 10e6,
+            dc_gain_db: 100.0,
+            output_ohm: 0.0,
+        }
+    }
+}
+
 /// A passband or stopband edge: one frequency, or a pair for band kinds.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
 #[serde(untagged)]
@@ -117,6 +173,10 @@ pub struct Spec {
     pub source_ohm: f64,
     /// Load resistance, ohm.
     pub load_ohm: f64,
+    /// How to remove the inductors.
+    pub active: ActiveSpec,
+    /// The op-amp model the active build is simulated with.
+    pub opamp: OpAmpSpec,
 }
 
 /// A problem with a design file.
@@ -124,12 +184,12 @@ pub struct Spec {
 #[non_exhaustive]
 pub enum SpecError {
     /// The file could not be read.
-    #[error("{}: cannot read the file: {source}", file.display())]
+    #[error("{}: cannot read the file: {cause}", file.display())]
     Read {
         /// The file.
         file: PathBuf,
         /// Why.
-        source: std::io::Error,
+        cause: std::io::Error,
     },
     /// The file is not TOML, has an unknown or missing key, or a value of
     /// the wrong type.
@@ -159,9 +219,9 @@ pub enum SpecError {
 impl Spec {
     /// Reads and validates a design file.
     pub fn load(file: &Path) -> Result<Spec, SpecError> {
-        let text = std::fs::read_to_string(file).map_err(|source| SpecError::Read {
+        let text = std::fs::read_to_string(file).map_err(|cause| SpecError::Read {
             file: file.to_path_buf(),
-            source,
+            cause,
         })?;
         Spec::from_toml(file, &text)
     }

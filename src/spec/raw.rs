@@ -2,7 +2,10 @@
 //! then the checks that turn them into a [`Spec`].
 
 use super::mask::{check_edge, check_levels, check_sides, MaskField, MaskProblem};
-use super::{Edge, FamilyChoice, FormChoice, Kind, PrototypeSource, Spec, SpecError, MAX_ORDER};
+use super::{
+    ActiveSpec, Edge, FamilyChoice, FormChoice, Kind, MethodChoice, OpAmpSpec, PrototypeSource,
+    Spec, SpecError, MAX_ORDER,
+};
 use serde::Deserialize;
 use std::path::Path;
 
@@ -15,6 +18,28 @@ pub const HALF_POWER_DB: f64 = 3.010_299_956_639_812;
 struct RawSpec {
     filter: RawFilter,
     terminations: RawTerminations,
+    #[serde(default)]
+    active: RawActive,
+    #[serde(default)]
+    opamp: RawOpAmp,
+}
+
+#[derive(Deserialize, Default)]
+#[serde(deny_unknown_fields)]
+struct RawActive {
+    method: Option<MethodChoice>,
+    optimize: Option<bool>,
+}
+
+#[derive(Deserialize, Default)]
+#[serde(deny_unknown_fields)]
+struct RawOpAmp {
+    #[serde(default, deserialize_with = "number")]
+    gbw_hz: Option<f64>,
+    #[serde(default, deserialize_with = "number")]
+    dc_gain_db: Option<f64>,
+    #[serde(default, deserialize_with = "number")]
+    output_ohm: Option<f64>,
 }
 
 #[derive(Deserialize)]
@@ -129,16 +154,29 @@ impl Checker<'_> {
 
 const KEY_PASSBAND: &str = "filter.passband_edge_hz";
 
-/// Line (1-based) of a byte offset.
-fn line_of(text: &str, offset: usize) -> usize {
-    text[..offset.min(text.len())].matches('\n').count() + 1
-}
-
 pub(super) fn syntax_error(file: &Path, text: &str, e: toml::de::Error) -> SpecError {
+    let start = e.span().map_or(0, |s| s.start.min(text.len()));
+    let line = text[..start].matches('\n').count() + 1;
+    // The parser names unknown and missing keys itself; for a value of the
+    // wrong type it does not, so the key is read off the offending line.
+    let line_text = text.lines().nth(line - 1).unwrap_or("");
+    let key = line_text
+        .split_once('=')
+        .map(|(k, _)| k.trim())
+        .filter(|k| !k.is_empty() && !k.starts_with('['));
+    let message = e
+        .message()
+        .trim()
+        .replace('\n', " ")
+        .replace("expected i64", "expected a whole number")
+        .replace("expected f64", "expected a number");
     SpecError::Syntax {
         file: file.to_path_buf(),
-        line: e.span().map_or(1, |s| line_of(text, s.start)),
-        message: e.message().trim().replace('\n', " "),
+        line,
+        message: match key {
+            Some(k) if !message.contains(k) => format!("{k}: {message}"),
+            _ => message,
+        },
     }
 }
 
@@ -165,6 +203,7 @@ pub(super) fn parse(file: &Path, text: &str) -> Result<Spec, SpecError> {
         raw.terminations.load_ohm,
         "a resistance in ohm",
     )?;
+    let opamp = opamp(&c, &raw.opamp)?;
     Ok(Spec {
         file: file.to_path_buf(),
         kind: f.kind,
@@ -174,8 +213,56 @@ pub(super) fn parse(file: &Path, text: &str) -> Result<Spec, SpecError> {
         form: f.form,
         source_ohm,
         load_ohm,
+        active: ActiveSpec {
+            method: raw.active.method.unwrap_or(MethodChoice::Auto),
+            optimize: raw.active.optimize.unwrap_or(false),
+        },
+        opamp,
     })
 }
+
+/// The op-amp model: every key optional, defaults documented on
+/// [`OpAmpSpec`].
+fn opamp(c: &Checker, raw: &RawOpAmp) -> Result<OpAmpSpec, SpecError> {
+    let d = OpAmpSpec::default();
+    let gbw_hz = match raw.gbw_hz {
+        None => d.gbw_hz,
+        Some(v) => c.positive("opamp.gbw_hz", v, "a gain-bandwidth product in Hz")?,
+    };
+    let dc_gain_db = match raw.dc_gain_db {
+        None => d.dc_gain_db,
+        Some(v) if v.is_finite() && v > 0.0 && v <= MAX_DC_GAIN_DB => v,
+        Some(v) => {
+            return Err(c.invalid(
+                "opamp.dc_gain_db",
+                v,
+                format!(
+                "expected an open-loop DC gain in dB, greater than 0 and at most {MAX_DC_GAIN_DB}"
+            ),
+            ))
+        }
+    };
+    let output_ohm = match raw.output_ohm {
+        None => d.output_ohm,
+        Some(v) if v.is_finite() && v >= 0.0 => v,
+        Some(v) => {
+            return Err(c.invalid(
+                "opamp.output_ohm",
+                v,
+                "expected an output resistance in ohm, 0 or more",
+            ))
+        }
+    };
+    Ok(OpAmpSpec {
+        gbw_hz,
+        dc_gain_db,
+        output_ohm,
+    })
+}
+
+/// Open-loop gains beyond this (1e10) are indistinguishable from an ideal
+/// op-amp in double precision and usually a typing slip.
+const MAX_DC_GAIN_DB: f64 = 200.0;
 
 fn prototype_source(
     c: &Checker,

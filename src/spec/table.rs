@@ -93,9 +93,9 @@ struct RawArm {
 impl PrototypeTable {
     /// Reads and checks a table file.
     pub fn load(file: &Path) -> Result<PrototypeTable, SpecError> {
-        let text = std::fs::read_to_string(file).map_err(|source| SpecError::Read {
+        let text = std::fs::read_to_string(file).map_err(|cause| SpecError::Read {
             file: file.to_path_buf(),
-            source,
+            cause,
         })?;
         let raw: RawTable = toml::from_str(&text).map_err(|e| syntax_error(file, &text, e))?;
         let invalid = |key: &'static str, got: String, expected: &str| SpecError::Invalid {

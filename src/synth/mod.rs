@@ -4,6 +4,40 @@
 //! terminations. Output: a normalized [`Ladder`] (source resistance 1 ohm,
 //! passband edge 1 rad/s) whose voltage transfer from the source EMF to the
 //! load is the prototype's H(s) times the flat factor of the terminations.
+//!
+//! The stages, one file each: `prototype` ([`synthesize`], the entry from
+//! the approximation), `terminations` ([`variant_for`], the
+//! flat-loss level), `darlington` (E and F from the roots, polished to
+//! double-double consistency), `ends` (extraction from both ends, joined
+//! where they meet), `extraction` (zero shifting and the continued
+//! fraction, in double-double `poly` arithmetic), `ladder` (node layout
+//! and the reference evaluator [`Ladder::transfer`]).
+//!
+//! Invariants of every [`Ladder`] built here: all element values positive;
+//! the parts extracted from the source and from the load agree on the arm
+//! where they meet (to a named tolerance), which a ladder with the wrong
+//! terminations or roots cannot do; arms alternate series and shunt.
+
+mod darlington;
+mod ends;
+mod error;
+mod extraction;
+mod ladder;
+mod poly;
+mod prototype;
+mod terminations;
+
+pub use darlington::{synthesize_characteristic, Characteristic};
+pub use error::SynthError;
+pub use prototype::synthesize;
+pub use terminations::variant_for;
+
+/// Highest elliptic order the synthesis is asked for. For ordinary masks
+/// ((0.01 dB, 80 dB), (0.1 dB, 70 dB)) ladders up to order 16 hold their
+/// response to 2e-4 dB; masks with very narrow transitions fail earlier
+/// (order 7 to 11) with a [`SynthError`] rather than a wrong ladder. The
+/// limit comes from the double-precision roots of the prototype.
+pub const ELLIPTIC_MAX_ORDER: usize = 16;
 
 /// Which of the two dual ladders.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
@@ -73,4 +107,23 @@ pub struct Ladder {
     pub output: usize,
     /// The reactive elements, from source to load.
     pub elements: Vec<Element>,
+    /// The flat factor of the terminations: V(load)/V(source EMF) =
+    /// `flat_gain` * H(s) for the prototype H the ladder was synthesized
+    /// from; `sqrt(K_t) sqrt(r) / 2 = r / ((1 + r) |H(0)|)`.
+    pub flat_gain: f64,
+}
+
+/// The values of one arm, henry and farad, for [`Ladder::from_arms`].
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ArmValues {
+    /// An inductor in a series arm.
+    SeriesL(f64),
+    /// A capacitor from the node to ground.
+    ShuntC(f64),
+    /// A parallel LC tank (L, C) in a series arm.
+    SeriesTank(f64, f64),
+    /// A series LC (L, C) from the node to ground, the inductor on the
+    /// ladder side.
+    ShuntResonator(f64, f64),
 }

@@ -20,7 +20,7 @@
 //! drives node `in`, the source resistance runs from `in` into the ladder,
 //! the load sits across node `out`, ground is `0`.
 
-use crate::circuit::{Element, Netlist};
+use crate::circuit::{CircuitError, Element, Netlist};
 use crate::synth::{Ladder, Reactance};
 use std::f64::consts::PI;
 
@@ -129,113 +129,89 @@ fn realize(mapping: Mapping, kind: Reactance, g: f64, r0: f64) -> Realized {
 /// Builds the netlist of the passive ideal: the normalized `ladder`
 /// (source 1 ohm, edge 1 rad/s) transformed by `mapping` and scaled to
 /// the source resistance `source_ohm`.
-pub fn passive_netlist(ladder: &Ladder, mapping: Mapping, source_ohm: f64, title: &str) -> Netlist {
-    let mut b = Builder::new(title, ladder);
-    let vin = b.node_named("in");
-    b.push_source(vin);
-    let first = b.ladder_node(1);
-    b.push_resistor("RS", vin, first, ladder.source_ohm * source_ohm);
+///
+/// Nodes: `in` (source), `n1`.. for the ladder nodes, `out` for the load
+/// node, `n<k>` for the inner node of each series pair.
+pub fn passive_netlist(
+    ladder: &Ladder,
+    mapping: Mapping,
+    source_ohm: f64,
+    title: &str,
+) -> Result<Netlist, CircuitError> {
+    let mut net = Netlist::new(title);
+    let vin = net.node("in");
+    let nodes: Vec<usize> = (0..ladder.nodes)
+        .map(|k| match k {
+            0 => 0,
+            k if k == ladder.output => net.node("out"),
+            k => net.node(&format!("n{k}")),
+        })
+        .collect();
+    net.add(Element::VoltageSource {
+        name: "V1".to_string(),
+        pos: vin,
+        neg: 0,
+        ac_volt: 1.0,
+    })?;
+    net.add(Element::Resistor {
+        name: "RS".to_string(),
+        a: vin,
+        b: nodes[1],
+        ohm: ladder.source_ohm * source_ohm,
+    })?;
+    let mut names = Names::default();
     for e in &ladder.elements {
-        let (na, nb) = (b.ladder_node(e.a), b.ladder_node(e.b));
+        let (a, b) = (nodes[e.a], nodes[e.b]);
         match realize(mapping, e.kind, e.value, source_ohm) {
-            Realized::Single(kind, v) => b.push_reactance(kind, na, nb, v),
+            Realized::Single(kind, v) => net.add(names.element(kind, a, b, v))?,
             Realized::Series { l, c } => {
-                let mid = b.internal_node();
-                b.push_reactance(Reactance::Inductor, na, mid, l);
-                b.push_reactance(Reactance::Capacitor, mid, nb, c);
+                let mid = net.node(&format!("n{}", net.nodes.len()));
+                net.add(names.element(Reactance::Inductor, a, mid, l))?;
+                net.add(names.element(Reactance::Capacitor, mid, b, c))?
             }
             Realized::Parallel { l, c } => {
-                b.push_reactance(Reactance::Inductor, na, nb, l);
-                b.push_reactance(Reactance::Capacitor, na, nb, c);
+                net.add(names.element(Reactance::Inductor, a, b, l))?;
+                net.add(names.element(Reactance::Capacitor, a, b, c))?
+            }
+        };
+    }
+    net.add(Element::Resistor {
+        name: "RL".to_string(),
+        a: nodes[ladder.output],
+        b: 0,
+        ohm: ladder.load_ohm * source_ohm,
+    })?;
+    Ok(net)
+}
+
+/// Numbers the inductors and capacitors in the order they are built.
+#[derive(Default)]
+struct Names {
+    inductors: usize,
+    capacitors: usize,
+}
+
+impl Names {
+    fn element(&mut self, kind: Reactance, a: usize, b: usize, value: f64) -> Element {
+        match kind {
+            Reactance::Inductor => {
+                self.inductors += 1;
+                Element::Inductor {
+                    name: format!("L{}", self.inductors),
+                    a,
+                    b,
+                    henry: value,
+                }
+            }
+            Reactance::Capacitor => {
+                self.capacitors += 1;
+                Element::Capacitor {
+                    name: format!("C{}", self.capacitors),
+                    a,
+                    b,
+                    farad: value,
+                }
             }
         }
-    }
-    let out = b.ladder_node(ladder.output);
-    b.push_resistor("RL", out, 0, ladder.load_ohm * source_ohm);
-    b.netlist
-}
-
-/// Names nodes and elements while the netlist is built.
-struct Builder {
-    netlist: Netlist,
-    /// Netlist index of each ladder node (ladder node 0 is ground).
-    ladder_nodes: Vec<usize>,
-    counts: [usize; 2],
-}
-
-impl Builder {
-    fn new(title: &str, ladder: &Ladder) -> Builder {
-        let mut netlist = Netlist {
-            title: title.to_string(),
-            nodes: vec!["0".to_string()],
-            elements: Vec::new(),
-        };
-        let mut ladder_nodes = vec![0];
-        for k in 1..ladder.nodes {
-            let name = if k == ladder.output {
-                "out".to_string()
-            } else {
-                format!("n{k}")
-            };
-            netlist.nodes.push(name);
-            ladder_nodes.push(netlist.nodes.len() - 1);
-        }
-        Builder {
-            netlist,
-            ladder_nodes,
-            counts: [0, 0],
-        }
-    }
-
-    fn ladder_node(&self, k: usize) -> usize {
-        self.ladder_nodes[k]
-    }
-
-    fn node_named(&mut self, name: &str) -> usize {
-        self.netlist.nodes.push(name.to_string());
-        self.netlist.nodes.len() - 1
-    }
-
-    fn internal_node(&mut self) -> usize {
-        let name = format!("n{}", self.netlist.nodes.len());
-        self.node_named(&name)
-    }
-
-    fn push_source(&mut self, pos: usize) {
-        self.netlist.elements.push(Element::VoltageSource {
-            name: "V1".to_string(),
-            pos,
-            neg: 0,
-            ac_volt: 1.0,
-        });
-    }
-
-    fn push_resistor(&mut self, name: &str, a: usize, b: usize, ohm: f64) {
-        self.netlist.elements.push(Element::Resistor {
-            name: name.to_string(),
-            a,
-            b,
-            ohm,
-        });
-    }
-
-    fn push_reactance(&mut self, kind: Reactance, a: usize, b: usize, value: f64) {
-        let slot = kind as usize;
-        self.counts[slot] += 1;
-        let n = self.counts[slot];
-        self.netlist.elements.push(match kind {
-            Reactance::Inductor => Element::Inductor {
-                name: format!("L{n}"),
-                a,
-                b,
-                henry: value,
-            },
-            Reactance::Capacitor => Element::Capacitor {
-                name: format!("C{n}"),
-                a,
-                b,
-                farad: value,
-            },
-        });
     }
 }

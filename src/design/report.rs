@@ -1,0 +1,307 @@
+//! What a finished design reports: a plain serializable [`Report`] (the
+//! JSON file) and the human summary printed by `nocoil design`.
+
+use super::{Design, MaskCheck, OrderChoice};
+use crate::approx::{Family, Variant};
+use crate::circuit::Element;
+use crate::export::eng;
+use crate::spec::{Edge, Kind, PrototypeSource};
+use crate::synth::{Arm, Form, Reactance};
+use std::fmt::Write;
+
+/// One element of the normalized ladder.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct NormalizedElement {
+    /// Arm number from the source, 1-based.
+    pub arm: usize,
+    /// Series or shunt.
+    pub arm_kind: Arm,
+    /// L or C.
+    pub kind: Reactance,
+    /// Henry or farad at 1 ohm, 1 rad/s.
+    pub value: f64,
+}
+
+/// One element of the scaled passive netlist.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct ScaledElement {
+    /// SPICE name.
+    pub name: String,
+    /// The two node names.
+    pub nodes: [String; 2],
+    /// Value in SI units.
+    pub value: f64,
+    /// "ohm", "F", "H" or "V".
+    pub unit: &'static str,
+}
+
+/// The machine-readable account of a design (`report.json`).
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct Report {
+    /// Program and version that wrote it.
+    pub tool: String,
+    /// The design file.
+    pub design_file: String,
+    /// Filter kind.
+    pub kind: Kind,
+    /// Approximation family (absent for a table prototype).
+    pub family: Option<Family>,
+    /// The prototype table, when one was used.
+    pub prototype_table: Option<String>,
+    /// Order.
+    pub order: usize,
+    /// How the order was fixed.
+    pub order_choice: OrderChoice,
+    /// Which form of the approximation (even orders may need a modified
+    /// one).
+    pub variant: Option<Variant>,
+    /// The variant in words.
+    pub variant_note: String,
+    /// Which dual ladder.
+    pub form: Form,
+    /// Passband edge(s), Hz.
+    pub passband_edge_hz: Edge,
+    /// Stopband edge(s) asked for, Hz.
+    pub stopband_edge_hz: Option<Edge>,
+    /// Passband ripple (Butterworth: loss at the edge), dB.
+    pub passband_ripple_db: f64,
+    /// Stopband attenuation asked for, dB.
+    pub stopband_attenuation_db: Option<f64>,
+    /// Realized stopband edge(s), Hz, where the attenuation is first
+    /// reached (elliptic).
+    pub realized_stopband_edge_hz: Option<Vec<f64>>,
+    /// The mask after the order was chosen (normalized frequencies).
+    pub mask: MaskCheck,
+    /// Source resistance, ohm.
+    pub source_ohm: f64,
+    /// Load resistance, ohm.
+    pub load_ohm: f64,
+    /// The normalized ladder (1 ohm source, 1 rad/s).
+    pub normalized_elements: Vec<NormalizedElement>,
+    /// Normalized load resistance.
+    pub normalized_load_ohm: f64,
+    /// The scaled passive ideal.
+    pub passive_elements: Vec<ScaledElement>,
+}
+
+fn variant_note(v: Option<Variant>) -> &'static str {
+    match v {
+        None => "tabulated ladder",
+        Some(Variant::Standard) => "standard form",
+        Some(Variant::ZeroAtInfinity) => {
+            "modified even-order form: highest transmission zero moved to infinity (unequal terminations)"
+        }
+        Some(Variant::ReflectionAtDc) => {
+            "modified even-order form: lowest reflection zero moved to DC, so the terminations may be equal"
+        }
+    }
+}
+
+fn unit_of(e: &Element) -> &'static str {
+    match e {
+        Element::Resistor { .. } => "ohm",
+        Element::Capacitor { .. } => "F",
+        Element::Inductor { .. } => "H",
+        Element::VoltageSource { .. } => "V",
+        Element::OpAmp { .. } => "",
+    }
+}
+
+impl Design {
+    /// The report of this design.
+    pub fn report(&self) -> Report {
+        let (family, table, ripple, variant) = match (&self.prototype, &self.table) {
+            (Some(p), _) => (
+                Some(p.params.family),
+                None,
+                p.params.passband_ripple_db,
+                Some(p.params.variant),
+            ),
+            (None, Some(t)) => (
+                None,
+                Some(t.file.display().to_string()),
+                t.passband_ripple_db,
+                None,
+            ),
+            (None, None) => unreachable!("a design has a prototype or a table"),
+        };
+        let attenuation = match &self.spec.prototype {
+            PrototypeSource::Family {
+                stopband_attenuation_db,
+                ..
+            } => *stopband_attenuation_db,
+            PrototypeSource::Table { .. } => {
+                self.table.as_ref().and_then(|t| t.stopband_attenuation_db)
+            }
+        };
+        let node = |i: usize| self.passive.nodes[i].clone();
+        let passive_elements = self
+            .passive
+            .elements
+            .iter()
+            .filter_map(|e| {
+                let (a, b) = match *e {
+                    Element::Resistor { a, b, .. }
+                    | Element::Capacitor { a, b, .. }
+                    | Element::Inductor { a, b, .. } => (a, b),
+                    Element::VoltageSource { pos, neg, .. } => (pos, neg),
+                    Element::OpAmp { .. } => return None,
+                };
+                Some(ScaledElement {
+                    name: e.name().to_string(),
+                    nodes: [node(a), node(b)],
+                    value: e.value().unwrap_or(0.0),
+                    unit: unit_of(e),
+                })
+            })
+            .collect();
+        Report {
+            tool: format!("nocoil {}", env!("CARGO_PKG_VERSION")),
+            design_file: self.spec.file.display().to_string(),
+            kind: self.spec.kind,
+            family,
+            prototype_table: table,
+            order: self.ladder_order(),
+            order_choice: self.order_choice.clone(),
+            variant,
+            variant_note: variant_note(variant).to_string(),
+            form: self.ladder.form,
+            passband_edge_hz: self.spec.passband_edge_hz,
+            stopband_edge_hz: self.spec.stopband_edge_hz,
+            passband_ripple_db: ripple,
+            stopband_attenuation_db: attenuation,
+            realized_stopband_edge_hz: self
+                .mask
+                .realized_stopband_edge
+                .map(|w| self.mapping.frequencies_hz(w)),
+            mask: self.mask.clone(),
+            source_ohm: self.spec.source_ohm,
+            load_ohm: self.spec.load_ohm,
+            normalized_elements: self
+                .ladder
+                .elements
+                .iter()
+                .map(|e| NormalizedElement {
+                    arm: e.arm_index + 1,
+                    arm_kind: e.arm,
+                    kind: e.kind,
+                    value: e.value,
+                })
+                .collect(),
+            normalized_load_ohm: self.ladder.load_ohm,
+            passive_elements,
+        }
+    }
+
+    /// The order: the number of arms of the ladder.
+    fn ladder_order(&self) -> usize {
+        self.ladder
+            .elements
+            .iter()
+            .map(|e| e.arm_index + 1)
+            .max()
+            .unwrap_or(0)
+    }
+
+    /// The summary `nocoil design` prints.
+    pub fn summary(&self) -> String {
+        let r = self.report();
+        let mut s = String::new();
+        let what = match r.family {
+            Some(f) => format!("{f:?}").to_lowercase(),
+            None => format!("table {}", r.prototype_table.as_deref().unwrap_or("")),
+        };
+        let how = match &r.order_choice {
+            OrderChoice::Given => "given".to_string(),
+            OrderChoice::Table => "from the table".to_string(),
+            OrderChoice::Computed {
+                minimum,
+                raised_for_form: false,
+            } => format!("the minimum for the mask, {minimum}"),
+            OrderChoice::Computed {
+                minimum,
+                raised_for_form: true,
+            } => {
+                format!("raised from the minimum {minimum}: the even-order form the terminations need missed the mask")
+            }
+        };
+        let kind = format!("{:?}", r.kind).to_lowercase();
+        let form = match r.form {
+            Form::MinCapacitor => "minimum-capacitor ladder (series inductor first)",
+            Form::MinInductor => "minimum-inductor ladder (shunt capacitor first)",
+        };
+        let hz = |e: Edge| match e {
+            Edge::Single(f) => eng::format(f, "Hz"),
+            Edge::Pair(a, b) => format!("{} and {}", eng::format(a, "Hz"), eng::format(b, "Hz")),
+        };
+        // dB figures as a designer writes them: 0.1, 3.0103.
+        let db = |x: f64| (x * 1e4).round() / 1e4;
+        let _ = writeln!(s, "{what} {kind}, order {} ({how})", r.order);
+        let _ = writeln!(s, "  {}; {form}", r.variant_note);
+        let _ = writeln!(
+            s,
+            "  passband edge {}, ripple {} dB",
+            hz(r.passband_edge_hz),
+            db(r.passband_ripple_db)
+        );
+        if let (Some(stop), Some(a)) = (r.stopband_edge_hz, r.stopband_attenuation_db) {
+            let reached = self
+                .mask
+                .attenuation_at_stopband_edge_db
+                .map(|x| format!(", {x:.2} dB reached there"))
+                .unwrap_or_default();
+            let _ = writeln!(
+                s,
+                "  stopband edge {}, {} dB asked{reached}",
+                hz(stop),
+                db(a)
+            );
+        }
+        if self.mask.meets_mask == Some(false) {
+            let _ = writeln!(
+                s,
+                "  WARNING: the given order does not meet the stopband mask; raise it or omit it"
+            );
+        }
+        if let Some(edges) = &r.realized_stopband_edge_hz {
+            let list: Vec<String> = edges.iter().map(|f| eng::format(*f, "Hz")).collect();
+            let _ = writeln!(s, "  attenuation first reached at {}", list.join(" and "));
+        }
+        let _ = writeln!(
+            s,
+            "  terminations: source {}, load {}",
+            eng::format(r.source_ohm, "ohm"),
+            eng::format(r.load_ohm, "ohm")
+        );
+        let _ = writeln!(
+            s,
+            "normalized prototype (1 ohm source, 1 rad/s edge), load {:.6} ohm:",
+            r.normalized_load_ohm
+        );
+        for e in &r.normalized_elements {
+            let unit = match e.kind {
+                Reactance::Inductor => "H",
+                Reactance::Capacitor => "F",
+            };
+            let _ = writeln!(
+                s,
+                "  arm {:<3} {:<6} {:.6} {unit}",
+                e.arm,
+                format!("{:?}", e.arm_kind).to_lowercase(),
+                e.value
+            );
+        }
+        let _ = writeln!(s, "passive ideal:");
+        for e in &r.passive_elements {
+            let _ = writeln!(
+                s,
+                "  {:<5} {:<5} {:<5} {}",
+                e.name,
+                e.nodes[0],
+                e.nodes[1],
+                eng::format(e.value, e.unit)
+            );
+        }
+        s
+    }
+}

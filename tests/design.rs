@@ -1,0 +1,274 @@
+//! End-to-end tests of the passive pipeline: design file -> approximation
+//! -> ladder -> transformed, scaled netlist, checked against scipy.signal
+//! responses and against ngspice running the exported deck.
+
+use crate::util::ngspice_ac;
+use nocoil::design::{design, response, Design};
+use nocoil::export::spice::{deck, AcSweep};
+use nocoil::spec::table::{PrototypeTable, TableArm};
+use nocoil::spec::Spec;
+use nocoil::synth::{Arm, Reactance};
+use serde::Deserialize;
+use std::path::Path;
+
+/// The project's end-to-end budget: the passive ideal must match the
+/// reference response to 0.01 dB wherever the reference is above
+/// REFERENCE_FLOOR_DB.
+const PASSIVE_TOL_DB: f64 = 0.01;
+/// Below this the reference (and any physical measurement) is noise.
+const REFERENCE_FLOOR_DB: f64 = -80.0;
+
+#[derive(Deserialize)]
+struct Fixture {
+    scipy: String,
+    cases: Vec<Case>,
+}
+
+#[derive(Deserialize)]
+struct Case {
+    kind: String,
+    family: String,
+    order: usize,
+    ripple_db: f64,
+    attenuation_db: Option<f64>,
+    edges_hz: Vec<f64>,
+    source_ohm: f64,
+    load_ohm: f64,
+    variant: String,
+    flat_db: f64,
+    freq_hz: Vec<f64>,
+    ref_db: Vec<f64>,
+}
+
+impl Case {
+    fn name(&self) -> String {
+        format!(
+            "{} {} n={} Ap={} As={:?} r={}",
+            self.kind,
+            self.family,
+            self.order,
+            self.ripple_db,
+            self.attenuation_db,
+            self.load_ohm / self.source_ohm
+        )
+    }
+
+    /// The design file a user would write for this case.
+    fn toml(&self) -> String {
+        let edges = match self.edges_hz.as_slice() {
+            [f] => format!("{f:?}"),
+            [a, b] => format!("[{a:?}, {b:?}]"),
+            other => panic!("fixture edges {other:?}"),
+        };
+        let attenuation = self
+            .attenuation_db
+            .map(|a| format!("stopband_attenuation_db = {a:?}\n"))
+            .unwrap_or_default();
+        format!(
+            "[filter]\nkind = \"{}\"\nfamily = \"{}\"\norder = {}\npassband_edge_hz = {edges}\n\
+             passband_ripple_db = {:?}\n{attenuation}[terminations]\nsource_ohm = {:?}\nload_ohm = {:?}\n",
+            self.kind, self.family, self.order, self.ripple_db, self.source_ohm, self.load_ohm
+        )
+    }
+
+    fn design(&self) -> Design {
+        let spec = Spec::from_toml(Path::new("fixture.toml"), &self.toml())
+            .unwrap_or_else(|e| panic!("{}: {e}", self.name()));
+        design(&spec).unwrap_or_else(|e| panic!("{}: {e}", self.name()))
+    }
+}
+
+fn fixture() -> Fixture {
+    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/scipy_responses.json");
+    let text = std::fs::read_to_string(&path)
+        .expect("tests/fixtures/scipy_responses.json (made by gen_scipy_responses.py)");
+    serde_json::from_str(&text).expect("fixture parses")
+}
+
+/// Passive ideal vs scipy.signal (buttap/cheb1ap/ellipap, the w^2 variant
+/// maps of gen_scipy_fixtures.py, lp2lp/lp2hp/lp2bp/lp2bs_zpk, freqs_zpk;
+/// version recorded in the fixture) plus the flat loss of the
+/// terminations: every kind, every family, odd and even orders.
+#[test]
+fn passive_ideal_matches_scipy_for_every_kind() {
+    let fx = fixture();
+    let mut report = Vec::new();
+    for case in &fx.cases {
+        let d = case.design();
+        let variant = d.report().variant.map(|v| serde_json::to_value(v).unwrap());
+        assert_eq!(
+            variant,
+            Some(serde_json::Value::String(case.variant.clone())),
+            "{}: even-order form",
+            case.name()
+        );
+        let got = response(&d.passive, &case.freq_hz).unwrap().db();
+        let mut worst: f64 = 0.0;
+        for ((f, r), g) in case.freq_hz.iter().zip(&case.ref_db).zip(&got) {
+            if *r > REFERENCE_FLOOR_DB {
+                let err = (g - (r + case.flat_db)).abs();
+                assert!(
+                    err <= PASSIVE_TOL_DB,
+                    "{} at {f} Hz: expected {:.6} dB (scipy {}), got {g:.6} dB",
+                    case.name(),
+                    r + case.flat_db,
+                    fx.scipy
+                );
+                worst = worst.max(err);
+            }
+        }
+        report.push(format!("{:<60} worst {worst:.2e} dB", case.name()));
+    }
+    println!(
+        "passive ideal vs scipy {}:\n{}",
+        fx.scipy,
+        report.join("\n")
+    );
+}
+
+/// Every exported deck runs in ngspice (Debian package `ngspice`, run
+/// live) and its V(out)/V(in) matches nocoil's own solver.
+#[test]
+fn exported_passive_decks_match_ngspice() {
+    // ngspice solves in double precision with its own pivoting; the
+    // project's budget for any exported deck is 0.01 dB.
+    const NGSPICE_TOL_DB: f64 = 0.01;
+    let fx = fixture();
+    let mut report = Vec::new();
+    for case in &fx.cases {
+        let d = case.design();
+        let (lo, hi) = d.default_band();
+        let sweep = AcSweep {
+            points_per_decade: 40,
+            start_hz: lo,
+            stop_hz: hi,
+        };
+        let spice = ngspice_ac(&deck(&d.passive, &sweep).unwrap());
+        let freqs: Vec<f64> = spice.iter().map(|(f, _)| *f).collect();
+        let ours = response(&d.passive, &freqs).unwrap().db();
+        let mut worst: f64 = 0.0;
+        for ((f, v), o) in spice.iter().zip(&ours) {
+            let theirs = 20.0 * v.norm().log10();
+            if theirs > REFERENCE_FLOOR_DB {
+                let err = (theirs - o).abs();
+                assert!(
+                    err <= NGSPICE_TOL_DB,
+                    "{} at {f} Hz: ngspice {theirs:.6} dB, nocoil {o:.6} dB",
+                    case.name()
+                );
+                worst = worst.max(err);
+            }
+        }
+        report.push(format!("{:<60} worst {worst:.2e} dB", case.name()));
+    }
+    println!("passive deck, ngspice vs nocoil:\n{}", report.join("\n"));
+}
+
+/// The shipped prototype tables (prototypes/*.toml, from published
+/// tables, see each file's `reference`) are reproduced by the synthesis
+/// to the 4 decimals they print.
+#[test]
+fn prototype_tables_are_reproduced() {
+    // Half a unit in the last printed place, plus rounding of the sum.
+    const PRINTED_TOL: f64 = 0.5e-4 + 1e-12;
+    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("prototypes");
+    let mut checked = 0;
+    for entry in std::fs::read_dir(&dir).unwrap() {
+        let path = entry.unwrap().path();
+        if path.extension().and_then(|e| e.to_str()) != Some("toml") {
+            continue;
+        }
+        let table = PrototypeTable::load(&path).unwrap();
+        let family = table.family.expect("shipped tables name their family");
+        let form = match table.arms[0] {
+            TableArm::ShuntC(_) | TableArm::ShuntResonator(..) => "min_inductor",
+            TableArm::SeriesL(_) | TableArm::SeriesTank(..) => "min_capacitor",
+        };
+        let text = format!(
+            "[filter]\nkind = \"lowpass\"\nfamily = \"{}\"\norder = {}\npassband_edge_hz = {:?}\npassband_ripple_db = {:?}\nform = \"{form}\"\n[terminations]\nsource_ohm = 1.0\nload_ohm = {:?}\n",
+            format!("{family:?}").to_lowercase(),
+            table.order,
+            1.0 / (2.0 * std::f64::consts::PI),
+            table.passband_ripple_db,
+            table.load_ohm
+        );
+        let d = design(&Spec::from_toml(&path, &text).unwrap()).unwrap();
+        let got: Vec<f64> = d.ladder.elements.iter().map(|e| e.value).collect();
+        let want: Vec<f64> = table
+            .arms
+            .iter()
+            .map(|a| match *a {
+                TableArm::SeriesL(v) | TableArm::ShuntC(v) => v,
+                TableArm::SeriesTank(..) | TableArm::ShuntResonator(..) => {
+                    panic!("no resonator tables shipped yet")
+                }
+            })
+            .collect();
+        assert_eq!(got.len(), want.len(), "{}", path.display());
+        for (k, (g, w)) in got.iter().zip(&want).enumerate() {
+            assert!(
+                (g - w).abs() <= PRINTED_TOL,
+                "{} element {}: table {w}, synthesized {g:.6}",
+                path.display(),
+                k + 1
+            );
+        }
+        // The arms alternate as the table writes them.
+        for (e, a) in d.ladder.elements.iter().zip(&table.arms) {
+            let expected = match a {
+                TableArm::SeriesL(_) => (Arm::Series, Reactance::Inductor),
+                _ => (Arm::Shunt, Reactance::Capacitor),
+            };
+            assert_eq!((e.arm, e.kind), expected, "{}", path.display());
+        }
+        checked += 1;
+    }
+    assert!(checked >= 4, "expected the shipped tables, found {checked}");
+}
+
+/// A design file that names a table gives the table's ladder.
+#[test]
+fn design_from_a_table() {
+    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples/table-demo.toml");
+    let d = design(&Spec::load(&path).unwrap()).unwrap();
+    let values: Vec<f64> = d.ladder.elements.iter().map(|e| e.value).collect();
+    // prototypes/chebyshev-0.5db-3.toml
+    assert_eq!(values, vec![1.5963, 1.0967, 1.5963]);
+    assert!(d.prototype.is_none());
+}
+
+/// Every demo design runs, and one whose order is computed meets its mask
+/// in the scaled netlist: the attenuation relative to the passband level
+/// at each stopband edge reaches the asked attenuation.
+#[test]
+fn demo_designs_run_and_meet_their_masks() {
+    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples");
+    for entry in std::fs::read_dir(&dir).unwrap() {
+        let path = entry.unwrap().path();
+        if path.extension().and_then(|e| e.to_str()) != Some("toml") {
+            continue;
+        }
+        let spec = Spec::load(&path).unwrap_or_else(|e| panic!("{e}"));
+        let d = design(&spec).unwrap_or_else(|e| panic!("{e}"));
+        let r = d.report();
+        if let (Some(stop), Some(att)) = (spec.stopband_edge_hz, r.stopband_attenuation_db) {
+            let edges = match stop {
+                nocoil::spec::Edge::Single(f) => vec![f],
+                nocoil::spec::Edge::Pair(a, b) => vec![a, b],
+            };
+            // Passband level: the resistive divider of the terminations
+            // (common practice: the lossless ladder passes all power at its
+            // reflection zeros; at best it reaches the divider).
+            let divider_db = 20.0 * (spec.load_ohm / (spec.source_ohm + spec.load_ohm)).log10();
+            let got = response(&d.passive, &edges).unwrap().db();
+            for (f, g) in edges.iter().zip(got) {
+                assert!(
+                    divider_db - g >= att - 1e-6,
+                    "{}: {f} Hz is {:.3} dB down, mask asks {att}",
+                    path.display(),
+                    divider_db - g
+                );
+            }
+        }
+    }
+}
