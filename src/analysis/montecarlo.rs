@@ -10,8 +10,9 @@
 //! what that thread solved before: the result is identical for any rayon
 //! thread count.
 //!
-//! Cost: each rayon job clones the system once (not once per trial), and a
-//! trial allocates nothing: it refills values, solves into the system's
+//! Cost: each rayon job (a run of consecutive trials; a few per thread)
+//! clones the system once, not once per trial, and a trial allocates
+//! nothing: it refills values, solves into the system's
 //! own buffers and writes its dB row into one table allocated up front.
 //! The solver is reached only through AcSystem's public methods, so a
 //! faster solver behind that interface speeds this up unchanged.

@@ -165,9 +165,11 @@ fn stamps(element: &Element, extras: Extras, layout: &Layout, emit: &mut dyn FnM
 pub struct Adjoint<'a> {
     /// H = V(out) / V(inp).
     pub h: Complex64,
-    /// Every unknown of the solution, indexed like the rows of G.
+    /// The solution: every unknown, indexed like the columns of G (see
+    /// [`AcSystem::unknown_of_node`]).
     pub x: &'a [Complex64],
-    /// The adjoint solution, indexed like the columns of G.
+    /// The adjoint solution, indexed like the rows of G (one entry per
+    /// equation), so that y^T (dA/dp) x pairs y[row] with x[column].
     pub y: &'a [Complex64],
 }
 
