@@ -1178,3 +1178,49 @@ fn opamp_levels_refuse_bad_swings_grids_and_nodes() {
         Ok(vec![])
     );
 }
+
+#[test]
+fn the_passive_build_of_the_demo_elliptic_has_zero_sensitivity_at_its_reflection_zeros() {
+    // Orchard (1966) on the pipeline's own passive ideal: the 7th-order
+    // elliptic anti-alias lowpass of the README's demo design, equal
+    // 1 kohm terminations, reflection zeros at DC and at the real
+    // frequencies of the approximation's reflection zeros. The synthesized
+    // values hold the same ORCHARD_TOL (measured: at most 7.8e-15).
+    let file = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("examples")
+        .join("vibration-antialias.toml");
+    let spec = nocoil::spec::Spec::load(&file).unwrap();
+    let built = nocoil::design::design(&spec).unwrap();
+    let prototype = built.prototype.as_ref().expect("a computed elliptic");
+    let mut zeros: Vec<f64> = prototype
+        .reflection_roots(0.0)
+        .iter()
+        .filter(|s| s.im >= 0.0)
+        .flat_map(|s| {
+            if s.im == 0.0 {
+                vec![0.0]
+            } else {
+                built.mapping.frequencies_hz(s.im)
+            }
+        })
+        .collect();
+    zeros.sort_by(f64::total_cmp);
+    assert_eq!(zeros.len(), 4, "DC and three ripple peaks: {zeros:?}");
+    let n = &built.passive;
+    let (out, inp) = ports(n);
+    let table = sensitivities(&mut system(n), out, inp, &zeros).unwrap();
+    for r in &table.rows {
+        let expected = match r.name.as_str() {
+            "RL" => 0.5,
+            "RS" => -0.5,
+            _ => 0.0,
+        };
+        for (s, f) in r.relative.iter().zip(&zeros) {
+            assert!(
+                (s.re - expected).abs() <= ORCHARD_TOL,
+                "{}: S = {s} at {f} Hz",
+                r.name
+            );
+        }
+    }
+}
