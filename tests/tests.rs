@@ -1,8 +1,10 @@
 //! Integration tests: one entry, one module per stage.
 mod util;
 
+mod analysis;
 mod approx;
 mod circuit;
 mod cli;
 mod design;
+mod parts;
 mod synth;
