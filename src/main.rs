@@ -8,7 +8,7 @@ use clap::{Parser, Subcommand, ValueEnum};
 use nocoil::approx::{min_order, Family};
 use nocoil::circuit::log_grid;
 use nocoil::design::{self, Design, DesignError};
-use nocoil::export::{self, spice::AcSweep};
+use nocoil::export;
 use nocoil::spec::mask::{check_edge, check_levels, check_sides, MaskField, MaskProblem};
 use nocoil::spec::{Edge, Kind, Spec};
 use nocoil::synth::ELLIPTIC_MAX_ORDER;
@@ -126,10 +126,6 @@ fn run(cli: Cli) -> anyhow::Result<()> {
     }
 }
 
-/// Resolution of the `.ac` line in exported decks: fine enough to see
-/// every elliptic notch of a 15th-order design on a plot.
-const DECK_POINTS_PER_DECADE: usize = 100;
-
 fn load_design(spec: &Path) -> anyhow::Result<Design> {
     let spec = Spec::load(spec).map_err(DesignError::from)?;
     Ok(design::design(&spec)?)
@@ -137,26 +133,23 @@ fn load_design(spec: &Path) -> anyhow::Result<Design> {
 
 fn run_design(spec: &Path, out: &Path) -> anyhow::Result<()> {
     let d = load_design(spec)?;
-    let (from, to) = d.default_band();
-    let sweep = AcSweep {
-        points_per_decade: DECK_POINTS_PER_DECADE,
-        start_hz: from,
-        stop_hz: to,
-    };
-    let deck = export::spice::deck(&d.passive, &sweep)?;
-    let report = serde_json::to_string_pretty(&d.report()).context("serializing the report")?;
+    let active = d.active()?;
+    let files = d.output_files(&active)?;
     // Everything is computed before the folder is touched, and each file
     // is written to a temporary name and renamed, so a failure leaves no
     // half-written output.
     std::fs::create_dir_all(out).with_context(|| format!("creating {}", out.display()))?;
-    export::write_atomic(&out.join("passive.cir"), deck.as_bytes())?;
-    export::write_atomic(&out.join("report.json"), report.as_bytes())?;
-    print!("{}", d.summary());
-    println!(
-        "wrote {} and {}",
-        out.join("passive.cir").display(),
-        out.join("report.json").display()
-    );
+    for f in &files {
+        let path = out.join(f.name);
+        export::write_atomic(&path, &f.bytes)
+            .with_context(|| format!("writing {}", path.display()))?;
+    }
+    print!("{}{}", d.summary(), active.summary());
+    let names: Vec<String> = files
+        .iter()
+        .map(|f| out.join(f.name).display().to_string())
+        .collect();
+    println!("wrote {}", names.join(", "));
     Ok(())
 }
 
@@ -176,16 +169,20 @@ fn run_sweep(spec: &Path, from: Option<f64>, to: Option<f64>, points: usize) -> 
     }
     let freqs = log_grid(from, to, points)?;
     let response = d.passive_response(&freqs)?;
+    let active = design::response(&d.active()?.build.netlist, &freqs)?;
+    let (active_db, active_phase) = (active.db(), active.phase_deg());
     let (db, phase, delay) = (
         response.db(),
         response.phase_deg(),
         response.group_delay_s()?,
     );
-    let mut csv = String::from("freq_hz,passive_db,passive_phase_deg,passive_group_delay_s\n");
+    let mut csv = String::from(
+        "freq_hz,passive_db,passive_phase_deg,passive_group_delay_s,active_db,active_phase_deg\n",
+    );
     for i in 0..freqs.len() {
         csv.push_str(&format!(
-            "{:.9e},{:.9},{:.6},{:.9e}\n",
-            freqs[i], db[i], phase[i], delay[i]
+            "{:.9e},{:.9},{:.6},{:.9e},{:.9},{:.6}\n",
+            freqs[i], db[i], phase[i], delay[i], active_db[i], active_phase[i]
         ));
     }
     print!("{csv}");

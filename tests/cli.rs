@@ -108,6 +108,9 @@ fn with(find: &str, replace: &str) -> String {
     GOOD.replace(find, replace)
 }
 
+/// The files `nocoil design` writes.
+const OUTPUTS: [&str; 3] = ["passive.cir", "active.cir", "report.json"];
+
 #[test]
 fn good_spec_designs() {
     let dir = scratch("good");
@@ -125,13 +128,13 @@ fn good_spec_designs() {
         "stderr: {}",
         String::from_utf8_lossy(&run.stderr)
     );
-    for f in ["passive.cir", "report.json"] {
+    for f in OUTPUTS {
         assert!(out.join(f).is_file(), "{f} written");
     }
     let leftovers: Vec<_> = std::fs::read_dir(&out)
         .unwrap()
         .map(|e| e.unwrap().file_name().into_string().unwrap())
-        .filter(|n| n != "passive.cir" && n != "report.json")
+        .filter(|n| !OUTPUTS.contains(&n.as_str()))
         .collect();
     assert!(
         leftovers.is_empty(),

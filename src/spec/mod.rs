@@ -96,9 +96,22 @@ pub struct ActiveSpec {
     pub optimize: bool,
 }
 
-/// The `[opamp]` table: a single-pole model.
+/// Which op-amp model the active build is simulated with.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum OpAmpKind {
+    /// A(s) = A0 / (1 + s A0 / (2 pi GBW)).
+    SinglePole,
+    /// Infinite gain and bandwidth (a nullor): the active network then
+    /// equals the passive ideal, which checks the realization itself.
+    Ideal,
+}
+
+/// The `[opamp]` table.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
 pub struct OpAmpSpec {
+    /// The model (default single-pole).
+    pub model: OpAmpKind,
     /// Gain-bandwidth product, Hz (default 10 MHz).
     pub gbw_hz: f64,
     /// Open-loop DC gain, dB (default 100 dB).
@@ -111,6 +124,7 @@ impl Default for OpAmpSpec {
     /// A general-purpose audio op-amp of the common kind.
     fn default() -> OpAmpSpec {
         OpAmpSpec {
+            model: OpAmpKind::SinglePole,
             gbw_hz: 10e6,
             dc_gain_db: 100.0,
             output_ohm: 0.0,

@@ -3,8 +3,8 @@
 
 use super::mask::{check_edge, check_levels, check_sides, MaskField, MaskProblem};
 use super::{
-    ActiveSpec, Edge, FamilyChoice, FormChoice, Kind, MethodChoice, OpAmpSpec, PrototypeSource,
-    Spec, SpecError, MAX_ORDER,
+    ActiveSpec, Edge, FamilyChoice, FormChoice, Kind, MethodChoice, OpAmpKind, OpAmpSpec,
+    PrototypeSource, Spec, SpecError, MAX_ORDER,
 };
 use serde::Deserialize;
 use std::path::Path;
@@ -34,6 +34,7 @@ struct RawActive {
 #[derive(Deserialize, Default)]
 #[serde(deny_unknown_fields)]
 struct RawOpAmp {
+    model: Option<OpAmpKind>,
     #[serde(default, deserialize_with = "number")]
     gbw_hz: Option<f64>,
     #[serde(default, deserialize_with = "number")]
@@ -254,6 +255,7 @@ fn opamp(c: &Checker, raw: &RawOpAmp) -> Result<OpAmpSpec, SpecError> {
         }
     };
     Ok(OpAmpSpec {
+        model: raw.model.unwrap_or(d.model),
         gbw_hz,
         dc_gain_db,
         output_ohm,
