@@ -4,4 +4,5 @@ mod util;
 mod approx;
 mod circuit;
 mod cli;
+mod export;
 mod synth;

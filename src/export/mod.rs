@@ -1,4 +1,6 @@
-//! Outputs: SPICE netlists, the JSON report, engineering notation.
+//! Outputs: SPICE netlists, the JSON report, engineering notation, charts
+//! (SVG, PNG), the bill of materials (CSV) and the HTML report.
 
 pub mod eng;
+pub mod plot;
 pub mod spice;

@@ -1,0 +1,557 @@
+//! Tests of the generic writers in `export`: charts, the bill of materials
+//! and the HTML report.
+//!
+//! Sample charts are also written to
+//! `CARGO_TARGET_TMPDIR/export-samples/` so a person can look at them.
+
+use std::path::PathBuf;
+
+use nocoil::approx::{Family, Params, Prototype, Variant};
+use nocoil::export::plot::{
+    self, Band, Chart, MaskBox, PlotError, PngOutput, Trace, MASK_COLOR, PALETTE,
+};
+use num_complex::Complex64;
+
+/// Where sample outputs go (kept after the run, for viewing).
+fn samples_dir() -> PathBuf {
+    let dir = PathBuf::from(env!("CARGO_TARGET_TMPDIR")).join("export-samples");
+    std::fs::create_dir_all(&dir).expect("create the samples folder");
+    dir
+}
+
+/// Passband edge of the sample filter, Hz.
+const EDGE_HZ: f64 = 1e3;
+
+/// A 5th-order elliptic lowpass, 0.5 dB ripple, 60 dB stopband, edge at
+/// [`EDGE_HZ`]: a realistic response with transmission zeros.
+fn sample_filter() -> Prototype {
+    Prototype::new(Params {
+        family: Family::Elliptic,
+        order: 5,
+        passband_ripple_db: 0.5,
+        stopband_attenuation_db: 60.0,
+        variant: Variant::Standard,
+    })
+    .expect("5th-order elliptic")
+}
+
+/// 400 log-spaced frequencies from 100 Hz to 20 kHz plus the exact
+/// transmission zeros, where the magnitude is -inf dB.
+fn sample_grid(filter: &Prototype) -> Vec<f64> {
+    let mut f: Vec<f64> = (0..400)
+        .map(|i| 100.0 * 200f64.powf(i as f64 / 399.0))
+        .chain(filter.transmission_zeros.iter().map(|w| w * EDGE_HZ))
+        .collect();
+    f.sort_by(f64::total_cmp);
+    f.dedup();
+    f
+}
+
+/// H(j 2 pi f) of the filter with its edge moved by the factor `shift`.
+fn response(filter: &Prototype, freq: &[f64], shift: f64) -> Vec<Complex64> {
+    freq.iter()
+        .map(|f| filter.zpk.eval(Complex64::new(0.0, f / (EDGE_HZ * shift))))
+        .collect()
+}
+
+fn db(h: &[Complex64]) -> Vec<f64> {
+    h.iter().map(|h| 20.0 * h.norm().log10()).collect()
+}
+
+fn sample_mask() -> Vec<MaskBox> {
+    let stop = sample_filter()
+        .stopband_edge
+        .expect("elliptic stopband edge")
+        * EDGE_HZ;
+    vec![
+        MaskBox {
+            from_hz: 0.0,
+            to_hz: EDGE_HZ,
+            min_db: Some(-0.5),
+            max_db: Some(0.0),
+        },
+        MaskBox {
+            from_hz: stop,
+            to_hz: f64::INFINITY,
+            min_db: None,
+            max_db: Some(-60.0),
+        },
+    ]
+}
+
+fn trace(label: &str, freq: &[f64], values: Vec<f64>, dashed: bool) -> Trace {
+    Trace {
+        label: label.into(),
+        freq_hz: freq.to_vec(),
+        values,
+        dashed,
+    }
+}
+
+/// The charts the report shows, on sample data.
+fn sample_charts() -> Vec<(&'static str, Chart)> {
+    let filter = sample_filter();
+    let f = sample_grid(&filter);
+    let passive = response(&filter, &f, 1.0);
+    let active = response(&filter, &f, 0.995);
+    let magnitude = Chart {
+        title: "Magnitude: passive ladder and active build".into(),
+        x_label: "frequency (Hz)".into(),
+        y_label: "magnitude (dB)".into(),
+        log_x: true,
+        traces: vec![
+            trace("passive LC ladder", &f, db(&passive), false),
+            trace("active (GIC, single-pole op-amps)", &f, db(&active), true),
+        ],
+        mask: sample_mask(),
+        y_range: Some((-100.0, 5.0)),
+        ..Chart::default()
+    };
+    let detail = Chart {
+        title: "Passband detail".into(),
+        y_range: Some((-1.0, 0.25)),
+        x_range: Some((100.0, 1.2e3)),
+        ..magnitude.clone()
+    };
+    let phase: Vec<f64> = unwrap_degrees(&passive);
+    let phase_chart = Chart {
+        title: "Phase".into(),
+        x_label: "frequency (Hz)".into(),
+        y_label: "phase (degrees)".into(),
+        log_x: true,
+        traces: vec![trace("passive LC ladder", &f, phase.clone(), false)],
+        ..Chart::default()
+    };
+    let delay_ms: Vec<f64> = (1..f.len())
+        .map(|i| -(phase[i] - phase[i - 1]) / 360.0 / (f[i] - f[i - 1]) * 1e3)
+        .collect();
+    let delay = Chart {
+        title: "Group delay".into(),
+        x_label: "frequency (Hz)".into(),
+        y_label: "group delay (ms)".into(),
+        log_x: true,
+        traces: vec![trace("passive LC ladder", &f[1..], delay_ms, false)],
+        x_range: Some((100.0, 2e3)),
+        y_range: Some((0.0, 3.0)),
+        ..Chart::default()
+    };
+    let spread: Vec<Vec<f64>> = [0.99, 1.0, 1.01]
+        .iter()
+        .map(|s| db(&response(&filter, &f, *s)))
+        .collect();
+    let envelope = Chart {
+        title: "Monte Carlo envelope (1000 trials)".into(),
+        x_label: "frequency (Hz)".into(),
+        y_label: "magnitude (dB)".into(),
+        log_x: true,
+        mask: sample_mask(),
+        band: Some(Band {
+            label: "active build".into(),
+            freq_hz: f.clone(),
+            min: (0..f.len())
+                .map(|i| spread.iter().map(|s| s[i]).fold(f64::INFINITY, f64::min))
+                .collect(),
+            median: spread[1].clone(),
+            max: (0..f.len())
+                .map(|i| {
+                    spread
+                        .iter()
+                        .map(|s| s[i])
+                        .fold(f64::NEG_INFINITY, f64::max)
+                })
+                .collect(),
+        }),
+        x_range: Some((300.0, 3e3)),
+        y_range: Some((-80.0, 5.0)),
+        ..Chart::default()
+    };
+    let levels = Chart {
+        title: "Op-amp output levels (gain from the input)".into(),
+        x_label: "frequency (Hz)".into(),
+        y_label: "gain (dB)".into(),
+        log_x: true,
+        traces: (1..=6)
+            .map(|k| {
+                let gain = db(&response(&filter, &f, 1.0 + 0.02 * k as f64))
+                    .into_iter()
+                    .zip(&f)
+                    .map(|(g, fi)| g + 3.0 * k as f64 * (-(fi / EDGE_HZ - 1.0).powi(2)).exp())
+                    .collect();
+                trace(&format!("U{k}"), &f, gain, false)
+            })
+            .collect(),
+        y_range: Some((-40.0, 20.0)),
+        ..Chart::default()
+    };
+    vec![
+        ("magnitude", magnitude),
+        ("passband", detail),
+        ("phase", phase_chart),
+        ("delay", delay),
+        ("envelope", envelope),
+        ("levels", levels),
+    ]
+}
+
+/// Phase in degrees, unwrapped (no jumps above 180 degrees between
+/// neighbours, except the 180-degree steps at transmission zeros).
+fn unwrap_degrees(h: &[Complex64]) -> Vec<f64> {
+    let mut out: Vec<f64> = Vec::with_capacity(h.len());
+    for z in h {
+        let raw = z.arg().to_degrees();
+        let value = match out.last() {
+            Some(prev) => raw - 360.0 * ((raw - prev) / 360.0).round(),
+            None => raw,
+        };
+        out.push(value);
+    }
+    out
+}
+
+// ---------------------------------------------------------------- charts
+
+/// Decoded RGB8 pixels of a PNG (decoded by the `png` crate, which the
+/// project did not write).
+struct Pixels {
+    width: usize,
+    height: usize,
+    rgb: Vec<u8>,
+}
+
+impl Pixels {
+    fn decode(bytes: &[u8]) -> Pixels {
+        let decoder = png::Decoder::new(std::io::Cursor::new(bytes));
+        let mut reader = decoder.read_info().expect("a PNG header");
+        let mut buf = vec![0; reader.output_buffer_size()];
+        let info = reader.next_frame(&mut buf).expect("a PNG frame");
+        let channels = info.color_type.samples();
+        let rgb = buf[..info.buffer_size()]
+            .chunks(channels)
+            .flat_map(|p| [p[0], p[1], p[2]])
+            .collect();
+        Pixels {
+            width: info.width as usize,
+            height: info.height as usize,
+            rgb,
+        }
+    }
+
+    fn at(&self, x: usize, y: usize) -> (u8, u8, u8) {
+        let i = 3 * (y * self.width + x);
+        (self.rgb[i], self.rgb[i + 1], self.rgb[i + 2])
+    }
+
+    /// Every (x, y) of exactly this colour.
+    fn find(&self, color: (u8, u8, u8)) -> Vec<(usize, usize)> {
+        (0..self.height)
+            .flat_map(|y| (0..self.width).map(move |x| (x, y)))
+            .filter(|&(x, y)| self.at(x, y) == color)
+            .collect()
+    }
+}
+
+/// The chart as PNG pixels. A missing font fails the test: these checks
+/// are the only ones on where things land, and Debian's fonts-dejavu-core
+/// (on every machine of this project) provides one.
+fn render_png(chart: &Chart) -> Pixels {
+    match plot::png(chart, 800, 500).expect("the chart draws") {
+        PngOutput::Image { bytes, .. } => Pixels::decode(&bytes),
+        PngOutput::NoFont { searched } => panic!(
+            "no TrueType font among {searched:?}: install the Debian package fonts-dejavu-core"
+        ),
+    }
+}
+
+fn median(mut v: Vec<usize>) -> f64 {
+    v.sort_unstable();
+    v[v.len() / 2] as f64
+}
+
+/// A trace is 2 px wide, so its centre row (or column) is known to about
+/// 1 px, and the plotter rounds each end to a whole pixel: 2 px in all.
+const PIXEL_TOLERANCE: f64 = 2.0;
+
+fn flat(label: &str, freq: &[f64], value: f64) -> Trace {
+    trace(label, freq, vec![value; freq.len()], false)
+}
+
+#[test]
+fn levels_map_linearly_and_non_finite_values_sit_on_the_bottom() {
+    let f: Vec<f64> = (0..50).map(|i| 10.0 * 1.2f64.powi(i)).collect();
+    let mut bottom = flat("-inf and NaN", &f, f64::NEG_INFINITY);
+    bottom.values[10] = f64::NAN;
+    let chart = Chart {
+        title: "levels".into(),
+        log_x: true,
+        traces: vec![flat("+5", &f, 5.0), flat("0", &f, 0.0), bottom],
+        y_range: Some((-10.0, 10.0)),
+        ..Chart::default()
+    };
+    let pixels = render_png(&chart);
+    let row = |i: usize| median(pixels.find(PALETTE[i]).into_iter().map(|p| p.1).collect());
+    let (five, zero, floor) = (row(0), row(1), row(2));
+    // On a linear axis from -10 to 10, 0 lies 10 units above the bottom
+    // and +5 another 5 above: (floor - zero) = 2 (zero - five).
+    let expected = zero + (zero - five) * 2.0;
+    assert!(
+        (floor - expected).abs() <= PIXEL_TOLERANCE,
+        "rows: +5 at {five}, 0 at {zero}, -inf/NaN at {floor}; expected the bottom at {expected}"
+    );
+}
+
+#[test]
+fn log_axis_puts_a_decade_midpoint_halfway() {
+    // 10 Hz to 100 kHz is 4 decades, so 1 kHz lies exactly halfway (in
+    // log10, the definition of a logarithmic axis).
+    let f: Vec<f64> = (0..=400)
+        .map(|i| 10f64.powf(1.0 + i as f64 / 100.0))
+        .collect();
+    let values = f
+        .iter()
+        .map(|&x| if x < 1e3 { -5.0 } else { 5.0 })
+        .collect();
+    let chart = Chart {
+        title: "step".into(),
+        log_x: true,
+        traces: vec![trace("step", &f, values, false)],
+        y_range: Some((-10.0, 10.0)),
+        ..Chart::default()
+    };
+    let pixels = render_png(&chart);
+    let points = pixels.find(PALETTE[0]);
+    let high = median(
+        points
+            .iter()
+            .filter(|p| p.0 > pixels.width / 2 + 20)
+            .map(|p| p.1)
+            .collect(),
+    );
+    let low = median(
+        points
+            .iter()
+            .filter(|p| p.0 < pixels.width / 2 - 20)
+            .map(|p| p.1)
+            .collect(),
+    );
+    let riser: Vec<usize> = points
+        .iter()
+        .filter(|p| (p.1 as f64) > high + 3.0 && (p.1 as f64) < low - 3.0)
+        .map(|p| p.0)
+        .collect();
+    // The curve spans the plot: its outermost columns are the axis ends
+    // (trace pixels only; the legend swatch lies below the plot).
+    let plot_rows =
+        |p: &&(usize, usize)| (p.1 as f64 - high).abs() < 3.0 || (p.1 as f64 - low).abs() < 3.0;
+    let left = points.iter().filter(plot_rows).map(|p| p.0).min().unwrap() as f64;
+    let right = points.iter().filter(plot_rows).map(|p| p.0).max().unwrap() as f64;
+    let riser = median(riser);
+    assert!(
+        (riser - (left + right) / 2.0).abs() <= PIXEL_TOLERANCE,
+        "step at column {riser}, axis from {left} to {right}"
+    );
+}
+
+#[test]
+fn mask_shades_only_the_forbidden_side() {
+    let f: Vec<f64> = (0..20).map(|i| 100.0 * 1.3f64.powi(i)).collect();
+    let chart = Chart {
+        title: "mask".into(),
+        log_x: true,
+        traces: vec![flat("level", &f, -5.0)],
+        mask: vec![MaskBox {
+            from_hz: 0.0,
+            to_hz: f64::INFINITY,
+            min_db: None,
+            max_db: Some(0.0),
+        }],
+        y_range: Some((-10.0, 10.0)),
+        ..Chart::default()
+    };
+    let pixels = render_png(&chart);
+    let trace_row = median(pixels.find(PALETTE[0]).into_iter().map(|p| p.1).collect());
+    // The limit line (the mask colour, opaque) is at 0 and the trace at
+    // -5, which gives the scale; then probe y = +5 (forbidden) and y = -7.5
+    // (allowed), off any grid line.
+    let limit_row = median(
+        pixels
+            .find(MASK_COLOR)
+            .into_iter()
+            .filter(|p| p.0 > 100 && p.0 < 700)
+            .map(|p| p.1)
+            .collect(),
+    );
+    let unit = (trace_row - limit_row) / 5.0;
+    let tinted = |y: f64| {
+        let (r, g, b) = pixels.at(pixels.width / 2 + 7, y.round() as usize);
+        r > g.saturating_add(10) && r > b.saturating_add(10)
+    };
+    assert!(tinted(limit_row - 5.0 * unit), "above the limit is shaded");
+    assert!(
+        !tinted(trace_row + 2.5 * unit),
+        "below the limit is not shaded"
+    );
+}
+
+/// Text content of every `<text>` element, in document order.
+fn svg_texts(svg: &str) -> Vec<String> {
+    let doc = roxmltree::Document::parse(svg)
+        .unwrap_or_else(|e| panic!("SVG is not well-formed XML: {e}"));
+    assert_eq!(doc.root_element().tag_name().name(), "svg");
+    doc.descendants()
+        .filter(|n| n.has_tag_name("text"))
+        .map(|n| n.text().unwrap_or("").trim().to_string())
+        .collect()
+}
+
+#[test]
+fn svg_is_well_formed_with_text_as_text() {
+    let filter = sample_filter();
+    let f = sample_grid(&filter);
+    let chart = Chart {
+        title: "Magnitude & <mask>".into(),
+        x_label: "frequency (Hz)".into(),
+        y_label: "magnitude (dB)".into(),
+        log_x: true,
+        traces: vec![trace(
+            "passive \"ideal\"",
+            &f,
+            db(&response(&filter, &f, 1.0)),
+            false,
+        )],
+        mask: sample_mask(),
+        y_range: Some((-100.0, 5.0)),
+        ..Chart::default()
+    };
+    let svg = plot::svg(&chart, 800, 500).expect("draws");
+    let texts = svg_texts(&svg);
+    for wanted in [
+        "Magnitude & <mask>",
+        "frequency (Hz)",
+        "magnitude (dB)",
+        "passive \"ideal\"",
+        "100",
+        "1k",
+        "10k",
+        "-100",
+        "0",
+    ] {
+        assert!(
+            texts.iter().any(|t| t == wanted),
+            "no text {wanted:?} in {texts:?}"
+        );
+    }
+    // The transmission zeros are on the grid (the magnitude is -inf dB
+    // there): nothing non-finite may reach the coordinates.
+    for bad in ["NaN", "inf"] {
+        assert!(!svg.contains(bad), "{bad} in the SVG");
+    }
+}
+
+#[test]
+fn sample_charts_are_written_for_viewing() {
+    let dir = samples_dir();
+    for (name, chart) in sample_charts() {
+        let svg = plot::svg(&chart, 800, 500).expect("sample chart draws as SVG");
+        assert!(svg_texts(&svg).contains(&chart.title));
+        std::fs::write(dir.join(format!("{name}.svg")), &svg).unwrap();
+        if let PngOutput::Image { bytes, .. } =
+            plot::png(&chart, 800, 500).expect("sample chart draws as PNG")
+        {
+            std::fs::write(dir.join(format!("{name}.png")), bytes).unwrap();
+        }
+    }
+}
+
+#[test]
+fn bad_chart_data_is_refused_with_the_offending_values() {
+    let f = vec![10.0, 100.0, 1000.0];
+    let good = Chart {
+        title: "t".into(),
+        log_x: true,
+        traces: vec![flat("a", &f, 0.0)],
+        ..Chart::default()
+    };
+    let with = |edit: &dyn Fn(&mut Chart)| {
+        let mut chart = good.clone();
+        edit(&mut chart);
+        let svg = plot::svg(&chart, 800, 500).expect_err("refused as SVG");
+        // PNG checks the same data first, font or no font.
+        assert_eq!(
+            plot::png(&chart, 800, 500).expect_err("refused as PNG"),
+            svg
+        );
+        svg
+    };
+    assert_eq!(
+        with(&|c| c.traces[0].values.pop().map(drop).unwrap_or(())),
+        PlotError::Length {
+            series: "a".into(),
+            freq_len: 3,
+            values_len: 2
+        }
+    );
+    assert_eq!(
+        with(&|c| c.traces[0].freq_hz[2] = 50.0),
+        PlotError::Frequency {
+            series: "a".into(),
+            index: 2,
+            freq_hz: 50.0
+        }
+    );
+    assert_eq!(
+        with(&|c| c.traces[0].freq_hz[0] = 0.0),
+        PlotError::Frequency {
+            series: "a".into(),
+            index: 0,
+            freq_hz: 0.0
+        }
+    );
+    assert_eq!(
+        with(&|c| c.traces[0] = flat("a", &[], 0.0)),
+        PlotError::Empty { title: "t".into() }
+    );
+    assert_eq!(
+        with(&|c| c.y_range = Some((1.0, 1.0))),
+        PlotError::Range {
+            axis: "y",
+            from: 1.0,
+            to: 1.0
+        }
+    );
+    assert_eq!(
+        with(&|c| c.x_range = Some((-1.0, 10.0))),
+        PlotError::Range {
+            axis: "x",
+            from: -1.0,
+            to: 10.0
+        }
+    );
+    let backwards = MaskBox {
+        from_hz: 10.0,
+        to_hz: 5.0,
+        min_db: None,
+        max_db: Some(0.0),
+    };
+    assert_eq!(
+        with(&|c| c.mask = vec![backwards]),
+        PlotError::Mask {
+            index: 0,
+            from_hz: 10.0,
+            to_hz: 5.0,
+            min_db: None,
+            max_db: Some(0.0)
+        }
+    );
+    assert_eq!(
+        plot::svg(&good, 100, 500).expect_err("too small"),
+        PlotError::Size {
+            width: 100,
+            height: 500
+        }
+    );
+    // A linear axis takes 0 Hz.
+    let mut linear = good.clone();
+    linear.log_x = false;
+    linear.traces[0].freq_hz[0] = 0.0;
+    assert!(plot::svg(&linear, 800, 500).is_ok());
+}
