@@ -7,6 +7,7 @@
 use std::path::PathBuf;
 
 use nocoil::approx::{Family, Params, Prototype, Variant};
+use nocoil::export::bom::{self, BomError, BomRow};
 use nocoil::export::plot::{
     self, Band, Chart, MaskBox, PlotError, PngOutput, Trace, MASK_COLOR, PALETTE,
 };
@@ -554,4 +555,190 @@ fn bad_chart_data_is_refused_with_the_offending_values() {
     linear.log_x = false;
     linear.traces[0].freq_hz[0] = 0.0;
     assert!(plot::svg(&linear, 800, 500).is_ok());
+}
+
+// ---------------------------------------------------------------- bill of materials
+
+/// (build, designator, kind, value, unit, tolerance, stage) of one part.
+type PartLine = (
+    &'static str,
+    &'static str,
+    &'static str,
+    f64,
+    &'static str,
+    Option<f64>,
+    &'static str,
+);
+
+/// One part, with the E96 series where a tolerance is stated.
+fn part((build, designator, kind, value, unit, tolerance, stage): PartLine) -> BomRow {
+    BomRow {
+        designators: vec![designator.into()],
+        kind: kind.into(),
+        value,
+        unit: unit.into(),
+        series: tolerance.map(|_| "E96".to_string()),
+        tolerance,
+        quantity: 1,
+        stage: stage.into(),
+        build: build.into(),
+    }
+}
+
+/// Parts of the sample report: the passive ladder and an active build with
+/// two converters.
+#[rustfmt::skip]
+const SAMPLE_PARTS: [PartLine; 18] = [
+    ("passive", "L2", "inductor", 0.1197, "H", None, "ladder"),
+    ("passive", "L4", "inductor", 0.0905, "H", None, "ladder"),
+    ("passive", "C1", "capacitor", 1.6e-6, "F", None, "ladder"),
+    ("passive", "C3", "capacitor", 2.3e-6, "F", None, "ladder"),
+    ("passive", "R1", "resistor", 600.0, "ohm", None, "terminations"),
+    ("passive", "R2", "resistor", 600.0, "ohm", None, "terminations"),
+    ("active", "R10", "resistor", 10.2e3, "ohm", Some(0.01), "FDNR 1"),
+    ("active", "R11", "resistor", 10.2e3, "ohm", Some(0.01), "FDNR 1"),
+    ("active", "R12", "resistor", 10.2e3, "ohm", Some(0.01), "FDNR 1"),
+    ("active", "C10", "capacitor", 10e-9, "F", Some(0.05), "FDNR 1"),
+    ("active", "C11", "capacitor", 10e-9, "F", Some(0.05), "FDNR 1"),
+    ("active", "U1", "op-amp", 10e6, "Hz", None, "FDNR 1"),
+    ("active", "R20", "resistor", 10.2e3, "ohm", Some(0.01), "FDNR 2"),
+    ("active", "R21", "resistor", 10.2e3, "ohm", Some(0.01), "FDNR 2"),
+    ("active", "R22", "resistor", 10.2e3, "ohm", Some(0.01), "FDNR 2"),
+    ("active", "C20", "capacitor", 10e-9, "F", Some(0.05), "FDNR 2"),
+    ("active", "C21", "capacitor", 10e-9, "F", Some(0.05), "FDNR 2"),
+    ("active", "U2", "op-amp", 10e6, "Hz", None, "FDNR 2"),
+];
+
+fn sample_parts() -> Vec<BomRow> {
+    SAMPLE_PARTS.into_iter().map(part).collect()
+}
+
+#[test]
+fn identical_parts_merge_with_designators_in_natural_order() {
+    let resistor = |build, designator, value, tolerance, stage| {
+        part((
+            build,
+            designator,
+            "resistor",
+            value,
+            "ohm",
+            Some(tolerance),
+            stage,
+        ))
+    };
+    let rows = vec![
+        resistor("active", "R10", 10.2e3, 0.01, "GIC 1"),
+        resistor("active", "R2", 10.2e3, 0.01, "GIC 1"),
+        // 10.2 kohm computed another way: the same part as printed.
+        resistor("active", "R1", 1.02e4 * (1.0 + 1e-12), 0.01, "GIC 1"),
+        // Differs in tolerance, stage or build: separate lines.
+        resistor("active", "R3", 10.2e3, 0.001, "GIC 1"),
+        resistor("active", "R4", 10.2e3, 0.01, "GIC 2"),
+        resistor("passive", "R5", 10.2e3, 0.01, "GIC 1"),
+    ];
+    let grouped = bom::group_rows(&rows);
+    let lines: Vec<(Vec<&str>, usize)> = grouped
+        .iter()
+        .map(|r| {
+            (
+                r.designators.iter().map(String::as_str).collect(),
+                r.quantity,
+            )
+        })
+        .collect();
+    assert_eq!(
+        lines,
+        vec![
+            (vec!["R1", "R2", "R10"], 3),
+            (vec!["R3"], 1),
+            (vec!["R4"], 1),
+            (vec!["R5"], 1),
+        ]
+    );
+}
+
+#[test]
+fn bom_csv_has_the_header_and_quotes_per_rfc_4180() {
+    let mut rows = bom::group_rows(&sample_parts());
+    // RFC 4180 section 2, rules 6 and 7: a field holding a comma or a
+    // double quote is enclosed in double quotes, and an inner quote is
+    // doubled.
+    rows[0].stage = "ladder, \"ideal\"".into();
+    let text = bom::bom_csv(&rows).expect("valid rows");
+    let mut lines = text.lines();
+    assert_eq!(
+        lines.next(),
+        Some("build,designators,kind,value,unit,series,tolerance,quantity,stage,value_si")
+    );
+    assert_eq!(
+        lines.next(),
+        Some("passive,L2,inductor,119.7 mH,H,,,1,\"ladder, \"\"ideal\"\"\",1.197e-1")
+    );
+    let fdnr: Vec<&str> = text.lines().filter(|l| l.contains("FDNR 1")).collect();
+    assert_eq!(
+        fdnr,
+        [
+            "active,R10 R11 R12,resistor,10.2 kohm,ohm,E96,1%,3,FDNR 1,1.02e4",
+            "active,C10 C11,capacitor,10 nF,F,E96,5%,2,FDNR 1,1e-8",
+            "active,U1,op-amp,10 MHz,Hz,,,1,FDNR 1,1e7",
+        ]
+    );
+    // The plain column reads back to the very same number.
+    let mut reader = csv::Reader::from_reader(text.as_bytes());
+    for (record, row) in reader.records().zip(&rows) {
+        let record = record.expect("a CSV record");
+        assert_eq!(
+            record[9].parse::<f64>().unwrap().to_bits(),
+            row.value.to_bits()
+        );
+    }
+}
+
+#[test]
+fn tally_compares_builds() {
+    let tallies = bom::tally(&sample_parts());
+    let get = |build: &str, kind: &str| {
+        tallies
+            .iter()
+            .find(|t| t.build == build && t.kind == kind)
+            .unwrap_or_else(|| panic!("no tally for {build} {kind} in {tallies:?}"))
+    };
+    assert_eq!(get("active", "op-amp").quantity, 2);
+    assert_eq!(get("active", "capacitor").quantity, 4);
+    assert_eq!(get("active", "capacitor").spread(), 1.0);
+    assert_eq!(get("passive", "capacitor").spread(), 2.3e-6 / 1.6e-6);
+    assert!(tallies
+        .iter()
+        .all(|t| !(t.build == "passive" && t.kind == "op-amp")));
+}
+
+#[test]
+fn bad_bom_rows_are_refused() {
+    let good = part(("active", "R1", "resistor", 1e3, "ohm", Some(0.01), "s"));
+    let mut wrong_count = good.clone();
+    wrong_count.quantity = 2;
+    assert!(matches!(
+        bom::bom_csv(&[wrong_count]),
+        Err(BomError::Quantity { quantity: 2, .. })
+    ));
+    for value in [0.0, -1.0, f64::NAN, f64::INFINITY] {
+        let row = BomRow {
+            value,
+            ..good.clone()
+        };
+        match bom::bom_csv(&[row]) {
+            Err(BomError::Value { value: v, .. }) => assert!(v.to_bits() == value.to_bits()),
+            other => panic!("value {value}: {other:?}"),
+        }
+    }
+    for tolerance in [-0.01, 1.0, f64::NAN] {
+        let row = BomRow {
+            tolerance: Some(tolerance),
+            ..good.clone()
+        };
+        assert!(
+            matches!(bom::bom_csv(&[row]), Err(BomError::Tolerance { .. })),
+            "tolerance {tolerance}"
+        );
+    }
 }
