@@ -1,13 +1,16 @@
 //! Tests of the generic writers in `export`: charts, the bill of materials
 //! and the HTML report.
 //!
-//! Sample charts are also written to
+//! Sample charts and the report are also written to
 //! `CARGO_TARGET_TMPDIR/export-samples/` so a person can look at them.
 
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
+use std::process::Command;
+use std::time::{Duration, Instant};
 
 use nocoil::approx::{Family, Params, Prototype, Variant};
 use nocoil::export::bom::{self, BomError, BomRow};
+use nocoil::export::html::{self, Figure, ReportDoc, Table};
 use nocoil::export::plot::{
     self, Band, Chart, MaskBox, PlotError, PngOutput, Trace, MASK_COLOR, PALETTE,
 };
@@ -741,4 +744,246 @@ fn bad_bom_rows_are_refused() {
             "tolerance {tolerance}"
         );
     }
+}
+
+// ---------------------------------------------------------------- HTML report
+
+#[test]
+fn escape_replaces_the_five_special_characters() {
+    // The character references of the HTML standard for &, <, >, " and '.
+    assert_eq!(
+        html::escape(r#"<a href="x">R & 'C'</a>"#),
+        "&lt;a href=&quot;x&quot;&gt;R &amp; &#39;C&#39;&lt;/a&gt;"
+    );
+    assert_eq!(html::escape("plain 10 kohm"), "plain 10 kohm");
+}
+
+/// Chart size for the report: smaller than the 800 x 500 of a standalone
+/// chart, with the same font sizes, so the text stays readable with two
+/// charts side by side on A4.
+const REPORT_CHART: (u32, u32) = (640, 400);
+
+/// The sample report: summary, cautions, the six charts, both builds'
+/// parts, notes.
+fn sample_report() -> ReportDoc {
+    let figures = sample_charts()
+        .into_iter()
+        .map(|(name, chart)| Figure {
+            caption: format!(
+                "Sample data ({name}); the active build is the ladder shifted by 0.5 %."
+            ),
+            svg: plot::svg(&chart, REPORT_CHART.0, REPORT_CHART.1).expect("sample chart"),
+        })
+        .collect();
+    let parts = bom::group_rows(&sample_parts());
+    let table = Table {
+        caption: "Parts, passive and active builds".into(),
+        header: [
+            "build",
+            "designators",
+            "kind",
+            "value",
+            "tolerance",
+            "quantity",
+            "stage",
+        ]
+        .map(String::from)
+        .to_vec(),
+        rows: parts
+            .iter()
+            .map(|r| {
+                vec![
+                    r.build.clone(),
+                    r.designators.join(" "),
+                    r.kind.clone(),
+                    nocoil::export::eng::format_trimmed(r.value, &r.unit),
+                    r.tolerance
+                        .map(|t| format!("{}%", t * 100.0))
+                        .unwrap_or_default(),
+                    r.quantity.to_string(),
+                    r.stage.clone(),
+                ]
+            })
+            .collect(),
+    };
+    ReportDoc {
+        title: "Elliptic lowpass, 5th order, 1 kHz <sample>".into(),
+        summary: vec![
+            (
+                "approximation".into(),
+                "elliptic, 0.5 dB ripple, 60 dB stopband".into(),
+            ),
+            ("passband edge".into(), "1 kHz".into()),
+            (
+                "active strategy".into(),
+                "Bruton FDNR, 2 converters, 4 op-amps".into(),
+            ),
+            ("yield (1000 trials)".into(), "97.3 %".into()),
+        ],
+        cautions: vec!["U2 clips first: 4.1 dB above the input at 1.05 kHz".into()],
+        figures,
+        tables: vec![table],
+        notes: vec!["Values snapped to E96 (resistors) and E12 (capacitors) & trimmed.".into()],
+    }
+}
+
+#[test]
+fn report_is_self_contained_and_escaped() {
+    let page = html::html_report(&sample_report());
+    assert!(page.starts_with("<!DOCTYPE html>"));
+    assert_eq!(page.matches("<style>").count(), 1);
+    assert_eq!(page.matches("<svg").count(), 6);
+    assert_eq!(page.matches("<figure>").count(), 6);
+    // Nothing to fetch and nothing to run: no script, no source or link
+    // attribute, no URL but the SVG namespace name (never fetched).
+    for banned in ["<script", "src=", "href=", "<link", "url("] {
+        assert!(!page.contains(banned), "{banned} in the report");
+    }
+    let urls = page.matches("http").count();
+    assert_eq!(urls, page.matches("http://www.w3.org/2000/svg").count());
+    assert!(page.contains("1 kHz &lt;sample&gt;"));
+    assert!(page.contains("&amp; trimmed"));
+    // Cautions come before the figures.
+    assert!(page.find("Cautions").unwrap() < page.find("<figure>").unwrap());
+}
+
+/// Longest a Chromium screenshot may take before the test gives up on it:
+/// a cold start on a busy 2-core machine takes a few seconds.
+const CHROMIUM_TIMEOUT: Duration = Duration::from_secs(120);
+
+/// `name` on PATH, if it is there.
+fn on_path(name: &str) -> Option<PathBuf> {
+    let path = std::env::var_os("PATH")?;
+    std::env::split_paths(&path)
+        .map(|dir| dir.join(name))
+        .find(|p| p.is_file())
+}
+
+/// Runs headless Chromium on `args` plus the page, with a fresh profile,
+/// and returns how long it took. Panics with Chromium's output on failure
+/// or time-out.
+fn chromium(chromium: &Path, args: &[String], page: &Path) -> Duration {
+    let profile = tempfile::tempdir().expect("a temporary Chromium profile");
+    let start = Instant::now();
+    let mut child = Command::new(chromium)
+        .args([
+            "--headless",
+            "--no-sandbox",
+            "--disable-gpu",
+            "--disable-quic",
+            "--no-first-run",
+            "--disable-background-networking",
+            "--disable-component-update",
+            "--disable-sync",
+        ])
+        .arg(format!("--user-data-dir={}", profile.path().display()))
+        .args(args)
+        .arg(format!("file://{}", page.display()))
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .expect("start chromium");
+    loop {
+        if let Some(status) = child.try_wait().expect("wait for chromium") {
+            let output = child.wait_with_output().expect("chromium output");
+            assert!(
+                status.success(),
+                "chromium failed ({status}):\n{}",
+                String::from_utf8_lossy(&output.stderr)
+            );
+            return start.elapsed();
+        }
+        if start.elapsed() > CHROMIUM_TIMEOUT {
+            let _ = child.kill();
+            panic!("chromium took over {CHROMIUM_TIMEOUT:?}");
+        }
+        std::thread::sleep(Duration::from_millis(50));
+    }
+}
+
+/// Pixels within `distance` (per channel) of `color`.
+fn near(pixels: &Pixels, color: (u8, u8, u8), distance: u8) -> usize {
+    let close = |a: u8, b: u8| a.abs_diff(b) <= distance;
+    pixels
+        .rgb
+        .chunks(3)
+        .filter(|p| close(p[0], color.0) && close(p[1], color.1) && close(p[2], color.2))
+        .count()
+}
+
+/// Renders the sample report in headless Chromium and checks the
+/// screenshot is a real page with the charts drawn. Where Chromium is not
+/// installed the check is skipped with a message (the issue asks for it
+/// "where Chromium is present"), except under CI (`CI` set), whose
+/// `.ci/run` installs it: there a missing Chromium fails.
+#[test]
+fn report_renders_in_headless_chromium() {
+    let dir = samples_dir();
+    let page = dir.join("report.html");
+    std::fs::write(&page, html::html_report(&sample_report())).unwrap();
+    let Some(browser) = on_path("chromium") else {
+        assert!(
+            std::env::var_os("CI").is_none(),
+            "chromium is not on PATH under CI: .ci/run must install the Debian package chromium"
+        );
+        eprintln!("chromium not on PATH: report screenshot check skipped (apt-get install chromium); the HTML was checked structurally");
+        return;
+    };
+    let shot = dir.join("report.png");
+    let _ = std::fs::remove_file(&shot);
+    let args = [
+        format!("--screenshot={}", shot.display()),
+        "--window-size=1000,1400".to_string(),
+        "--hide-scrollbars".to_string(),
+    ];
+    let took = chromium(&browser, &args, &page);
+    eprintln!("chromium screenshot of the report took {took:.1?}");
+    let bytes = std::fs::read(&shot).expect("chromium wrote the screenshot");
+    let pixels = Pixels::decode(&bytes);
+    assert_eq!((pixels.width, pixels.height), (1000, 1400));
+    let white = near(&pixels, (255, 255, 255), 0);
+    let total = pixels.width * pixels.height;
+    let colors: std::collections::HashSet<&[u8]> = pixels.rgb.chunks(3).collect();
+    // A blank page is one colour; text alone gives a few dozen grey levels.
+    // Charts add their curves (the first trace colour, anti-aliased) and the
+    // mask tint.
+    assert!(colors.len() > 200, "only {} distinct colours", colors.len());
+    assert!(
+        white < total * 95 / 100,
+        "{white} of {total} pixels are white"
+    );
+    assert!(
+        near(&pixels, PALETTE[0], 30) > 1000,
+        "no curve drawn in the first trace colour"
+    );
+    assert!(
+        near(&pixels, MASK_COLOR, 30) > 500,
+        "no specification limit drawn"
+    );
+
+    // Printed on A4 (the page's own @page rule), the sample report takes
+    // at most two pages.
+    let pdf = dir.join("report.pdf");
+    let _ = std::fs::remove_file(&pdf);
+    let args = [
+        format!("--print-to-pdf={}", pdf.display()),
+        "--no-pdf-header-footer".to_string(),
+    ];
+    let took = chromium(&browser, &args, &page);
+    eprintln!("chromium print of the report took {took:.1?}");
+    let pages = pdf_pages(&std::fs::read(&pdf).expect("chromium wrote the PDF"));
+    assert!(
+        (1..=2).contains(&pages),
+        "the report prints on {pages} pages"
+    );
+}
+
+/// Number of page objects in a PDF: dictionaries with `/Type /Page`
+/// (ISO 32000-1:2008, 7.7.3.3), not the `/Type /Pages` tree nodes.
+/// Chromium writes them uncompressed.
+fn pdf_pages(pdf: &[u8]) -> usize {
+    let key = b"/Type /Page";
+    pdf.windows(key.len() + 1)
+        .filter(|w| w.starts_with(key) && !w[key.len()].is_ascii_alphanumeric())
+        .count()
 }

@@ -3,5 +3,6 @@
 
 pub mod bom;
 pub mod eng;
+pub mod html;
 pub mod plot;
 pub mod spice;
