@@ -173,7 +173,8 @@ fn identity(row: &BomRow) -> [String; 5] {
     ]
 }
 
-/// Merges rows of identical parts ([`identity`]) into one row each, in the
+/// Merges rows of identical parts (same build, kind, printed value and
+/// unit, series, printed tolerance and stage) into one row each, in the
 /// order each part first appears. Designators are concatenated and sorted
 /// the way people number them (R2 before R10); quantities add up; the value
 /// kept is the first row's.

@@ -9,7 +9,7 @@
 //!   mesh labels, legends) measures text with a loaded font, and an SVG
 //!   must not need one: its text stays `<text>` for the viewer to render.
 //! - Every line and area is clipped to the plot rectangle
-//!   ([`clip`]); non-finite samples are drawn at the frame (NaN and -inf
+//!   (module `clip`); non-finite samples are drawn at the frame (NaN and -inf
 //!   at the bottom, +inf at the top), so a transmission zero evaluated as
 //!   -inf or -300 dB reaches the bottom of the chart.
 //! - Frequencies of a trace or band are finite and strictly increasing
@@ -101,8 +101,8 @@ pub struct MaskBox {
 /// is shaded and `median` drawn as a line.
 #[derive(Debug, Clone, PartialEq, Default)]
 pub struct Band {
-    /// Legend text; the legend shows "<label> median" and
-    /// "<label> min to max".
+    /// Legend text; the legend shows "`label` median" and
+    /// "`label` min to max".
     pub label: String,
     /// Frequencies, Hz, as for [`Trace::freq_hz`].
     pub freq_hz: Vec<f64>,
@@ -216,7 +216,7 @@ pub enum PlotError {
     Encode(String),
 }
 
-/// What [`png`] produced.
+/// What [`png()`] produced.
 #[derive(Debug, Clone, PartialEq)]
 pub enum PngOutput {
     /// The encoded image, drawn with the font at `font`.
