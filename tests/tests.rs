@@ -7,4 +7,5 @@ mod circuit;
 mod cli;
 mod design;
 mod parts;
+mod export;
 mod synth;
