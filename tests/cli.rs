@@ -232,6 +232,42 @@ const BAD_EDITS: &[(&str, &str, &str, &[&str])] = &[
         "load_ohm = 600\n[active]\nmethod = \"magic\"",
         &["method", "auto", "gic", "fdnr"],
     ),
+    (
+        "series",
+        "load_ohm = 600",
+        "load_ohm = 600\n[parts]\nresistor_series = \"E7\"",
+        &["resistor_series", "E24", "E96"],
+    ),
+    (
+        "tol-low",
+        "load_ohm = 600",
+        "load_ohm = 600\n[parts]\nresistor_tolerance = -0.01",
+        &["parts.resistor_tolerance", "from 0 to 0.5"],
+    ),
+    (
+        "tol-high",
+        "load_ohm = 600",
+        "load_ohm = 600\n[parts]\ncapacitor_tolerance = 0.6",
+        &["parts.capacitor_tolerance", "from 0 to 0.5"],
+    ),
+    (
+        "cap-range",
+        "load_ohm = 600",
+        "load_ohm = 600\n[parts]\ncapacitor_range = [1e-6, 1e-9]",
+        &["parts.capacitor_range", "low < high"],
+    ),
+    (
+        "trials",
+        "load_ohm = 600",
+        "load_ohm = 600\n[montecarlo]\ntrials = 0",
+        &["montecarlo.trials", "from 1"],
+    ),
+    (
+        "swing",
+        "load_ohm = 600",
+        "load_ohm = 600\n[opamp]\nswing_v = -3",
+        &["opamp.swing_v", "greater than 0"],
+    ),
 ];
 
 #[test]
