@@ -49,6 +49,26 @@ enum Command {
         #[arg(long, value_name = "N", default_value_t = 401)]
         points: usize,
     },
+    /// Run a Monte Carlo yield analysis of the active build against the
+    /// specification: print the yield and the worst trials; with --out,
+    /// write the envelope as CSV.
+    Montecarlo {
+        /// The design file (TOML).
+        spec: PathBuf,
+        /// Number of trials (default: the design file's, else 1000).
+        #[arg(long, value_name = "N")]
+        trials: Option<usize>,
+        /// Seed of the draws (default: the design file's, else 1). One seed
+        /// gives one result, whatever the thread count.
+        #[arg(long, value_name = "S")]
+        seed: Option<u64>,
+        /// Worker threads (default: one per core).
+        #[arg(long, value_name = "N")]
+        threads: Option<usize>,
+        /// Folder for montecarlo.csv (the envelope).
+        #[arg(long, value_name = "DIR")]
+        out: Option<PathBuf>,
+    },
     /// Print the minimum order of every family for a mask given by flags.
     Order {
         /// Filter kind.
@@ -116,6 +136,13 @@ fn run(cli: Cli) -> anyhow::Result<()> {
             to,
             points,
         } => run_sweep(&spec, from, to, points),
+        Command::Montecarlo {
+            spec,
+            trials,
+            seed,
+            threads,
+            out,
+        } => run_montecarlo(&spec, trials, seed, threads, out.as_deref()),
         Command::Order {
             kind,
             passband,
@@ -150,6 +177,57 @@ fn run_design(spec: &Path, out: &Path) -> anyhow::Result<()> {
         .map(|f| out.join(f.name).display().to_string())
         .collect();
     println!("wrote {}", names.join(", "));
+    Ok(())
+}
+
+fn run_montecarlo(
+    spec: &Path,
+    trials: Option<usize>,
+    seed: Option<u64>,
+    threads: Option<usize>,
+    out: Option<&Path>,
+) -> anyhow::Result<()> {
+    let d = load_design(spec)?;
+    let trials = trials.unwrap_or(d.spec.montecarlo.trials);
+    if trials == 0 {
+        return Err(BadInput("--trials 0: expected at least 1".to_string()).into());
+    }
+    let seed = seed.unwrap_or(d.spec.montecarlo.seed);
+    let active = d.active()?;
+    let mut pool = rayon::ThreadPoolBuilder::new();
+    if let Some(n) = threads {
+        if n == 0 {
+            return Err(BadInput("--threads 0: expected at least 1".to_string()).into());
+        }
+        pool = pool.num_threads(n);
+    }
+    let pool = pool.build().context("starting the worker threads")?;
+    // Progress and timing go to standard error, and only on a terminal,
+    // so that standard output is the same for one seed on any thread count.
+    let bar = indicatif::ProgressBar::with_draw_target(
+        Some(trials as u64),
+        indicatif::ProgressDrawTarget::stderr(),
+    );
+    if !std::io::IsTerminal::is_terminal(&std::io::stderr()) {
+        bar.set_draw_target(indicatif::ProgressDrawTarget::hidden());
+    }
+    let tick = |_done: usize| bar.inc(1);
+    let started = std::time::Instant::now();
+    let result =
+        pool.install(|| d.monte_carlo(&active.build.netlist, trials, seed, Some(&tick)))?;
+    bar.finish_and_clear();
+    eprintln!(
+        "nocoil: {trials} trials in {:.3} s on {} threads",
+        started.elapsed().as_secs_f64(),
+        pool.current_num_threads()
+    );
+    print!("{}", design::yield_summary(&result, seed));
+    if let Some(dir) = out {
+        std::fs::create_dir_all(dir).with_context(|| format!("creating {}", dir.display()))?;
+        let path = dir.join("montecarlo.csv");
+        export::write_atomic(&path, design::envelope_csv(&result).as_bytes())?;
+        println!("wrote {}", path.display());
+    }
     Ok(())
 }
 

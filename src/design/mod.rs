@@ -18,9 +18,11 @@ use std::path::PathBuf;
 mod active;
 mod outputs;
 mod report;
+mod yields;
 pub use active::{opamp_model, passbands, ActiveDesign, Comparison};
 pub use outputs::{OutputFile, DECK_POINTS_PER_DECADE};
 pub use report::{NormalizedElement, Report, ScaledElement};
+pub use yields::{envelope_csv, series, yield_summary, MONTE_CARLO_POINTS, WORST_TRIALS};
 
 /// How the order was fixed.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
