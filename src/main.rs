@@ -167,16 +167,13 @@ fn run_design(spec: &Path, out: &Path) -> anyhow::Result<()> {
     // half-written output.
     std::fs::create_dir_all(out).with_context(|| format!("creating {}", out.display()))?;
     for f in &files {
-        let path = out.join(f.name);
+        let path = out.join(&f.name);
         export::write_atomic(&path, &f.bytes)
             .with_context(|| format!("writing {}", path.display()))?;
     }
     print!("{}{}", d.summary(), active.summary());
-    let names: Vec<String> = files
-        .iter()
-        .map(|f| out.join(f.name).display().to_string())
-        .collect();
-    println!("wrote {}", names.join(", "));
+    let names: Vec<&str> = files.iter().map(|f| f.name.as_str()).collect();
+    println!("wrote into {}: {}", out.display(), names.join(", "));
     Ok(())
 }
 

@@ -921,24 +921,48 @@ fn report_renders_in_headless_chromium() {
     let dir = samples_dir();
     let page = dir.join("report.html");
     std::fs::write(&page, html::html_report(&sample_report())).unwrap();
+    let Some(browser) = assert_renders(&page, &dir.join("report.png")) else {
+        return;
+    };
+    // Printed on A4 (the page's own @page rule), the sample report takes
+    // at most two pages.
+    let pdf = dir.join("report.pdf");
+    let _ = std::fs::remove_file(&pdf);
+    let args = [
+        format!("--print-to-pdf={}", pdf.display()),
+        "--no-pdf-header-footer".to_string(),
+    ];
+    let took = chromium(&browser, &args, &page);
+    eprintln!("chromium print of the report took {took:.1?}");
+    let pages = pdf_pages(&std::fs::read(&pdf).expect("chromium wrote the PDF"));
+    assert!(
+        (1..=2).contains(&pages),
+        "the report prints on {pages} pages"
+    );
+}
+
+/// Screenshots `page` in headless Chromium into `shot` and checks it is a
+/// real page with the charts drawn; returns the browser, or `None` where
+/// Chromium is not installed outside CI (see
+/// [`report_renders_in_headless_chromium`]).
+fn assert_renders(page: &Path, shot: &Path) -> Option<PathBuf> {
     let Some(browser) = on_path("chromium") else {
         assert!(
             std::env::var_os("CI").is_none(),
             "chromium is not on PATH under CI: .ci/run must install the Debian package chromium"
         );
         eprintln!("chromium not on PATH: report screenshot check skipped (apt-get install chromium); report_is_self_contained_and_escaped still checks the page structure");
-        return;
+        return None;
     };
-    let shot = dir.join("report.png");
-    let _ = std::fs::remove_file(&shot);
+    let _ = std::fs::remove_file(shot);
     let args = [
         format!("--screenshot={}", shot.display()),
         "--window-size=1000,1400".to_string(),
         "--hide-scrollbars".to_string(),
     ];
-    let took = chromium(&browser, &args, &page);
+    let took = chromium(&browser, &args, page);
     eprintln!("chromium screenshot of the report took {took:.1?}");
-    let bytes = std::fs::read(&shot).expect("chromium wrote the screenshot");
+    let bytes = std::fs::read(shot).expect("chromium wrote the screenshot");
     let pixels = Pixels::decode(&bytes);
     assert_eq!((pixels.width, pixels.height), (1000, 1400));
     let white = near(&pixels, (255, 255, 255), 0);
@@ -961,21 +985,28 @@ fn report_renders_in_headless_chromium() {
         "no specification limit drawn"
     );
 
-    // Printed on A4 (the page's own @page rule), the sample report takes
-    // at most two pages.
-    let pdf = dir.join("report.pdf");
-    let _ = std::fs::remove_file(&pdf);
-    let args = [
-        format!("--print-to-pdf={}", pdf.display()),
-        "--no-pdf-header-footer".to_string(),
-    ];
-    let took = chromium(&browser, &args, &page);
-    eprintln!("chromium print of the report took {took:.1?}");
-    let pages = pdf_pages(&std::fs::read(&pdf).expect("chromium wrote the PDF"));
-    assert!(
-        (1..=2).contains(&pages),
-        "the report prints on {pages} pages"
-    );
+    Some(browser)
+}
+
+/// The report `nocoil design` writes for the demo anti-alias filter renders
+/// in headless Chromium too.
+#[test]
+fn demo_report_renders_in_headless_chromium() {
+    let spec = nocoil::spec::Spec::load(
+        &Path::new(env!("CARGO_MANIFEST_DIR")).join("examples/vibration-antialias.toml"),
+    )
+    .unwrap();
+    let d = nocoil::design::design(&spec).unwrap();
+    let active = d.active().unwrap();
+    let files = d.document_files(&active).unwrap();
+    let (_, html) = files
+        .iter()
+        .find(|(n, _)| n == "report.html")
+        .expect("a report");
+    let dir = samples_dir();
+    let page = dir.join("demo-report.html");
+    std::fs::write(&page, html).unwrap();
+    assert_renders(&page, &dir.join("demo-report.png"));
 }
 
 /// Number of page objects in a PDF: dictionaries with `/Type /Page`

@@ -16,7 +16,9 @@ use crate::transform::{passive_netlist, Mapping};
 use std::path::PathBuf;
 
 mod active;
+mod documents;
 mod outputs;
+pub use documents::{sensitivity_csv, Analyses, CAUTIONS};
 mod report;
 mod yields;
 pub use active::{opamp_model, passbands, ActiveDesign, Comparison};

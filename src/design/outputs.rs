@@ -12,14 +12,15 @@ pub const DECK_POINTS_PER_DECADE: usize = 100;
 #[derive(Debug, Clone, PartialEq)]
 pub struct OutputFile {
     /// File name, e.g. `passive.cir`.
-    pub name: &'static str,
+    pub name: String,
     /// Contents.
     pub bytes: Vec<u8>,
 }
 
 impl Design {
-    /// Every file of a finished design: the passive and active SPICE decks
-    /// and the JSON report.
+    /// Every file of a finished design: the passive and active SPICE decks,
+    /// the JSON report, and the documents of
+    /// [`Design::document_files`].
     pub fn output_files(&self, active: &ActiveDesign) -> Result<Vec<OutputFile>, DesignError> {
         let (start_hz, stop_hz) = self.default_band();
         let sweep = AcSweep {
@@ -37,23 +38,29 @@ impl Design {
                 cause: e.to_string(),
             }
         })?;
-        Ok(vec![
+        let mut files = vec![
             OutputFile {
-                name: "passive.cir",
+                name: "passive.cir".to_string(),
                 bytes: deck(&self.passive, &sweep)
                     .map_err(|e| export(e.to_string()))?
                     .into_bytes(),
             },
             OutputFile {
-                name: "active.cir",
+                name: "active.cir".to_string(),
                 bytes: deck(&active.build.netlist, &sweep)
                     .map_err(|e| export(e.to_string()))?
                     .into_bytes(),
             },
             OutputFile {
-                name: "report.json",
+                name: "report.json".to_string(),
                 bytes: report.into_bytes(),
             },
-        ])
+        ];
+        files.extend(
+            self.document_files(active)?
+                .into_iter()
+                .map(|(name, bytes)| OutputFile { name, bytes }),
+        );
+        Ok(files)
     }
 }
