@@ -1,6 +1,7 @@
 //! Integration tests: one entry, one module per stage.
 mod util;
 
+mod active;
 mod analysis;
 mod approx;
 mod circuit;
