@@ -249,7 +249,7 @@ fn run_sweep(spec: &Path, from: Option<f64>, to: Option<f64>, points: usize) -> 
     let (db, phase, delay) = (
         response.db(),
         response.phase_deg(),
-        response.group_delay_s()?,
+        design::group_delay(&d.passive, &freqs)?,
     );
     let mut csv = String::from(
         "freq_hz,passive_db,passive_phase_deg,passive_group_delay_s,active_db,active_phase_deg\n",

@@ -39,6 +39,10 @@ pub struct Analyses {
     pub passive: Response,
     /// Active build response.
     pub active: Response,
+    /// Group delay of the passive ideal, s.
+    pub passive_delay_s: Vec<f64>,
+    /// Group delay of the active build, s.
+    pub active_delay_s: Vec<f64>,
     /// Per-element sensitivities of the active build.
     pub sensitivity: Vec<SensitivitySummary>,
     /// Peak gain to every op-amp output and the input level it allows.
@@ -99,6 +103,8 @@ impl Design {
         let mc = &self.spec.montecarlo;
         let montecarlo = self.monte_carlo(net, mc.trials, mc.seed, None)?;
         Ok(Analyses {
+            passive_delay_s: super::group_delay(&self.passive, &freq_hz).map_err(circuit)?,
+            active_delay_s: super::group_delay(net, &freq_hz).map_err(circuit)?,
             freq_hz,
             passive,
             active: active_response,

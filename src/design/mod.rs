@@ -431,6 +431,23 @@ impl Design {
     }
 }
 
+/// Group delay of V(out)/V(in), seconds, at each frequency: exact up to
+/// rounding (one extra solve per point, see [`AcSystem::group_delay`]),
+/// so a transmission zero does not smear into the neighbouring points as a
+/// difference quotient of the phase would. At a zero itself the delay is
+/// undefined and comes out as NaN.
+pub fn group_delay(netlist: &Netlist, freqs_hz: &[f64]) -> Result<Vec<f64>, CircuitError> {
+    let (inp, out) = (netlist.require_node("in")?, netlist.require_node("out")?);
+    let mut system = AcSystem::new(netlist)?;
+    freqs_hz
+        .iter()
+        .map(|&f| match system.group_delay(f, out, inp) {
+            Err(CircuitError::ZeroVoltage { .. }) => Ok(f64::NAN),
+            other => other,
+        })
+        .collect()
+}
+
 /// V(out)/V(in) of a netlist that follows the project's contract (nodes
 /// `in` and `out`).
 pub fn response(netlist: &Netlist, freqs_hz: &[f64]) -> Result<Response, CircuitError> {

@@ -23,7 +23,8 @@ pub fn write_atomic(path: &std::path::Path, bytes: &[u8]) -> std::io::Result<()>
     #[cfg(unix)]
     {
         use std::os::unix::fs::PermissionsExt;
-        tmp.as_file().set_permissions(std::fs::Permissions::from_mode(0o644))?;
+        tmp.as_file()
+            .set_permissions(std::fs::Permissions::from_mode(0o644))?;
     }
     tmp.as_file().sync_all()?;
     tmp.persist(path).map_err(|e| e.error)?;
