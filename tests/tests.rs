@@ -2,8 +2,11 @@
 mod util;
 
 mod active;
+mod analysis;
 mod approx;
 mod circuit;
 mod cli;
 mod design;
+mod export;
+mod parts;
 mod synth;

@@ -24,7 +24,7 @@ mod reference;
 mod response;
 
 pub use error::CircuitError;
-pub use mna::AcSystem;
+pub use mna::{AcSystem, Adjoint, Target};
 pub use netlist::{ElementKind, Terminal};
 pub use reference::reference_transfer;
 pub use response::log_grid;

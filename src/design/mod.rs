@@ -5,6 +5,8 @@
 //! approximation -> ladder -> transformed, scaled netlist. Neither the CLI
 //! nor any stage needs to know the whole chain.
 
+use crate::active::ActiveError;
+use crate::analysis::AnalysisError;
 use crate::approx::{self, ApproxError, Family, Params, Prototype};
 use crate::circuit::{AcSystem, CircuitError, Netlist, Response};
 use crate::spec::table::{PrototypeTable, TableArm};
@@ -13,8 +15,16 @@ use crate::synth::{self, ArmValues, Form, Ladder, SynthError};
 use crate::transform::{passive_netlist, Mapping};
 use std::path::PathBuf;
 
+mod active;
+mod documents;
+mod outputs;
+pub use documents::{sensitivity_csv, Analyses, CAUTIONS};
 mod report;
+mod yields;
+pub use active::{opamp_model, passbands, ActiveDesign, Comparison};
+pub use outputs::{OutputFile, DECK_POINTS_PER_DECADE};
 pub use report::{NormalizedElement, Report, ScaledElement};
+pub use yields::{envelope_csv, series, yield_summary, MONTE_CARLO_POINTS, WORST_TRIALS};
 
 /// How the order was fixed.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
@@ -99,6 +109,31 @@ pub enum DesignError {
         /// Why.
         cause: CircuitError,
     },
+    /// The inductors could not be removed as asked (a method that cannot
+    /// serve this ladder, an unstable network).
+    #[error("{}: {cause}", file.display())]
+    Active {
+        /// The design file.
+        file: PathBuf,
+        /// Why.
+        cause: ActiveError,
+    },
+    /// An analysis of a built network failed (a program fault).
+    #[error("{}: {cause}", file.display())]
+    Analysis {
+        /// The design file.
+        file: PathBuf,
+        /// Why.
+        cause: AnalysisError,
+    },
+    /// An output could not be rendered (a program fault).
+    #[error("{}: writing the outputs: {cause}", file.display())]
+    Export {
+        /// The design file.
+        file: PathBuf,
+        /// Why.
+        cause: String,
+    },
     /// Synthesis could not hold its accuracy for this approximation.
     #[error("{}: the ladder synthesis could not hold its accuracy for this design; a lower order or a wider transition band will do ({cause})", file.display())]
     Synth {
@@ -113,7 +148,10 @@ impl DesignError {
     /// Whether the problem is in the user's input (exit status 2) rather
     /// than in the program.
     pub fn is_bad_input(&self) -> bool {
-        !matches!(self, DesignError::Circuit { .. })
+        !matches!(
+            self,
+            DesignError::Circuit { .. } | DesignError::Analysis { .. } | DesignError::Export { .. }
+        )
     }
 }
 
