@@ -391,10 +391,16 @@ fn active_decks_match_ngspice() {
     for case in &fx.cases {
         let d = case.design();
         for method in case.methods(&d).into_iter().filter(|&m| m != Method::Auto) {
+            let with_output_ohm = OpAmpModel::SinglePole {
+                dc_gain: 1e5,
+                gbw_hz: 10e6,
+                output_ohm: 50.0,
+            };
             let models = [
                 ("ideal", OpAmpModel::Ideal),
                 ("1 MHz", single_pole(1e6)),
                 ("10 MHz", single_pole(10e6)),
+                ("10 MHz 50 ohm", with_output_ohm),
             ];
             for (label, opamp) in models {
                 let b = build(case, &d, method, opamp);

@@ -20,14 +20,15 @@
 //! The ideal relation only needs two of the three equalities V(p) = V(b)
 //! = V(d); which op-amp holds which, and with which polarity, decides
 //! stability. Of the 24 assignments, an exhaustive search with single-pole
-//! op-amps (A0 = 1e5, GBW 1 and 10 MHz, equal and unequal), the four
-//! converter types (capacitor in position 2 or 4, capacitors in 1 and 3
-//! or 1 and 5), impedance ratios from 1/10 to 10 and terminations from a
-//! short to an open circuit left two without a fast (GBW-scale)
-//! right-half-plane root for every case. Of those two, the one used here
-//! also cancels the first-order loss of the balanced converter (measured
-//! loss tangent 4e-5 at GBW/f = 1000, set by A0, against 2e-3 of negative
-//! resistance for the other):
+//! op-amps (A0 = 1e5, GBW 1 and 10 MHz, equal and mixed) on the inductor
+//! and FDNR chains, with port 1 terminated from 1 ohm to 10 Mohm, leaves
+//! two with every natural frequency in the left half plane
+//! (tests/active.rs repeats the search; a wider one over impedance ratios
+//! from 1/10 to 10 and RC terminations kept the same two free of any
+//! GBW-scale growth). Of those two, the one used here also cancels the
+//! first-order loss of the balanced converter (measured loss tangent 4e-5
+//! at GBW/f = 1000, set by A0, against a negative resistance of 2e-3 for
+//! the other):
 //! - op-amp 1 (output `a`): non-inverting input at port 2 (`d`),
 //!   inverting input at `b`;
 //! - op-amp 2 (output `c`): non-inverting input at port 1 (`p`),
@@ -39,7 +40,7 @@
 //! its capacitor in position 2 (op-amp 1 between `p` and `b`, op-amp 2
 //! between `b` and `d`) grows at about 1e4 1/s when port 1 is left open
 //! (measured), so it is not used. tests/active.rs re-proves the choice on
-//! every realized filter (natural frequencies and ngspice transients) and
+//! realized filters (natural frequencies and ngspice step responses) and
 //! shows that swapping either op-amp's inputs makes them diverge.
 //!
 //! # Balanced values
@@ -48,13 +49,16 @@
 //! loop gains are equal at the balance frequency wb (measured with this
 //! arrangement on the inductor at GBW/f = 1000: Z4 10 % high gives a loss
 //! tangent of -1.5e-4, a negative resistance, Z5 10 % high +2.4e-4; Z2 and
-//! Z3 act alike on the FDNR). Z1 sits outside both loops (scaling it scales Zin and
-//! nothing else, to rounding), so it is the element that trims the value:
+//! Z3 act alike on the FDNR). Z1 sits outside both loops (scaling it
+//! scales Zin and nothing else, to rounding), so it is the element that
+//! trims the value:
 //! - inductor (capacitor in position 2): Z2 = C, Z3 = Z4 = Z5 = R,
 //!   wb C R = 1, and R1 = wb L since L = C R1 R3 R5 / R4;
 //! - FDNR (capacitors in positions 1 and 5), Zin = 1/(s^2 D):
 //!   Z2 = Z3 = Z4 = R, Z5 = C5 with wb C5 R = 1, and C1 = wb D since
-//!   D = C1 C5 R2 R4 / R3.
+//!   D = C1 C5 R2 R4 / R3 (the field notes print the reciprocal,
+//!   R3 / (C^2 R2 R4); the chain's Zin, checked in tests/active.rs,
+//!   gives this one).
 //!
 //! The capacitor sits in position 2 rather than 4 so that the floating
 //! inductor (below) keeps a DC path to every op-amp input.
@@ -69,6 +73,13 @@
 //! the two-port relation above). Balanced with R5 = R: halving R5 gave a
 //! right-half-plane root between resistive terminations (measured), R and
 //! 2 R none.
+//!
+//! At DC h vanishes, so only the op-amps' finite gain ties I_B to I_A:
+//! with ideal op-amps the equations are singular at exactly 0 Hz (the AC
+//! response is exact at any other frequency), and with single-pole ones a
+//! slow real natural frequency remains (measured -0.006 to -0.25 1/s for
+//! A0 from 1e4 to 1e6, GBW 1 to 10 MHz and 1 % parts), which the
+//! stability verdict weighs like any other.
 
 use crate::circuit::{Element, Netlist, OpAmpModel};
 
