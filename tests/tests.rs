@@ -6,6 +6,7 @@ mod approx;
 mod circuit;
 mod cli;
 mod design;
-mod parts;
 mod export;
+mod parts;
+mod snap;
 mod synth;

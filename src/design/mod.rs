@@ -17,9 +17,13 @@ use std::path::PathBuf;
 
 mod active;
 mod outputs;
+mod parts;
 mod report;
 pub use active::{opamp_model, passbands, ActiveDesign, Comparison};
 pub use outputs::{OutputFile, DECK_POINTS_PER_DECADE};
+pub use parts::{
+    snap_build, ErrorSteps, PartsChoice, PartsSnapError, SnappedBuild, Trim, TRIMMER_SERIES,
+};
 pub use report::{NormalizedElement, Report, ScaledElement};
 
 /// How the order was fixed.
