@@ -28,13 +28,18 @@
 //!    or it leaks to ground, so it gets two trims.
 //!
 //! The largest passband deviation from the passive ideal is measured with
-//! the build's own op-amps after each step ([`ErrorSteps`]).
+//! the build's own op-amps after each step ([`ErrorSteps`]). The trims
+//! remove the converters' share of the snapping error; what they cannot
+//! remove is that of the parts outside any converter: the ladder's own
+//! capacitors in a simulated-inductor build, the images of the ladder's
+//! inductors (resistors) in an FDNR image.
 //!
 //! Invariants of a [`SnappedBuild`]: its netlist has the build's
 //! elements, names and nodes; every resistor but the trims is a
 //! resistor-series value, every capacitor a capacitor-series value inside
 //! the range; every converter realizes, with ideal op-amps, the value it
-//! realized in the build (times the image level of step 1).
+//! realized in the build (an FDNR's D divided by the image level of step
+//! 1, which multiplied every impedance of the image).
 
 mod converter;
 mod error;

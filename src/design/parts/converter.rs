@@ -253,3 +253,79 @@ impl Converter {
         Ok(moves)
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A product of five values rounds five times, 1.1e-16 each.
+    const PRODUCT_TOL: f64 = 1e-15;
+
+    /// A chain of five elements with these kinds and values (capacitor
+    /// where `true`), on nodes of their own.
+    fn chain(kinds: [bool; 5], values: [f64; 5]) -> (Netlist, Chain) {
+        let mut n = Netlist::new("chain");
+        for (p, (&c, &v)) in kinds.iter().zip(&values).enumerate() {
+            let (a, b) = (n.node(&format!("n{p}")), n.node(&format!("m{p}")));
+            let e = if c {
+                Element::Capacitor {
+                    name: format!("C{p}"),
+                    a,
+                    b,
+                    farad: v,
+                }
+            } else {
+                Element::Resistor {
+                    name: format!("R{p}"),
+                    a,
+                    b,
+                    ohm: v,
+                }
+            };
+            n.add(e).unwrap();
+        }
+        let c = read_chain(&n, [0, 1, 2, 3, 4]).unwrap();
+        (n, c)
+    }
+
+    /// The exponents reproduce the closed forms of the four converters of
+    /// the GIC relation Zin = Z1 Z3 Z5 / (Z2 Z4) (common practice; the
+    /// field notes, section 4), including the two this crate does not
+    /// build (capacitor in position 4; capacitors in 1 and 3).
+    #[test]
+    fn realized_values_follow_the_gic_relation() {
+        let v = [1.1e3, 2.3e-9, 3.7e3, 4.1e3, 5.3e3];
+        let (r1, x2, r3, r4, r5) = (v[0], v[1], v[2], v[3], v[4]);
+        let (n, c) = chain([false, true, false, false, false], v);
+        assert!((c.realized(&n) / (x2 * r1 * r3 * r5 / r4) - 1.0).abs() < PRODUCT_TOL);
+        assert_eq!(c.trim, 0);
+        let v = [1.1e3, 2.3e3, 3.7e3, 4.1e-9, 5.3e3];
+        let (n, c) = chain([false, false, false, true, false], v);
+        assert!((c.realized(&n) / (v[3] * v[0] * v[2] * v[4] / v[1]) - 1.0).abs() < PRODUCT_TOL);
+        let v = [1.1e-9, 2.3e3, 3.7e3, 4.1e3, 5.3e-9];
+        let (n, c) = chain([true, false, false, false, true], v);
+        assert!((c.realized(&n) / (v[0] * v[4] * v[1] * v[3] / v[2]) - 1.0).abs() < PRODUCT_TOL);
+        assert_eq!(c.trim, 1);
+        let v = [1.1e-9, 2.3e3, 3.7e-9, 4.1e3, 5.3e3];
+        let (n, c) = chain([true, false, true, false, false], v);
+        assert!((c.realized(&n) / (v[0] * v[2] * v[1] * v[3] / v[4]) - 1.0).abs() < PRODUCT_TOL);
+    }
+
+    /// A chain with no frequency dependence realizes no L or D.
+    #[test]
+    fn a_resistive_chain_is_refused() {
+        let mut n = Netlist::new("chain");
+        for p in 0..5 {
+            let (a, b) = (n.node(&format!("n{p}")), n.node(&format!("m{p}")));
+            let name = format!("R{p}");
+            n.add(Element::Resistor {
+                name,
+                a,
+                b,
+                ohm: 1e3,
+            })
+            .unwrap();
+        }
+        assert!(read_chain(&n, [0, 1, 2, 3, 4]).is_err());
+    }
+}
