@@ -9,4 +9,5 @@ mod cli;
 mod design;
 mod export;
 mod parts;
+mod snap;
 mod synth;

@@ -18,11 +18,15 @@ use std::path::PathBuf;
 mod active;
 mod documents;
 mod outputs;
+mod parts;
 pub use documents::{sensitivity_csv, Analyses, CAUTIONS};
 mod report;
 mod yields;
 pub use active::{opamp_model, passbands, ActiveDesign, Comparison};
 pub use outputs::{OutputFile, DECK_POINTS_PER_DECADE};
+pub use parts::{
+    snap_build, ErrorSteps, PartsChoice, PartsSnapError, SnappedBuild, Trim, TRIMMER_SERIES,
+};
 pub use report::{NormalizedElement, Report, ScaledElement};
 pub use yields::{envelope_csv, series, yield_summary, MONTE_CARLO_POINTS, WORST_TRIALS};
 
