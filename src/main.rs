@@ -49,8 +49,8 @@ enum Command {
         #[arg(long, value_name = "N", default_value_t = 401)]
         points: usize,
     },
-    /// Run a Monte Carlo yield analysis of the active build against the
-    /// specification: print the yield and the worst trials; with --out,
+    /// Run a Monte Carlo yield analysis of the active build on preferred
+    /// values, trimmed, against the specification: print the yield and the worst trials; with --out,
     /// write the envelope as CSV.
     Montecarlo {
         /// The design file (TOML).
@@ -210,8 +210,7 @@ fn run_montecarlo(
     }
     let tick = |_done: usize| bar.inc(1);
     let started = std::time::Instant::now();
-    let result =
-        pool.install(|| d.monte_carlo(&active.build.netlist, trials, seed, Some(&tick)))?;
+    let result = pool.install(|| d.monte_carlo(&active.real.netlist, trials, seed, Some(&tick)))?;
     bar.finish_and_clear();
     eprintln!(
         "nocoil: {trials} trials in {:.3} s on {} threads",

@@ -275,8 +275,10 @@ fn demo_designs_run_and_meet_their_masks() {
 
 /// The case's design file with an `[active]` method and an op-amp model.
 fn active_case(case: &Case, method: &str, opamp: &str) -> Option<nocoil::design::ActiveDesign> {
+    // These checks are of the realization, not of the parts: a range wide
+    // enough for every fixture's ladder capacitors.
     let text = format!(
-        "{}[active]\nmethod = \"{method}\"\n[opamp]\n{opamp}\n",
+        "{}[active]\nmethod = \"{method}\"\n[opamp]\n{opamp}\n[parts]\ncapacitor_range = [1e-15, 1.0]\n",
         case.toml()
     );
     let spec = Spec::from_toml(Path::new("fixture.toml"), &text).unwrap();

@@ -2,7 +2,9 @@
 //! the design file, and the comparison of the active network with the
 //! passive ideal that a designer reads before building it.
 
-use super::{response, Design, DesignError};
+use super::{
+    response, series, snap_build, Design, DesignError, ErrorSteps, PartsChoice, SnappedBuild, Trim,
+};
 use crate::active::{self, ActiveBuild, Method, Options};
 use crate::analysis::opamp_levels;
 use crate::circuit::{log_grid, AcSystem, CircuitError, Netlist, OpAmpModel};
@@ -104,13 +106,23 @@ pub struct Comparison {
     pub rightmost_natural_frequency: Option<[f64; 2]>,
     /// Notes of the realization (series swaps, DC-path effect, refinement).
     pub notes: Vec<String>,
+    /// Largest passband deviation from the passive ideal as built, after
+    /// rescaling into the capacitor range, on preferred values, and with
+    /// the trimming resistors set, dB.
+    pub parts_error_db: ErrorSteps,
+    /// One trimming resistor per converter chain.
+    pub trims: Vec<Trim>,
+    /// What the rescaling into the capacitor range did.
+    pub rescaled: Vec<String>,
 }
 
 /// The active network and its comparison with the passive ideal.
 #[derive(Debug, Clone)]
 pub struct ActiveDesign {
-    /// The realization.
+    /// The realization, with exact values.
     pub build: ActiveBuild,
+    /// The same on preferred values, trimmed: what is bought and built.
+    pub real: SnappedBuild,
     /// The comparison.
     pub comparison: Comparison,
 }
@@ -137,8 +149,30 @@ impl Design {
             file: file(),
             cause,
         })?;
-        let comparison = self.compare(&build, opts.opamp, band)?;
-        Ok(ActiveDesign { build, comparison })
+        let p = &self.spec.parts;
+        let choice = PartsChoice {
+            resistor_series: series(p.resistor_series),
+            resistor_tolerance: p.resistor_tolerance,
+            capacitor_series: series(p.capacitor_series),
+            capacitor_tolerance: p.capacitor_tolerance,
+            capacitor_range_f: p.capacitor_range_f,
+        };
+        let real =
+            snap_build(&self.passive, &build, &choice, &opts.passband_hz).map_err(|cause| {
+                DesignError::Parts {
+                    file: file(),
+                    cause,
+                }
+            })?;
+        let mut comparison = self.compare(&build, opts.opamp, band)?;
+        comparison.parts_error_db = real.error_db;
+        comparison.trims = real.trims.clone();
+        comparison.rescaled = real.rescaled.clone();
+        Ok(ActiveDesign {
+            build,
+            real,
+            comparison,
+        })
     }
 
     fn compare(
@@ -226,6 +260,14 @@ impl Design {
                 .and_then(|v| v.rightmost)
                 .map(|r| [r.re, r.im]),
             notes: build.notes.clone(),
+            parts_error_db: ErrorSteps {
+                as_built: f64::NAN,
+                ideal_values: f64::NAN,
+                snapped: f64::NAN,
+                trimmed: f64::NAN,
+            },
+            trims: Vec::new(),
+            rescaled: Vec::new(),
         })
     }
 }

@@ -101,7 +101,8 @@ impl Design {
             }
         }
         let mc = &self.spec.montecarlo;
-        let montecarlo = self.monte_carlo(net, mc.trials, mc.seed, None)?;
+        // The yield is that of what is built: preferred values, trimmed.
+        let montecarlo = self.monte_carlo(&active.real.netlist, mc.trials, mc.seed, None)?;
         Ok(Analyses {
             passive_delay_s: super::group_delay(&self.passive, &freq_hz).map_err(circuit)?,
             active_delay_s: super::group_delay(net, &freq_hz).map_err(circuit)?,
@@ -261,7 +262,7 @@ impl Design {
         let p = &self.spec.parts;
         let stage_of = |name: &str| {
             active
-                .build
+                .real
                 .stages
                 .iter()
                 .find(|s| s.elements.iter().chain(&s.opamps).any(|e| e == name))
@@ -332,7 +333,7 @@ impl Design {
                 .collect()
         };
         let mut all = rows(&self.passive, "passive", false);
-        all.extend(rows(&active.build.netlist, "active", true));
+        all.extend(rows(&active.real.netlist, "active", true));
         group_rows(&all)
     }
 

@@ -122,6 +122,15 @@ pub enum DesignError {
         /// Why.
         cause: ActiveError,
     },
+    /// The build cannot be made of the parts asked for (a capacitor range
+    /// no impedance level meets, ...).
+    #[error("{}: {cause}", file.display())]
+    Parts {
+        /// The design file.
+        file: PathBuf,
+        /// Why.
+        cause: PartsSnapError,
+    },
     /// An analysis of a built network failed (a program fault).
     #[error("{}: {cause}", file.display())]
     Analysis {

@@ -401,7 +401,24 @@ impl ActiveDesign {
             eng::format(c.largest_opamp_gain_hz, "Hz"),
             c.largest_opamp_gain_at
         );
-        for n in &c.notes {
+        let e = &c.parts_error_db;
+        let _ = writeln!(
+            s,
+            "  on real parts: passband deviation {:.4} dB after rescaling, {:.4} dB on preferred values, {:.4} dB trimmed",
+            e.ideal_values, e.snapped, e.trimmed
+        );
+        for t in &c.trims {
+            let _ = writeln!(
+                s,
+                "  trim {} ({}): {} = {} fixed + {} trimmer",
+                t.element,
+                t.stage,
+                eng::format(t.value_ohm, "ohm"),
+                eng::format(t.fixed_ohm, "ohm"),
+                eng::format(t.pot_ohm, "ohm")
+            );
+        }
+        for n in c.notes.iter().chain(&c.rescaled) {
             let _ = writeln!(s, "  note: {n}");
         }
         s
