@@ -69,6 +69,31 @@ enum Command {
         #[arg(long, value_name = "DIR")]
         out: Option<PathBuf>,
     },
+    /// Print the bill of materials of both builds as CSV.
+    Bom {
+        /// The design file (TOML).
+        spec: PathBuf,
+    },
+    /// Print the sensitivities of the active build as CSV (dB per % of
+    /// every part and op-amp GBW).
+    Sensitivity {
+        /// The design file (TOML).
+        spec: PathBuf,
+    },
+    /// Print the peak gain to every op-amp output and the input level the
+    /// output swing allows, as CSV.
+    Levels {
+        /// The design file (TOML).
+        spec: PathBuf,
+    },
+    /// Write the charts, the tables and report.html into a folder.
+    Report {
+        /// The design file (TOML).
+        spec: PathBuf,
+        /// Folder for the documents (created if missing).
+        #[arg(long, value_name = "DIR")]
+        out: PathBuf,
+    },
     /// Print the minimum order of every family for a mask given by flags.
     Order {
         /// Filter kind.
@@ -143,6 +168,32 @@ fn run(cli: Cli) -> anyhow::Result<()> {
             threads,
             out,
         } => run_montecarlo(&spec, trials, seed, threads, out.as_deref()),
+        Command::Bom { spec } => {
+            let (d, active) = load_active(&spec)?;
+            print!("{}", export::bom::bom_csv(&d.bom_rows(&active))?);
+            Ok(())
+        }
+        Command::Sensitivity { spec } => {
+            let (d, active) = load_active(&spec)?;
+            print!("{}", design::sensitivity_csv(&d.sensitivity(&active)?));
+            Ok(())
+        }
+        Command::Levels { spec } => {
+            let (d, active) = load_active(&spec)?;
+            let (lo, hi) = d.default_band();
+            let (levels, _) = d.levels(&active, &log_grid(lo, hi, LEVEL_POINTS)?)?;
+            print!("{}", design::levels_csv(&levels));
+            Ok(())
+        }
+        Command::Report { spec, out } => {
+            let (d, active) = load_active(&spec)?;
+            let files: Vec<design::OutputFile> = d
+                .document_files(&active)?
+                .into_iter()
+                .map(|(name, bytes)| design::OutputFile { name, bytes })
+                .collect();
+            write_all(&out, &files)
+        }
         Command::Order {
             kind,
             passband,
@@ -158,23 +209,35 @@ fn load_design(spec: &Path) -> anyhow::Result<Design> {
     Ok(design::design(&spec)?)
 }
 
-fn run_design(spec: &Path, out: &Path) -> anyhow::Result<()> {
+/// Points of the grid the op-amp levels are searched on.
+const LEVEL_POINTS: usize = 400;
+
+fn load_active(spec: &Path) -> anyhow::Result<(Design, design::ActiveDesign)> {
     let d = load_design(spec)?;
     let active = d.active()?;
-    let files = d.output_files(&active)?;
-    // Everything is computed before the folder is touched, and each file
-    // is written to a temporary name and renamed, so a failure leaves no
-    // half-written output.
+    Ok((d, active))
+}
+
+/// Writes computed files into `out`. Everything is computed before the
+/// folder is touched, and each file is written to a temporary name and
+/// renamed, so a failure leaves no half-written output.
+fn write_all(out: &Path, files: &[design::OutputFile]) -> anyhow::Result<()> {
     std::fs::create_dir_all(out).with_context(|| format!("creating {}", out.display()))?;
-    for f in &files {
+    for f in files {
         let path = out.join(&f.name);
         export::write_atomic(&path, &f.bytes)
             .with_context(|| format!("writing {}", path.display()))?;
     }
-    print!("{}{}", d.summary(), active.summary());
     let names: Vec<&str> = files.iter().map(|f| f.name.as_str()).collect();
     println!("wrote into {}: {}", out.display(), names.join(", "));
     Ok(())
+}
+
+fn run_design(spec: &Path, out: &Path) -> anyhow::Result<()> {
+    let (d, active) = load_active(spec)?;
+    let files = d.output_files(&active)?;
+    print!("{}{}", d.summary(), active.summary());
+    write_all(out, &files)
 }
 
 fn run_montecarlo(

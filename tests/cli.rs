@@ -478,3 +478,41 @@ fn zero_tolerances_give_full_yield_and_a_zero_width_envelope() {
         );
     }
 }
+
+/// Each output can be produced alone: bom, sensitivity and levels print
+/// CSV with their headers, report writes the documents.
+#[test]
+fn single_output_subcommands() {
+    let spec = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples/rumble-highpass.toml");
+    let spec = spec.to_str().unwrap();
+    for (command, header) in [
+        (
+            "bom",
+            "build,designators,kind,value,unit,series,tolerance,quantity,stage",
+        ),
+        ("sensitivity", "part,quantity,edge_db_per_percent"),
+        (
+            "levels",
+            "opamp,peak_gain_db,peak_hz,max_input_v,clips_first",
+        ),
+    ] {
+        let stdout = succeeds(&nocoil(&[command, spec]));
+        assert!(stdout.starts_with(header), "{command}: {stdout}");
+        assert!(
+            stdout.lines().count() > 2,
+            "{command}: rows expected:\n{stdout}"
+        );
+    }
+    // Exactly one op-amp clips first (the highest peak gain; no tie here).
+    let levels = succeeds(&nocoil(&["levels", spec]));
+    assert_eq!(
+        levels.lines().filter(|l| l.ends_with(",true")).count(),
+        1,
+        "{levels}"
+    );
+    let dir = scratch("report-only");
+    succeeds(&nocoil(&["report", spec, "--out", dir.to_str().unwrap()]));
+    for f in ["report.html", "magnitude.svg", "bom.csv"] {
+        assert!(dir.join(f).is_file(), "{f}");
+    }
+}

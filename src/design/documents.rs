@@ -14,6 +14,8 @@ use crate::export::eng;
 use crate::export::html::{html_report, Figure, ReportDoc, Table};
 use crate::export::plot::{self, Band, Chart, MaskBox, PngOutput, Trace};
 
+/// Points per passband of the worst-case sensitivity search.
+const SENSITIVITY_POINTS: usize = 50;
 /// Points of the response charts.
 const CHART_POINTS: usize = 600;
 /// Size of a standalone chart, pixels.
@@ -29,6 +31,10 @@ pub const CAUTIONS: [&str; 3] = [
     "Mains-powered or safety-related equipment follows local codes and licensed practice; nothing here replaces them.",
     "The op-amp model is single-pole; slew rate, noise, output current and input bias are not simulated.",
 ];
+
+/// An op-amp's name and the gain from the input to its output, dB, at
+/// each frequency of a grid.
+pub type LevelTrace = (String, Vec<f64>);
 
 /// The computed analyses behind the documents.
 #[derive(Debug, Clone)]
@@ -48,7 +54,7 @@ pub struct Analyses {
     /// Peak gain to every op-amp output and the input level it allows.
     pub levels: Vec<OpAmpLevel>,
     /// Gain from the input to each op-amp output over the chart grid, dB.
-    pub level_traces: Vec<(String, Vec<f64>)>,
+    pub level_traces: Vec<LevelTrace>,
     /// The Monte Carlo run.
     pub montecarlo: MonteCarloResult,
 }
@@ -61,45 +67,13 @@ impl Design {
             file: file(),
             cause,
         };
-        let analysis = |cause| DesignError::Analysis {
-            file: file(),
-            cause,
-        };
         let net = &active.build.netlist;
         let (lo, hi) = self.default_band();
         let freq_hz = log_grid(lo, hi, CHART_POINTS).map_err(circuit)?;
         let passive = super::response(&self.passive, &freq_hz).map_err(circuit)?;
         let active_response = super::response(net, &freq_hz).map_err(circuit)?;
-        let (inp, out) = (
-            net.require_node("in").map_err(circuit)?,
-            net.require_node("out").map_err(circuit)?,
-        );
-        let mut system = AcSystem::new(net).map_err(circuit)?;
-        let pass_grid: Vec<f64> = passbands(self.mapping, (lo, hi))
-            .iter()
-            .flat_map(|[a, b]| log_grid(*a, *b, 50).unwrap_or_default())
-            .collect();
-        let points = SummaryPoints {
-            passband_edges_hz: active.comparison.passband_edge_hz.clone(),
-            passband_hz: pass_grid,
-            stopband_edges_hz: match active.comparison.stopband_edge_hz.is_empty() {
-                true => self.mapping.frequencies_hz(self.stopband_reference()),
-                false => active.comparison.stopband_edge_hz.clone(),
-            },
-        };
-        let sensitivity = summarize(&mut system, out, inp, &points).map_err(analysis)?;
-        let levels =
-            opamp_levels(&mut system, inp, &freq_hz, self.spec.opamp.swing_v).map_err(analysis)?;
-        let mut level_traces: Vec<(String, Vec<f64>)> = levels
-            .iter()
-            .map(|l| (l.name.clone(), Vec::new()))
-            .collect();
-        for &f in &freq_hz {
-            let v = system.node_voltages(f).map_err(circuit)?;
-            for (trace, l) in level_traces.iter_mut().zip(&levels) {
-                trace.1.push(20.0 * (v[l.out_node] / v[inp]).norm().log10());
-            }
-        }
+        let sensitivity = self.sensitivity(active)?;
+        let (levels, level_traces) = self.levels(active, &freq_hz)?;
         let mc = &self.spec.montecarlo;
         // The yield is that of what is built: preferred values, trimmed.
         let montecarlo = self.monte_carlo(&active.real.netlist, mc.trials, mc.seed, None)?;
@@ -114,6 +88,76 @@ impl Design {
             level_traces,
             montecarlo,
         })
+    }
+
+    /// Sensitivities of the active build to every part and op-amp GBW:
+    /// at the passband edge(s), the worst over the passband, and at the
+    /// stopband edge(s).
+    pub fn sensitivity(
+        &self,
+        active: &ActiveDesign,
+    ) -> Result<Vec<SensitivitySummary>, DesignError> {
+        let circuit = |cause| DesignError::Circuit {
+            file: self.spec.file.clone(),
+            cause,
+        };
+        let net = &active.build.netlist;
+        let (inp, out) = (
+            net.require_node("in").map_err(circuit)?,
+            net.require_node("out").map_err(circuit)?,
+        );
+        let mut system = AcSystem::new(net).map_err(circuit)?;
+        let pass_grid: Vec<f64> = passbands(self.mapping, self.default_band())
+            .iter()
+            .flat_map(|[a, b]| log_grid(*a, *b, SENSITIVITY_POINTS).unwrap_or_default())
+            .collect();
+        let points = SummaryPoints {
+            passband_edges_hz: active.comparison.passband_edge_hz.clone(),
+            passband_hz: pass_grid,
+            stopband_edges_hz: match active.comparison.stopband_edge_hz.is_empty() {
+                true => self.mapping.frequencies_hz(self.stopband_reference()),
+                false => active.comparison.stopband_edge_hz.clone(),
+            },
+        };
+        summarize(&mut system, out, inp, &points).map_err(|cause| DesignError::Analysis {
+            file: self.spec.file.clone(),
+            cause,
+        })
+    }
+
+    /// Peak gain from the input to every op-amp output of the active build
+    /// and the input level the design file's swing allows, with each
+    /// output's gain over `freq_hz` (dB) for a chart.
+    pub fn levels(
+        &self,
+        active: &ActiveDesign,
+        freq_hz: &[f64],
+    ) -> Result<(Vec<OpAmpLevel>, Vec<LevelTrace>), DesignError> {
+        let circuit = |cause| DesignError::Circuit {
+            file: self.spec.file.clone(),
+            cause,
+        };
+        let net = &active.build.netlist;
+        let inp = net.require_node("in").map_err(circuit)?;
+        let mut system = AcSystem::new(net).map_err(circuit)?;
+        let levels =
+            opamp_levels(&mut system, inp, freq_hz, self.spec.opamp.swing_v).map_err(|cause| {
+                DesignError::Analysis {
+                    file: self.spec.file.clone(),
+                    cause,
+                }
+            })?;
+        let mut traces: Vec<LevelTrace> = levels
+            .iter()
+            .map(|l| (l.name.clone(), Vec::new()))
+            .collect();
+        for &f in freq_hz {
+            let v = system.node_voltages(f).map_err(circuit)?;
+            for (trace, l) in traces.iter_mut().zip(&levels) {
+                trace.1.push(20.0 * (v[l.out_node] / v[inp]).norm().log10());
+            }
+        }
+        Ok((levels, traces))
     }
 
     /// Without a stopband edge in the design file, sensitivities "at the
@@ -605,6 +649,19 @@ pub fn sensitivity_csv(rows: &[SensitivitySummary]) -> String {
             r.passband_worst.freq_hz,
             r.stopband_edge.db_per_percent,
             r.stopband_edge.freq_hz
+        ));
+    }
+    s
+}
+
+/// Op-amp levels as CSV: name, peak gain and its frequency, the largest
+/// input for the swing, and whether it clips first.
+pub fn levels_csv(levels: &[OpAmpLevel]) -> String {
+    let mut s = String::from("opamp,peak_gain_db,peak_hz,max_input_v,clips_first\n");
+    for l in levels {
+        s.push_str(&format!(
+            "{},{:.6},{:.6e},{:.6},{}\n",
+            l.name, l.peak_gain_db, l.peak_freq_hz, l.max_input_v, l.clips_first
         ));
     }
     s

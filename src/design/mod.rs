@@ -19,7 +19,7 @@ mod active;
 mod documents;
 mod outputs;
 mod parts;
-pub use documents::{sensitivity_csv, Analyses, CAUTIONS};
+pub use documents::{levels_csv, sensitivity_csv, Analyses, CAUTIONS};
 mod report;
 mod yields;
 pub use active::{opamp_model, passbands, ActiveDesign, Comparison};
