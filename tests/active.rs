@@ -6,8 +6,8 @@
 use std::path::Path;
 
 use num_complex::Complex64;
-use serde::Deserialize;
 
+use crate::scipy_cases::{fixture, Case};
 use crate::util::{assert_close_response, ngspice_ac, ngspice_tran};
 use nocoil::active::gic::{place_gic, Impedance, Placed};
 use nocoil::active::{
@@ -173,66 +173,7 @@ fn gic_two_port_gives_z1_z3_z5_over_z2_z4() {
 
 // --- the passive designs of the scipy fixture --------------------------
 
-#[derive(Deserialize)]
-struct Fixture {
-    scipy: String,
-    cases: Vec<Case>,
-}
-
-/// One end-to-end case of tests/fixtures/scipy_responses.json (written by
-/// gen_scipy_responses.py: scipy.signal prototypes, transforms and
-/// freqs_zpk, plus the flat loss of the terminations).
-#[derive(Deserialize)]
-struct Case {
-    kind: String,
-    family: String,
-    order: usize,
-    ripple_db: f64,
-    attenuation_db: Option<f64>,
-    edges_hz: Vec<f64>,
-    source_ohm: f64,
-    load_ohm: f64,
-    flat_db: f64,
-    freq_hz: Vec<f64>,
-    ref_db: Vec<f64>,
-}
-
-fn fixture() -> Fixture {
-    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/scipy_responses.json");
-    let text = std::fs::read_to_string(&path).expect("the scipy response fixture");
-    serde_json::from_str(&text).expect("fixture parses")
-}
-
 impl Case {
-    fn name(&self) -> String {
-        format!(
-            "{} {} n={} r={}",
-            self.kind,
-            self.family,
-            self.order,
-            self.load_ohm / self.source_ohm
-        )
-    }
-
-    fn design(&self) -> Design {
-        let edges = match self.edges_hz.as_slice() {
-            [f] => format!("{f:?}"),
-            [a, b] => format!("[{a:?}, {b:?}]"),
-            other => panic!("fixture edges {other:?}"),
-        };
-        let attenuation = self
-            .attenuation_db
-            .map(|a| format!("stopband_attenuation_db = {a:?}\n"))
-            .unwrap_or_default();
-        let text = format!(
-            "[filter]\nkind = \"{}\"\nfamily = \"{}\"\norder = {}\npassband_edge_hz = {edges}\n\
-             passband_ripple_db = {:?}\n{attenuation}[terminations]\nsource_ohm = {:?}\nload_ohm = {:?}\n",
-            self.kind, self.family, self.order, self.ripple_db, self.source_ohm, self.load_ohm
-        );
-        let spec = Spec::from_toml(Path::new("fixture.toml"), &text).unwrap();
-        design(&spec).unwrap_or_else(|e| panic!("{}: {e}", self.name()))
-    }
-
     /// Balance at the edge (lowpass, highpass) or the band's geometric
     /// centre.
     fn balance_hz(&self) -> f64 {

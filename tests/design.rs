@@ -2,13 +2,13 @@
 //! -> ladder -> transformed, scaled netlist, checked against scipy.signal
 //! responses and against ngspice running the exported deck.
 
+use crate::scipy_cases::{fixture, Case};
 use crate::util::ngspice_ac;
-use nocoil::design::{design, response, Design};
+use nocoil::design::{design, response};
 use nocoil::export::spice::{deck, AcSweep};
 use nocoil::spec::table::{PrototypeTable, TableArm};
 use nocoil::spec::Spec;
 use nocoil::synth::{Arm, Reactance};
-use serde::Deserialize;
 use std::path::Path;
 
 /// The project's end-to-end budget: the passive ideal must match the
@@ -17,73 +17,6 @@ use std::path::Path;
 const PASSIVE_TOL_DB: f64 = 0.01;
 /// Below this the reference (and any physical measurement) is noise.
 const REFERENCE_FLOOR_DB: f64 = -80.0;
-
-#[derive(Deserialize)]
-struct Fixture {
-    scipy: String,
-    cases: Vec<Case>,
-}
-
-#[derive(Deserialize)]
-struct Case {
-    kind: String,
-    family: String,
-    order: usize,
-    ripple_db: f64,
-    attenuation_db: Option<f64>,
-    edges_hz: Vec<f64>,
-    source_ohm: f64,
-    load_ohm: f64,
-    variant: String,
-    flat_db: f64,
-    freq_hz: Vec<f64>,
-    ref_db: Vec<f64>,
-}
-
-impl Case {
-    fn name(&self) -> String {
-        format!(
-            "{} {} n={} Ap={} As={:?} r={}",
-            self.kind,
-            self.family,
-            self.order,
-            self.ripple_db,
-            self.attenuation_db,
-            self.load_ohm / self.source_ohm
-        )
-    }
-
-    /// The design file a user would write for this case.
-    fn toml(&self) -> String {
-        let edges = match self.edges_hz.as_slice() {
-            [f] => format!("{f:?}"),
-            [a, b] => format!("[{a:?}, {b:?}]"),
-            other => panic!("fixture edges {other:?}"),
-        };
-        let attenuation = self
-            .attenuation_db
-            .map(|a| format!("stopband_attenuation_db = {a:?}\n"))
-            .unwrap_or_default();
-        format!(
-            "[filter]\nkind = \"{}\"\nfamily = \"{}\"\norder = {}\npassband_edge_hz = {edges}\n\
-             passband_ripple_db = {:?}\n{attenuation}[terminations]\nsource_ohm = {:?}\nload_ohm = {:?}\n",
-            self.kind, self.family, self.order, self.ripple_db, self.source_ohm, self.load_ohm
-        )
-    }
-
-    fn design(&self) -> Design {
-        let spec = Spec::from_toml(Path::new("fixture.toml"), &self.toml())
-            .unwrap_or_else(|e| panic!("{}: {e}", self.name()));
-        design(&spec).unwrap_or_else(|e| panic!("{}: {e}", self.name()))
-    }
-}
-
-fn fixture() -> Fixture {
-    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/scipy_responses.json");
-    let text = std::fs::read_to_string(&path)
-        .expect("tests/fixtures/scipy_responses.json (made by gen_scipy_responses.py)");
-    serde_json::from_str(&text).expect("fixture parses")
-}
 
 /// Passive ideal vs scipy.signal (buttap/cheb1ap/ellipap, the w^2 variant
 /// maps of gen_scipy_fixtures.py, lp2lp/lp2hp/lp2bp/lp2bs_zpk, freqs_zpk;

@@ -9,5 +9,6 @@ mod cli;
 mod design;
 mod export;
 mod parts;
+mod scipy_cases;
 mod snap;
 mod synth;

@@ -1,0 +1,80 @@
+//! The scipy.signal end-to-end cases shared by the pipeline and active
+//! tests (tests/fixtures/scipy_responses.json).
+
+use nocoil::design::{design, Design};
+use nocoil::spec::Spec;
+use serde::Deserialize;
+use std::path::Path;
+
+/// tests/fixtures/scipy_responses.json, written by gen_scipy_responses.py.
+#[derive(Deserialize)]
+pub struct Fixture {
+    /// The scipy version that made it.
+    pub scipy: String,
+    /// The cases.
+    pub cases: Vec<Case>,
+}
+
+/// One end-to-end case: scipy.signal prototype, transform and freqs_zpk,
+/// plus the flat loss of the terminations.
+#[derive(Deserialize)]
+pub struct Case {
+    pub kind: String,
+    pub family: String,
+    pub order: usize,
+    pub ripple_db: f64,
+    pub attenuation_db: Option<f64>,
+    pub edges_hz: Vec<f64>,
+    pub source_ohm: f64,
+    pub load_ohm: f64,
+    pub variant: String,
+    pub flat_db: f64,
+    pub freq_hz: Vec<f64>,
+    pub ref_db: Vec<f64>,
+}
+
+impl Case {
+    pub fn name(&self) -> String {
+        format!(
+            "{} {} n={} Ap={} As={:?} r={}",
+            self.kind,
+            self.family,
+            self.order,
+            self.ripple_db,
+            self.attenuation_db,
+            self.load_ohm / self.source_ohm
+        )
+    }
+
+    /// The design file a user would write for this case.
+    pub fn toml(&self) -> String {
+        let edges = match self.edges_hz.as_slice() {
+            [f] => format!("{f:?}"),
+            [a, b] => format!("[{a:?}, {b:?}]"),
+            other => panic!("fixture edges {other:?}"),
+        };
+        let attenuation = self
+            .attenuation_db
+            .map(|a| format!("stopband_attenuation_db = {a:?}\n"))
+            .unwrap_or_default();
+        format!(
+            "[filter]\nkind = \"{}\"\nfamily = \"{}\"\norder = {}\npassband_edge_hz = {edges}\n\
+             passband_ripple_db = {:?}\n{attenuation}[terminations]\nsource_ohm = {:?}\nload_ohm = {:?}\n",
+            self.kind, self.family, self.order, self.ripple_db, self.source_ohm, self.load_ohm
+        )
+    }
+
+    pub fn design(&self) -> Design {
+        let spec = Spec::from_toml(Path::new("fixture.toml"), &self.toml())
+            .unwrap_or_else(|e| panic!("{}: {e}", self.name()));
+        design(&spec).unwrap_or_else(|e| panic!("{}: {e}", self.name()))
+    }
+}
+
+/// Reads the fixture.
+pub fn fixture() -> Fixture {
+    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/scipy_responses.json");
+    let text = std::fs::read_to_string(&path)
+        .expect("tests/fixtures/scipy_responses.json (made by gen_scipy_responses.py)");
+    serde_json::from_str(&text).expect("fixture parses")
+}
