@@ -5,4 +5,5 @@ mod approx;
 mod circuit;
 mod cli;
 mod design;
+mod fast;
 mod synth;

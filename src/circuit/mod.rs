@@ -8,6 +8,8 @@
 //! - [`netlist`]: building and validating a netlist.
 //! - [`AcSystem`] (in `mna`): the fast solver, built once per netlist and
 //!   refilled in place when a value changes.
+//! - [`SparseAc`] (in `sparse`, pivot order in `ordering`): the sparse
+//!   solver for sweeps and Monte Carlo, refilled from an [`AcSystem`].
 //! - [`reference_transfer`] (in `reference`): the slow dense oracle the
 //!   fast path is tested against.
 //! - [`log_grid`] and the [`Response`] readers (in `response`).
@@ -19,15 +21,18 @@ mod layout;
 mod lu;
 mod mna;
 pub mod netlist;
+mod ordering;
 mod poles;
 mod reference;
 mod response;
+mod sparse;
 
 pub use error::CircuitError;
 pub use mna::AcSystem;
 pub use netlist::{ElementKind, Terminal};
 pub use reference::reference_transfer;
 pub use response::log_grid;
+pub use sparse::{SparseAc, SparseError, SparseStats};
 
 /// Model of an operational amplifier.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize, serde::Deserialize)]
