@@ -23,7 +23,7 @@
 
 use std::path::Path;
 
-use nocoil::circuit::{Element, Netlist, OpAmpModel};
+use nocoil::circuit::{AcSystem, Element, ElementKind, Netlist, OpAmpModel};
 use nocoil::spec::Spec;
 
 /// The op-amp of the issue's benchmark: A0 = 1e5, GBW = 10 MHz.
@@ -201,4 +201,54 @@ pub fn fdnr_lowpass(model: OpAmpModel) -> Netlist {
     );
     opamp(&mut n, "XBUF", "load", "out", "out", model);
     n
+}
+
+/// SplitMix64 (Steele, Lea and Flood, "Fast splittable pseudorandom
+/// number generators", OOPSLA 2014): seeded, reproducible draws.
+pub struct SplitMix(pub u64);
+
+impl SplitMix {
+    pub fn next(&mut self) -> u64 {
+        self.0 = self.0.wrapping_add(0x9e37_79b9_7f4a_7c15);
+        let mut z = self.0;
+        z = (z ^ (z >> 30)).wrapping_mul(0xbf58_476d_1ce4_e5b9);
+        z = (z ^ (z >> 27)).wrapping_mul(0x94d0_49bb_1331_11eb);
+        z ^ (z >> 31)
+    }
+
+    /// Uniform in [0, 1).
+    pub fn unit(&mut self) -> f64 {
+        (self.next() >> 11) as f64 / (1u64 << 53) as f64
+    }
+
+    /// Log-uniform in [lo, hi).
+    pub fn spread(&mut self, lo: f64, hi: f64) -> f64 {
+        lo * (hi / lo).powf(self.unit())
+    }
+
+    pub fn below(&mut self, n: u64) -> u64 {
+        self.next() % n
+    }
+}
+
+/// The index and nominal value of every resistor and capacitor: the
+/// parts a Monte Carlo trial draws.
+pub fn parts(n: &Netlist) -> Vec<(usize, f64)> {
+    n.elements
+        .iter()
+        .enumerate()
+        .filter(|(_, e)| matches!(e.kind(), ElementKind::Resistor | ElementKind::Capacitor))
+        .filter_map(|(i, e)| e.value().map(|v| (i, v)))
+        .collect()
+}
+
+/// One trial: every part at its nominal value times 1 + tolerance u, u
+/// uniform in [-1, 1).
+pub fn perturb(system: &mut AcSystem, parts: &[(usize, f64)], tolerance: f64, rng: &mut SplitMix) {
+    for &(index, nominal) in parts {
+        let u = 2.0 * rng.unit() - 1.0;
+        system
+            .set_value(index, nominal * (1.0 + tolerance * u))
+            .expect("a perturbed part stays positive");
+    }
 }

@@ -10,6 +10,10 @@ use nocoil::circuit::{
 use num_complex::Complex64;
 use twofloat::TwoFloat;
 
+#[path = "../benches/network.rs"]
+mod network;
+use network::SplitMix;
+
 /// Sparse versus dense oracle. Both solve the same equations in doubles
 /// with different pivots and scalings, so they differ by a few eps times
 /// the growth of the elimination and the condition of the answer; the
@@ -21,34 +25,6 @@ const BAND: (f64, f64) = (1.0, 1e7);
 
 fn wide_grid(points: usize) -> Vec<f64> {
     log_grid(BAND.0, BAND.1, points).unwrap()
-}
-
-/// SplitMix64 (Steele, Lea and Flood, "Fast splittable pseudorandom
-/// number generators", OOPSLA 2014): seeded, reproducible draws.
-struct SplitMix(u64);
-
-impl SplitMix {
-    fn next(&mut self) -> u64 {
-        self.0 = self.0.wrapping_add(0x9e37_79b9_7f4a_7c15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xbf58_476d_1ce4_e5b9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94d0_49bb_1331_11eb);
-        z ^ (z >> 31)
-    }
-
-    /// Uniform in [0, 1).
-    fn unit(&mut self) -> f64 {
-        (self.next() >> 11) as f64 / (1u64 << 53) as f64
-    }
-
-    /// Log-uniform in [lo, hi).
-    fn spread(&mut self, lo: f64, hi: f64) -> f64 {
-        lo * (hi / lo).powf(self.unit())
-    }
-
-    fn below(&mut self, n: u64) -> u64 {
-        self.next() % n
-    }
 }
 
 /// Which op-amp models a generated network uses.
@@ -689,6 +665,3 @@ fn a_circuit_singular_everywhere_is_refused() {
         }
     );
 }
-
-#[path = "../benches/network.rs"]
-mod network;

@@ -17,6 +17,7 @@
 //!   det(G + sC) for stability checks.
 
 mod error;
+mod lanes;
 mod layout;
 mod lu;
 mod mna;

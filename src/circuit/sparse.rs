@@ -26,9 +26,10 @@ use std::f64::consts::TAU;
 use nalgebra::{DMatrix, DVector};
 use num_complex::Complex64;
 
+use super::lanes::{Lanes, LANES};
 use super::layout::{has_output_resistor, Layout};
 use super::lu::Lu;
-use super::ordering::{markowitz, size, Ordering, Sample};
+use super::ordering::{markowitz, Ordering, Sample};
 use super::{AcSystem, CircuitError, Element, ElementKind, Response};
 
 /// Pivots are checked at this many log-spaced frequencies per decade of
@@ -288,10 +289,10 @@ pub struct SparseAc {
     row_c: Vec<f64>,
     /// b in step order.
     rhs: Vec<f64>,
-    values: Vec<Complex64>,
-    inv_pivot: Vec<Complex64>,
-    scale: Vec<f64>,
-    y: Vec<Complex64>,
+    values: Vec<Lanes>,
+    inv_pivot: Vec<Lanes>,
+    scale: Vec<[f64; LANES]>,
+    y: Vec<Lanes>,
     dense: Dense,
     fallbacks: usize,
 }
@@ -411,10 +412,10 @@ impl SparseAc {
             row_g: vec![0.0; n],
             row_c: vec![0.0; n],
             rhs: vec![0.0; n],
-            values: vec![Complex64::new(0.0, 0.0); filled],
-            inv_pivot: vec![Complex64::new(0.0, 0.0); n],
-            scale: vec![0.0; n],
-            y: vec![Complex64::new(0.0, 0.0); n],
+            values: vec![Lanes::real(0.0); filled],
+            inv_pivot: vec![Lanes::real(0.0); n],
+            scale: vec![[0.0; LANES]; n],
+            y: vec![Lanes::real(0.0); n],
             dense: Dense {
                 g: DMatrix::zeros(n, n),
                 c: DMatrix::zeros(n, n),
@@ -486,70 +487,77 @@ impl SparseAc {
         }
     }
 
-    /// Factors G + j omega C along the program; `false` if a pivot fails
-    /// the guard with threshold `guard` (the floor always applies).
-    fn factor(&mut self, omega: f64, guard: f64) -> bool {
+    /// Factors G + j omega C along the program for each lane's omega;
+    /// a lane whose pivot fails the guard with threshold `guard` (the
+    /// floor always applies) comes back `false`, its numbers garbage.
+    fn factor(&mut self, omega: &[f64; LANES], guard: f64) -> [bool; LANES] {
         for ((v, &g), &c) in self.values.iter_mut().zip(&self.slot_g).zip(&self.slot_c) {
-            *v = Complex64::new(g, omega * c);
+            *v = Lanes::from_parts(g, c, omega);
         }
         for ((s, &g), &c) in self.scale.iter_mut().zip(&self.row_g).zip(&self.row_c) {
-            *s = row_size(g, c, omega);
+            *s = omega.map(|w| row_size(g, c, w));
         }
-        (0..self.n).all(|t| self.eliminate(t, guard))
+        let mut ok = [true; LANES];
+        for t in 0..self.n {
+            self.eliminate(t, guard, &mut ok);
+        }
+        ok
     }
 
-    /// Step t of the factorization; `false` if its pivot fails the guard.
-    fn eliminate(&mut self, t: usize, guard: f64) -> bool {
+    /// Step t of the factorization; clears `ok` for lanes whose pivot
+    /// fails the guard.
+    fn eliminate(&mut self, t: usize, guard: f64, ok: &mut [bool; LANES]) {
         let p = &self.program;
         let pivot = self.values[p.pivot[t]];
         let row_scale = self.scale[t];
-        let magnitude = size(pivot);
-        if magnitude.is_nan() || magnitude <= PIVOT_FLOOR * row_scale {
-            return false;
+        let magnitude = pivot.size();
+        for k in 0..LANES {
+            // Written so that a NaN pivot fails too.
+            ok[k] &= magnitude[k] > PIVOT_FLOOR * row_scale[k];
         }
         let inv = pivot.inv();
         self.inv_pivot[t] = inv;
         // A multiplier f = a / pivot passes when |a| / scale_a is at most
         // |pivot| / (guard scale_t): |f| guard scale_t <= scale_a.
-        let limit = guard * row_scale;
+        let limit = row_scale.map(|s| guard * s);
         let upper = &p.upper.slot[p.upper.range(t)];
         let mut next = p.target_start[t];
         for k in p.lower.range(t) {
             let slot = p.lower.slot[k];
-            let f = self.values[slot] * inv;
-            if size(f) * limit > self.scale[p.lower.step[k]] {
-                return false;
+            let f = self.values[slot].mul(inv);
+            let (size, scale) = (f.size(), self.scale[p.lower.step[k]]);
+            for lane in 0..LANES {
+                ok[lane] &= size[lane] * limit[lane] <= scale[lane];
             }
             self.values[slot] = f;
             let row_targets = &p.targets[next..next + upper.len()];
             next += upper.len();
             for (&u, &d) in upper.iter().zip(row_targets) {
-                let product = f * self.values[u];
-                self.values[d] -= product;
+                let product = f.mul(self.values[u]);
+                self.values[d].sub_assign(product);
             }
         }
-        true
     }
 
     /// Solves with the factors into `y` (step order).
     fn substitute(&mut self) {
         let p = &self.program;
         for (y, &b) in self.y.iter_mut().zip(&self.rhs) {
-            *y = Complex64::new(b, 0.0);
+            *y = Lanes::real(b);
         }
         for &t in &p.forward {
             let yt = self.y[t];
             for k in p.lower.range(t) {
-                let d = self.values[p.lower.slot[k]] * yt;
-                self.y[p.lower.step[k]] -= d;
+                let d = self.values[p.lower.slot[k]].mul(yt);
+                self.y[p.lower.step[k]].sub_assign(d);
             }
         }
         for t in (0..self.n).rev() {
             let mut sum = self.y[t];
             for k in p.upper.range(t) {
-                sum -= self.values[p.upper.slot[k]] * self.y[p.upper.step[k]];
+                sum.sub_assign(self.values[p.upper.slot[k]].mul(self.y[p.upper.step[k]]));
             }
-            self.y[t] = sum * self.inv_pivot[t];
+            self.y[t] = sum.mul(self.inv_pivot[t]);
         }
     }
 
@@ -576,10 +584,11 @@ impl SparseAc {
         d.x.iter().all(|z| z.is_finite())
     }
 
-    /// The voltage of `node` in the sparse solution (0 for ground).
-    fn sparse_voltage(&self, node: usize) -> Complex64 {
+    /// The voltage of `node` in lane `lane` of the sparse solution (0 for
+    /// ground).
+    fn sparse_voltage(&self, node: usize, lane: usize) -> Complex64 {
         node.checked_sub(1).map_or(Complex64::new(0.0, 0.0), |u| {
-            self.y[self.step_of_unknown[u]]
+            self.y[self.step_of_unknown[u]].lane(lane)
         })
     }
 
@@ -601,27 +610,51 @@ impl SparseAc {
         }
     }
 
-    /// (V(out), V(inp)) at one frequency: sparse if the guard passes,
-    /// dense otherwise.
-    fn pair(
+    /// V(out) / V(inp) at up to [`LANES`] frequencies at once, into `h`
+    /// (as long as `freqs_hz`): one sparse pass, then the dense path for any lane the guard
+    /// rejected. The frequencies are checked by the caller.
+    fn solve_chunk(
         &mut self,
-        freq_hz: f64,
+        freqs_hz: &[f64],
         out: usize,
         inp: usize,
-    ) -> Result<(Complex64, Complex64), CircuitError> {
-        let omega = TAU * freq_hz;
-        if self.factor(omega, GUARD_THRESHOLD) {
-            self.substitute();
-            let pair = (self.sparse_voltage(out), self.sparse_voltage(inp));
-            if pair.0.is_finite() && pair.1.is_finite() {
-                return Ok(pair);
+        h: &mut [Complex64],
+    ) -> Result<(), CircuitError> {
+        // Unused lanes repeat the last frequency.
+        let last = freqs_hz[freqs_hz.len() - 1];
+        let omega: [f64; LANES] =
+            std::array::from_fn(|k| TAU * freqs_hz.get(k).map_or(last, |f| *f));
+        let ok = self.factor(&omega, GUARD_THRESHOLD);
+        self.substitute();
+        for (lane, (&freq_hz, h)) in freqs_hz.iter().zip(h).enumerate() {
+            let sparse = (
+                self.sparse_voltage(out, lane),
+                self.sparse_voltage(inp, lane),
+            );
+            let (vout, vin) = if ok[lane] && sparse.0.is_finite() && sparse.1.is_finite() {
+                sparse
+            } else {
+                self.fallbacks += 1;
+                if !self.dense_solve(omega[lane]) {
+                    return Err(CircuitError::Singular { freq_hz });
+                }
+                (self.dense_voltage(out), self.dense_voltage(inp))
+            };
+            if vin == Complex64::new(0.0, 0.0) {
+                return Err(CircuitError::ZeroVoltage { node: inp, freq_hz });
             }
+            *h = vout / vin;
         }
-        self.fallbacks += 1;
-        if !self.dense_solve(omega) {
-            return Err(CircuitError::Singular { freq_hz });
+        Ok(())
+    }
+
+    /// Checks the nodes and frequencies of a solve.
+    fn check(&self, freqs_hz: &[f64], out: usize, inp: usize) -> Result<(), CircuitError> {
+        if let Some(&freq_hz) = freqs_hz.iter().find(|f| !(f.is_finite() && **f >= 0.0)) {
+            return Err(CircuitError::BadFrequency { freq_hz });
         }
-        Ok((self.dense_voltage(out), self.dense_voltage(inp)))
+        self.check_node(out, "output")?;
+        self.check_node(inp, "input")
     }
 
     /// V(out) / V(inp) at one frequency, as [`AcSystem::transfer`] gives
@@ -632,20 +665,15 @@ impl SparseAc {
         out: usize,
         inp: usize,
     ) -> Result<Complex64, CircuitError> {
-        if !(freq_hz.is_finite() && freq_hz >= 0.0) {
-            return Err(CircuitError::BadFrequency { freq_hz });
-        }
-        self.check_node(out, "output")?;
-        self.check_node(inp, "input")?;
-        let (vout, vin) = self.pair(freq_hz, out, inp)?;
-        if vin == Complex64::new(0.0, 0.0) {
-            return Err(CircuitError::ZeroVoltage { node: inp, freq_hz });
-        }
-        Ok(vout / vin)
+        let mut h = [Complex64::new(0.0, 0.0)];
+        self.check(&[freq_hz], out, inp)?;
+        self.solve_chunk(&[freq_hz], out, inp, &mut h)?;
+        Ok(h[0])
     }
 
     /// [`SparseAc::transfer`] at each frequency into `h` (cleared first;
-    /// allocates nothing once `h` has the capacity).
+    /// allocates nothing once `h` has the capacity), [`LANES`]
+    /// frequencies per pass.
     pub fn sweep_into(
         &mut self,
         freqs_hz: &[f64],
@@ -654,8 +682,10 @@ impl SparseAc {
         h: &mut Vec<Complex64>,
     ) -> Result<(), CircuitError> {
         h.clear();
-        for &f in freqs_hz {
-            h.push(self.transfer(f, out, inp)?);
+        self.check(freqs_hz, out, inp)?;
+        h.resize(freqs_hz.len(), Complex64::new(0.0, 0.0));
+        for (chunk, h) in freqs_hz.chunks(LANES).zip(h.chunks_mut(LANES)) {
+            self.solve_chunk(chunk, out, inp, h)?;
         }
         Ok(())
     }
@@ -742,8 +772,12 @@ mod tests {
         let (netlist, f0) = series_resonance();
         let system = AcSystem::new(&netlist).unwrap();
         let mut sparse = SparseAc::new(&system, 1e6, 1e6).unwrap();
-        assert!(!sparse.factor(TAU * f0, 0.0), "pivot survived at w0");
-        assert!(sparse.factor(TAU * 1e6, GUARD_THRESHOLD), "check point");
+        assert!(
+            !sparse.factor(&[TAU * f0; LANES], 0.0)[0],
+            "pivot survived at w0"
+        );
+        let checked = sparse.factor(&[TAU * 1e6; LANES], GUARD_THRESHOLD);
+        assert!(checked[0], "check point");
         // At w0 node a is grounded, so the source current is V1 / R1 and
         // V(m) = -(V1 / R1) / (j w0 C1) (closed form), and the oracle.
         let (inp, m) = (1, 5);
