@@ -23,6 +23,7 @@ mod lu;
 mod mna;
 pub mod netlist;
 mod ordering;
+mod plan;
 mod poles;
 mod reference;
 mod response;
