@@ -8,7 +8,7 @@ use clap::{Parser, Subcommand, ValueEnum};
 use nocoil::approx::{min_order, Family};
 use nocoil::circuit::log_grid;
 use nocoil::design::{self, Design, DesignError};
-use nocoil::export::{self, spice::AcSweep};
+use nocoil::export;
 use nocoil::spec::mask::{check_edge, check_levels, check_sides, MaskField, MaskProblem};
 use nocoil::spec::{Edge, Kind, Spec};
 use nocoil::synth::ELLIPTIC_MAX_ORDER;
@@ -48,6 +48,26 @@ enum Command {
         /// Number of log-spaced points, both ends included.
         #[arg(long, value_name = "N", default_value_t = 401)]
         points: usize,
+    },
+    /// Run a Monte Carlo yield analysis of the active build against the
+    /// specification: print the yield and the worst trials; with --out,
+    /// write the envelope as CSV.
+    Montecarlo {
+        /// The design file (TOML).
+        spec: PathBuf,
+        /// Number of trials (default: the design file's, else 1000).
+        #[arg(long, value_name = "N")]
+        trials: Option<usize>,
+        /// Seed of the draws (default: the design file's, else 1). One seed
+        /// gives one result, whatever the thread count.
+        #[arg(long, value_name = "S")]
+        seed: Option<u64>,
+        /// Worker threads (default: one per core).
+        #[arg(long, value_name = "N")]
+        threads: Option<usize>,
+        /// Folder for montecarlo.csv (the envelope).
+        #[arg(long, value_name = "DIR")]
+        out: Option<PathBuf>,
     },
     /// Print the minimum order of every family for a mask given by flags.
     Order {
@@ -116,6 +136,13 @@ fn run(cli: Cli) -> anyhow::Result<()> {
             to,
             points,
         } => run_sweep(&spec, from, to, points),
+        Command::Montecarlo {
+            spec,
+            trials,
+            seed,
+            threads,
+            out,
+        } => run_montecarlo(&spec, trials, seed, threads, out.as_deref()),
         Command::Order {
             kind,
             passband,
@@ -126,10 +153,6 @@ fn run(cli: Cli) -> anyhow::Result<()> {
     }
 }
 
-/// Resolution of the `.ac` line in exported decks: fine enough to see
-/// every elliptic notch of a 15th-order design on a plot.
-const DECK_POINTS_PER_DECADE: usize = 100;
-
 fn load_design(spec: &Path) -> anyhow::Result<Design> {
     let spec = Spec::load(spec).map_err(DesignError::from)?;
     Ok(design::design(&spec)?)
@@ -137,26 +160,71 @@ fn load_design(spec: &Path) -> anyhow::Result<Design> {
 
 fn run_design(spec: &Path, out: &Path) -> anyhow::Result<()> {
     let d = load_design(spec)?;
-    let (from, to) = d.default_band();
-    let sweep = AcSweep {
-        points_per_decade: DECK_POINTS_PER_DECADE,
-        start_hz: from,
-        stop_hz: to,
-    };
-    let deck = export::spice::deck(&d.passive, &sweep)?;
-    let report = serde_json::to_string_pretty(&d.report()).context("serializing the report")?;
+    let active = d.active()?;
+    let files = d.output_files(&active)?;
     // Everything is computed before the folder is touched, and each file
     // is written to a temporary name and renamed, so a failure leaves no
     // half-written output.
     std::fs::create_dir_all(out).with_context(|| format!("creating {}", out.display()))?;
-    export::write_atomic(&out.join("passive.cir"), deck.as_bytes())?;
-    export::write_atomic(&out.join("report.json"), report.as_bytes())?;
-    print!("{}", d.summary());
-    println!(
-        "wrote {} and {}",
-        out.join("passive.cir").display(),
-        out.join("report.json").display()
+    for f in &files {
+        let path = out.join(&f.name);
+        export::write_atomic(&path, &f.bytes)
+            .with_context(|| format!("writing {}", path.display()))?;
+    }
+    print!("{}{}", d.summary(), active.summary());
+    let names: Vec<&str> = files.iter().map(|f| f.name.as_str()).collect();
+    println!("wrote into {}: {}", out.display(), names.join(", "));
+    Ok(())
+}
+
+fn run_montecarlo(
+    spec: &Path,
+    trials: Option<usize>,
+    seed: Option<u64>,
+    threads: Option<usize>,
+    out: Option<&Path>,
+) -> anyhow::Result<()> {
+    let d = load_design(spec)?;
+    let trials = trials.unwrap_or(d.spec.montecarlo.trials);
+    if trials == 0 {
+        return Err(BadInput("--trials 0: expected at least 1".to_string()).into());
+    }
+    let seed = seed.unwrap_or(d.spec.montecarlo.seed);
+    let active = d.active()?;
+    let mut pool = rayon::ThreadPoolBuilder::new();
+    if let Some(n) = threads {
+        if n == 0 {
+            return Err(BadInput("--threads 0: expected at least 1".to_string()).into());
+        }
+        pool = pool.num_threads(n);
+    }
+    let pool = pool.build().context("starting the worker threads")?;
+    // Progress and timing go to standard error, and only on a terminal,
+    // so that standard output is the same for one seed on any thread count.
+    let bar = indicatif::ProgressBar::with_draw_target(
+        Some(trials as u64),
+        indicatif::ProgressDrawTarget::stderr(),
     );
+    if !std::io::IsTerminal::is_terminal(&std::io::stderr()) {
+        bar.set_draw_target(indicatif::ProgressDrawTarget::hidden());
+    }
+    let tick = |_done: usize| bar.inc(1);
+    let started = std::time::Instant::now();
+    let result =
+        pool.install(|| d.monte_carlo(&active.build.netlist, trials, seed, Some(&tick)))?;
+    bar.finish_and_clear();
+    eprintln!(
+        "nocoil: {trials} trials in {:.3} s on {} threads",
+        started.elapsed().as_secs_f64(),
+        pool.current_num_threads()
+    );
+    print!("{}", design::yield_summary(&result, seed));
+    if let Some(dir) = out {
+        std::fs::create_dir_all(dir).with_context(|| format!("creating {}", dir.display()))?;
+        let path = dir.join("montecarlo.csv");
+        export::write_atomic(&path, design::envelope_csv(&result).as_bytes())?;
+        println!("wrote {}", path.display());
+    }
     Ok(())
 }
 
@@ -176,16 +244,20 @@ fn run_sweep(spec: &Path, from: Option<f64>, to: Option<f64>, points: usize) -> 
     }
     let freqs = log_grid(from, to, points)?;
     let response = d.passive_response(&freqs)?;
+    let active = design::response(&d.active()?.build.netlist, &freqs)?;
+    let (active_db, active_phase) = (active.db(), active.phase_deg());
     let (db, phase, delay) = (
         response.db(),
         response.phase_deg(),
-        response.group_delay_s()?,
+        design::group_delay(&d.passive, &freqs)?,
     );
-    let mut csv = String::from("freq_hz,passive_db,passive_phase_deg,passive_group_delay_s\n");
+    let mut csv = String::from(
+        "freq_hz,passive_db,passive_phase_deg,passive_group_delay_s,active_db,active_phase_deg\n",
+    );
     for i in 0..freqs.len() {
         csv.push_str(&format!(
-            "{:.9e},{:.9},{:.6},{:.9e}\n",
-            freqs[i], db[i], phase[i], delay[i]
+            "{:.9e},{:.9},{:.6},{:.9e},{:.9},{:.6}\n",
+            freqs[i], db[i], phase[i], delay[i], active_db[i], active_phase[i]
         ));
     }
     print!("{csv}");

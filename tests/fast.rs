@@ -436,9 +436,9 @@ fn sparse_matches_an_extended_precision_solve_on_random_cascades() {
 #[test]
 fn sparse_matches_the_reference_on_the_fdnr_lowpass() {
     // The benchmark network against the independently assembled oracle
-    // (which is itself only as good as its own bound: measured 1.9e-12
-    // off the extended solve here, at a condition of 6.7e4), and against
-    // the extended solve.
+    // (which is itself only as good as its own bound: measured 1.3e-12
+    // off the extended solve here, the sparse path 2.3e-12, at a
+    // condition of 1.2e5), and against the extended solve.
     let freqs = wide_grid(71);
     for model in [OpAmpModel::Ideal, network::OPAMP] {
         let netlist = network::fdnr_lowpass(model);
@@ -451,38 +451,6 @@ fn sparse_matches_the_reference_on_the_fdnr_lowpass() {
             + check_extended(&mut sparse, &system, &freqs, &context);
         assert_eq!(fallbacks, 0, "{context}");
     }
-}
-
-#[test]
-fn the_fdnr_lowpass_is_the_ladder_it_stands_for() {
-    // Bruton's transformation keeps voltage ratios: with ideal op-amps
-    // the network equals the passive ladder but for the DC-path
-    // resistors, whose 1.6 Hz corner moves the passband by 4.2e-3 dB at
-    // 44 Hz (measured); 0.01 dB is the active stage's own criterion.
-    // With single-pole op-amps it must be stable.
-    const LADDER_TOL_DB: f64 = 0.01;
-    let freqs = log_grid(network::SWEEP.0, network::SWEEP.1, 61).unwrap();
-    let db = |n: &Netlist| {
-        let (out, inp) = ends(n);
-        AcSystem::new(n)
-            .unwrap()
-            .sweep(&freqs, out, inp)
-            .unwrap()
-            .db()
-    };
-    let (passive, active) = (
-        db(&network::passive()),
-        db(&network::fdnr_lowpass(OpAmpModel::Ideal)),
-    );
-    for ((f, p), a) in freqs.iter().zip(&passive).zip(&active) {
-        assert!(
-            (p - a).abs() <= LADDER_TOL_DB,
-            "{f} Hz: ladder {p} dB, FDNR {a} dB"
-        );
-    }
-    let real = AcSystem::new(&network::fdnr_lowpass(network::OPAMP)).unwrap();
-    let slowest = real.natural_frequencies().unwrap()[0];
-    assert!(slowest.re < 0.0, "unstable: {slowest}");
 }
 
 #[test]

@@ -1,9 +1,14 @@
 //! Integration tests: one entry, one module per stage.
 mod util;
 
+mod active;
+mod analysis;
 mod approx;
 mod circuit;
 mod cli;
 mod design;
+mod export;
 mod fast;
+mod parts;
+mod snap;
 mod synth;

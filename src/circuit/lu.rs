@@ -4,7 +4,9 @@
 //! Invariant: after a successful [`Lu::factor`], `a` holds the unit-lower
 //! factor L (below the diagonal) and U (on and above it) of P D A, where D
 //! scales every row of A to a largest entry of 1 and P is the sequence of
-//! row swaps in `swaps`.
+//! row swaps in `swaps`. So A = D^-1 P^T L U and A^T = U^T L^T P D^-1,
+//! which gives the transposed solve (adjoint sensitivities) from the same
+//! factors.
 
 use nalgebra::DMatrix;
 use num_complex::Complex64;
@@ -136,6 +138,35 @@ impl Lu {
                 .map(|(u, xj)| u * xj)
                 .sum();
             x[i] = (x[i] - sum) / row[i];
+        }
+    }
+
+    /// Solves A^T y = rhs in place (`y` holds rhs on entry; plain
+    /// transpose, not conjugate) with the factors of the last successful
+    /// [`Lu::factor`]: U^T z = rhs forward, L^T w = z backward, then
+    /// y = D P^T w. Both triangular solves walk rows of `a`, as the
+    /// factors are stored row by row.
+    pub fn solve_transposed(&self, y: &mut [Complex64]) {
+        let n = self.n;
+        for i in 0..n {
+            let row = &self.a[i * n..(i + 1) * n];
+            y[i] /= row[i];
+            let yi = y[i];
+            for (yj, u) in y[i + 1..].iter_mut().zip(&row[i + 1..]) {
+                *yj -= u * yi;
+            }
+        }
+        for i in (0..n).rev() {
+            let yi = y[i];
+            for (yj, l) in y[..i].iter_mut().zip(&self.a[i * n..i * n + i]) {
+                *yj -= l * yi;
+            }
+        }
+        for (k, &p) in self.swaps.iter().enumerate().rev() {
+            y.swap(k, p);
+        }
+        for (yi, s) in y.iter_mut().zip(&self.scale) {
+            *yi *= *s;
         }
     }
 }

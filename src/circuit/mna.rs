@@ -31,11 +31,15 @@ use super::lu::Lu;
 use super::netlist::check_model;
 use super::{CircuitError, Element, Netlist, OpAmpModel, Response};
 
-/// One entry of G, C or b.
+/// One entry of G, C or b, by unknown index (see
+/// [`AcSystem::unknown_of_node`]).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
-enum Target {
+pub enum Target {
+    /// G(row, column).
     G(usize, usize),
+    /// C(row, column).
     C(usize, usize),
+    /// b(row).
     B(usize),
 }
 
@@ -146,6 +150,27 @@ fn stamps(element: &Element, extras: Extras, layout: &Layout, emit: &mut dyn FnM
             }
         }
     }
+}
+
+/// A transfer with its adjoint solution, from [`AcSystem::transfer_adjoint`].
+///
+/// With A = G + sC, A x = b and H = V(out)/V(inp), the adjoint y solves
+/// A^T y = e_out / V(out) - e_inp / V(inp) (plain transpose), so that for
+/// any parameter p of A, d ln H / dp = -y^T (dA/dp) x: one extra solve
+/// gives the derivative with respect to every element at once (the
+/// adjoint-network method of Director and Rohrer, "The generalized adjoint
+/// network and network sensitivities", IEEE Trans. Circuit Theory CT-16,
+/// 1969).
+#[derive(Debug, Clone, Copy)]
+pub struct Adjoint<'a> {
+    /// H = V(out) / V(inp).
+    pub h: Complex64,
+    /// The solution: every unknown, indexed like the columns of G (see
+    /// [`AcSystem::unknown_of_node`]).
+    pub x: &'a [Complex64],
+    /// The adjoint solution, indexed like the rows of G (one entry per
+    /// equation), so that y^T (dA/dp) x pairs y[row] with x[column].
+    pub y: &'a [Complex64],
 }
 
 /// The nodal equations of one netlist, ready to solve at any frequency.
@@ -306,6 +331,28 @@ impl AcSystem {
         self.layout.node(node)
     }
 
+    /// Every stamp of element `index` as (entry, value), in the order the
+    /// element emits them; entries of one element may repeat (their values
+    /// add). The matrix entry is the sum over all elements' stamps on it.
+    pub fn element_stamps(&self, index: usize) -> Result<Vec<(Target, f64)>, CircuitError> {
+        let element = self
+            .netlist
+            .elements
+            .get(index)
+            .ok_or(CircuitError::ElementOutOfRange {
+                index,
+                count: self.netlist.elements.len(),
+            })?;
+        let mut out = Vec::new();
+        stamps(
+            element,
+            self.layout.extras[index],
+            &self.layout,
+            &mut |target, value| out.push((target, value)),
+        );
+        Ok(out)
+    }
+
     /// Factors G + j 2 pi f C and solves into `x`.
     fn solve(&mut self, freq_hz: f64) -> Result<(), CircuitError> {
         if !(freq_hz.is_finite() && freq_hz >= 0.0) {
@@ -375,6 +422,34 @@ impl AcSystem {
     ) -> Result<Complex64, CircuitError> {
         let (vout, vin) = self.pair(freq_hz, out, inp)?;
         Ok(vout / vin)
+    }
+
+    /// V(out)/V(inp) at one frequency with the full solution and its
+    /// adjoint (see [`Adjoint`]): one factorization, one solve and one
+    /// transposed solve. V(out) must be non-zero. Allocates nothing.
+    pub fn transfer_adjoint(
+        &mut self,
+        freq_hz: f64,
+        out: usize,
+        inp: usize,
+    ) -> Result<Adjoint<'_>, CircuitError> {
+        let (vout, vin) = self.pair(freq_hz, out, inp)?;
+        if vout == Complex64::new(0.0, 0.0) {
+            return Err(CircuitError::ZeroVoltage { node: out, freq_hz });
+        }
+        self.dx.fill(Complex64::new(0.0, 0.0));
+        // Both nodes are non-ground here (their voltages are non-zero).
+        for (node, weight) in [(out, 1.0 / vout), (inp, -1.0 / vin)] {
+            if let Some(i) = self.layout.node(node) {
+                self.dx[i] += weight;
+            }
+        }
+        self.lu.solve_transposed(&mut self.dx);
+        Ok(Adjoint {
+            h: vout / vin,
+            x: &self.x,
+            y: &self.dx,
+        })
     }
 
     /// [`AcSystem::transfer`] at each frequency.

@@ -30,7 +30,7 @@ mod response;
 mod sparse;
 
 pub use error::CircuitError;
-pub use mna::AcSystem;
+pub use mna::{AcSystem, Adjoint, Target};
 pub use netlist::{ElementKind, Terminal};
 pub use reference::reference_transfer;
 pub use response::log_grid;

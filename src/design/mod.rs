@@ -5,6 +5,8 @@
 //! approximation -> ladder -> transformed, scaled netlist. Neither the CLI
 //! nor any stage needs to know the whole chain.
 
+use crate::active::ActiveError;
+use crate::analysis::AnalysisError;
 use crate::approx::{self, ApproxError, Family, Params, Prototype};
 use crate::circuit::{AcSystem, CircuitError, Netlist, Response};
 use crate::spec::table::{PrototypeTable, TableArm};
@@ -13,8 +15,20 @@ use crate::synth::{self, ArmValues, Form, Ladder, SynthError};
 use crate::transform::{passive_netlist, Mapping};
 use std::path::PathBuf;
 
+mod active;
+mod documents;
+mod outputs;
+mod parts;
+pub use documents::{sensitivity_csv, Analyses, CAUTIONS};
 mod report;
+mod yields;
+pub use active::{opamp_model, passbands, ActiveDesign, Comparison};
+pub use outputs::{OutputFile, DECK_POINTS_PER_DECADE};
+pub use parts::{
+    snap_build, ErrorSteps, PartsChoice, PartsSnapError, SnappedBuild, Trim, TRIMMER_SERIES,
+};
 pub use report::{NormalizedElement, Report, ScaledElement};
+pub use yields::{envelope_csv, series, yield_summary, MONTE_CARLO_POINTS, WORST_TRIALS};
 
 /// How the order was fixed.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
@@ -99,6 +113,31 @@ pub enum DesignError {
         /// Why.
         cause: CircuitError,
     },
+    /// The inductors could not be removed as asked (a method that cannot
+    /// serve this ladder, an unstable network).
+    #[error("{}: {cause}", file.display())]
+    Active {
+        /// The design file.
+        file: PathBuf,
+        /// Why.
+        cause: ActiveError,
+    },
+    /// An analysis of a built network failed (a program fault).
+    #[error("{}: {cause}", file.display())]
+    Analysis {
+        /// The design file.
+        file: PathBuf,
+        /// Why.
+        cause: AnalysisError,
+    },
+    /// An output could not be rendered (a program fault).
+    #[error("{}: writing the outputs: {cause}", file.display())]
+    Export {
+        /// The design file.
+        file: PathBuf,
+        /// Why.
+        cause: String,
+    },
     /// Synthesis could not hold its accuracy for this approximation.
     #[error("{}: the ladder synthesis could not hold its accuracy for this design; a lower order or a wider transition band will do ({cause})", file.display())]
     Synth {
@@ -113,7 +152,10 @@ impl DesignError {
     /// Whether the problem is in the user's input (exit status 2) rather
     /// than in the program.
     pub fn is_bad_input(&self) -> bool {
-        !matches!(self, DesignError::Circuit { .. })
+        !matches!(
+            self,
+            DesignError::Circuit { .. } | DesignError::Analysis { .. } | DesignError::Export { .. }
+        )
     }
 }
 
@@ -391,6 +433,23 @@ impl Design {
     pub fn passive_response(&self, freqs_hz: &[f64]) -> Result<Response, CircuitError> {
         response(&self.passive, freqs_hz)
     }
+}
+
+/// Group delay of V(out)/V(in), seconds, at each frequency: exact up to
+/// rounding (one extra solve per point, see [`AcSystem::group_delay`]),
+/// so a transmission zero does not smear into the neighbouring points as a
+/// difference quotient of the phase would. At a zero itself the delay is
+/// undefined and comes out as NaN.
+pub fn group_delay(netlist: &Netlist, freqs_hz: &[f64]) -> Result<Vec<f64>, CircuitError> {
+    let (inp, out) = (netlist.require_node("in")?, netlist.require_node("out")?);
+    let mut system = AcSystem::new(netlist)?;
+    freqs_hz
+        .iter()
+        .map(|&f| match system.group_delay(f, out, inp) {
+            Err(CircuitError::ZeroVoltage { .. }) => Ok(f64::NAN),
+            other => other,
+        })
+        .collect()
 }
 
 /// V(out)/V(in) of a netlist that follows the project's contract (nodes

@@ -1,9 +1,10 @@
 //! What a finished design reports: a plain serializable [`Report`] (the
 //! JSON file) and the human summary printed by `nocoil design`.
 
+use super::{ActiveDesign, Comparison};
 use super::{Design, MaskCheck, OrderChoice};
 use crate::approx::{Family, Variant};
-use crate::circuit::Element;
+use crate::circuit::{Element, Netlist};
 use crate::export::eng;
 use crate::spec::{Edge, Kind, PrototypeSource};
 use crate::synth::{Arm, Form, Reactance};
@@ -82,6 +83,33 @@ pub struct Report {
     pub normalized_load_ohm: f64,
     /// The scaled passive ideal.
     pub passive_elements: Vec<ScaledElement>,
+    /// The active build compared with the passive ideal, when built.
+    pub active: Option<Comparison>,
+    /// The active network's elements.
+    pub active_elements: Vec<ScaledElement>,
+}
+
+/// Every element of a netlist but its op-amps, with node names and units.
+fn scaled_elements(net: &Netlist) -> Vec<ScaledElement> {
+    let node = |i: usize| net.nodes[i].clone();
+    net.elements
+        .iter()
+        .filter_map(|e| {
+            let (a, b) = match *e {
+                Element::Resistor { a, b, .. }
+                | Element::Capacitor { a, b, .. }
+                | Element::Inductor { a, b, .. } => (a, b),
+                Element::VoltageSource { pos, neg, .. } => (pos, neg),
+                Element::OpAmp { .. } => return None,
+            };
+            Some(ScaledElement {
+                name: e.name().to_string(),
+                nodes: [node(a), node(b)],
+                value: e.value()?,
+                unit: unit_of(e),
+            })
+        })
+        .collect()
 }
 
 fn variant_note(v: Option<Variant>) -> &'static str {
@@ -134,27 +162,7 @@ impl Design {
                 self.table.as_ref().and_then(|t| t.stopband_attenuation_db)
             }
         };
-        let node = |i: usize| self.passive.nodes[i].clone();
-        let passive_elements = self
-            .passive
-            .elements
-            .iter()
-            .filter_map(|e| {
-                let (a, b) = match *e {
-                    Element::Resistor { a, b, .. }
-                    | Element::Capacitor { a, b, .. }
-                    | Element::Inductor { a, b, .. } => (a, b),
-                    Element::VoltageSource { pos, neg, .. } => (pos, neg),
-                    Element::OpAmp { .. } => return None,
-                };
-                Some(ScaledElement {
-                    name: e.name().to_string(),
-                    nodes: [node(a), node(b)],
-                    value: e.value().unwrap_or(0.0),
-                    unit: unit_of(e),
-                })
-            })
-            .collect();
+        let passive_elements = scaled_elements(&self.passive);
         Report {
             tool: format!("nocoil {}", env!("CARGO_PKG_VERSION")),
             design_file: self.spec.file.display().to_string(),
@@ -190,6 +198,17 @@ impl Design {
                 .collect(),
             normalized_load_ohm: self.ladder.load_ohm,
             passive_elements,
+            active: None,
+            active_elements: Vec::new(),
+        }
+    }
+
+    /// The report with the active build in it.
+    pub fn report_with(&self, active: &ActiveDesign) -> Report {
+        Report {
+            active: Some(active.comparison.clone()),
+            active_elements: scaled_elements(&active.build.netlist),
+            ..self.report()
         }
     }
 
@@ -301,6 +320,89 @@ impl Design {
                 e.nodes[1],
                 eng::format(e.value, e.unit)
             );
+        }
+        s
+    }
+}
+
+impl ActiveDesign {
+    /// The part of the summary about the active build.
+    pub fn summary(&self) -> String {
+        let c = &self.comparison;
+        let mut s = String::new();
+        let model = match c.opamp {
+            crate::circuit::OpAmpModel::SinglePole {
+                dc_gain, gbw_hz, ..
+            } => {
+                format!(
+                    "single-pole op-amps, GBW {}, A0 {:.0} dB",
+                    eng::format(gbw_hz, "Hz"),
+                    20.0 * dc_gain.log10()
+                )
+            }
+            crate::circuit::OpAmpModel::Ideal => "ideal op-amps".to_string(),
+        };
+        let _ = writeln!(
+            s,
+            "active build: {:?}, {} op-amps, {} capacitors (spread {:.1})",
+            c.method, c.opamps, c.capacitors, c.capacitor_spread
+        );
+        let _ = writeln!(s, "  why: {}", c.why);
+        let _ = writeln!(
+            s,
+            "  simulated with {model}: {}",
+            if c.stable { "stable" } else { "UNSTABLE" }
+        );
+        let _ = writeln!(
+            s,
+            "  largest passband deviation from the passive ideal {:.4} dB",
+            c.passband_deviation_db
+        );
+        for ((e, a), p) in c
+            .passband_edge_hz
+            .iter()
+            .zip(&c.active_edge_hz)
+            .zip(&c.edge_shift_percent)
+        {
+            match (a, p) {
+                (Some(a), Some(p)) => {
+                    let _ = writeln!(
+                        s,
+                        "  passband edge {} moves to {} ({p:+.3} %)",
+                        eng::format(*e, "Hz"),
+                        eng::format(*a, "Hz")
+                    );
+                }
+                _ => {
+                    let _ = writeln!(
+                        s,
+                        "  passband edge {}: no crossing within 25 %",
+                        eng::format(*e, "Hz")
+                    );
+                }
+            }
+        }
+        for ((f, a), p) in c
+            .stopband_edge_hz
+            .iter()
+            .zip(&c.attenuation_at_stopband_edge_db)
+            .zip(&c.passive_attenuation_at_stopband_edge_db)
+        {
+            let _ = writeln!(
+                s,
+                "  attenuation at {}: {a:.2} dB (passive {p:.2} dB)",
+                eng::format(*f, "Hz")
+            );
+        }
+        let _ = writeln!(
+            s,
+            "  largest gain to an op-amp output: {:.2} dB at {} ({})",
+            c.largest_opamp_gain_db,
+            eng::format(c.largest_opamp_gain_hz, "Hz"),
+            c.largest_opamp_gain_at
+        );
+        for n in &c.notes {
+            let _ = writeln!(s, "  note: {n}");
         }
         s
     }

@@ -54,12 +54,33 @@ pub(crate) fn prefix<'a>(table: &[&'a str], exp3: i32) -> Option<&'a str> {
 /// unit: "1.5963 mH", "47.000 nF", "0.0000 V". Beyond the prefixes
 /// (below 1e-15 or from 1e15) the power of ten is written out instead.
 pub fn format(value: f64, unit: &str) -> String {
+    compose(value, unit, false)
+}
+
+/// [`format()`] without the trailing zeros of the mantissa, the way a
+/// parts list or an axis label spells a value: "47 nF", "1.02 kohm",
+/// "1 k". Dropping zeros after the decimal point loses nothing, so a
+/// value still shows all of its [`HUMAN_DIGITS`] digits when it has them
+/// ("1.5963 mH").
+pub fn format_trimmed(value: f64, unit: &str) -> String {
+    compose(value, unit, true)
+}
+
+/// The common body of [`format()`] and [`format_trimmed`].
+fn compose(value: f64, unit: &str, trim: bool) -> String {
+    let tidy = |m: String| {
+        if trim && m.contains('.') {
+            m.trim_end_matches('0').trim_end_matches('.').to_string()
+        } else {
+            m
+        }
+    };
     let number = match split(value, HUMAN_DIGITS) {
         Some((mantissa, exp3)) => match prefix(&SI_PREFIXES, exp3) {
-            Some(p) => format!("{mantissa} {p}{unit}"),
-            None => format!("{mantissa}e{exp3} {unit}"),
+            Some(p) => format!("{} {p}{unit}", tidy(mantissa)),
+            None => format!("{}e{exp3} {unit}", tidy(mantissa)),
         },
-        None if value == 0.0 => format!("{:.*} {unit}", HUMAN_DIGITS - 1, 0.0),
+        None if value == 0.0 => format!("{} {unit}", tidy(format!("{:.*}", HUMAN_DIGITS - 1, 0.0))),
         None => format!("{value} {unit}"),
     };
     number.trim_end().to_string()
@@ -77,5 +98,16 @@ mod tests {
         // Rounding up crosses into the next prefix.
         assert_eq!(split(999.996, 5), Some(("1.0000".into(), 3)));
         assert_eq!(split(0.0, 5), None);
+    }
+
+    #[test]
+    fn trims_only_zeros_after_the_point() {
+        assert_eq!(format_trimmed(47e-9, "F"), "47 nF");
+        assert_eq!(format_trimmed(1.02e3, "ohm"), "1.02 kohm");
+        assert_eq!(format_trimmed(100.0, ""), "100");
+        assert_eq!(format_trimmed(1e3, ""), "1 k");
+        assert_eq!(format_trimmed(1.5963e-3, "H"), "1.5963 mH");
+        assert_eq!(format_trimmed(0.0, "V"), "0 V");
+        assert_eq!(format_trimmed(-2.5e6, "Hz"), "-2.5 MHz");
     }
 }

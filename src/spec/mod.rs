@@ -96,27 +96,143 @@ pub struct ActiveSpec {
     pub optimize: bool,
 }
 
-/// The `[opamp]` table: a single-pole model.
+/// Which op-amp model the active build is simulated with.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum OpAmpKind {
+    /// A(s) = A0 / (1 + s A0 / (2 pi GBW)).
+    SinglePole,
+    /// Infinite gain and bandwidth (a nullor): the active network then
+    /// equals the passive ideal, which checks the realization itself.
+    Ideal,
+}
+
+/// The `[opamp]` table.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
 pub struct OpAmpSpec {
+    /// The model (default single-pole).
+    pub model: OpAmpKind,
     /// Gain-bandwidth product, Hz (default 10 MHz).
     pub gbw_hz: f64,
     /// Open-loop DC gain, dB (default 100 dB).
     pub dc_gain_db: f64,
     /// Output resistance, ohm (default 0).
     pub output_ohm: f64,
+    /// Largest output swing, V peak (default 10 V, a +-15 V supply less
+    /// the usual headroom).
+    pub swing_v: f64,
 }
 
 impl Default for OpAmpSpec {
     /// A general-purpose audio op-amp of the common kind.
     fn default() -> OpAmpSpec {
         OpAmpSpec {
+            model: OpAmpKind::SinglePole,
             gbw_hz: 10e6,
             dc_gain_db: 100.0,
             output_ohm: 0.0,
+            swing_v: 10.0,
         }
     }
 }
+
+/// An IEC 60063 preferred-number series as a design file names it.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+pub enum SeriesChoice {
+    /// 3 values per decade.
+    E3,
+    /// 6 values per decade.
+    E6,
+    /// 12 values per decade.
+    E12,
+    /// 24 values per decade.
+    E24,
+    /// 48 values per decade.
+    E48,
+    /// 96 values per decade.
+    E96,
+    /// 192 values per decade.
+    E192,
+}
+
+/// How part values scatter within their tolerance in a Monte Carlo run.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum SpreadChoice {
+    /// Uniform over +-tolerance.
+    Uniform,
+    /// Gaussian with 3 sigma at the tolerance.
+    Gaussian,
+}
+
+/// The `[parts]` table: which real parts the build is made of.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct PartsSpec {
+    /// Series of the resistors (default E96).
+    pub resistor_series: SeriesChoice,
+    /// Relative tolerance of the resistors (default 0.01).
+    pub resistor_tolerance: f64,
+    /// Series of the capacitors (default E12).
+    pub capacitor_series: SeriesChoice,
+    /// Relative tolerance of the capacitors (default 0.05).
+    pub capacitor_tolerance: f64,
+    /// Capacitances to stay within, farad (default 100 pF to 1 uF).
+    pub capacitor_range_f: (f64, f64),
+    /// How values scatter in a Monte Carlo run (default uniform).
+    pub distribution: SpreadChoice,
+}
+
+impl Default for PartsSpec {
+    fn default() -> PartsSpec {
+        PartsSpec {
+            resistor_series: SeriesChoice::E96,
+            resistor_tolerance: 0.01,
+            capacitor_series: SeriesChoice::E12,
+            capacitor_tolerance: 0.05,
+            capacitor_range_f: (100e-12, 1e-6),
+            distribution: SpreadChoice::Uniform,
+        }
+    }
+}
+
+/// The `[montecarlo]` table.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct MonteCarloSpec {
+    /// Number of trials (default 1000).
+    pub trials: usize,
+    /// Seed of the draws (default 1).
+    pub seed: u64,
+    /// Relative spread of every op-amp's gain-bandwidth (default 0.3: data
+    /// sheets commonly give a typical GBW only, with lots varying by tens
+    /// of percent).
+    pub gbw_spread: f64,
+    /// Extra margin the yield demands inside the passband ripple, dB
+    /// (default 0).
+    pub passband_margin_db: f64,
+    /// Extra margin the yield demands beyond the stopband attenuation, dB
+    /// (default 0).
+    pub stopband_margin_db: f64,
+}
+
+impl Default for MonteCarloSpec {
+    fn default() -> MonteCarloSpec {
+        MonteCarloSpec {
+            trials: 1000,
+            seed: 1,
+            gbw_spread: 0.3,
+            passband_margin_db: 0.0,
+            stopband_margin_db: 0.0,
+        }
+    }
+}
+
+/// Largest tolerance or spread a design file may give: beyond 50 % a part
+/// is not a part of that value any more.
+pub const MAX_TOLERANCE: f64 = 0.5;
+
+/// Most Monte Carlo trials a design file may ask for (a run of this size
+/// takes minutes, not hours).
+pub const MAX_TRIALS: usize = 10_000_000;
 
 /// A passband or stopband edge: one frequency, or a pair for band kinds.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
@@ -177,6 +293,10 @@ pub struct Spec {
     pub active: ActiveSpec,
     /// The op-amp model the active build is simulated with.
     pub opamp: OpAmpSpec,
+    /// The real parts.
+    pub parts: PartsSpec,
+    /// The Monte Carlo run.
+    pub montecarlo: MonteCarloSpec,
 }
 
 /// A problem with a design file.

@@ -3,8 +3,9 @@
 
 use super::mask::{check_edge, check_levels, check_sides, MaskField, MaskProblem};
 use super::{
-    ActiveSpec, Edge, FamilyChoice, FormChoice, Kind, MethodChoice, OpAmpSpec, PrototypeSource,
-    Spec, SpecError, MAX_ORDER,
+    ActiveSpec, Edge, FamilyChoice, FormChoice, Kind, MethodChoice, MonteCarloSpec, OpAmpKind,
+    OpAmpSpec, PartsSpec, PrototypeSource, SeriesChoice, Spec, SpecError, SpreadChoice, MAX_ORDER,
+    MAX_TOLERANCE, MAX_TRIALS,
 };
 use serde::Deserialize;
 use std::path::Path;
@@ -22,6 +23,36 @@ struct RawSpec {
     active: RawActive,
     #[serde(default)]
     opamp: RawOpAmp,
+    #[serde(default)]
+    parts: RawParts,
+    #[serde(default)]
+    montecarlo: RawMonteCarlo,
+}
+
+#[derive(Deserialize, Default)]
+#[serde(deny_unknown_fields)]
+struct RawParts {
+    resistor_series: Option<SeriesChoice>,
+    #[serde(default, deserialize_with = "number")]
+    resistor_tolerance: Option<f64>,
+    capacitor_series: Option<SeriesChoice>,
+    #[serde(default, deserialize_with = "number")]
+    capacitor_tolerance: Option<f64>,
+    capacitor_range: Option<toml::Value>,
+    distribution: Option<SpreadChoice>,
+}
+
+#[derive(Deserialize, Default)]
+#[serde(deny_unknown_fields)]
+struct RawMonteCarlo {
+    trials: Option<i64>,
+    seed: Option<i64>,
+    #[serde(default, deserialize_with = "number")]
+    gbw_spread: Option<f64>,
+    #[serde(default, deserialize_with = "number")]
+    passband_margin_db: Option<f64>,
+    #[serde(default, deserialize_with = "number")]
+    stopband_margin_db: Option<f64>,
 }
 
 #[derive(Deserialize, Default)]
@@ -34,12 +65,15 @@ struct RawActive {
 #[derive(Deserialize, Default)]
 #[serde(deny_unknown_fields)]
 struct RawOpAmp {
+    model: Option<OpAmpKind>,
     #[serde(default, deserialize_with = "number")]
     gbw_hz: Option<f64>,
     #[serde(default, deserialize_with = "number")]
     dc_gain_db: Option<f64>,
     #[serde(default, deserialize_with = "number")]
     output_ohm: Option<f64>,
+    #[serde(default, deserialize_with = "number")]
+    swing_v: Option<f64>,
 }
 
 #[derive(Deserialize)]
@@ -204,6 +238,8 @@ pub(super) fn parse(file: &Path, text: &str) -> Result<Spec, SpecError> {
         "a resistance in ohm",
     )?;
     let opamp = opamp(&c, &raw.opamp)?;
+    let parts = parts(&c, &raw.parts)?;
+    let montecarlo = montecarlo(&c, &raw.montecarlo)?;
     Ok(Spec {
         file: file.to_path_buf(),
         kind: f.kind,
@@ -218,6 +254,102 @@ pub(super) fn parse(file: &Path, text: &str) -> Result<Spec, SpecError> {
             optimize: raw.active.optimize.unwrap_or(false),
         },
         opamp,
+        parts,
+        montecarlo,
+    })
+}
+
+/// A relative tolerance or spread in [0, MAX_TOLERANCE].
+fn fraction(
+    c: &Checker,
+    key: &'static str,
+    v: Option<f64>,
+    default: f64,
+) -> Result<f64, SpecError> {
+    match v {
+        None => Ok(default),
+        Some(x) if (0.0..=MAX_TOLERANCE).contains(&x) => Ok(x),
+        Some(x) => Err(c.invalid(
+            key,
+            x,
+            format!("expected a fraction from 0 to {MAX_TOLERANCE} (0.01 is 1 %)"),
+        )),
+    }
+}
+
+fn parts(c: &Checker, raw: &RawParts) -> Result<PartsSpec, SpecError> {
+    let d = PartsSpec::default();
+    let range =
+        match &raw.capacitor_range {
+            None => d.capacitor_range_f,
+            Some(v) => {
+                let pair = match v {
+                    toml::Value::Array(a) if a.len() == 2 => a[0].as_float().zip(a[1].as_float()),
+                    _ => None,
+                };
+                match pair {
+                    Some((lo, hi)) if lo.is_finite() && lo > 0.0 && hi.is_finite() && lo < hi => {
+                        (lo, hi)
+                    }
+                    _ => return Err(c.invalid(
+                        "parts.capacitor_range",
+                        v,
+                        "expected [low, high] in farad with 0 < low < high, e.g. [100e-12, 1e-6]",
+                    )),
+                }
+            }
+        };
+    Ok(PartsSpec {
+        resistor_series: raw.resistor_series.unwrap_or(d.resistor_series),
+        resistor_tolerance: fraction(
+            c,
+            "parts.resistor_tolerance",
+            raw.resistor_tolerance,
+            d.resistor_tolerance,
+        )?,
+        capacitor_series: raw.capacitor_series.unwrap_or(d.capacitor_series),
+        capacitor_tolerance: fraction(
+            c,
+            "parts.capacitor_tolerance",
+            raw.capacitor_tolerance,
+            d.capacitor_tolerance,
+        )?,
+        capacitor_range_f: range,
+        distribution: raw.distribution.unwrap_or(d.distribution),
+    })
+}
+
+fn montecarlo(c: &Checker, raw: &RawMonteCarlo) -> Result<MonteCarloSpec, SpecError> {
+    let d = MonteCarloSpec::default();
+    let trials = match raw.trials {
+        None => d.trials,
+        Some(n) if (1..=MAX_TRIALS as i64).contains(&n) => n as usize,
+        Some(n) => {
+            return Err(c.invalid(
+                "montecarlo.trials",
+                n,
+                format!("expected a whole number from 1 to {MAX_TRIALS}"),
+            ))
+        }
+    };
+    let seed = match raw.seed {
+        None => d.seed,
+        Some(s) if s >= 0 => s as u64,
+        Some(s) => {
+            return Err(c.invalid("montecarlo.seed", s, "expected a whole number, 0 or more"))
+        }
+    };
+    let margin = |key: &'static str, v: Option<f64>| match v {
+        None => Ok(0.0),
+        Some(x) if x.is_finite() && x >= 0.0 => Ok(x),
+        Some(x) => Err(c.invalid(key, x, "expected a margin in dB, 0 or more")),
+    };
+    Ok(MonteCarloSpec {
+        trials,
+        seed,
+        gbw_spread: fraction(c, "montecarlo.gbw_spread", raw.gbw_spread, d.gbw_spread)?,
+        passband_margin_db: margin("montecarlo.passband_margin_db", raw.passband_margin_db)?,
+        stopband_margin_db: margin("montecarlo.stopband_margin_db", raw.stopband_margin_db)?,
     })
 }
 
@@ -253,7 +385,13 @@ fn opamp(c: &Checker, raw: &RawOpAmp) -> Result<OpAmpSpec, SpecError> {
             ))
         }
     };
+    let swing_v = match raw.swing_v {
+        None => d.swing_v,
+        Some(v) => c.positive("opamp.swing_v", v, "an output swing in V peak")?,
+    };
     Ok(OpAmpSpec {
+        swing_v,
+        model: raw.model.unwrap_or(d.model),
         gbw_hz,
         dc_gain_db,
         output_ohm,

@@ -1,0 +1,80 @@
+//! The one error type of the active stage.
+//!
+//! Every variant carries the offending value or element by name and its
+//! message says what would have been accepted.
+
+use num_complex::Complex64;
+
+use super::Method;
+use crate::circuit::CircuitError;
+
+/// Why no active network was built.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum ActiveError {
+    /// A numeric option is out of range.
+    #[error("option {option}: must be {accepted}, got {value}")]
+    BadOption {
+        /// The option's field name in [`super::Options`].
+        option: &'static str,
+        /// The accepted range, in words.
+        accepted: &'static str,
+        /// The value given.
+        value: f64,
+    },
+    /// The op-amp model is out of range (checked by the circuit module).
+    #[error("op-amp model: {0}")]
+    OpAmp(CircuitError),
+    /// A passband edge pair that is not 0 < low < high, both finite.
+    #[error("passband [{low_hz}, {high_hz}] Hz: need 0 < low < high, both finite")]
+    BadPassband {
+        /// Lower edge given.
+        low_hz: f64,
+        /// Upper edge given.
+        high_hz: f64,
+    },
+    /// `optimize` asks for a passband to measure the error in.
+    #[error("optimize needs at least one passband in options.passband_hz to measure the error in")]
+    NoPassband,
+    /// The passive netlist breaks the stage contract (an `AC` source `V`
+    /// from node `in` to ground, a load at node `out`, only R, L and C
+    /// besides the source).
+    #[error("passive netlist: {problem}")]
+    Contract {
+        /// What is wrong, naming the element or node.
+        problem: String,
+    },
+    /// The method asked for cannot realize this ladder.
+    #[error("method {method:?} cannot realize this ladder: it needs {needs}, but {offender}")]
+    NotApplicable {
+        /// The method asked for.
+        method: Method,
+        /// What the method needs, in words.
+        needs: &'static str,
+        /// The element or node that stands in the way.
+        offender: String,
+    },
+    /// A name the active network needs is already used by the passive
+    /// netlist.
+    #[error("name {name:?} is already used in the passive netlist; the active network needs it for {purpose}")]
+    NameClash {
+        /// The name.
+        name: String,
+        /// What it was wanted for.
+        purpose: String,
+    },
+    /// The active network has a natural frequency in the closed right half
+    /// plane with the chosen op-amp model.
+    #[error("the {method:?} realization is not stable with this op-amp model: natural frequency {root} rad/s has a real part >= {margin:e} |s|")]
+    Unstable {
+        /// The method used.
+        method: Method,
+        /// The rightmost natural frequency, rad/s.
+        root: Complex64,
+        /// The relative margin it failed (see [`super::STABILITY_MARGIN`]).
+        margin: f64,
+    },
+    /// Building or solving a circuit failed.
+    #[error("circuit: {0}")]
+    Circuit(#[from] CircuitError),
+}

@@ -1,0 +1,519 @@
+//! The active stage: every inductor of the passive ideal replaced by
+//! op-amp converters, so the network keeps the ladder's low sensitivity
+//! without a coil.
+//!
+//! Input: the scaled passive ideal as a [`Netlist`] (an `AC` source `V`
+//! from node `in` to ground, the source resistor from `in` into the
+//! ladder, the load across node `out`; only R, L and C besides the
+//! source). Output: an [`ActiveBuild`] whose netlist keeps that contract
+//! and holds no inductor. This module speaks only the netlist type.
+//!
+//! Methods:
+//! - [`Method::Gic`]: every inductor becomes an Antoniou simulated
+//!   inductor (Antoniou 1969, Proc. IEE 116): 2 op-amps when one end is
+//!   grounded, 4 (two converters and a resistor) when it floats. Works on
+//!   any ladder. An L-C pair in series to ground is swapped so the
+//!   inductor is the grounded one.
+//! - [`Method::Fdnr`]: the Bruton image (Bruton 1969, IEEE Trans. Circuit
+//!   Theory 16): R -> C, L -> R, C -> FDNR (2 op-amps each), DC-path
+//!   resistors across the termination capacitors and an output follower.
+//!   Needs a lowpass ladder whose every capacitor is grounded (after
+//!   swapping L-C pairs in series to ground so the capacitor is the
+//!   grounded one).
+//! - [`Method::Auto`]: the one with fewer op-amps; a tie goes to
+//!   simulated inductors, which keep the ladder's resistive terminations
+//!   and need no DC-path resistors.
+//!
+//! Invariants of a returned build: its netlist validates, has no
+//! inductor, every op-amp has the model of [`Options::opamp`], and, when
+//! that model has a finite bandwidth, it is stable ([`is_stable`]); an
+//! unstable network is an error, never a result.
+//!
+//! Files: `gic` (the converter cell and its polarities), `passive`
+//! (reading the contract, series swaps), `build` (assembling each
+//! method), `refine` (deviation and the simplex), `stability`.
+
+mod build;
+mod error;
+pub mod gic;
+mod passive;
+mod refine;
+mod stability;
+
+use std::f64::consts::TAU;
+
+pub use error::ActiveError;
+pub use refine::{deviation_db, PASSBAND_POINTS};
+pub use stability::{is_stable, StabilityVerdict, STABILITY_MARGIN};
+
+use build::{bruton_terminations, dc_path_resistors, fdnr_opamps, gic_opamps, Bruton, Plan};
+use gic::Tuning;
+use passive::Passive;
+
+use crate::circuit::netlist::check_model;
+use crate::circuit::{log_grid, Element, ElementKind, Netlist, OpAmpModel};
+
+/// How the inductors are removed.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Method {
+    /// The realization with fewer op-amps (see the module documentation).
+    Auto,
+    /// Simulated inductors (grounded and floating GICs).
+    Gic,
+    /// The Bruton FDNR image (lowpass ladders with grounded capacitors).
+    Fdnr,
+}
+
+/// Default impedance level of the converters' balanced elements, ohm: in
+/// the middle of the 1 kohm to 100 kohm range where op-amp output loading
+/// (below) and noise and stray capacitance (above) stay small (common
+/// practice).
+pub const DEFAULT_IMPEDANCE_OHM: f64 = 10e3;
+
+/// Default FDNR DC-path factor wb T (see [`Options::dc_path_factor`]):
+/// the deviation it leaves is of order 1/K near the balance frequency,
+/// 1e-4 relative or about 1e-3 dB, a tenth of the 0.01 dB the active
+/// network is held to against the passive ideal (measured with ideal
+/// op-amps on the fixture's lowpass designs, orders 4 to 25: at most
+/// 1.8e-3 dB). The resistors come out near K times the converters' level
+/// (about 100 Mohm at 10 kohm).
+pub const DEFAULT_DC_PATH_FACTOR: f64 = 1e4;
+
+/// How far below the balance frequency the DC-path resistors' effect is
+/// reported: four decades reach well below 1/T = wb/K for the default K,
+/// where the effect has its low-frequency plateau.
+const DC_PATH_SPAN: f64 = 1e4;
+
+/// What to build, and with which op-amps.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Options {
+    /// The method.
+    pub method: Method,
+    /// The op-amp model of every converter and buffer.
+    pub opamp: OpAmpModel,
+    /// Where the converters are balanced, Hz (near the passband edge,
+    /// where the response is most sensitive to their errors).
+    pub balance_hz: f64,
+    /// Refine the converters' free values numerically (balance point and
+    /// a trim correction) to minimize the largest passband deviation from
+    /// the passive ideal with [`Options::opamp`]. Needs
+    /// [`Options::passband_hz`].
+    pub optimize: bool,
+    /// Impedance level of the converters' balanced elements, ohm.
+    pub impedance_ohm: f64,
+    /// Passbands `[low, high]`, Hz, where deviations are measured and
+    /// minimized; may be empty when `optimize` is off.
+    pub passband_hz: Vec<[f64; 2]>,
+    /// FDNR only: wb T, the DC-path time constant T of the termination
+    /// branches against the balance frequency; larger values disturb the
+    /// passband less and need larger resistors (Rb = T RL / tau).
+    pub dc_path_factor: f64,
+}
+
+impl Options {
+    /// Automatic method, ideal op-amps, no refinement, the default
+    /// impedance level and DC-path factor, balanced at `balance_hz`.
+    pub fn new(balance_hz: f64) -> Options {
+        Options {
+            method: Method::Auto,
+            opamp: OpAmpModel::Ideal,
+            balance_hz,
+            optimize: false,
+            impedance_ohm: DEFAULT_IMPEDANCE_OHM,
+            passband_hz: Vec::new(),
+            dc_path_factor: DEFAULT_DC_PATH_FACTOR,
+        }
+    }
+
+    /// Checks every value.
+    fn check(&self) -> Result<(), ActiveError> {
+        check_model("opamp", &self.opamp).map_err(ActiveError::OpAmp)?;
+        let positive = |option, value: f64| {
+            if value.is_finite() && value > 0.0 {
+                Ok(())
+            } else {
+                Err(ActiveError::BadOption {
+                    option,
+                    accepted: "finite and > 0",
+                    value,
+                })
+            }
+        };
+        positive("balance_hz", self.balance_hz)?;
+        positive("impedance_ohm", self.impedance_ohm)?;
+        positive("dc_path_factor", self.dc_path_factor)?;
+        if self.optimize && self.passband_hz.is_empty() {
+            return Err(ActiveError::NoPassband);
+        }
+        Ok(())
+    }
+}
+
+/// What a [`Stage`] is.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum StageKind {
+    /// One GIC and its load: an inductor with one end at ground.
+    GroundedInductor,
+    /// Two GICs joined by a resistor: an inductor between two nodes.
+    FloatingInductor,
+    /// One GIC and its load capacitor: Zin = 1/(s^2 D) to ground.
+    Fdnr,
+    /// The FDNR image of an inductor: a resistor.
+    Resistor,
+    /// The FDNR image of a termination resistor: a capacitor with its
+    /// DC-path resistor across it.
+    Termination,
+    /// The unity-gain follower that drives `out` in the FDNR image.
+    Buffer,
+}
+
+/// One group of elements of the active network and what it stands for.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct Stage {
+    /// What it is.
+    pub kind: StageKind,
+    /// The passive element it replaces (`None` for the buffer).
+    pub replaces: Option<String>,
+    /// The value it realizes with ideal op-amps: henry (inductors), farad
+    /// second for an FDNR's D, ohm (resistor), farad (termination
+    /// capacitor), 1 for the buffer's gain.
+    pub value: f64,
+    /// The nodes it connects to, by name.
+    pub nodes: Vec<String>,
+    /// Its passive elements (R, C), by name.
+    pub elements: Vec<String>,
+    /// Its op-amps, by name.
+    pub opamps: Vec<String>,
+}
+
+/// The active network and what a designer needs to compare builds.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct ActiveBuild {
+    /// The network: `in`, `out`, an `AC 1`-style source as in the passive
+    /// netlist, no inductor.
+    pub netlist: Netlist,
+    /// The method used ([`Method::Gic`] or [`Method::Fdnr`], never
+    /// `Auto`).
+    pub method_used: Method,
+    /// Why that method, in words.
+    pub why: String,
+    /// Number of op-amps.
+    pub opamps: usize,
+    /// Number of capacitors.
+    pub capacitors: usize,
+    /// Largest over smallest capacitance (1 with fewer than two).
+    pub capacitor_spread: f64,
+    /// Which elements and op-amps form which converter.
+    pub stages: Vec<Stage>,
+    /// Series swaps, the FDNR DC-gain effect, the refinement's outcome.
+    pub notes: Vec<String>,
+    /// Largest deviation from the passive ideal over
+    /// [`Options::passband_hz`] with [`Options::opamp`], dB (`None`
+    /// without passbands).
+    pub passband_deviation_db: Option<f64>,
+    /// The stability verdict with [`Options::opamp`] (always stable), or
+    /// `None` for ideal op-amps: a nullor has no dynamics, so stability is
+    /// decided with a finite-bandwidth model.
+    pub stability: Option<StabilityVerdict>,
+}
+
+/// Builds the active network of `passive` (see the module documentation).
+pub fn realize(passive: &Netlist, opts: &Options) -> Result<ActiveBuild, ActiveError> {
+    opts.check()?;
+    let balanced = Tuning {
+        level_ohm: opts.impedance_ohm,
+        balance_rad_s: TAU * opts.balance_hz,
+        correction: 1.0,
+    };
+    let (plan, why, mut notes) = choose(&Passive::read(passive)?, opts, &balanced)?;
+    let grid = refine::passband_grid(&opts.passband_hz)?;
+    let meter = Meter {
+        reference: refine::transfer(passive, &grid)?,
+        grid,
+    };
+    let tuning = match opts.optimize {
+        true => refined(&plan, &balanced, opts.opamp, &meter)?,
+        false => balanced,
+    };
+    let (netlist, stages, stability) = stable_build(&plan, &tuning, &balanced, opts, &mut notes)?;
+    let passband_deviation_db = match meter.grid.is_empty() {
+        true => None,
+        false => Some(meter.deviation(&netlist)?),
+    };
+    if opts.optimize {
+        let before = meter.deviation(&plan.assemble(&balanced, opts.opamp)?.0)?;
+        notes.push(format!(
+            "refined: balance at {:.6e} Hz, trim correction {:.6}; largest passband deviation {before:.4e} dB balanced, {:.4e} dB refined",
+            tuning.balance_rad_s / TAU,
+            tuning.correction,
+            passband_deviation_db.unwrap_or(f64::NAN)
+        ));
+    }
+    if let Plan::Fdnr(..) = plan {
+        notes.extend(dc_path_notes(
+            passive,
+            &plan,
+            &tuning,
+            (&netlist, &stages),
+            opts.balance_hz,
+        )?);
+    }
+    Ok(ActiveBuild {
+        method_used: method_of(&plan),
+        why,
+        opamps: netlist.count(ElementKind::OpAmp),
+        capacitors: netlist.count(ElementKind::Capacitor),
+        capacitor_spread: capacitor_spread(&netlist),
+        netlist,
+        stages,
+        notes,
+        passband_deviation_db,
+        stability,
+    })
+}
+
+/// The passive ideal's response on the passband grid, to measure builds
+/// against.
+struct Meter {
+    grid: Vec<f64>,
+    reference: Vec<num_complex::Complex64>,
+}
+
+impl Meter {
+    /// The largest passband deviation of `netlist`, dB.
+    fn deviation(&self, netlist: &Netlist) -> Result<f64, ActiveError> {
+        let h = refine::transfer(netlist, &self.grid)?;
+        Ok(refine::largest_db(&self.reference, &h))
+    }
+}
+
+/// The free values the simplex finds, starting from the balanced ones.
+fn refined(
+    plan: &Plan,
+    balanced: &Tuning,
+    model: OpAmpModel,
+    meter: &Meter,
+) -> Result<Tuning, ActiveError> {
+    let cost = |x: [f64; 2]| meter.deviation(&plan.assemble(&tuned(balanced, x), model)?.0);
+    let (best, _) = refine::nelder_mead(cost, [0.0, 0.0])?;
+    Ok(tuned(balanced, best))
+}
+
+/// The network for `tuning`, or for the balanced values if the refined
+/// ones are unstable; an error if that is unstable too.
+fn stable_build(
+    plan: &Plan,
+    tuning: &Tuning,
+    balanced: &Tuning,
+    opts: &Options,
+    notes: &mut Vec<String>,
+) -> Result<(Netlist, Vec<Stage>, Option<StabilityVerdict>), ActiveError> {
+    let (netlist, stages) = plan.assemble(tuning, opts.opamp)?;
+    let stability = verdict(&netlist, &opts.opamp)?;
+    match stability {
+        Some(v) if !v.stable && tuning != balanced => {
+            notes.push(format!(
+                "the refined values gave a natural frequency at {:?} rad/s, so the balanced values are kept",
+                v.rightmost
+            ));
+            stable_build(plan, balanced, balanced, opts, notes)
+        }
+        Some(v) if !v.stable => Err(ActiveError::Unstable {
+            method: method_of(plan),
+            root: v.rightmost.unwrap_or_default(),
+            margin: STABILITY_MARGIN,
+        }),
+        _ => Ok((netlist, stages, stability)),
+    }
+}
+
+/// The stability verdict with a finite-bandwidth model; `None` with
+/// ideal op-amps, whose nullor rows carry no dynamics of their own (the
+/// roots of such a network are the passive ones plus degenerate ones, such
+/// as the floating inductor's undetermined port currents at exactly 0 Hz).
+fn verdict(netlist: &Netlist, model: &OpAmpModel) -> Result<Option<StabilityVerdict>, ActiveError> {
+    match model {
+        OpAmpModel::Ideal => Ok(None),
+        OpAmpModel::SinglePole { .. } => Ok(Some(is_stable(netlist)?)),
+    }
+}
+
+/// The balanced values moved by exp(x): x[0] on the balance frequency,
+/// x[1] on the trim correction.
+fn tuned(balanced: &Tuning, x: [f64; 2]) -> Tuning {
+    Tuning {
+        balance_rad_s: balanced.balance_rad_s * x[0].exp(),
+        correction: balanced.correction * x[1].exp(),
+        ..*balanced
+    }
+}
+
+fn method_of(plan: &Plan) -> Method {
+    match plan {
+        Plan::Gic(_) => Method::Gic,
+        Plan::Fdnr(..) => Method::Fdnr,
+    }
+}
+
+/// The plan of the method asked for (or chosen), why, and the notes of
+/// its series swaps.
+fn choose(
+    base: &Passive,
+    opts: &Options,
+    balanced: &Tuning,
+) -> Result<(Plan, String, Vec<String>), ActiveError> {
+    let mut gic = base.clone();
+    let gic_notes = gic.ground_series_arms(ElementKind::Inductor);
+    let mut fdnr = base.clone();
+    let fdnr_notes = fdnr.ground_series_arms(ElementKind::Capacitor);
+    let terminations = bruton_terminations(&fdnr);
+    let counts = (gic_opamps(&gic), fdnr_opamps(&fdnr));
+    let use_fdnr = match (opts.method, &terminations) {
+        (Method::Gic, _) => false,
+        (Method::Fdnr, Ok(_)) => true,
+        (Method::Fdnr, Err(offender)) => {
+            return Err(ActiveError::NotApplicable {
+                method: Method::Fdnr,
+                needs: build::FDNR_NEEDS,
+                offender: offender.clone(),
+            })
+        }
+        (Method::Auto, Ok(_)) => counts.1 < counts.0,
+        (Method::Auto, Err(_)) => false,
+    };
+    let why = explain(
+        opts.method,
+        use_fdnr,
+        &gic,
+        &fdnr,
+        terminations.as_ref().err(),
+    );
+    match (use_fdnr, terminations) {
+        (true, Ok((source, load))) => {
+            let ohm = |i: usize| fdnr.netlist.elements[i].value().unwrap_or(f64::NAN);
+            // wb tau = sqrt(RS RL) / R: the image's impedances at wb sit at
+            // the converters' level R where the ladder's sat at its
+            // terminations'.
+            let tau_s =
+                (ohm(source) * ohm(load)).sqrt() / (opts.impedance_ohm * balanced.balance_rad_s);
+            let mut bruton = Bruton {
+                tau_s,
+                source,
+                load,
+                dc_path_ohm: [f64::NAN; 2],
+            };
+            dc_path_resistors(&fdnr, &mut bruton, balanced, opts.dc_path_factor)?;
+            Ok((Plan::Fdnr(fdnr, bruton), why, fdnr_notes))
+        }
+        _ => Ok((Plan::Gic(gic), why, gic_notes)),
+    }
+}
+
+/// Why the method was used, with both op-amp counts.
+fn explain(
+    asked: Method,
+    use_fdnr: bool,
+    gic: &Passive,
+    fdnr: &Passive,
+    obstacle: Option<&String>,
+) -> String {
+    let gic_count = gic_opamps(gic);
+    let fdnr_words = format!(
+        "{} op-amps for the FDNR image ({} FDNRs and an output buffer)",
+        fdnr_opamps(fdnr),
+        fdnr.netlist.count(ElementKind::Capacitor)
+    );
+    let gic_words = format!(
+        "{gic_count} op-amps for simulated inductors ({})",
+        describe_inductors(gic)
+    );
+    match (asked, use_fdnr, obstacle) {
+        (Method::Auto, true, _) => format!("fewest op-amps: {fdnr_words} against {gic_words}"),
+        (Method::Auto, false, Some(offender)) => format!(
+            "simulated inductors, {gic_words}: the FDNR image needs {}, but {offender}",
+            build::FDNR_NEEDS
+        ),
+        (Method::Auto, false, None) => format!(
+            "fewest op-amps: {gic_words} against {fdnr_words} (a tie goes to simulated inductors, which keep the resistive terminations)"
+        ),
+        (_, true, _) => format!("FDNR image as asked: {fdnr_words}"),
+        (_, false, _) => format!("simulated inductors as asked: {gic_words}"),
+    }
+}
+
+/// "3 grounded inductors (2 op-amps each), 2 floating (4 each)" for the
+/// oriented netlist's inductors.
+fn describe_inductors(passive: &Passive) -> String {
+    let (mut grounded, mut floating) = (0, 0);
+    for e in &passive.netlist.elements {
+        if let Element::Inductor { .. } = e {
+            match passive::grounded_at(e) {
+                Some(_) => grounded += 1,
+                None => floating += 1,
+            }
+        }
+    }
+    format!("{grounded} grounded inductors (2 op-amps each), {floating} floating (4 each)")
+}
+
+/// Largest over smallest capacitance; 1 with fewer than two capacitors.
+fn capacitor_spread(netlist: &Netlist) -> f64 {
+    let farads: Vec<f64> = netlist
+        .elements
+        .iter()
+        .filter_map(|e| match e {
+            Element::Capacitor { farad, .. } => Some(*farad),
+            _ => None,
+        })
+        .collect();
+    let max = farads.iter().copied().fold(f64::NAN, f64::max);
+    let min = farads.iter().copied().fold(f64::NAN, f64::min);
+    if farads.len() < 2 {
+        1.0
+    } else {
+        max / min
+    }
+}
+
+/// The FDNR image's DC gain against the ladder's, the DC-path resistors
+/// that hold it, and how far they move the response below the balance
+/// frequency (ideal op-amps, so only their effect shows).
+fn dc_path_notes(
+    passive: &Netlist,
+    plan: &Plan,
+    tuning: &Tuning,
+    (active, stages): (&Netlist, &[Stage]),
+    balance_hz: f64,
+) -> Result<Vec<String>, ActiveError> {
+    let dc = |n: &Netlist| -> Result<f64, ActiveError> {
+        let h = refine::transfer(n, &[0.0])?;
+        Ok(20.0 * h[0].norm().log10())
+    };
+    // A termination stage holds its capacitor, then its DC-path resistor.
+    let resistors: Vec<String> = stages
+        .iter()
+        .filter(|s| s.kind == StageKind::Termination)
+        .filter_map(|s| {
+            let name = s.elements.get(1)?;
+            let value = active.elements[active.element_index(name)?].value()?;
+            Some(format!("{name} = {value:.4e} ohm"))
+        })
+        .collect();
+    let ideal = plan.assemble(tuning, OpAmpModel::Ideal)?.0;
+    let low_hz = balance_hz / DC_PATH_SPAN;
+    let below = log_grid(low_hz, balance_hz, PASSBAND_POINTS)?;
+    Ok(vec![
+        format!(
+            "DC gain {:.6} dB against the ladder's {:.6} dB: the termination capacitors would leave the FDNR inputs without a DC path, so {} across them set the DC gain to the ladder's",
+            dc(active)?,
+            dc(passive)?,
+            resistors.join(" and ")
+        ),
+        format!(
+            "with ideal op-amps the DC-path resistors move the response by at most {:.4e} dB between {low_hz:.4e} Hz and the balance frequency {balance_hz:.4e} Hz",
+            deviation_db(passive, &ideal, &below)?
+        ),
+    ])
+}

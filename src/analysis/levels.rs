@@ -1,0 +1,103 @@
+//! Signal levels inside an active filter: the peak gain from the input to
+//! every op-amp output over frequency, and the largest input the filter
+//! takes before the first op-amp clips.
+//!
+//! Op-amp outputs inside a GIC swing above the input near the band edges
+//! (field notes, section 5), so the stage with the highest peak gain sets
+//! the filter's maximum input: swing / peak gain. The output voltage read
+//! is the op-amp's `out` node (after any output resistance, which drops
+//! little at the loads a filter presents).
+
+use super::AnalysisError;
+use crate::circuit::{AcSystem, CircuitError, Element};
+
+/// The level at one op-amp's output.
+#[derive(Debug, Clone, PartialEq)]
+pub struct OpAmpLevel {
+    /// Element index in the netlist.
+    pub element: usize,
+    /// Element name.
+    pub name: String,
+    /// Its output node.
+    pub out_node: usize,
+    /// Peak of 20 log10 |V(out_node) / V(inp)| over the frequencies, dB.
+    pub peak_gain_db: f64,
+    /// The frequency of the peak, Hz (the first one on a tie).
+    pub peak_freq_hz: f64,
+    /// The input amplitude (V peak) at which this output reaches the
+    /// stated swing: swing / peak gain.
+    pub max_input_v: f64,
+    /// Whether this op-amp has the highest peak gain of all, so it clips
+    /// first (every op-amp tied at the highest is flagged).
+    pub clips_first: bool,
+}
+
+/// Peak gains from node `inp` to every op-amp output over `freqs_hz`,
+/// and the input level (V peak) at which each output reaches `swing_v`
+/// (V peak). Op-amps in netlist order; empty for a circuit without any.
+pub fn opamp_levels(
+    system: &mut AcSystem,
+    inp: usize,
+    freqs_hz: &[f64],
+    swing_v: f64,
+) -> Result<Vec<OpAmpLevel>, AnalysisError> {
+    if !(swing_v.is_finite() && swing_v > 0.0) {
+        return Err(AnalysisError::BadSwing { swing_v });
+    }
+    if freqs_hz.is_empty() {
+        return Err(AnalysisError::EmptyGrid {
+            what: "signal-level frequency",
+        });
+    }
+    let node_count = system.netlist().nodes.len();
+    if inp >= node_count {
+        return Err(CircuitError::NodeOutOfRange {
+            context: "input".to_string(),
+            node: inp,
+            node_count,
+        }
+        .into());
+    }
+    let outputs: Vec<(usize, String, usize)> = system
+        .netlist()
+        .elements
+        .iter()
+        .enumerate()
+        .filter_map(|(i, e)| match e {
+            Element::OpAmp { name, out, .. } => Some((i, name.clone(), *out)),
+            _ => None,
+        })
+        .collect();
+    // (peak |gain|, its frequency) per op-amp.
+    let mut peaks = vec![(f64::NEG_INFINITY, f64::NAN); outputs.len()];
+    for &f in freqs_hz {
+        let v = system.node_voltages(f)?;
+        if v[inp].norm() == 0.0 {
+            return Err(CircuitError::ZeroVoltage {
+                node: inp,
+                freq_hz: f,
+            }
+            .into());
+        }
+        for (peak, &(_, _, out)) in peaks.iter_mut().zip(&outputs) {
+            let gain = (v[out] / v[inp]).norm();
+            if gain > peak.0 {
+                *peak = (gain, f);
+            }
+        }
+    }
+    let highest = peaks.iter().map(|p| p.0).fold(f64::NEG_INFINITY, f64::max);
+    Ok(outputs
+        .into_iter()
+        .zip(peaks)
+        .map(|((element, name, out_node), (gain, freq))| OpAmpLevel {
+            element,
+            name,
+            out_node,
+            peak_gain_db: 20.0 * gain.log10(),
+            peak_freq_hz: freq,
+            max_input_v: swing_v / gain,
+            clips_first: gain == highest,
+        })
+        .collect())
+}

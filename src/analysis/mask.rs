@@ -1,0 +1,117 @@
+//! A specification mask for Monte Carlo yield: limits on |H| in dB over
+//! frequency ranges, checked at the analysis frequencies.
+//!
+//! Invariants ([`Mask::new`]): at least one limit; each range finite with
+//! 0 <= from <= to; bounds not NaN, at least one finite, min <= max (an
+//! absent bound is an infinity). A mask only sees the analysis grid, so
+//! running it on a grid that misses a limit's range is an error rather
+//! than a silent pass.
+
+use super::AnalysisError;
+
+/// One limit: min_db <= 20 log10 |H| <= max_db for every analysis
+/// frequency in [from_hz, to_hz].
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Limit {
+    /// Start of the range, Hz.
+    pub from_hz: f64,
+    /// End of the range, Hz (inclusive).
+    pub to_hz: f64,
+    /// Lower bound, dB (`f64::NEG_INFINITY` for none).
+    pub min_db: f64,
+    /// Upper bound, dB (`f64::INFINITY` for none).
+    pub max_db: f64,
+}
+
+impl Limit {
+    /// Whether the limit is well formed (see the module doc).
+    fn is_valid(&self) -> bool {
+        let range = self.from_hz.is_finite()
+            && self.to_hz.is_finite()
+            && self.from_hz >= 0.0
+            && self.from_hz <= self.to_hz;
+        let bounds = !self.min_db.is_nan()
+            && !self.max_db.is_nan()
+            && (self.min_db.is_finite() || self.max_db.is_finite())
+            && self.min_db <= self.max_db;
+        range && bounds
+    }
+}
+
+/// A checked set of limits.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Mask {
+    limits: Vec<Limit>,
+}
+
+/// One bound check at one analysis frequency.
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct Check {
+    /// Index into the analysis frequencies.
+    pub point: usize,
+    /// Lower bound, dB.
+    pub min_db: f64,
+    /// Upper bound, dB.
+    pub max_db: f64,
+}
+
+impl Mask {
+    /// Checks the limits (see the module doc).
+    pub fn new(limits: Vec<Limit>) -> Result<Mask, AnalysisError> {
+        if limits.is_empty() {
+            return Err(AnalysisError::EmptyMask);
+        }
+        if let Some((index, l)) = limits.iter().enumerate().find(|(_, l)| !l.is_valid()) {
+            return Err(AnalysisError::BadLimit {
+                index,
+                from_hz: l.from_hz,
+                to_hz: l.to_hz,
+                min_db: l.min_db,
+                max_db: l.max_db,
+            });
+        }
+        Ok(Mask { limits })
+    }
+
+    /// The limits, as given.
+    pub fn limits(&self) -> &[Limit] {
+        &self.limits
+    }
+
+    /// Every (frequency, bounds) check on this grid; each limit must
+    /// cover at least one frequency.
+    pub(crate) fn checks(&self, freqs_hz: &[f64]) -> Result<Vec<Check>, AnalysisError> {
+        let mut checks = Vec::new();
+        for (index, l) in self.limits.iter().enumerate() {
+            let before = checks.len();
+            checks.extend(
+                freqs_hz
+                    .iter()
+                    .enumerate()
+                    .filter(|(_, &f)| f >= l.from_hz && f <= l.to_hz)
+                    .map(|(point, _)| Check {
+                        point,
+                        min_db: l.min_db,
+                        max_db: l.max_db,
+                    }),
+            );
+            if checks.len() == before {
+                return Err(AnalysisError::LimitNotSampled {
+                    index,
+                    from_hz: l.from_hz,
+                    to_hz: l.to_hz,
+                });
+            }
+        }
+        Ok(checks)
+    }
+}
+
+/// The smallest distance, in dB, from a response to the bounds it must
+/// keep: negative when some bound is broken.
+pub(crate) fn margin_db(checks: &[Check], db: &[f64]) -> f64 {
+    checks
+        .iter()
+        .map(|c| (db[c.point] - c.min_db).min(c.max_db - db[c.point]))
+        .fold(f64::INFINITY, f64::min)
+}

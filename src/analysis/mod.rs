@@ -1,0 +1,33 @@
+//! Analyses of a built circuit that speak only the netlist type:
+//! sensitivity, Monte Carlo yield and signal levels.
+//!
+//! - [`sensitivities`] and [`summarize`] (in `sensitivity`): dB per % of
+//!   |H| to every R, C, L and op-amp gain-bandwidth, by the adjoint method
+//!   (one extra transposed solve per frequency for all of them).
+//! - [`monte_carlo`] (in `montecarlo`): yield against a [`Mask`], the
+//!   envelope and the worst trials; parallel (rayon) and reproducible for
+//!   a seed whatever the thread count.
+//! - [`opamp_levels`] (in `levels`): peak gain to every op-amp output and
+//!   the largest input before the first one clips.
+//!
+//! Every analysis reads the circuit through [`crate::circuit::AcSystem`]'s
+//! public methods only, so any solver behind that interface serves it.
+//! Besides `circuit` this module imports only [`crate::parts::Tolerance`]
+//! (the tolerance model a Monte Carlo run draws from).
+
+mod error;
+mod levels;
+mod mask;
+mod montecarlo;
+mod sensitivity;
+
+pub use error::AnalysisError;
+pub use levels::{opamp_levels, OpAmpLevel};
+pub use mask::{Limit, Mask};
+pub use montecarlo::{
+    monte_carlo, Envelope, MonteCarlo, MonteCarloResult, Scope, ToleranceRule, TrialSummary, Varied,
+};
+pub use sensitivity::{
+    sensitivities, summarize, Extreme, Parameter, Sensitivity, SensitivitySummary,
+    SensitivityTable, SummaryPoints,
+};

@@ -1,0 +1,485 @@
+//! Real parts for an active build: every resistor and capacitor on a
+//! preferred value (IEC 60063, see [`crate::parts`]), capacitors inside
+//! the range the designer buys, and one trimming resistor per GIC that
+//! restores what its converter realizes.
+//!
+//! The steps, in the order a designer takes them:
+//! 1. FDNR image only: one impedance level for the whole image, chosen so
+//!    that its termination capacitors (the images of the terminations,
+//!    whose value no converter sets) land on capacitor-series values in
+//!    range. Scaling every impedance by one factor leaves every voltage
+//!    ratio unchanged, so the image still realizes the ladder. A
+//!    simulated-inductor build keeps the ladder's own resistors and
+//!    capacitors, whose level the terminations fix: such a capacitor
+//!    outside the range is an error ([`PartsSnapError::OutOfRange`]), as
+//!    no impedance level can meet the range there.
+//! 2. Each converter's capacitors are put on the capacitor-series value
+//!    in range nearest to them by the converter's own freedoms (its
+//!    impedance level, and for an FDNR's Z1 its balance point; see
+//!    `converter`), which keep its realized L or D and its op-amp
+//!    balance. These are the "ideal values": the network realizes exactly
+//!    what the build did.
+//! 3. Every resistor snaps to the nearest resistor-series value and every
+//!    other capacitor to the nearest capacitor-series value in range.
+//! 4. One resistor per GIC chain (Z1 of an inductor, outside both op-amp
+//!    loops; a loop resistor of an FDNR, whose Z1 is a capacitor) is solved
+//!    so the chain realizes its ideal value again with the snapped others
+//!    ([`Trim`]); a floating inductor has two chains, and both must match
+//!    or it leaks to ground, so it gets two trims.
+//!
+//! The largest passband deviation from the passive ideal is measured with
+//! the build's own op-amps after each step ([`ErrorSteps`]). The trims
+//! remove the converters' share of the snapping error; what they cannot
+//! remove is that of the parts outside any converter: the ladder's own
+//! capacitors in a simulated-inductor build, the images of the ladder's
+//! inductors (resistors) in an FDNR image.
+//!
+//! Invariants of a [`SnappedBuild`]: its netlist has the build's
+//! elements, names and nodes; every resistor but the trims is a
+//! resistor-series value, every capacitor a capacitor-series value inside
+//! the range; every converter realizes, with ideal op-amps, the value it
+//! realized in the build (an FDNR's D divided by the image level of step
+//! 1, which multiplied every impedance of the image).
+
+mod converter;
+mod error;
+mod trim;
+
+pub use error::PartsSnapError;
+pub use trim::{Trim, TRIMMER_SERIES};
+
+use converter::{converters, is_capacitor, scale_impedance, value, Converter, Moves};
+
+use crate::active::{deviation_db, ActiveBuild, Stage, StageKind, PASSBAND_POINTS};
+use crate::circuit::{log_grid, ElementKind, Netlist};
+use crate::export::eng::format_trimmed;
+use crate::parts::{Distribution, Series, Tolerance};
+
+/// Relative slack on the capacitor range for values placed on one of its
+/// ends: rescaling by a computed factor can land a few units in the last
+/// place outside the end it aimed at. Far below any part tolerance.
+const RANGE_SLACK: f64 = 1e-9;
+
+/// The parts a design is bought from (the `[parts]` table of a design
+/// file).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PartsChoice {
+    /// Series of the fixed resistors.
+    pub resistor_series: Series,
+    /// Their relative tolerance (0.01 is 1 %).
+    pub resistor_tolerance: f64,
+    /// Series of the capacitors.
+    pub capacitor_series: Series,
+    /// Their relative tolerance.
+    pub capacitor_tolerance: f64,
+    /// Smallest and largest capacitor bought, farad.
+    pub capacitor_range_f: (f64, f64),
+}
+
+impl Default for PartsChoice {
+    /// 1 % resistors from E96, 5 % capacitors from E12, 100 pF to 1 uF: a
+    /// common stock of metal-film resistors and film capacitors.
+    fn default() -> PartsChoice {
+        PartsChoice {
+            resistor_series: Series::E96,
+            resistor_tolerance: 0.01,
+            capacitor_series: Series::E12,
+            capacitor_tolerance: 0.05,
+            capacitor_range_f: (100e-12, 1e-6),
+        }
+    }
+}
+
+impl PartsChoice {
+    /// Checks the tolerances (0 to [`crate::parts::MAX_TOLERANCE`]) and the
+    /// range (0 < low <= high, finite, holding a capacitor-series value);
+    /// names the design-file key.
+    pub fn check(&self) -> Result<(), PartsSnapError> {
+        for (key, value) in [
+            ("parts.resistor_tolerance", self.resistor_tolerance),
+            ("parts.capacitor_tolerance", self.capacitor_tolerance),
+        ] {
+            Tolerance::new(value, Distribution::Uniform)
+                .map_err(|_| PartsSnapError::BadTolerance { key, value })?;
+        }
+        let (low_f, high_f) = self.capacitor_range_f;
+        if !(low_f > 0.0 && low_f <= high_f && high_f.is_finite()) {
+            return Err(PartsSnapError::BadRange { low_f, high_f });
+        }
+        // Fails with NoSeriesValue when the range holds no series value.
+        self.in_range(low_f).map(|_| ())
+    }
+
+    /// Whether `farad` lies in the range (within [`RANGE_SLACK`]).
+    fn contains(&self, farad: f64) -> bool {
+        let (low, high) = self.capacitor_range_f;
+        farad >= low * (1.0 - RANGE_SLACK) && farad <= high * (1.0 + RANGE_SLACK)
+    }
+
+    /// The capacitor-series value in range nearest to `farad` (the range
+    /// end's nearest series value inside it, for a value outside).
+    fn in_range(&self, farad: f64) -> Result<f64, PartsSnapError> {
+        let (low_f, high_f) = self.capacitor_range_f;
+        let series = self.capacitor_series;
+        let snap = |cause| PartsSnapError::Snap {
+            element: "parts.capacitor_range".to_string(),
+            cause,
+        };
+        let near = series.nearest(farad.clamp(low_f, high_f)).map_err(snap)?;
+        let inside = if near < low_f {
+            series.snap_up(low_f).map_err(snap)?
+        } else if near > high_f {
+            series.snap_down(high_f).map_err(snap)?
+        } else {
+            near
+        };
+        if (low_f..=high_f).contains(&inside) {
+            Ok(inside)
+        } else {
+            Err(PartsSnapError::NoSeriesValue {
+                series,
+                low_f,
+                high_f,
+            })
+        }
+    }
+
+    /// The tolerance of element `index` by its kind (0 for what is
+    /// neither a resistor nor a capacitor).
+    fn tolerance_of(&self, netlist: &Netlist, index: usize) -> f64 {
+        match netlist.elements[index].kind() {
+            ElementKind::Resistor => self.resistor_tolerance,
+            ElementKind::Capacitor => self.capacitor_tolerance,
+            _ => 0.0,
+        }
+    }
+}
+
+/// The largest passband deviation from the passive ideal after each step,
+/// dB, with the build's op-amp model.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct ErrorSteps {
+    /// The build as given.
+    pub as_built: f64,
+    /// After rescaling (steps 1 and 2 of the module documentation): exact
+    /// values, converter capacitors on series values in range.
+    pub ideal_values: f64,
+    /// Every resistor and capacitor on its series.
+    pub snapped: f64,
+    /// With the trimming resistors solved.
+    pub trimmed: f64,
+}
+
+/// An active build on real parts.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct SnappedBuild {
+    /// The network, trimmed: every trim at its solved value.
+    pub netlist: Netlist,
+    /// The build's stages with the values the snapped network realizes
+    /// (converters: their ideal value, restored by the trims).
+    pub stages: Vec<Stage>,
+    /// One trimming resistor per GIC chain, in stage order.
+    pub trims: Vec<Trim>,
+    /// What each rescaling did, in words.
+    pub rescaled: Vec<String>,
+    /// The passband error after each step.
+    pub error_db: ErrorSteps,
+}
+
+/// Snaps `build` (the active network of `passive`) to the parts of
+/// `choice` (see the module documentation), measuring the errors over
+/// `passband_hz` (`[low, high]` bands, Hz) on [`PASSBAND_POINTS`]
+/// log-spaced points each.
+pub fn snap_build(
+    passive: &Netlist,
+    build: &ActiveBuild,
+    choice: &PartsChoice,
+    passband_hz: &[[f64; 2]],
+) -> Result<SnappedBuild, PartsSnapError> {
+    choice.check()?;
+    let grid = passband_grid(passband_hz)?;
+    let deviation = |n: &Netlist| deviation_db(passive, n, &grid);
+    let as_built = deviation(&build.netlist)?;
+    let converters = converters(&build.stages, &build.netlist)?;
+    let (mut netlist, rescaled) = rescale(build, &converters, choice)?;
+    let targets: Vec<Vec<f64>> = converters
+        .iter()
+        .map(|c| c.chains.iter().map(|ch| ch.realized(&netlist)).collect())
+        .collect();
+    let ideal_values = deviation(&netlist)?;
+    snap_all(&mut netlist, choice)?;
+    let snapped = deviation(&netlist)?;
+    let mut trims = Vec::new();
+    for (c, targets) in converters.iter().zip(&targets) {
+        for (chain, &target) in c.chains.iter().zip(targets) {
+            trims.push(trim::solve(
+                &mut netlist,
+                &c.replaces,
+                chain,
+                target,
+                choice,
+            )?);
+        }
+    }
+    let trimmed = deviation(&netlist)?;
+    Ok(SnappedBuild {
+        stages: realized_stages(&netlist, &build.stages, &converters),
+        netlist,
+        trims,
+        rescaled,
+        error_db: ErrorSteps {
+            as_built,
+            ideal_values,
+            snapped,
+            trimmed,
+        },
+    })
+}
+
+/// [`PASSBAND_POINTS`] log-spaced frequencies in each band.
+fn passband_grid(bands: &[[f64; 2]]) -> Result<Vec<f64>, PartsSnapError> {
+    if bands.is_empty() {
+        return Err(PartsSnapError::NoPassband);
+    }
+    let mut grid = Vec::new();
+    for &[low_hz, high_hz] in bands {
+        grid.extend(
+            log_grid(low_hz, high_hz, PASSBAND_POINTS)
+                .map_err(|_| PartsSnapError::BadPassband { low_hz, high_hz })?,
+        );
+    }
+    Ok(grid)
+}
+
+/// Steps 1 and 2: the build's netlist with the image level and every
+/// converter's capacitors placed, and what was done, in words.
+fn rescale(
+    build: &ActiveBuild,
+    converters: &[Converter],
+    choice: &PartsChoice,
+) -> Result<(Netlist, Vec<String>), PartsSnapError> {
+    let mut netlist = build.netlist.clone();
+    let mut notes = Vec::new();
+    let terminations = termination_capacitors(&netlist, &build.stages);
+    if !terminations.is_empty() {
+        let level = image_level(&netlist, &terminations, choice)?;
+        for index in 0..netlist.elements.len() {
+            if matches!(
+                netlist.elements[index].kind(),
+                ElementKind::Resistor | ElementKind::Capacitor
+            ) {
+                scale_impedance(&mut netlist, index, level)?;
+            }
+        }
+        notes.push(format!(
+            "FDNR image: every impedance x{level:.6} (the voltage ratios do not change), so its termination capacitors land on {} values in range: {}{}",
+            choice.capacitor_series,
+            describe_values(&build.netlist, &netlist, &terminations),
+            outside(&build.netlist, &terminations, choice)
+        ));
+    }
+    check_plain_capacitors(&netlist, &build.stages, converters, choice)?;
+    for c in converters {
+        let before = netlist.clone();
+        let moves = c.place(&mut netlist, |farad| choice.in_range(farad))?;
+        notes.push(describe_moves(c, moves, &before, &netlist, choice));
+    }
+    Ok((netlist, notes))
+}
+
+/// The element indices of the FDNR image's termination capacitors (the
+/// first element of each termination stage).
+fn termination_capacitors(netlist: &Netlist, stages: &[Stage]) -> Vec<usize> {
+    stages
+        .iter()
+        .filter(|s| s.kind == StageKind::Termination)
+        .filter_map(|s| netlist.element_index(s.elements.first()?))
+        .filter(|&i| is_capacitor(netlist, i))
+        .collect()
+}
+
+/// The factor on every impedance of an FDNR image that puts one of its
+/// termination capacitors on a series value in range and leaves the
+/// others in range with the smallest largest snapping step.
+fn image_level(
+    netlist: &Netlist,
+    capacitors: &[usize],
+    choice: &PartsChoice,
+) -> Result<f64, PartsSnapError> {
+    let mut best: Option<(f64, f64)> = None;
+    for &i in capacitors {
+        let c = value(netlist, i);
+        let level = c / choice.in_range(c)?;
+        let mut worst = Some(0.0_f64);
+        for &j in capacitors {
+            let scaled = value(netlist, j) / level;
+            let step = (choice.in_range(scaled)? / scaled).ln().abs();
+            worst = worst
+                .filter(|_| choice.contains(scaled))
+                .map(|w| w.max(step));
+        }
+        if let Some(w) = worst.filter(|&w| best.is_none_or(|b| w < b.0)) {
+            best = Some((w, level));
+        }
+    }
+    best.map(|b| b.1).ok_or_else(|| {
+        let values: Vec<f64> = capacitors.iter().map(|&i| value(netlist, i)).collect();
+        let max = values.iter().copied().fold(f64::NAN, f64::max);
+        let min = values.iter().copied().fold(f64::NAN, f64::min);
+        PartsSnapError::TerminationsSpread {
+            capacitors: describe_values(netlist, netlist, capacitors),
+            ratio: max / min,
+            low_f: choice.capacitor_range_f.0,
+            high_f: choice.capacitor_range_f.1,
+        }
+    })
+}
+
+/// Every capacitor that belongs to no converter must already lie in the
+/// range: nothing can rescale it alone.
+fn check_plain_capacitors(
+    netlist: &Netlist,
+    stages: &[Stage],
+    converters: &[Converter],
+    choice: &PartsChoice,
+) -> Result<(), PartsSnapError> {
+    let in_converter = |i: usize| {
+        converters
+            .iter()
+            .any(|c| c.chains.iter().any(|ch| ch.z.contains(&i)))
+    };
+    for (i, e) in netlist.elements.iter().enumerate() {
+        let farad = value(netlist, i);
+        if !is_capacitor(netlist, i) || in_converter(i) || choice.contains(farad) {
+            continue;
+        }
+        let stage = stages
+            .iter()
+            .find(|s| s.elements.iter().any(|n| n == e.name()))
+            .and_then(|s| s.replaces.clone())
+            .unwrap_or_else(|| "ladder".to_string());
+        return Err(PartsSnapError::OutOfRange {
+            stage,
+            element: e.name().to_string(),
+            farad,
+            low_f: choice.capacitor_range_f.0,
+            high_f: choice.capacitor_range_f.1,
+            why: "it belongs to no converter, and the terminations fix the ladder's impedance level; widen the range",
+        });
+    }
+    Ok(())
+}
+
+/// Step 3: every resistor to its nearest series value, every capacitor to
+/// the nearest series value in range.
+fn snap_all(netlist: &mut Netlist, choice: &PartsChoice) -> Result<(), PartsSnapError> {
+    for index in 0..netlist.elements.len() {
+        let v = value(netlist, index);
+        let snapped = match netlist.elements[index].kind() {
+            ElementKind::Resistor => {
+                choice
+                    .resistor_series
+                    .nearest(v)
+                    .map_err(|cause| PartsSnapError::Snap {
+                        element: netlist.elements[index].name().to_string(),
+                        cause,
+                    })?
+            }
+            ElementKind::Capacitor => choice.in_range(v)?,
+            _ => continue,
+        };
+        netlist.set_value(index, snapped)?;
+    }
+    Ok(())
+}
+
+/// The stages with the values `netlist` realizes: a converter's from its
+/// first chain, any other stage's from its first element.
+fn realized_stages(netlist: &Netlist, stages: &[Stage], converters: &[Converter]) -> Vec<Stage> {
+    let mut out = stages.to_vec();
+    for stage in &mut out {
+        let first = stage
+            .elements
+            .first()
+            .and_then(|n| netlist.element_index(n));
+        if let Some(i) = first {
+            stage.value = value(netlist, i);
+        }
+    }
+    for c in converters {
+        out[c.stage].value = c.chains[0].realized(netlist);
+    }
+    out
+}
+
+/// "C_RS 5.305 nF -> 5.6 nF, ..." for elements `indices`, from `before`
+/// to `after`.
+fn describe_values(before: &Netlist, after: &Netlist, indices: &[usize]) -> String {
+    let farad = |n: &Netlist, i: usize| format_trimmed(value(n, i), "F");
+    indices
+        .iter()
+        .map(|&i| {
+            let name = after.elements[i].name();
+            let (from, to) = (farad(before, i), farad(after, i));
+            if from == to {
+                format!("{name} {to}")
+            } else {
+                format!("{name} {from} -> {to}")
+            }
+        })
+        .collect::<Vec<_>>()
+        .join(", ")
+}
+
+/// One line on how a converter's capacitors were placed.
+fn describe_moves(
+    c: &Converter,
+    moves: Moves,
+    before: &Netlist,
+    after: &Netlist,
+    choice: &PartsChoice,
+) -> String {
+    let mut capacitors: Vec<usize> = Vec::new();
+    for i in c.chains.iter().flat_map(|ch| ch.z) {
+        if is_capacitor(after, i) && !capacitors.contains(&i) {
+            capacitors.push(i);
+        }
+    }
+    let mut line = format!(
+        "{}: {}; impedance level of Z2..Z5 x{:.4}",
+        c.replaces,
+        describe_values(before, after, &capacitors),
+        moves.level
+    );
+    if moves.balance != 1.0 {
+        line += &format!(
+            ", Z1 x{:.4} and Z5 /{:.4} (its Z4:Z5 balance frequency x{:.4})",
+            moves.balance,
+            moves.balance,
+            1.0 / moves.balance
+        );
+    }
+    line += &outside(before, &capacitors, choice);
+    line + "; the value it realizes is unchanged"
+}
+
+/// "; C_RS and C_RL were outside the range [...]" for those of `indices`
+/// whose value in `before` lies outside, or nothing.
+fn outside(before: &Netlist, indices: &[usize], choice: &PartsChoice) -> String {
+    let names: Vec<&str> = indices
+        .iter()
+        .filter(|&&i| !choice.contains(value(before, i)))
+        .map(|&i| before.elements[i].name())
+        .collect();
+    let (low, high) = choice.capacitor_range_f;
+    match names.len() {
+        0 => String::new(),
+        n => format!(
+            "; {} {} outside the range [{}, {}]",
+            names.join(" and "),
+            if n == 1 { "was" } else { "were" },
+            format_trimmed(low, "F"),
+            format_trimmed(high, "F")
+        ),
+    }
+}

@@ -1,0 +1,331 @@
+//! The converters of an active build seen as GIC chains: the value each
+//! realizes, and the two freedoms that move its capacitors without
+//! changing that value.
+//!
+//! # Realized value
+//! A chain Z1..Z5 has Zin = Z1 Z3 Z5 / (Z2 Z4) with ideal op-amps
+//! (Antoniou 1969, Proc. IEE 116, the GIC relation; common practice; see
+//! [`crate::active::gic`]). A resistor in position p contributes R^s, a
+//! capacitor (1/(sC))^s, with s = +1 for odd p and -1 for even p, so
+//! Zin = K s^n for a monomial K of the element values with exponents +-1.
+//! An inductor has n = 1 and L = K (capacitor in position 2:
+//! L = C2 R1 R3 R5 / R4); an FDNR has n = -2 and D = 1/K (capacitors in
+//! positions 1 and 5: D = C1 C5 R2 R4 / R3). Either way the realized value
+//! q = K^sign(n) is a product of element values with exponents +-1, which
+//! is what the trim solve and the rescaling rely on.
+//!
+//! # Freedoms
+//! - Level: every impedance Z2..Z5 times k. Zin keeps Z3 Z5 / (Z2 Z4),
+//!   and the ratios Z2:Z3 and Z4:Z5 that balance the op-amp loops (see
+//!   [`crate::active::gic`]) stay as they were, so the op-amp error does
+//!   not change to first order. A capacitor in positions 2 to 5 goes to
+//!   C/k. This is the "C -> C/k, R -> k R" rescaling of common practice,
+//!   applied to the whole loop part of the chain rather than one resistor,
+//!   so the balance survives.
+//! - Balance shift: Z1 times m and Z5 divided by m. Zin is unchanged; a
+//!   capacitor in position 1 goes to C1/m. The level freedom cannot move
+//!   that capacitor (an FDNR's C1 = wb D is fixed by its balance
+//!   frequency wb), so this one trades it against C5: with Z4 a resistor
+//!   and Z5 a capacitor, Z4 and Z5 now balance at wb/m. The Z2:Z3 ratio,
+//!   which sets the loss term, does not change.
+//!
+//! A floating inductor is two chains sharing Z5; every freedom applies to
+//! both chains at once, so both keep their value.
+
+use super::PartsSnapError;
+use crate::active::{Stage, StageKind};
+use crate::circuit::{Element, ElementKind, Netlist};
+
+/// One converter of a build: its stage and its chains (a floating
+/// inductor's two chains share Z5).
+#[derive(Debug, Clone, PartialEq)]
+pub(super) struct Converter {
+    /// Index of its stage in the build.
+    pub stage: usize,
+    /// What the stage replaces.
+    pub replaces: String,
+    /// Its chains.
+    pub chains: Vec<Chain>,
+}
+
+/// One GIC chain and what the trim needs of it.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(super) struct Chain {
+    /// Z1..Z5 as element indices.
+    pub z: [usize; 5],
+    /// The exponent of each in the realized value (see the module
+    /// documentation).
+    pub exponents: [i32; 5],
+    /// The position (0 for Z1) of the trimming resistor.
+    pub trim: usize,
+}
+
+/// How one converter's capacitors were moved.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(super) struct Moves {
+    /// The balance-shift factor m (1 when Z1 is a resistor).
+    pub balance: f64,
+    /// The level factor k (1 without a capacitor in positions 2 to 5).
+    pub level: f64,
+}
+
+/// The converters of a build, in stage order.
+pub(super) fn converters(
+    stages: &[Stage],
+    netlist: &Netlist,
+) -> Result<Vec<Converter>, PartsSnapError> {
+    let mut found = Vec::new();
+    for (index, stage) in stages.iter().enumerate() {
+        let replaces = stage.replaces.clone().unwrap_or_default();
+        let fault = |problem: String| PartsSnapError::Contract {
+            stage: replaces.clone(),
+            problem,
+        };
+        let Some(names) = chain_names(stage).map_err(fault)? else {
+            continue;
+        };
+        let mut chains = Vec::new();
+        for chain in names {
+            let mut z = [0; 5];
+            for (slot, name) in z.iter_mut().zip(chain) {
+                *slot = impedance_index(netlist, name).map_err(fault)?;
+            }
+            chains.push(read_chain(netlist, z).map_err(fault)?);
+        }
+        found.push(Converter {
+            stage: index,
+            replaces,
+            chains,
+        });
+    }
+    Ok(found)
+}
+
+/// The chains of a converter stage by element name (`None` for a stage
+/// that is no converter): the order [`crate::active::gic`] places them in.
+fn chain_names(stage: &Stage) -> Result<Option<Vec<[&str; 5]>>, String> {
+    let e: Vec<&str> = stage.elements.iter().map(String::as_str).collect();
+    match (stage.kind, &e[..]) {
+        (StageKind::GroundedInductor | StageKind::Fdnr, &[z1, z2, z3, z4, z5]) => {
+            Ok(Some(vec![[z1, z2, z3, z4, z5]]))
+        }
+        (StageKind::FloatingInductor, &[a1, a2, a3, a4, b1, b2, b3, b4, z5]) => {
+            Ok(Some(vec![[a1, a2, a3, a4, z5], [b1, b2, b3, b4, z5]]))
+        }
+        (StageKind::GroundedInductor | StageKind::Fdnr | StageKind::FloatingInductor, _) => {
+            Err(format!(
+                "a {:?} stage lists {} elements, not its chain Z1..Z5 (9 for a floating inductor)",
+                stage.kind,
+                e.len()
+            ))
+        }
+        _ => Ok(None),
+    }
+}
+
+/// The index of a resistor or capacitor by name.
+fn impedance_index(netlist: &Netlist, name: &str) -> Result<usize, String> {
+    let index = netlist
+        .element_index(name)
+        .ok_or_else(|| format!("its element {name:?} is not in the netlist"))?;
+    match netlist.elements[index].kind() {
+        ElementKind::Resistor | ElementKind::Capacitor => Ok(index),
+        other => Err(format!("its element {name:?} is a {}", other.word())),
+    }
+}
+
+/// Whether element `index` is a capacitor.
+pub(super) fn is_capacitor(netlist: &Netlist, index: usize) -> bool {
+    netlist.elements[index].kind() == ElementKind::Capacitor
+}
+
+/// The value of element `index` (a resistor or capacitor, checked when
+/// the converters were read).
+pub(super) fn value(netlist: &Netlist, index: usize) -> f64 {
+    netlist.elements[index].value().unwrap_or(f64::NAN)
+}
+
+/// The chain of elements `z`, its exponents and its trimming resistor.
+fn read_chain(netlist: &Netlist, z: [usize; 5]) -> Result<Chain, String> {
+    let exponents = exponents(netlist, &z).ok_or(
+        "its chain has as many capacitors in odd as in even positions, so it realizes no L or D",
+    )?;
+    let capacitor = z.map(|i| is_capacitor(netlist, i));
+    let trim = trim_position(capacitor)
+        .ok_or("its chain has no resistor in positions 1, 2 or 4 to trim it with")?;
+    Ok(Chain { z, exponents, trim })
+}
+
+/// The position of the trimming resistor: Z1 when it is a resistor,
+/// since it sits outside both op-amp loops (scaling it scales Zin and
+/// nothing else, see [`crate::active::gic`]); otherwise (an FDNR, whose
+/// Z1 is a capacitor) Z2, then Z4. On the FDNR demo (tests/snap.rs)
+/// trimming Z2 left 0.0937 dB of passband error and Z4 0.0940 dB: the
+/// two differ only in which op-amp balance the trim disturbs, by about
+/// the resistor snapping step, and little either way.
+fn trim_position(capacitor: [bool; 5]) -> Option<usize> {
+    [0, 1, 3].into_iter().find(|&p| !capacitor[p])
+}
+
+/// The exponent of each element of a chain in its realized value (see the
+/// module documentation), or `None` for a chain with as many capacitors
+/// in odd as in even positions, whose Zin does not depend on frequency.
+fn exponents(netlist: &Netlist, chain: &[usize; 5]) -> Option<[i32; 5]> {
+    let mut k = [0; 5];
+    let mut power = 0_i32;
+    for (p, (&index, e)) in chain.iter().zip(&mut k).enumerate() {
+        // Positions 1, 3, 5 (p = 0, 2, 4) are in the numerator.
+        let s = if p % 2 == 0 { 1 } else { -1 };
+        if is_capacitor(netlist, index) {
+            *e = -s;
+            power -= s;
+        } else {
+            *e = s;
+        }
+    }
+    let sign = power.signum();
+    (sign != 0).then(|| k.map(|e| e * sign))
+}
+
+impl Chain {
+    /// The value it realizes with ideal op-amps: henry or farad second.
+    pub fn realized(&self, netlist: &Netlist) -> f64 {
+        self.z
+            .iter()
+            .zip(self.exponents)
+            .map(|(&index, e)| value(netlist, index).powi(e))
+            .product()
+    }
+}
+
+/// Multiplies the impedance of element `index` by `factor`: R times it,
+/// C divided by it.
+pub(super) fn scale_impedance(
+    netlist: &mut Netlist,
+    index: usize,
+    factor: f64,
+) -> Result<(), PartsSnapError> {
+    let v = value(netlist, index);
+    let scaled = match netlist.elements[index] {
+        Element::Capacitor { .. } => v / factor,
+        _ => v * factor,
+    };
+    Ok(netlist.set_value(index, scaled)?)
+}
+
+impl Converter {
+    /// The shared Z5.
+    fn load(&self) -> usize {
+        self.chains[0].z[4]
+    }
+
+    /// Puts the capacitors of the first chain on the values `place`
+    /// chooses for them (a series value in range), by the balance shift
+    /// for a capacitor Z1 and the level for the first capacitor of Z2..Z5.
+    pub fn place(
+        &self,
+        netlist: &mut Netlist,
+        mut place: impl FnMut(f64) -> Result<f64, PartsSnapError>,
+    ) -> Result<Moves, PartsSnapError> {
+        let mut moves = Moves {
+            balance: 1.0,
+            level: 1.0,
+        };
+        let first = self.chains[0].z;
+        if is_capacitor(netlist, first[0]) {
+            let c = value(netlist, first[0]);
+            moves.balance = c / place(c)?;
+            for chain in &self.chains {
+                scale_impedance(netlist, chain.z[0], moves.balance)?;
+            }
+            scale_impedance(netlist, self.load(), 1.0 / moves.balance)?;
+        }
+        if let Some(&cap) = first[1..].iter().find(|&&i| is_capacitor(netlist, i)) {
+            let c = value(netlist, cap);
+            moves.level = c / place(c)?;
+            for chain in &self.chains {
+                for &index in &chain.z[1..4] {
+                    scale_impedance(netlist, index, moves.level)?;
+                }
+            }
+            scale_impedance(netlist, self.load(), moves.level)?;
+        }
+        Ok(moves)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A product of five values rounds five times, 1.1e-16 each.
+    const PRODUCT_TOL: f64 = 1e-15;
+
+    /// A chain of five elements with these kinds and values (capacitor
+    /// where `true`), on nodes of their own.
+    fn chain(kinds: [bool; 5], values: [f64; 5]) -> (Netlist, Chain) {
+        let mut n = Netlist::new("chain");
+        for (p, (&c, &v)) in kinds.iter().zip(&values).enumerate() {
+            let (a, b) = (n.node(&format!("n{p}")), n.node(&format!("m{p}")));
+            let e = if c {
+                Element::Capacitor {
+                    name: format!("C{p}"),
+                    a,
+                    b,
+                    farad: v,
+                }
+            } else {
+                Element::Resistor {
+                    name: format!("R{p}"),
+                    a,
+                    b,
+                    ohm: v,
+                }
+            };
+            n.add(e).unwrap();
+        }
+        let c = read_chain(&n, [0, 1, 2, 3, 4]).unwrap();
+        (n, c)
+    }
+
+    /// The exponents reproduce the closed forms of the four converters of
+    /// the GIC relation Zin = Z1 Z3 Z5 / (Z2 Z4) (common practice; the
+    /// field notes, section 4), including the two this crate does not
+    /// build (capacitor in position 4; capacitors in 1 and 3).
+    #[test]
+    fn realized_values_follow_the_gic_relation() {
+        let v = [1.1e3, 2.3e-9, 3.7e3, 4.1e3, 5.3e3];
+        let (r1, x2, r3, r4, r5) = (v[0], v[1], v[2], v[3], v[4]);
+        let (n, c) = chain([false, true, false, false, false], v);
+        assert!((c.realized(&n) / (x2 * r1 * r3 * r5 / r4) - 1.0).abs() < PRODUCT_TOL);
+        assert_eq!(c.trim, 0);
+        let v = [1.1e3, 2.3e3, 3.7e3, 4.1e-9, 5.3e3];
+        let (n, c) = chain([false, false, false, true, false], v);
+        assert!((c.realized(&n) / (v[3] * v[0] * v[2] * v[4] / v[1]) - 1.0).abs() < PRODUCT_TOL);
+        let v = [1.1e-9, 2.3e3, 3.7e3, 4.1e3, 5.3e-9];
+        let (n, c) = chain([true, false, false, false, true], v);
+        assert!((c.realized(&n) / (v[0] * v[4] * v[1] * v[3] / v[2]) - 1.0).abs() < PRODUCT_TOL);
+        assert_eq!(c.trim, 1);
+        let v = [1.1e-9, 2.3e3, 3.7e-9, 4.1e3, 5.3e3];
+        let (n, c) = chain([true, false, true, false, false], v);
+        assert!((c.realized(&n) / (v[0] * v[2] * v[1] * v[3] / v[4]) - 1.0).abs() < PRODUCT_TOL);
+    }
+
+    /// A chain with no frequency dependence realizes no L or D.
+    #[test]
+    fn a_resistive_chain_is_refused() {
+        let mut n = Netlist::new("chain");
+        for p in 0..5 {
+            let (a, b) = (n.node(&format!("n{p}")), n.node(&format!("m{p}")));
+            let name = format!("R{p}");
+            n.add(Element::Resistor {
+                name,
+                a,
+                b,
+                ohm: 1e3,
+            })
+            .unwrap();
+        }
+        assert!(read_chain(&n, [0, 1, 2, 3, 4]).is_err());
+    }
+}

@@ -1,0 +1,108 @@
+//! The one error type of snapping an active build to real parts.
+//!
+//! Bad input (a tolerance or range out of bounds, a range the build
+//! cannot meet) names the design-file key of the `[parts]` table and what
+//! would be accepted; the other variants are program faults and say which
+//! stage or element they met.
+
+use crate::active::ActiveError;
+use crate::circuit::CircuitError;
+use crate::parts::{PartsError, Series, MAX_TOLERANCE};
+
+/// Why an active build could not be snapped to real parts.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum PartsSnapError {
+    /// A relative tolerance out of range.
+    #[error("{key} = {value}: expected a fraction from 0 to {MAX_TOLERANCE} (0.01 is 1 %)")]
+    BadTolerance {
+        /// The design-file key, e.g. `parts.resistor_tolerance`.
+        key: &'static str,
+        /// The value given.
+        value: f64,
+    },
+    /// A capacitor range that is not 0 < low <= high, both finite.
+    #[error("parts.capacitor_range = [{low_f:e}, {high_f:e}]: expected 0 < low <= high, both finite, in farad")]
+    BadRange {
+        /// Lower end given, farad.
+        low_f: f64,
+        /// Upper end given, farad.
+        high_f: f64,
+    },
+    /// The capacitor range holds no value of the capacitor series.
+    #[error("parts.capacitor_range = [{low_f:e}, {high_f:e}] holds no {series} value: widen it or choose a finer parts.capacitor_series")]
+    NoSeriesValue {
+        /// The capacitor series.
+        series: Series,
+        /// Lower end, farad.
+        low_f: f64,
+        /// Upper end, farad.
+        high_f: f64,
+    },
+    /// A capacitor outside the range that no impedance level can move.
+    #[error("{stage}: {element} = {farad:e} F lies outside parts.capacitor_range = [{low_f:e}, {high_f:e}], and no impedance level moves it: {why}")]
+    OutOfRange {
+        /// The stage it belongs to (or "ladder" for a capacitor of the
+        /// passive ladder kept in the build).
+        stage: String,
+        /// The capacitor.
+        element: String,
+        /// Its value, farad.
+        farad: f64,
+        /// Lower end of the range, farad.
+        low_f: f64,
+        /// Upper end of the range, farad.
+        high_f: f64,
+        /// Why nothing moves it, and what would help.
+        why: &'static str,
+    },
+    /// The termination capacitors of an FDNR image keep the ratio of the
+    /// terminations, and it is wider than the range.
+    #[error("the FDNR image's termination capacitors ({capacitors}) keep the ratio of the terminations, {ratio:.4}, which no impedance level fits into parts.capacitor_range = [{low_f:e}, {high_f:e}]: widen the range")]
+    TerminationsSpread {
+        /// The capacitors and their stages, in words.
+        capacitors: String,
+        /// Largest over smallest of them.
+        ratio: f64,
+        /// Lower end of the range, farad.
+        low_f: f64,
+        /// Upper end of the range, farad.
+        high_f: f64,
+    },
+    /// No passband to measure the errors in.
+    #[error(
+        "no passband given: the snapping errors are measured over at least one [low, high] band"
+    )]
+    NoPassband,
+    /// A passband edge pair that is not 0 < low < high, both finite.
+    #[error("passband [{low_hz}, {high_hz}] Hz: need 0 < low < high, both finite")]
+    BadPassband {
+        /// Lower edge given.
+        low_hz: f64,
+        /// Upper edge given.
+        high_hz: f64,
+    },
+    /// A stage of the build does not match its netlist (a program fault).
+    #[error("stage {stage}: {problem}")]
+    Contract {
+        /// The stage, by what it replaces.
+        stage: String,
+        /// What is wrong, naming the element.
+        problem: String,
+    },
+    /// A value the preferred-number series cannot snap (a program fault:
+    /// the active stage builds finite, positive values).
+    #[error("{element}: {cause}")]
+    Snap {
+        /// The element (or key) whose value it was.
+        element: String,
+        /// Why.
+        cause: PartsError,
+    },
+    /// Measuring a network failed.
+    #[error("measuring the passband error: {0}")]
+    Active(#[from] ActiveError),
+    /// Changing a value of the netlist failed.
+    #[error("circuit: {0}")]
+    Circuit(#[from] CircuitError),
+}
