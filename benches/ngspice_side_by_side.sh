@@ -11,8 +11,9 @@
 # - nocoil: the criterion benches `sweep` and `montecarlo` (run here unless
 #   SKIP_CARGO_BENCH=1, then their last results are read).
 #
-# Every ngspice timing is the best of RUNS runs (default 7): the machine
-# is shared, and the minimum is the least disturbed.
+# Every ngspice timing is the best of RUNS runs (default 7), and every
+# nocoil timing the fastest of criterion's samples: the machine is
+# shared, and the minimum is the least disturbed on both sides.
 #
 # Usage: bash benches/ngspice_side_by_side.sh   (from the repository root)
 set -euo pipefail
@@ -93,15 +94,19 @@ if [ "${SKIP_CARGO_BENCH:-0}" != 1 ]; then
     cargo bench --quiet --bench montecarlo >&2
 fi
 
-# Mean time per iteration of a criterion bench, nanoseconds.
+# Fastest sample of a criterion bench: time per iteration, nanoseconds.
 criterion_ns() {
-    python3 -c 'import json, sys; print(json.load(open(sys.argv[1]))["mean"]["point_estimate"])' \
-        "target/criterion/$1/new/estimates.json"
+    python3 -c 'import json, sys
+d = json.load(open(sys.argv[1]))
+print(min(t / i for t, i in zip(d["times"], d["iters"])))' \
+        "target/criterion/$1/new/sample.json"
 }
 sparse_point_us=$(echo "$(criterion_ns sweep_1000/sparse) / 1000 / 1000" | bc -l)
 dense_point_us=$(echo "$(criterion_ns sweep_1000/dense) / 1000 / 1000" | bc -l)
-sparse_trial_us=$(echo "$(criterion_ns montecarlo_201/sparse_10000_trials) / 10000 / 1000" | bc -l)
-dense_trial_us=$(echo "$(criterion_ns montecarlo_201/dense_100_trials) / 100 / 1000" | bc -l)
+sparse_trial_us=$(echo "$(criterion_ns montecarlo_201/loop_sparse_10000_trials) / 10000 / 1000" | bc -l)
+dense_trial_us=$(echo "$(criterion_ns montecarlo_201/loop_dense_100_trials) / 100 / 1000" | bc -l)
+engine1_s=$(echo "$(criterion_ns montecarlo_201/engine_1_threads_10000_trials) / 1000000000" | bc -l)
+engine2_s=$(echo "$(criterion_ns montecarlo_201/engine_2_threads_10000_trials) / 1000000000" | bc -l)
 
 printf 'ngspice: 1000 points %.4f s, 2 points %.4f s; Monte Carlo %d trials %.4f s, %d trials %.4f s (%d parts altered)\n' \
     "$t1000" "$t2" "$MANY" "$tmany" "$FEW" "$tfew" "$parts"
@@ -113,4 +118,7 @@ printf '\n%-28s %12s %12s %12s\n' "per 201-point trial (us)" nocoil-sparse nocoi
 printf '%-28s %12.2f %12.1f %12.1f\n' "" "$sparse_trial_us" "$dense_trial_us" "$ng_trial_us"
 printf '%-28s %12.1f %12.1f\n' "ngspice / nocoil" \
     "$(echo "$ng_trial_us / $sparse_trial_us" | bc -l)" "$(echo "$ng_trial_us / $dense_trial_us" | bc -l)"
-printf '%-28s %12.3f s\n' "10,000 trials, nocoil-sparse" "$(echo "$sparse_trial_us * 10000 / 1000000" | bc -l)"
+printf '\n%-36s %8.3f s\n' "10,000 trials, bare sparse loop" "$(echo "$sparse_trial_us * 10000 / 1000000" | bc -l)"
+printf '%-36s %8.3f s\n' "10,000 trials, monte_carlo, 1 thread" "$engine1_s"
+printf '%-36s %8.3f s\n' "10,000 trials, monte_carlo, 2 threads" "$engine2_s"
+printf '%-36s %8.3f s\n' "10,000 trials, ngspice (estimated)" "$(echo "$ng_trial_us * 10000 / 1000000" | bc -l)"

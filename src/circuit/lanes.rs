@@ -11,7 +11,8 @@ use num_complex::Complex64;
 /// Frequency points per pass. Four f64 fill one 256-bit vector (two
 /// 128-bit ones on the baseline x86-64 target); measured on the FDNR
 /// benchmark network, four lanes halved the time per point against one
-/// lane per pass (0.90 to 0.45 us on a loaded machine).
+/// lane per pass (0.90 to 0.45 us on a loaded machine), and eight were
+/// slower than four (0.37 against 0.20 ms per 1,000-point sweep).
 pub(crate) const LANES: usize = 4;
 
 /// [`LANES`] complex numbers.

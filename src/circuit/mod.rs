@@ -8,7 +8,8 @@
 //! - [`netlist`]: building and validating a netlist.
 //! - [`AcSystem`] (in `mna`): the fast solver, built once per netlist and
 //!   refilled in place when a value changes.
-//! - [`SparseAc`] (in `sparse`, pivot order in `ordering`): the sparse
+//! - [`SparseAc`] (in `sparse`; pivot order in `ordering`, elimination
+//!   program in `plan`, several points per pass in `lanes`): the sparse
 //!   solver for sweeps and Monte Carlo, refilled from an [`AcSystem`].
 //! - [`reference_transfer`] (in `reference`): the slow dense oracle the
 //!   fast path is tested against.

@@ -12,16 +12,17 @@
 //! - Program: per step, the pivot, the entries below it (multipliers),
 //!   the entries right of it, and the entry each product updates (see
 //!   `plan`).
+//! - Scan: where a pivot vanishes inside the band (a transmission zero
+//!   shorts a node, so the reduced diagonal of that node passes through
+//!   zero), a scan of the band at construction finds the weak
+//!   neighbourhood, and the order is chosen again with those frequencies
+//!   among the check points.
 //! - Guard: each point re-checks the threshold at run time (scaled
 //!   multipliers no larger than 1 / `GUARD_THRESHOLD`, pivots above a
-//!   floor of their row). Where a pivot vanishes inside the band (a
-//!   transmission zero shorts a node, so the reduced diagonal of that
-//!   node passes through zero), the band is scanned at construction and
-//!   a rescue order is chosen at the failing frequencies; a point that
-//!   every order rejects is solved by the dense partially pivoted LU of
-//!   [`AcSystem`] and counted.
+//!   floor of their row); a point that fails is solved by the dense
+//!   partially pivoted LU of [`AcSystem`] and counted.
 //!
-//! Invariant: every plan holds the values of the circuit last loaded; the
+//! Invariant: the plan holds the values of the circuit last loaded; the
 //! topology (`shapes`) never changes after construction.
 
 use std::f64::consts::TAU;
@@ -41,7 +42,7 @@ use super::{AcSystem, CircuitError, Element, ElementKind, Response};
 /// Schur complements move with frequency; measured on 36 random op-amp
 /// cascades over 1 Hz to 10 MHz (71 points each), the guard sent 12
 /// points to the dense path with one check per decade, 4 with two, 1
-/// with four (before rescue orders existed).
+/// with four (before the band scan existed).
 const CHECKS_PER_DECADE: f64 = 4.0;
 
 /// After the first order is chosen, the band is scanned at this many
