@@ -8,6 +8,7 @@ mod circuit;
 mod cli;
 mod design;
 mod export;
+mod fast;
 mod parts;
 mod scipy_cases;
 mod snap;

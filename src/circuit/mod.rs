@@ -8,6 +8,9 @@
 //! - [`netlist`]: building and validating a netlist.
 //! - [`AcSystem`] (in `mna`): the fast solver, built once per netlist and
 //!   refilled in place when a value changes.
+//! - [`SparseAc`] (in `sparse`; pivot order in `ordering`, elimination
+//!   program in `plan`, several points per pass in `lanes`): the sparse
+//!   solver for sweeps and Monte Carlo, refilled from an [`AcSystem`].
 //! - [`reference_transfer`] (in `reference`): the slow dense oracle the
 //!   fast path is tested against.
 //! - [`log_grid`] and the [`Response`] readers (in `response`).
@@ -15,19 +18,24 @@
 //!   det(G + sC) for stability checks.
 
 mod error;
+mod lanes;
 mod layout;
 mod lu;
 mod mna;
 pub mod netlist;
+mod ordering;
+mod plan;
 mod poles;
 mod reference;
 mod response;
+mod sparse;
 
 pub use error::CircuitError;
 pub use mna::{AcSystem, Adjoint, Target};
 pub use netlist::{ElementKind, Terminal};
 pub use reference::reference_transfer;
 pub use response::log_grid;
+pub use sparse::{SparseAc, SparseError, SparseStats};
 
 /// Model of an operational amplifier.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize, serde::Deserialize)]

@@ -1,0 +1,124 @@
+#!/usr/bin/env bash
+# ngspice next to nocoil on the benchmark network (benches/network.rs),
+# on the same decks and frequency grids, process start excluded:
+#
+# - sweep: ngspice -b on a 1,000-point and on a 2-point `.ac` of the
+#   exported deck; (t_1000 - t_2) / 998 is its cost per point.
+# - Monte Carlo: one ngspice process runs a `.control` loop that alters
+#   every top-level resistor and capacitor by up to 1 % (sunif) and runs
+#   the 201-point `.ac` per trial; (t_MANY - t_FEW) / (MANY - FEW) is its
+#   cost per trial.
+# - nocoil: the criterion benches `sweep` and `montecarlo` (run here unless
+#   SKIP_CARGO_BENCH=1, then their last results are read).
+#
+# Every ngspice timing is the best of RUNS runs (default 7), and every
+# nocoil timing the fastest of criterion's samples: the machine is
+# shared, and the minimum is the least disturbed on both sides.
+#
+# Usage: bash benches/ngspice_side_by_side.sh   (from the repository root)
+set -euo pipefail
+
+RUNS=${RUNS:-7}
+MANY=${MANY:-100}
+FEW=${FEW:-10}
+DIR=$(mktemp -d)
+trap 'rm -rf "$DIR"' EXIT
+
+command -v ngspice >/dev/null || {
+    echo "ngspice is needed: apt-get install ngspice" >&2
+    exit 1
+}
+
+cargo run --quiet --release --example export_bench_deck -- "$DIR" >/dev/null
+
+# The deck without its `.end`, then a control block, then `.end`.
+with_control() {
+    sed '$d' "$1"
+    printf '.control\n%s\n.endc\n.end\n' "$2"
+}
+
+# Best wall time of $RUNS runs of ngspice -b on deck $1, in seconds. The
+# output must show the expected number of data rows ($2) at least once,
+# so a deck that fails cannot pass for a fast one.
+best_time() {
+    local deck=$1 rows=$2 best= start end t log
+    log="$DIR/log"
+    for _ in $(seq "$RUNS"); do
+        start=$(date +%s.%N)
+        # ngspice -b exits 1 after a control block even when it ran.
+        ngspice -b "$deck" >"$log" 2>&1 || true
+        end=$(date +%s.%N)
+        grep -q "No. of Data Rows : $rows\$" "$log" || {
+            echo "ngspice did not run $deck as expected:" >&2
+            cat "$log" >&2
+            exit 1
+        }
+        t=$(echo "$end - $start" | bc -l)
+        if [ -z "$best" ] || [ "$(echo "$t < $best" | bc -l)" = 1 ]; then best=$t; fi
+    done
+    echo "$best"
+}
+
+# Sweep decks: the deck's own `.ac` line, run once.
+with_control "$DIR/sweep_1000.cir" run >"$DIR/s1000.cir"
+with_control "$DIR/sweep_2.cir" run >"$DIR/s2.cir"
+
+# Monte Carlo decks: every top-level R and C (not those inside the op-amp
+# subcircuits) altered within 1 % of its nominal value, one `.ac` per trial.
+alters=$(awk '
+    /^\.subckt/ { inside = 1 }
+    /^\.ends/ { inside = 0; next }
+    !inside && /^[RrCc]/ { printf "  alter %s = %s*(1+0.01*sunif(0))\n", $1, $4 }
+' "$DIR/montecarlo.cir")
+mc_deck() {
+    with_control "$DIR/montecarlo.cir" "set rndseed=4
+repeat $1
+$alters
+  run
+  destroy all
+end"
+}
+mc_deck "$MANY" >"$DIR/mc_many.cir"
+mc_deck "$FEW" >"$DIR/mc_few.cir"
+parts=$(echo "$alters" | grep -c alter)
+
+t1000=$(best_time "$DIR/s1000.cir" 1000)
+t2=$(best_time "$DIR/s2.cir" 2)
+tmany=$(best_time "$DIR/mc_many.cir" 201)
+tfew=$(best_time "$DIR/mc_few.cir" 201)
+ng_point_us=$(echo "($t1000 - $t2) / 998 * 1000000" | bc -l)
+ng_trial_us=$(echo "($tmany - $tfew) / ($MANY - $FEW) * 1000000" | bc -l)
+
+if [ "${SKIP_CARGO_BENCH:-0}" != 1 ]; then
+    cargo bench --quiet --bench sweep >&2
+    cargo bench --quiet --bench montecarlo >&2
+fi
+
+# Fastest sample of a criterion bench: time per iteration, nanoseconds.
+criterion_ns() {
+    python3 -c 'import json, sys
+d = json.load(open(sys.argv[1]))
+print(min(t / i for t, i in zip(d["times"], d["iters"])))' \
+        "target/criterion/$1/new/sample.json"
+}
+sparse_point_us=$(echo "$(criterion_ns sweep_1000/sparse) / 1000 / 1000" | bc -l)
+dense_point_us=$(echo "$(criterion_ns sweep_1000/dense) / 1000 / 1000" | bc -l)
+sparse_trial_us=$(echo "$(criterion_ns montecarlo_201/loop_sparse_10000_trials) / 10000 / 1000" | bc -l)
+dense_trial_us=$(echo "$(criterion_ns montecarlo_201/loop_dense_100_trials) / 100 / 1000" | bc -l)
+engine1_s=$(echo "$(criterion_ns montecarlo_201/engine_1_threads_10000_trials) / 1000000000" | bc -l)
+engine2_s=$(echo "$(criterion_ns montecarlo_201/engine_2_threads_10000_trials) / 1000000000" | bc -l)
+
+printf 'ngspice: 1000 points %.4f s, 2 points %.4f s; Monte Carlo %d trials %.4f s, %d trials %.4f s (%d parts altered)\n' \
+    "$t1000" "$t2" "$MANY" "$tmany" "$FEW" "$tfew" "$parts"
+printf '\n%-28s %12s %12s %12s\n' "per frequency point (us)" nocoil-sparse nocoil-dense ngspice
+printf '%-28s %12.3f %12.3f %12.3f\n' "" "$sparse_point_us" "$dense_point_us" "$ng_point_us"
+printf '%-28s %12.1f %12.1f\n' "ngspice / nocoil" \
+    "$(echo "$ng_point_us / $sparse_point_us" | bc -l)" "$(echo "$ng_point_us / $dense_point_us" | bc -l)"
+printf '\n%-28s %12s %12s %12s\n' "per 201-point trial (us)" nocoil-sparse nocoil-dense ngspice
+printf '%-28s %12.2f %12.1f %12.1f\n' "" "$sparse_trial_us" "$dense_trial_us" "$ng_trial_us"
+printf '%-28s %12.1f %12.1f\n' "ngspice / nocoil" \
+    "$(echo "$ng_trial_us / $sparse_trial_us" | bc -l)" "$(echo "$ng_trial_us / $dense_trial_us" | bc -l)"
+printf '\n%-36s %8.3f s\n' "10,000 trials, bare sparse loop" "$(echo "$sparse_trial_us * 10000 / 1000000" | bc -l)"
+printf '%-36s %8.3f s\n' "10,000 trials, monte_carlo, 1 thread" "$engine1_s"
+printf '%-36s %8.3f s\n' "10,000 trials, monte_carlo, 2 threads" "$engine2_s"
+printf '%-36s %8.3f s\n' "10,000 trials, ngspice (estimated)" "$(echo "$ng_trial_us * 10000 / 1000000" | bc -l)"

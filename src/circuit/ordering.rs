@@ -1,0 +1,216 @@
+//! The pivot sequence of the sparse AC solver ([`super::SparseAc`]),
+//! chosen once per circuit: Markowitz's fill-reducing rule with threshold
+//! pivoting, run on the matrix G + sC evaluated at a few check
+//! frequencies at once.
+//!
+//! Why values and not the pattern alone: modified nodal matrices have zero
+//! diagonals (op-amp rows, source and inductor branch rows), and which
+//! entry of a column is safe to divide by depends on frequency (a
+//! capacitor's entry is negligible at 1 Hz and dominant at 10 MHz). So a
+//! candidate pivot must pass the threshold test at every check frequency.
+//!
+//! Invariants of a returned [`Ordering`]: `rows` and `cols` are
+//! permutations of 0..n; at step t the pivot is entry (rows\[t\],
+//! cols\[t\]); `filled` marks every entry of the original pattern plus
+//! every fill-in the elimination creates, so the LU factors of the
+//! permuted matrix live entirely inside it.
+
+use num_complex::Complex64;
+
+/// A candidate pivot must be at least this fraction of the largest entry
+/// of its column (rows scaled to a common size) at every check
+/// frequency. 0.1 is the compromise between stability and fill usually
+/// recommended for threshold pivoting (Duff, Erisman and Reid, "Direct
+/// Methods for Sparse Matrices", Oxford 1986, section 7.8; from memory).
+pub(crate) const SELECT_THRESHOLD: f64 = 0.1;
+
+/// |re| + |im|: within a factor sqrt(2) of the modulus, without a root.
+pub(crate) fn size(z: Complex64) -> f64 {
+    z.re.abs() + z.im.abs()
+}
+
+/// The matrix at one check frequency.
+pub(crate) struct Sample {
+    /// G + sC, row-major n x n.
+    pub values: Vec<Complex64>,
+    /// Size of each row (see `sparse::row_size`), so entries of different
+    /// rows compare on one scale.
+    pub row_size: Vec<f64>,
+}
+
+/// The chosen pivot sequence and the pattern it fills.
+#[derive(Debug, Clone)]
+pub(crate) struct Ordering {
+    /// Original row of the pivot at each step.
+    pub rows: Vec<usize>,
+    /// Original column of the pivot at each step.
+    pub cols: Vec<usize>,
+    /// Row-major n x n: structurally nonzero in L + U (original indices).
+    pub filled: Vec<bool>,
+}
+
+/// A candidate pivot and how good it is.
+#[derive(Clone, Copy)]
+struct Candidate {
+    row: usize,
+    col: usize,
+    /// Markowitz count (r - 1)(c - 1): an upper bound on its fill-in.
+    cost: usize,
+    /// Smallest, over the samples, of |entry| / largest |entry| of its
+    /// column (scaled rows).
+    ratio: f64,
+}
+
+impl Candidate {
+    /// Whether `self` is a better pivot than `other`: among candidates
+    /// passing the threshold the cheapest, then the larger ratio; a
+    /// candidate failing it only wins over another failing one, by ratio.
+    fn beats(&self, other: &Candidate) -> bool {
+        let (pass, other_pass) = (
+            self.ratio >= SELECT_THRESHOLD,
+            other.ratio >= SELECT_THRESHOLD,
+        );
+        match (pass, other_pass) {
+            (true, false) => true,
+            (false, true) => false,
+            (true, true) => (self.cost, -self.ratio) < (other.cost, -other.ratio),
+            (false, false) => self.ratio > other.ratio,
+        }
+    }
+}
+
+/// Elimination state shared by every sample.
+struct State<'a> {
+    n: usize,
+    samples: &'a mut [Sample],
+    filled: Vec<bool>,
+    row_done: Vec<bool>,
+    col_done: Vec<bool>,
+}
+
+impl State<'_> {
+    /// The largest scaled |entry| of each remaining column, per sample.
+    fn column_peaks(&self) -> Vec<Vec<f64>> {
+        let n = self.n;
+        self.samples
+            .iter()
+            .map(|s| {
+                let mut peak = vec![0.0_f64; n];
+                for i in (0..n).filter(|&i| !self.row_done[i]) {
+                    for j in (0..n).filter(|&j| !self.col_done[j]) {
+                        let v = size(s.values[i * n + j]) / s.row_size[i];
+                        peak[j] = peak[j].max(v);
+                    }
+                }
+                peak
+            })
+            .collect()
+    }
+
+    /// Nonzeros of each remaining row and column within the remaining
+    /// submatrix.
+    fn counts(&self) -> (Vec<usize>, Vec<usize>) {
+        let n = self.n;
+        let (mut r, mut c) = (vec![0; n], vec![0; n]);
+        for i in (0..n).filter(|&i| !self.row_done[i]) {
+            for j in (0..n).filter(|&j| !self.col_done[j] && self.filled[i * n + j]) {
+                r[i] += 1;
+                c[j] += 1;
+            }
+        }
+        (r, c)
+    }
+
+    /// The best pivot of the remaining submatrix, or `None` if none is
+    /// nonzero at every sample.
+    fn best(&self) -> Option<Candidate> {
+        let n = self.n;
+        let peaks = self.column_peaks();
+        let (r, c) = self.counts();
+        let mut best: Option<Candidate> = None;
+        for i in (0..n).filter(|&i| !self.row_done[i]) {
+            for j in (0..n).filter(|&j| !self.col_done[j] && self.filled[i * n + j]) {
+                // A pivot that is zero at any sample is no pivot at all
+                // (and would make the ratio 0/0 in an all-zero column).
+                if self
+                    .samples
+                    .iter()
+                    .any(|s| size(s.values[i * n + j]) == 0.0)
+                {
+                    continue;
+                }
+                let ratio = self
+                    .samples
+                    .iter()
+                    .zip(&peaks)
+                    .map(|(s, peak)| size(s.values[i * n + j]) / s.row_size[i] / peak[j])
+                    .fold(f64::INFINITY, f64::min);
+                let cand = Candidate {
+                    row: i,
+                    col: j,
+                    cost: (r[i] - 1) * (c[j] - 1),
+                    ratio,
+                };
+                if best.is_none_or(|b| cand.beats(&b)) {
+                    best = Some(cand);
+                }
+            }
+        }
+        best
+    }
+
+    /// Eliminates column `col` below and above pivot row `row` in every
+    /// sample, recording the fill.
+    fn eliminate(&mut self, row: usize, col: usize) {
+        let n = self.n;
+        self.row_done[row] = true;
+        self.col_done[col] = true;
+        let targets: Vec<usize> = (0..n)
+            .filter(|&i| !self.row_done[i] && self.filled[i * n + col])
+            .collect();
+        let sources: Vec<usize> = (0..n)
+            .filter(|&j| !self.col_done[j] && self.filled[row * n + j])
+            .collect();
+        for &i in &targets {
+            for &j in &sources {
+                self.filled[i * n + j] = true;
+            }
+        }
+        for s in self.samples.iter_mut() {
+            let inv = 1.0 / s.values[row * n + col];
+            for &i in &targets {
+                let f = s.values[i * n + col] * inv;
+                for &j in &sources {
+                    let u = s.values[row * n + j];
+                    s.values[i * n + j] -= f * u;
+                }
+            }
+        }
+    }
+}
+
+/// Chooses the pivot sequence for an n x n matrix with the given pattern
+/// (row-major) from its values at each sample; `None` if at some step no
+/// remaining entry is nonzero at every sample (the matrix is singular at
+/// one of them, or an entry cancels exactly there).
+pub(crate) fn markowitz(n: usize, pattern: &[bool], samples: &mut [Sample]) -> Option<Ordering> {
+    let mut state = State {
+        n,
+        samples,
+        filled: pattern.to_vec(),
+        row_done: vec![false; n],
+        col_done: vec![false; n],
+    };
+    let (mut rows, mut cols) = (Vec::with_capacity(n), Vec::with_capacity(n));
+    for _ in 0..n {
+        let pivot = state.best()?;
+        state.eliminate(pivot.row, pivot.col);
+        rows.push(pivot.row);
+        cols.push(pivot.col);
+    }
+    Some(Ordering {
+        rows,
+        cols,
+        filled: state.filled,
+    })
+}
