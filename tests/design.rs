@@ -59,39 +59,51 @@ fn passive_ideal_matches_scipy_for_every_kind() {
     );
 }
 
+/// The project's budget for any exported deck against nocoil's solver;
+/// ngspice solves in double precision with its own pivoting.
+const NGSPICE_TOL_DB: f64 = 0.01;
+
+/// Exports `netlist` with a 40-point-per-decade `.ac` over `band`, runs it
+/// in ngspice (live) and asserts V(out)/V(in) matches nocoil's solver
+/// within [`NGSPICE_TOL_DB`] where ngspice is above
+/// [`REFERENCE_FLOOR_DB`]; returns the worst difference.
+fn worst_against_ngspice(
+    netlist: &nocoil::circuit::Netlist,
+    band: (f64, f64),
+    context: &str,
+) -> f64 {
+    let sweep = AcSweep {
+        points_per_decade: 40,
+        start_hz: band.0,
+        stop_hz: band.1,
+    };
+    let spice = ngspice_ac(&deck(netlist, &sweep).unwrap());
+    let freqs: Vec<f64> = spice.iter().map(|(f, _)| *f).collect();
+    let ours = response(netlist, &freqs).unwrap().db();
+    let mut worst: f64 = 0.0;
+    for ((f, v), o) in spice.iter().zip(&ours) {
+        let theirs = 20.0 * v.norm().log10();
+        if theirs > REFERENCE_FLOOR_DB {
+            let err = (theirs - o).abs();
+            assert!(
+                err <= NGSPICE_TOL_DB,
+                "{context} at {f} Hz: ngspice {theirs:.6} dB, nocoil {o:.6} dB"
+            );
+            worst = worst.max(err);
+        }
+    }
+    worst
+}
+
 /// Every exported deck runs in ngspice (Debian package `ngspice`, run
 /// live) and its V(out)/V(in) matches nocoil's own solver.
 #[test]
 fn exported_passive_decks_match_ngspice() {
-    // ngspice solves in double precision with its own pivoting; the
-    // project's budget for any exported deck is 0.01 dB.
-    const NGSPICE_TOL_DB: f64 = 0.01;
     let fx = fixture();
     let mut report = Vec::new();
     for case in &fx.cases {
         let d = case.design();
-        let (lo, hi) = d.default_band();
-        let sweep = AcSweep {
-            points_per_decade: 40,
-            start_hz: lo,
-            stop_hz: hi,
-        };
-        let spice = ngspice_ac(&deck(&d.passive, &sweep).unwrap());
-        let freqs: Vec<f64> = spice.iter().map(|(f, _)| *f).collect();
-        let ours = response(&d.passive, &freqs).unwrap().db();
-        let mut worst: f64 = 0.0;
-        for ((f, v), o) in spice.iter().zip(&ours) {
-            let theirs = 20.0 * v.norm().log10();
-            if theirs > REFERENCE_FLOOR_DB {
-                let err = (theirs - o).abs();
-                assert!(
-                    err <= NGSPICE_TOL_DB,
-                    "{} at {f} Hz: ngspice {theirs:.6} dB, nocoil {o:.6} dB",
-                    case.name()
-                );
-                worst = worst.max(err);
-            }
-        }
+        let worst = worst_against_ngspice(&d.passive, d.default_band(), &case.name());
         report.push(format!("{:<60} worst {worst:.2e} dB", case.name()));
     }
     println!("passive deck, ngspice vs nocoil:\n{}", report.join("\n"));
@@ -278,34 +290,14 @@ fn active_with_ideal_opamps_matches_scipy() {
 /// within 0.01 dB where the response is above -80 dB.
 #[test]
 fn exported_active_decks_match_ngspice() {
-    const NGSPICE_TOL_DB: f64 = 0.01;
     let fx = fixture();
     let mut report = Vec::new();
     for case in &fx.cases {
         for opamp in ["model = \"ideal\"", "gbw_hz = 1e6\ndc_gain_db = 100"] {
             let a = active_case(case, "auto", opamp).unwrap();
             let band = (case.freq_hz[0], *case.freq_hz.last().unwrap());
-            let sweep = AcSweep {
-                points_per_decade: 40,
-                start_hz: band.0,
-                stop_hz: band.1,
-            };
-            let spice = ngspice_ac(&deck(&a.build.netlist, &sweep).unwrap());
-            let freqs: Vec<f64> = spice.iter().map(|(f, _)| *f).collect();
-            let ours = response(&a.build.netlist, &freqs).unwrap().db();
-            let mut worst: f64 = 0.0;
-            for ((f, v), o) in spice.iter().zip(&ours) {
-                let theirs = 20.0 * v.norm().log10();
-                if theirs > REFERENCE_FLOOR_DB {
-                    let err = (theirs - o).abs();
-                    assert!(
-                        err <= NGSPICE_TOL_DB,
-                        "{} [{opamp}] at {f} Hz: ngspice {theirs:.6} dB, nocoil {o:.6} dB",
-                        case.name()
-                    );
-                    worst = worst.max(err);
-                }
-            }
+            let context = format!("{} [{}]", case.name(), opamp.replace('\n', " "));
+            let worst = worst_against_ngspice(&a.build.netlist, band, &context);
             report.push(format!(
                 "{:<56} {:<30} worst {worst:.2e} dB",
                 case.name(),
