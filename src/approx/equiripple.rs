@@ -1,7 +1,9 @@
 //! Equiripple passbands: Chebyshev type I and elliptic (Cauer).
 //!
-//! Both are written in Jacobi's parametrization (S. J. Orfanidis, "Lecture
-//! Notes on Elliptic Filter Design", Rutgers, 2006, from memory):
+//! Both are written in Jacobi's parametrization (R. W. Daniels,
+//! Approximation Methods for Electronic Filter Design, 1974, ch. 5; H. J.
+//! Orchard and A. N. Willson, "Elliptic functions for filter design", IEEE
+//! Trans. Circuits and Systems I 44, 1997; both from memory):
 //! w = cd(u K, k) gives R(w) = cd(n u K1, k1) with the selectivity k, the
 //! discrimination k1 and the degree equation n K'/K = K1'/K1 linking them.
 //! R vanishes where n u is odd; with x = 1 - u on the ripple grid

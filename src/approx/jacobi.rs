@@ -12,10 +12,10 @@
 //!   normalized argument unchanged at every step (K(k) = (1 + k_1) K(k_1),
 //!   DLMF 19.8.12, with the argument scaled by the same 1/(1 + k_1),
 //!   DLMF 22.7.2), so at the bottom of the descent sn(u) = sin(u pi/2).
-//!   This is the evaluation S. J. Orfanidis recommends in "Lecture Notes on
-//!   Elliptic Filter Design", Rutgers, 2006, section 4 (Landen
-//!   transformations): it stays accurate in double precision for complex
-//!   arguments and for moduli very close to 1.
+//!   This is the Landen evaluation used for filter design by H. J. Orchard
+//!   and A. N. Willson, "Elliptic functions for filter design", IEEE Trans.
+//!   Circuits and Systems I 44 (1997) (from memory): it stays accurate in
+//!   double precision for complex arguments and for moduli very close to 1.
 
 use super::scalar::Scalar;
 use std::f64::consts::{FRAC_1_SQRT_2, FRAC_2_PI, FRAC_PI_2, PI};
@@ -130,8 +130,10 @@ impl Landen {
 /// order K'(k)/K(k) = K'(k1)/K(k1).
 ///
 /// k' comes from Jacobi's exact product k' = k1'^N prod_{i=1}^{floor(N/2)}
-/// sn^4(u_i K(k1'), k1'), u_i = (2i - 1)/N (Orfanidis 2006, exact solution
-/// of the degree equation, from memory; confirmed against mpmath's nome
+/// sn^4(u_i K(k1'), k1'), u_i = (2i - 1)/N (Jacobi's exact solution of
+/// the degree equation, the modular transformation of order N; see e.g.
+/// R. W. Daniels, Approximation Methods for Electronic Filter Design,
+/// 1974, ch. 5, from memory; confirmed against mpmath's nome
 /// functions by the fixture tests). Whichever of k, k' is the smaller is
 /// computed directly: k = sqrt((1 - k')(1 + k')) only when k' <= 1/sqrt(2),
 /// otherwise k from the nome q = exp(-pi K(k1') / (N K(k1))), which is then
