@@ -2,7 +2,7 @@
 //! -> ladder -> transformed, scaled netlist, checked against scipy.signal
 //! responses and against ngspice running the exported deck.
 
-use crate::scipy_cases::{fixture, Case};
+use crate::scipy_cases::{fixture, Case, REFERENCE_FLOOR_DB};
 use crate::util::ngspice_ac;
 use nocoil::design::{design, response};
 use nocoil::export::spice::{deck, AcSweep};
@@ -15,8 +15,6 @@ use std::path::Path;
 /// reference response to 0.01 dB wherever the reference is above
 /// REFERENCE_FLOOR_DB.
 const PASSIVE_TOL_DB: f64 = 0.01;
-/// Below this the reference (and any physical measurement) is noise.
-const REFERENCE_FLOOR_DB: f64 = -80.0;
 
 /// Passive ideal vs scipy.signal (buttap/cheb1ap/ellipap, the w^2 variant
 /// maps of gen_scipy_fixtures.py, lp2lp/lp2hp/lp2bp/lp2bs_zpk, freqs_zpk;
@@ -36,20 +34,8 @@ fn passive_ideal_matches_scipy_for_every_kind() {
             case.name()
         );
         let got = response(&d.passive, &case.freq_hz).unwrap().db();
-        let mut worst: f64 = 0.0;
-        for ((f, r), g) in case.freq_hz.iter().zip(&case.ref_db).zip(&got) {
-            if *r > REFERENCE_FLOOR_DB {
-                let err = (g - (r + case.flat_db)).abs();
-                assert!(
-                    err <= PASSIVE_TOL_DB,
-                    "{} at {f} Hz: expected {:.6} dB (scipy {}), got {g:.6} dB",
-                    case.name(),
-                    r + case.flat_db,
-                    fx.scipy
-                );
-                worst = worst.max(err);
-            }
-        }
+        let context = format!("{} (scipy {})", case.name(), fx.scipy);
+        let worst = case.worst_against_scipy(&got, PASSIVE_TOL_DB, &context);
         report.push(format!("{:<60} worst {worst:.2e} dB", case.name()));
     }
     println!(
@@ -257,19 +243,11 @@ fn active_with_ideal_opamps_matches_scipy() {
                 continue;
             };
             let got = response(&a.build.netlist, &case.freq_hz).unwrap().db();
-            let mut worst: f64 = 0.0;
-            for ((f, r), g) in case.freq_hz.iter().zip(&case.ref_db).zip(&got) {
-                if *r > REFERENCE_FLOOR_DB {
-                    let err = (g - (r + case.flat_db)).abs();
-                    assert!(
-                        err <= PASSIVE_TOL_DB,
-                        "{} {method} at {f} Hz: scipy {:.6} dB, active {g:.6} dB",
-                        case.name(),
-                        r + case.flat_db
-                    );
-                    worst = worst.max(err);
-                }
-            }
+            let worst = case.worst_against_scipy(
+                &got,
+                PASSIVE_TOL_DB,
+                &format!("{} {method}", case.name()),
+            );
             report.push(format!(
                 "{:<56} {method:<4} {:?} {:>2} op-amps, worst {worst:.2e} dB",
                 case.name(),

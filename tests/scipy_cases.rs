@@ -71,6 +71,36 @@ impl Case {
     }
 }
 
+/// Below this the reference (and any physical measurement) is noise.
+pub const REFERENCE_FLOOR_DB: f64 = -80.0;
+
+impl Case {
+    /// Asserts that `got_db` (at the case's frequencies) matches the scipy
+    /// reference plus the terminations' flat loss within `tol_db` wherever
+    /// the reference is above [`REFERENCE_FLOOR_DB`]; returns the worst
+    /// difference. `context` names the build in a failure.
+    pub fn worst_against_scipy(&self, got_db: &[f64], tol_db: f64, context: &str) -> f64 {
+        assert_eq!(
+            got_db.len(),
+            self.freq_hz.len(),
+            "{context}: one value per fixture frequency"
+        );
+        let mut worst: f64 = 0.0;
+        for ((f, r), g) in self.freq_hz.iter().zip(&self.ref_db).zip(got_db) {
+            if *r > REFERENCE_FLOOR_DB {
+                let expected = r + self.flat_db;
+                let err = (g - expected).abs();
+                assert!(
+                    err <= tol_db,
+                    "{context} at {f} Hz: scipy gives {expected:.6} dB, got {g:.6} dB"
+                );
+                worst = worst.max(err);
+            }
+        }
+        worst
+    }
+}
+
 /// Reads the fixture.
 pub fn fixture() -> Fixture {
     let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/scipy_responses.json");
