@@ -31,6 +31,7 @@ pub mod circuit;
 pub mod design;
 pub mod export;
 pub mod parts;
+pub mod realize;
 pub mod spec;
 pub mod synth;
 pub mod transform;

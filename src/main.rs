@@ -1,17 +1,22 @@
 //! The `nocoil` command line: glue over the library.
 //!
-//! `main -> run(parse()) -> Result`; errors print as `nocoil: ` and the
-//! chain, with exit status 2 for bad input and 1 for anything else.
+//! `main -> run(resolve(parse()))`: clap reads the raw arguments, one
+//! [`resolve`] step turns them into a library [`Request`] (or a
+//! [`FlagError`] naming the flag, the value and what is accepted), and
+//! each request is one library call whose result is printed or written.
+//! Errors print as `nocoil: ` and the chain; the exit status is 2 when the
+//! input is at fault and 1 when the program is, decided from the innermost
+//! error ([`nocoil::design::DesignError::blame`]).
 
-use anyhow::Context;
-use clap::{Parser, Subcommand, ValueEnum};
-use nocoil::approx::{min_order, Family};
-use nocoil::circuit::log_grid;
-use nocoil::design::{self, Design, DesignError};
-use nocoil::export;
-use nocoil::spec::mask::{check_edge, check_levels, check_sides, MaskField, MaskProblem};
-use nocoil::spec::{Edge, Kind, Spec};
-use nocoil::synth::ELLIPTIC_MAX_ORDER;
+use clap::{Parser, Subcommand};
+use nocoil::design::{self, ActiveDesign, Blame, Build, Design, DesignError};
+use nocoil::export::files::{
+    design_files, document_files, prepare_out_dir, write_set, OutDirError,
+};
+use nocoil::export::{bom, summary, tables};
+use nocoil::spec::{Spec, MAX_TRIALS};
+use nocoil::transform::{Band, Kind, MaskField};
+use std::io::Write as _;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
@@ -26,8 +31,12 @@ struct Cli {
 
 #[derive(Subcommand)]
 enum Command {
-    /// Design the filter a TOML design file describes: print a summary and
-    /// write the SPICE netlist and the JSON report into a folder.
+    /// Design the filter a TOML design file describes: print whether the
+    /// active on parts build meets the specification, then the three
+    /// builds, and write into a folder the decks of the three builds
+    /// (passive.cir, active.cir, built.cir), report.json, bom.csv,
+    /// sensitivity.csv, montecarlo.csv, six charts (.svg, and .png where a
+    /// TrueType font is installed) and report.html.
     Design {
         /// The design file (TOML).
         spec: PathBuf,
@@ -35,58 +44,62 @@ enum Command {
         #[arg(long, value_name = "DIR")]
         out: PathBuf,
     },
-    /// Print the frequency response of the passive ideal as CSV.
+    /// Print the response of the passive ideal, the active exact and the
+    /// active on parts builds as CSV: gain and phase of each, and the
+    /// group delay of the passive ideal.
     Sweep {
         /// The design file (TOML).
         spec: PathBuf,
         /// First frequency, Hz (default: a decade below the lowest edge).
-        #[arg(long, value_name = "HZ")]
+        #[arg(long, value_name = "HZ", allow_negative_numbers = true)]
         from: Option<f64>,
         /// Last frequency, Hz (default: a decade above the highest edge).
-        #[arg(long, value_name = "HZ")]
+        #[arg(long, value_name = "HZ", allow_negative_numbers = true)]
         to: Option<f64>,
         /// Number of log-spaced points, both ends included.
         #[arg(long, value_name = "N", default_value_t = 401)]
-        points: usize,
+        points: u64,
     },
-    /// Run a Monte Carlo yield analysis of the active build on preferred
-    /// values, trimmed, against the specification: print the yield and the worst trials; with --out,
-    /// write the envelope as CSV.
+    /// Run a Monte Carlo yield analysis of the active on parts build
+    /// against the specification: print the yield and the worst boards;
+    /// with --out, write the envelope as montecarlo.csv.
     Montecarlo {
         /// The design file (TOML).
         spec: PathBuf,
         /// Number of trials (default: the design file's, else 1000).
         #[arg(long, value_name = "N")]
-        trials: Option<usize>,
+        trials: Option<u64>,
         /// Seed of the draws (default: the design file's, else 1). One seed
         /// gives one result, whatever the thread count.
         #[arg(long, value_name = "S")]
         seed: Option<u64>,
         /// Worker threads (default: one per core).
         #[arg(long, value_name = "N")]
-        threads: Option<usize>,
+        threads: Option<u64>,
         /// Folder for montecarlo.csv (the envelope).
         #[arg(long, value_name = "DIR")]
         out: Option<PathBuf>,
     },
-    /// Print the bill of materials of both builds as CSV.
+    /// Print the bill of materials of the passive ideal and the active on
+    /// parts build as CSV (each trim as its fixed resistor and trimmer).
     Bom {
         /// The design file (TOML).
         spec: PathBuf,
     },
-    /// Print the sensitivities of the active build as CSV (dB per % of
-    /// every part and op-amp GBW).
+    /// Print the sensitivities of the active on parts build as CSV (dB
+    /// per % of every part and op-amp GBW).
     Sensitivity {
         /// The design file (TOML).
         spec: PathBuf,
     },
-    /// Print the peak gain to every op-amp output and the input level the
-    /// output swing allows, as CSV.
+    /// Print the peak gain to every op-amp output of the active on parts
+    /// build and the input level the output swing allows, as CSV.
     Levels {
         /// The design file (TOML).
         spec: PathBuf,
     },
-    /// Write the charts, the tables and report.html into a folder.
+    /// Write the charts, sensitivity.csv, montecarlo.csv, bom.csv and
+    /// report.html into a folder (no decks, no JSON).
     Report {
         /// The design file (TOML).
         spec: PathBuf,
@@ -97,13 +110,13 @@ enum Command {
     /// Print the minimum order of every family for a mask given by flags.
     Order {
         /// Filter kind.
-        #[arg(long, value_enum)]
-        kind: KindArg,
-        /// Passband edge, Hz; two values (low,high) for band kinds.
-        #[arg(long, value_name = "HZ", value_delimiter = ',', required = true)]
+        #[arg(long, value_name = "KIND")]
+        kind: String,
+        /// Passband edge, Hz: one frequency, or low,high for band kinds.
+        #[arg(long, value_name = "HZ[,HZ]", value_delimiter = ',', required = true)]
         passband: Vec<f64>,
-        /// Stopband edge, Hz; two values (low,high) for band kinds.
-        #[arg(long, value_name = "HZ", value_delimiter = ',', required = true)]
+        /// Stopband edge, Hz: one frequency, or low,high for band kinds.
+        #[arg(long, value_name = "HZ[,HZ]", value_delimiter = ',', required = true)]
         stopband: Vec<f64>,
         /// Largest loss allowed across the passband, dB (the ripple; for
         /// Butterworth the loss at the passband edge).
@@ -115,256 +128,371 @@ enum Command {
     },
 }
 
-#[derive(Clone, Copy, ValueEnum)]
-enum KindArg {
-    Lowpass,
-    Highpass,
-    Bandpass,
-    Bandstop,
+/// Most points a sweep prints: a million rows of CSV (about 100 MB) is
+/// more than any plot or spreadsheet uses.
+const MAX_SWEEP_POINTS: u64 = 1_000_000;
+
+/// Most worker threads: far beyond the cores of any workstation; more
+/// only adds start-up time and memory.
+const MAX_THREADS: u64 = 1024;
+
+/// What the command line asks the library for, every value checked.
+enum Request {
+    Design {
+        spec: PathBuf,
+        out: PathBuf,
+    },
+    Sweep {
+        spec: PathBuf,
+        from: Option<f64>,
+        to: Option<f64>,
+        points: usize,
+    },
+    MonteCarlo {
+        spec: PathBuf,
+        trials: Option<usize>,
+        seed: Option<u64>,
+        threads: Option<usize>,
+        out: Option<PathBuf>,
+    },
+    Bom {
+        spec: PathBuf,
+    },
+    Sensitivity {
+        spec: PathBuf,
+    },
+    Levels {
+        spec: PathBuf,
+    },
+    Report {
+        spec: PathBuf,
+        out: PathBuf,
+    },
+    Order {
+        band: Band,
+        ripple_db: f64,
+        attenuation_db: f64,
+    },
 }
 
-impl From<KindArg> for Kind {
-    fn from(k: KindArg) -> Kind {
-        match k {
-            KindArg::Lowpass => Kind::Lowpass,
-            KindArg::Highpass => Kind::Highpass,
-            KindArg::Bandpass => Kind::Bandpass,
-            KindArg::Bandstop => Kind::Bandstop,
-        }
-    }
-}
-
-/// An error the user caused: exit status 2.
+/// A flag whose value is not accepted: exit status 2.
 #[derive(Debug, thiserror::Error)]
-#[error("{0}")]
-struct BadInput(String);
+#[error("{flag} {value}: {expected}")]
+struct FlagError {
+    flag: &'static str,
+    value: String,
+    expected: String,
+}
 
-fn main() -> ExitCode {
-    match run(Cli::parse()) {
-        Ok(()) => ExitCode::SUCCESS,
-        Err(e) => {
-            eprintln!("nocoil: {e:#}");
-            let bad_input = e.downcast_ref::<BadInput>().is_some()
-                || e.downcast_ref::<DesignError>()
-                    .is_some_and(DesignError::is_bad_input);
-            ExitCode::from(if bad_input { 2 } else { 1 })
-        }
+fn flag_error(flag: &'static str, value: impl ToString, expected: impl Into<String>) -> FlagError {
+    FlagError {
+        flag,
+        value: value.to_string(),
+        expected: expected.into(),
     }
 }
 
-fn run(cli: Cli) -> anyhow::Result<()> {
-    match cli.command {
-        Command::Design { spec, out } => run_design(&spec, &out),
+/// A count from `lowest` to `highest`, or the flag's error.
+fn count(flag: &'static str, n: u64, lowest: u64, highest: u64) -> Result<usize, FlagError> {
+    if (lowest..=highest).contains(&n) {
+        usize::try_from(n).map_err(|_| flag_error(flag, n, "expected a smaller number"))
+    } else {
+        Err(flag_error(
+            flag,
+            n,
+            format!("expected a whole number from {lowest} to {highest}"),
+        ))
+    }
+}
+
+/// A frequency flag, finite and above 0.
+fn frequency(flag: &'static str, f: Option<f64>) -> Result<Option<f64>, FlagError> {
+    match f {
+        Some(f) if !(f.is_finite() && f > 0.0) => Err(flag_error(
+            flag,
+            f,
+            "expected a frequency in Hz greater than 0",
+        )),
+        f => Ok(f),
+    }
+}
+
+/// Turns the raw arguments into a library request.
+fn resolve(cli: Cli) -> Result<Request, FlagError> {
+    Ok(match cli.command {
+        Command::Design { spec, out } => Request::Design { spec, out },
         Command::Sweep {
             spec,
             from,
             to,
             points,
-        } => run_sweep(&spec, from, to, points),
+        } => {
+            let (from, to) = (frequency("--from", from)?, frequency("--to", to)?);
+            if let (Some(a), Some(b)) = (from, to) {
+                if a >= b {
+                    return Err(flag_error(
+                        "--to",
+                        b,
+                        format!("expected a frequency above --from {a} Hz"),
+                    ));
+                }
+            }
+            Request::Sweep {
+                spec,
+                from,
+                to,
+                points: count("--points", points, 2, MAX_SWEEP_POINTS)?,
+            }
+        }
         Command::Montecarlo {
             spec,
             trials,
             seed,
             threads,
             out,
-        } => run_montecarlo(&spec, trials, seed, threads, out.as_deref()),
-        Command::Bom { spec } => {
-            let (d, active) = load_active(&spec)?;
-            print!("{}", export::bom::bom_csv(&d.bom_rows(&active))?);
-            Ok(())
-        }
-        Command::Sensitivity { spec } => {
-            let (d, active) = load_active(&spec)?;
-            print!("{}", design::sensitivity_csv(&d.sensitivity(&active)?));
-            Ok(())
-        }
-        Command::Levels { spec } => {
-            let (d, active) = load_active(&spec)?;
-            let (lo, hi) = d.default_band();
-            let (levels, _) = d.levels(&active, &log_grid(lo, hi, LEVEL_POINTS)?)?;
-            print!("{}", design::levels_csv(&levels));
-            Ok(())
-        }
-        Command::Report { spec, out } => {
-            let (d, active) = load_active(&spec)?;
-            let files: Vec<design::OutputFile> = d
-                .document_files(&active)?
-                .into_iter()
-                .map(|(name, bytes)| design::OutputFile { name, bytes })
-                .collect();
-            write_all(&out, &files)
-        }
+        } => Request::MonteCarlo {
+            spec,
+            trials: trials
+                .map(|n| count("--trials", n, 1, MAX_TRIALS as u64))
+                .transpose()?,
+            seed,
+            threads: threads
+                .map(|n| count("--threads", n, 1, MAX_THREADS))
+                .transpose()?,
+            out,
+        },
+        Command::Bom { spec } => Request::Bom { spec },
+        Command::Sensitivity { spec } => Request::Sensitivity { spec },
+        Command::Levels { spec } => Request::Levels { spec },
+        Command::Report { spec, out } => Request::Report { spec, out },
         Command::Order {
             kind,
             passband,
             stopband,
             ripple,
             attenuation,
-        } => run_order(kind.into(), &passband, &stopband, ripple, attenuation),
+        } => {
+            let kind: Kind = serde_json::from_value(serde_json::Value::String(kind.clone()))
+                .map_err(|_| {
+                    flag_error(
+                        "--kind",
+                        &kind,
+                        "expected lowpass, highpass, bandpass or bandstop",
+                    )
+                })?;
+            let band = design::mask_band(kind, &passband, &stopband, ripple, attenuation).map_err(
+                |p| {
+                    let flag = match p.field {
+                        MaskField::Passband => "--passband",
+                        MaskField::Stopband => "--stopband",
+                        MaskField::Ripple => "--ripple",
+                        MaskField::Attenuation => "--attenuation",
+                    };
+                    let edges =
+                        |v: &[f64]| v.iter().map(f64::to_string).collect::<Vec<_>>().join(",");
+                    let shape = match kind.is_band() {
+                        true => {
+                            format!("expected low,high in Hz with 0 < low < high, for a {kind}")
+                        }
+                        false => {
+                            format!("expected one frequency in Hz greater than 0, for a {kind}")
+                        }
+                    };
+                    match p.field {
+                        MaskField::Passband => flag_error(flag, edges(&passband), shape),
+                        MaskField::Stopband if stopband.len() != passband.len() => {
+                            flag_error(flag, edges(&stopband), shape)
+                        }
+                        MaskField::Stopband => flag_error(flag, edges(&stopband), p.expected),
+                        _ => flag_error(flag, p.got, p.expected),
+                    }
+                },
+            )?;
+            Request::Order {
+                band,
+                ripple_db: ripple,
+                attenuation_db: attenuation,
+            }
+        }
+    })
+}
+
+fn main() -> ExitCode {
+    let result = resolve(Cli::parse())
+        .map_err(anyhow::Error::from)
+        .and_then(run);
+    match result {
+        Ok(()) => ExitCode::SUCCESS,
+        // A closed pipe (`nocoil sweep ... | head`) ends the program
+        // quietly, as command-line tools do.
+        Err(e) if is_broken_pipe(&e) => ExitCode::SUCCESS,
+        Err(e) => {
+            eprintln!("nocoil: {e:#}");
+            ExitCode::from(if is_bad_input(&e) { 2 } else { 1 })
+        }
     }
 }
 
-fn load_design(spec: &Path) -> anyhow::Result<Design> {
-    let spec = Spec::load(spec).map_err(DesignError::from)?;
-    Ok(design::design(&spec)?)
+/// Whether an error is the user's input: a flag, an output folder, or a
+/// design whose innermost error blames the input.
+fn is_bad_input(e: &anyhow::Error) -> bool {
+    e.downcast_ref::<FlagError>().is_some()
+        || e.downcast_ref::<OutDirError>().is_some()
+        || e.downcast_ref::<DesignError>()
+            .is_some_and(|d| d.blame() == Blame::Input)
 }
 
-/// Points of the grid the op-amp levels are searched on.
-const LEVEL_POINTS: usize = 400;
+fn is_broken_pipe(e: &anyhow::Error) -> bool {
+    e.downcast_ref::<std::io::Error>()
+        .is_some_and(|io| io.kind() == std::io::ErrorKind::BrokenPipe)
+}
 
-fn load_active(spec: &Path) -> anyhow::Result<(Design, design::ActiveDesign)> {
-    let d = load_design(spec)?;
+/// Prints `text` to standard output in one write.
+fn emit(text: &str) -> anyhow::Result<()> {
+    let mut out = std::io::stdout().lock();
+    out.write_all(text.as_bytes())?;
+    out.flush()?;
+    Ok(())
+}
+
+fn load(spec: &Path) -> Result<Design, DesignError> {
+    design::design(&Spec::load(spec)?)
+}
+
+fn load_active(spec: &Path) -> Result<(Design, ActiveDesign), DesignError> {
+    let d = load(spec)?;
     let active = d.active()?;
     Ok((d, active))
 }
 
-/// Writes computed files into `out`. Everything is computed before the
-/// folder is touched, and each file is written to a temporary name and
-/// renamed, so a failure leaves no half-written output.
-fn write_all(out: &Path, files: &[design::OutputFile]) -> anyhow::Result<()> {
-    std::fs::create_dir_all(out).with_context(|| format!("creating {}", out.display()))?;
-    for f in files {
-        let path = out.join(&f.name);
-        export::write_atomic(&path, &f.bytes)
-            .with_context(|| format!("writing {}", path.display()))?;
-    }
-    let names: Vec<&str> = files.iter().map(|f| f.name.as_str()).collect();
-    println!("wrote into {}: {}", out.display(), names.join(", "));
-    Ok(())
-}
-
-fn run_design(spec: &Path, out: &Path) -> anyhow::Result<()> {
-    let (d, active) = load_active(spec)?;
-    let files = d.output_files(&active)?;
-    print!("{}{}", d.summary(), active.summary());
-    write_all(out, &files)
-}
-
-fn run_montecarlo(
-    spec: &Path,
-    trials: Option<usize>,
-    seed: Option<u64>,
-    threads: Option<usize>,
-    out: Option<&Path>,
-) -> anyhow::Result<()> {
-    let d = load_design(spec)?;
-    let trials = trials.unwrap_or(d.spec.montecarlo.trials);
-    if trials == 0 {
-        return Err(BadInput("--trials 0: expected at least 1".to_string()).into());
-    }
-    let seed = seed.unwrap_or(d.spec.montecarlo.seed);
-    let active = d.active()?;
-    let mut pool = rayon::ThreadPoolBuilder::new();
-    if let Some(n) = threads {
-        if n == 0 {
-            return Err(BadInput("--threads 0: expected at least 1".to_string()).into());
+fn run(request: Request) -> anyhow::Result<()> {
+    match request {
+        Request::Design { spec, out } => {
+            prepare_out_dir(&out)?;
+            let (d, active) = load_active(&spec)?;
+            let docs = d.documents(&active, d.analyses(&active)?);
+            let files = design_files(&docs)?;
+            emit(&summary::summary(&docs))?;
+            write_files(&out, &files)
         }
-        pool = pool.num_threads(n);
-    }
-    let pool = pool.build().context("starting the worker threads")?;
-    // Progress and timing go to standard error, and only on a terminal,
-    // so that standard output is the same for one seed on any thread count.
-    let bar = indicatif::ProgressBar::with_draw_target(
-        Some(trials as u64),
-        indicatif::ProgressDrawTarget::stderr(),
-    );
-    if !std::io::IsTerminal::is_terminal(&std::io::stderr()) {
-        bar.set_draw_target(indicatif::ProgressDrawTarget::hidden());
-    }
-    let tick = |_done: usize| bar.inc(1);
-    let started = std::time::Instant::now();
-    let result = pool.install(|| d.monte_carlo(&active.real.netlist, trials, seed, Some(&tick)))?;
-    bar.finish_and_clear();
-    eprintln!(
-        "nocoil: {trials} trials in {:.3} s on {} threads",
-        started.elapsed().as_secs_f64(),
-        pool.current_num_threads()
-    );
-    print!("{}", design::yield_summary(&result, seed));
-    if let Some(dir) = out {
-        std::fs::create_dir_all(dir).with_context(|| format!("creating {}", dir.display()))?;
-        let path = dir.join("montecarlo.csv");
-        export::write_atomic(&path, design::envelope_csv(&result).as_bytes())?;
-        println!("wrote {}", path.display());
-    }
-    Ok(())
-}
-
-fn run_sweep(spec: &Path, from: Option<f64>, to: Option<f64>, points: usize) -> anyhow::Result<()> {
-    let d = load_design(spec)?;
-    let (lo, hi) = d.default_band();
-    let (from, to) = (from.unwrap_or(lo), to.unwrap_or(hi));
-    let positive = |f: f64| f.is_finite() && f > 0.0;
-    if !(positive(from) && positive(to) && from < to) {
-        return Err(BadInput(format!(
-            "--from {from} --to {to}: expected 0 < from < to, in Hz"
-        ))
-        .into());
-    }
-    if points < 2 {
-        return Err(BadInput(format!("--points {points}: expected at least 2")).into());
-    }
-    let freqs = log_grid(from, to, points)?;
-    let response = d.passive_response(&freqs)?;
-    let active = design::response(&d.active()?.build.netlist, &freqs)?;
-    let (active_db, active_phase) = (active.db(), active.phase_deg());
-    let (db, phase, delay) = (
-        response.db(),
-        response.phase_deg(),
-        design::group_delay(&d.passive, &freqs)?,
-    );
-    let mut csv = String::from(
-        "freq_hz,passive_db,passive_phase_deg,passive_group_delay_s,active_db,active_phase_deg\n",
-    );
-    for i in 0..freqs.len() {
-        csv.push_str(&format!(
-            "{:.9e},{:.9},{:.6},{:.9e},{:.9},{:.6}\n",
-            freqs[i], db[i], phase[i], delay[i], active_db[i], active_phase[i]
-        ));
-    }
-    print!("{csv}");
-    Ok(())
-}
-
-fn run_order(
-    kind: Kind,
-    passband: &[f64],
-    stopband: &[f64],
-    ripple: f64,
-    attenuation: f64,
-) -> anyhow::Result<()> {
-    let flag = |p: MaskProblem| {
-        let name = match p.field {
-            MaskField::Passband => "--passband",
-            MaskField::Stopband => "--stopband",
-            MaskField::Ripple => "--ripple",
-            MaskField::Attenuation => "--attenuation",
-        };
-        BadInput(format!("{name} {}: {}", p.got, p.expected))
-    };
-    let edge = |field: MaskField, v: &[f64]| {
-        let e = match *v {
-            [f] => Edge::Single(f),
-            [a, b] => Edge::Pair(a, b),
-            _ => Edge::Single(f64::NAN),
-        };
-        check_edge(field, kind, e).map_err(flag)
-    };
-    let pass = edge(MaskField::Passband, passband)?;
-    let stop = edge(MaskField::Stopband, stopband)?;
-    check_sides(kind, pass, stop).map_err(flag)?;
-    check_levels(ripple, Some(attenuation)).map_err(flag)?;
-    let ws = design::normalized_stopband(design::mapping(kind, pass), stop);
-    println!("minimum order (normalized stopband edge {ws:.6})");
-    for family in [Family::Butterworth, Family::Chebyshev, Family::Elliptic] {
-        let name = format!("{family:?}").to_lowercase();
-        match min_order(family, ws, ripple, attenuation) {
-            Ok(n) if family == Family::Elliptic && n > ELLIPTIC_MAX_ORDER => {
-                println!("  {name:<12} {n} (above the synthesis limit {ELLIPTIC_MAX_ORDER}: relax the mask)")
+        Request::Report { spec, out } => {
+            prepare_out_dir(&out)?;
+            let (d, active) = load_active(&spec)?;
+            let docs = d.documents(&active, d.analyses(&active)?);
+            write_files(&out, &document_files(&docs)?)
+        }
+        Request::Sweep {
+            spec,
+            from,
+            to,
+            points,
+        } => {
+            let (d, active) = load_active(&spec)?;
+            let (lo, hi) = d.view_hz();
+            let (from, to) = (from.unwrap_or(lo), to.unwrap_or(hi));
+            let grid = nocoil::circuit::log_grid(from, to, points).map_err(|_| {
+                flag_error(
+                    "--from",
+                    format!("{from} --to {to}"),
+                    "expected 0 < from < to, in Hz",
+                )
+            })?;
+            emit(&tables::sweep_csv(&d.traces(&active, grid)?))
+        }
+        Request::MonteCarlo {
+            spec,
+            trials,
+            seed,
+            threads,
+            out,
+        } => {
+            if let Some(dir) = &out {
+                prepare_out_dir(dir)?;
             }
-            Ok(n) => println!("  {name:<12} {n}"),
-            Err(e) => println!("  {name:<12} - ({e})"),
+            let (d, active) = load_active(&spec)?;
+            let trials = trials.unwrap_or(d.spec.montecarlo.trials);
+            let seed = seed.unwrap_or(d.spec.montecarlo.seed);
+            let mut pool = rayon::ThreadPoolBuilder::new();
+            if let Some(n) = threads {
+                pool = pool.num_threads(n);
+            }
+            let pool = pool.build()?;
+            // Progress and timing go to standard error, and only on a
+            // terminal, so that standard output is the same for one seed
+            // on any thread count.
+            let bar = indicatif::ProgressBar::with_draw_target(
+                Some(trials as u64),
+                indicatif::ProgressDrawTarget::stderr(),
+            );
+            if !std::io::IsTerminal::is_terminal(&std::io::stderr()) {
+                bar.set_draw_target(indicatif::ProgressDrawTarget::hidden());
+            }
+            let tick = |_done: usize| bar.inc(1);
+            let started = std::time::Instant::now();
+            let result = pool
+                .install(|| d.monte_carlo(&active.on_parts.netlist, trials, seed, Some(&tick)))?;
+            bar.finish_and_clear();
+            eprintln!(
+                "nocoil: {trials} trials in {:.3} s on {} threads",
+                started.elapsed().as_secs_f64(),
+                pool.current_num_threads()
+            );
+            emit(&tables::yield_summary(&result, seed))?;
+            match out {
+                Some(dir) => write_files(
+                    &dir,
+                    &[nocoil::export::files::OutputFile {
+                        name: "montecarlo.csv".to_string(),
+                        bytes: tables::envelope_csv(&result).into_bytes(),
+                    }],
+                ),
+                None => Ok(()),
+            }
         }
+        Request::Bom { spec } => {
+            let (d, active) = load_active(&spec)?;
+            let rows = bom::design_rows(
+                &d.report_with(&active),
+                &d.passive,
+                &active.on_parts.netlist,
+                &active.on_parts.stages,
+            );
+            emit(&bom::bom_csv(&rows)?)
+        }
+        Request::Sensitivity { spec } => {
+            let (d, active) = load_active(&spec)?;
+            let rows = d.sensitivity(&active.on_parts.netlist)?;
+            emit(&tables::sensitivity_csv(Build::ActiveOnParts, &rows))
+        }
+        Request::Levels { spec } => {
+            let (_, active) = load_active(&spec)?;
+            emit(&tables::levels_csv(
+                Build::ActiveOnParts,
+                &active.on_parts_figures.levels,
+            ))
+        }
+        Request::Order {
+            band,
+            ripple_db,
+            attenuation_db,
+        } => emit(&tables::order_text(&design::order_table(
+            &band,
+            ripple_db,
+            attenuation_db,
+        ))),
     }
-    Ok(())
+}
+
+/// Writes an output set and says where.
+fn write_files(out: &Path, files: &[nocoil::export::files::OutputFile]) -> anyhow::Result<()> {
+    write_set(out, files).map_err(|cause| OutDirError {
+        dir: out.to_path_buf(),
+        cause,
+    })?;
+    let names: Vec<&str> = files.iter().map(|f| f.name.as_str()).collect();
+    emit(&format!(
+        "wrote into {}: {}\n",
+        out.display(),
+        names.join(", ")
+    ))
 }

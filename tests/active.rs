@@ -26,7 +26,8 @@ const ACTIVE_TOL_DB: f64 = 0.01;
 /// The same 1.2e-3 relative error as 0.01 dB, as a phase: 0.066 degree.
 const ACTIVE_TOL_DEG: f64 = 0.066;
 
-/// The single-pole op-amps of the brief's stability and accuracy checks.
+/// The single-pole op-amps (A0 = 1e5) of this file's stability and
+/// accuracy checks.
 fn single_pole(gbw_hz: f64) -> OpAmpModel {
     OpAmpModel::SinglePole {
         dc_gain: 1e5,
@@ -336,7 +337,7 @@ fn active_decks_match_ngspice() {
             for (label, opamp) in models {
                 let b = build(case, &d, method, opamp);
                 let context = format!("{} {method:?} {label}", case.name());
-                let worst = check_deck_against_ngspice(&b.netlist, d.default_band(), &context);
+                let worst = check_deck_against_ngspice(&b.netlist, d.view_hz(), &context);
                 report.push(format!("{context:<48} worst {worst:.1e} dB"));
             }
         }
@@ -451,8 +452,9 @@ fn opamp_polarities_come_from_an_exhaustive_search() {
         }
     }
     assert_eq!(survivors, vec![LIBRARY, [("d", "b"), ("p", "d")]]);
-    // The field notes' arrangement for the inductor (op-amp 1 between p
-    // and b, op-amp 2 between b and d) grows with port 1 nearly open.
+    // The earlier arrangement for the inductor, still used by the
+    // hand-built GICs of tests/circuit.rs (op-amp 1 between p and b, op-amp
+    // 2 between b and d), grows with port 1 nearly open.
     let notes = [("p", "b"), ("b", "d")];
     assert!(rightmost(&[2], notes, models[0], 1e7) > 1e4);
     // And place_gic wires the library's arrangement.
@@ -685,8 +687,9 @@ fn ideal_builds_carry_no_verdict_and_charge_modes_are_set_aside() {
 
 #[test]
 fn fdnr_dc_gain_is_the_ladders() {
-    // The DC-path rule Rb / (Ra + Rser + Rb) = RL / (RS + RL) (field notes,
-    // section 4) gives the ladder's DC gain, the closed form
+    // The DC-path rule Rb / (Ra + Rser + Rb) = RL / (RS + RL) (at DC the
+    // FDNRs and capacitors are open, leaving the divider Ra, Rser, Rb)
+    // gives the ladder's DC gain, the closed form
     // RL / (RS + RL) of the terminations with the inductors shorted.
     // Rounding in the DC solve of an image whose conductances span 1e-8 S
     // (the DC-path resistors) to 1e-4 S, and in the subtraction that sets
@@ -713,7 +716,12 @@ fn fdnr_dc_gain_is_the_ladders() {
                 "{}: DC gain {dc}, ladder {want}",
                 case.name()
             );
-            let note = b.notes.iter().find(|n| n.starts_with("DC gain")).unwrap();
+            let note = b
+                .notes
+                .iter()
+                .map(ToString::to_string)
+                .find(|n| n.starts_with("DC gain"))
+                .unwrap();
             assert!(note.contains("R_RS") && note.contains("R_RL"), "{note}");
             let buffer = b
                 .stages
@@ -744,7 +752,9 @@ fn auto_takes_the_fewest_opamps_and_says_why() {
         };
         assert_eq!(auto.method_used, expected, "{}", case.name());
         assert!(
-            auto.why.contains(&format!("{} op-amps", auto.opamps)),
+            auto.why
+                .to_string()
+                .contains(&format!("{} op-amps", auto.opamps)),
             "{}",
             auto.why
         );
@@ -768,7 +778,12 @@ fn series_lc_arms_to_ground_are_swapped_to_ground_the_converted_element() {
         .unwrap();
     let d = case.design();
     let b = build(case, &d, Method::Gic, OpAmpModel::Ideal);
-    let swaps: Vec<&String> = b.notes.iter().filter(|n| n.contains("swapped")).collect();
+    let swaps: Vec<String> = b
+        .notes
+        .iter()
+        .map(ToString::to_string)
+        .filter(|n| n.contains("swapped"))
+        .collect();
     assert!(!swaps.is_empty(), "{:?}", b.notes);
     let grounded = b
         .stages

@@ -169,8 +169,9 @@ const FDNR_C: f64 = 10e-9;
 /// each series L a resistor g r0, and each shunt C an FDNR of
 /// D = g / (r0 wp^2) to ground, realized by an Antoniou GIC (Antoniou
 /// 1969, Proc. IEE 116): Z1 = Z5 = FDNR_C, Z2 = Z3 = r0, Z4 = D / FDNR_C^2,
-/// so Zin = Z1 Z3 Z5 / (Z2 Z4) = 1 / (s^2 D). Op-amp polarities as the
-/// field notes give for the GIC (section 4).
+/// so Zin = Z1 Z3 Z5 / (Z2 Z4) = 1 / (s^2 D). Op-amp polarities: the one
+/// driving n12 has + at the top node and - at n23, the one driving n34
+/// + at n23 and - at n45 (as the GIC highpass of tests/circuit.rs).
 fn fdnr_lowpass(g: &[f64], fp_hz: f64, r0: f64, model: OpAmpModel) -> Netlist {
     let wp = TAU * fp_hz;
     let tau = 1.0 / wp;
@@ -230,7 +231,7 @@ fn fdnr_lowpass(g: &[f64], fp_hz: f64, r0: f64, model: OpAmpModel) -> Netlist {
 
 /// Highpass: series C into a grounded inductor simulated by an Antoniou
 /// GIC (Z1 = R1, Z2 = C2, Z3 = R3, Z4 = R4, Z5 = R5; L = C2 R1 R3 R5 / R4
-/// = 22 mH), loaded by RL; op-amp polarities of the field notes.
+/// = 22 mH), loaded by RL; op-amp polarities as in `fdnr_lowpass`.
 fn gic_highpass(model: OpAmpModel) -> Netlist {
     build(
         "GIC highpass",
@@ -284,8 +285,9 @@ const IDENTITY_REL_TOL: f64 = 1e-10;
 
 #[test]
 fn chebyshev_recursion_reproduces_the_published_tables() {
-    // Matthaei, Young and Jones (1964), table 4.05-2 (from memory), and the
-    // field notes' recomputed values, printed to 4 decimals.
+    // Matthaei, Young and Jones (1964), table 4.05-2 (from memory), and
+    // values recomputed with the closed-form element formula, printed to 4
+    // decimals.
     const PRINTED: f64 = 5e-5;
     let tables: [(f64, &[f64]); 3] = [
         (0.5, &[1.5963, 1.0967, 1.5963]),
@@ -1198,7 +1200,7 @@ fn the_passive_build_of_the_demo_elliptic_has_zero_sensitivity_at_its_reflection
         .join("vibration-antialias.toml");
     let spec = nocoil::spec::Spec::load(&file).unwrap();
     let built = nocoil::design::design(&spec).unwrap();
-    let prototype = built.prototype.as_ref().expect("a computed elliptic");
+    let prototype = built.prototype().expect("a computed elliptic");
     let mut zeros: Vec<f64> = prototype
         .reflection_roots(0.0)
         .iter()
@@ -1207,7 +1209,7 @@ fn the_passive_build_of_the_demo_elliptic_has_zero_sensitivity_at_its_reflection
             if s.im == 0.0 {
                 vec![0.0]
             } else {
-                built.mapping.frequencies_hz(s.im)
+                built.spec.band.frequencies_hz(s.im)
             }
         })
         .collect();

@@ -7,9 +7,7 @@
 //! levels, reflection roots) test the defining identities of the
 //! approximations rather than any table.
 
-use nocoil::approx::{
-    min_order, ApproxError, Family, Params, Prototype, Variant, Zpk, ELLIPTIC_MAX_ORDER, MAX_ORDER,
-};
+use nocoil::approx::{min_order, ApproxError, Family, Params, Prototype, Variant, Zpk, MAX_ORDER};
 use num_complex::Complex64;
 use serde::Deserialize;
 use std::sync::OnceLock;
@@ -274,7 +272,7 @@ fn all_prototypes() -> Vec<Prototype> {
             }
         }
     }
-    for order in 1..=ELLIPTIC_MAX_ORDER {
+    for order in 1..=MAX_ORDER {
         for (ap, as_) in [(0.1, 40.0), (0.5, 60.0), (0.01, 80.0), (1.0, 30.0)] {
             let mut variants = vec![Variant::Standard];
             if order % 2 == 0 {
@@ -388,7 +386,7 @@ fn elliptic_matches_ellipap() {
 fn elliptic_matches_mpmath_oracle() {
     let f = fixtures();
     let cases = f.elliptic_mp.iter().chain(&f.variants_mp);
-    let supported = cases.filter(|c| c.order <= ELLIPTIC_MAX_ORDER);
+    let supported = cases.filter(|c| c.order <= MAX_ORDER);
     check_table(
         "elliptic vs mpmath",
         Family::Elliptic,
@@ -479,7 +477,7 @@ fn min_order_of_exact_integer_masks_is_not_rounded_up() {
 #[test]
 fn min_order_meets_the_mask_and_is_minimal() {
     for (ap, as_) in [(0.1, 40.0), (0.5, 60.0), (1.0, 30.0), (0.01, 80.0)] {
-        for n in 1..=ELLIPTIC_MAX_ORDER {
+        for n in 1..=MAX_ORDER {
             let proto = build(params(Family::Elliptic, n, ap, as_, Variant::Standard));
             let edge = proto.stopband_edge.expect("elliptic has a stopband edge");
             // The edge is rounded to a double: ws - 1 carries a relative
@@ -518,7 +516,7 @@ fn min_order_meets_the_mask_and_is_minimal() {
 // ------------------------------------------------------- the response
 
 /// The loss at the passband edge is Ap for every family, order and variant
-/// (the normalization of domain notes section 1; |H(j1)|^2 = 1/(1+eps^2)).
+/// (the usual normalization, common practice; |H(j1)|^2 = 1/(1+eps^2)).
 #[test]
 fn loss_at_the_passband_edge_is_the_ripple() {
     for proto in all_prototypes() {
@@ -731,10 +729,11 @@ fn every_prototype_is_stable_and_well_formed() {
 }
 
 /// The modified forms push the stopband edge outwards, the type B form by
-/// removing the highest zero (domain notes section 2).
+/// removing the highest zero (Saal 1963, from memory; see
+/// src/approx/variant.rs).
 #[test]
 fn variants_move_the_edge_outwards_and_drop_the_highest_zero() {
-    for n in (2..=ELLIPTIC_MAX_ORDER).step_by(2) {
+    for n in (2..=MAX_ORDER).step_by(2) {
         let make = |v| build(params(Family::Elliptic, n, 0.1, 50.0, v));
         let (a, b, c) = (
             make(Variant::Standard),
@@ -775,8 +774,8 @@ fn bad_params_are_refused_with_the_right_error() {
         order(c, MAX_ORDER + 1, MAX_ORDER)
     );
     assert_eq!(
-        p(e, ELLIPTIC_MAX_ORDER + 1, 1.0, 40.0, std),
-        order(e, ELLIPTIC_MAX_ORDER + 1, ELLIPTIC_MAX_ORDER)
+        p(e, MAX_ORDER + 1, 1.0, 40.0, std),
+        order(e, MAX_ORDER + 1, MAX_ORDER)
     );
     // to_bits: the carried value must be the one given, NaN included.
     for ripple in [0.0, -1.0, 1e-13, f64::NAN, f64::INFINITY, 301.0] {

@@ -110,9 +110,10 @@ fn with(find: &str, replace: &str) -> String {
 
 /// The files `nocoil design` writes (the PNG charts too where a font is
 /// found; CI installs one).
-const OUTPUTS: [&str; 19] = [
+const OUTPUTS: [&str; 20] = [
     "passive.cir",
     "active.cir",
+    "built.cir",
     "report.json",
     "bom.csv",
     "montecarlo.csv",
@@ -394,7 +395,10 @@ fn sweep_prints_csv() {
     ]);
     let stdout = succeeds(&run);
     let mut lines = stdout.lines();
-    assert!(lines.next().unwrap().starts_with("freq_hz,passive_db"));
+    assert!(lines
+        .next()
+        .unwrap()
+        .starts_with("freq_hz,passive_ideal_gain_db"));
     let rows: Vec<Vec<f64>> = lines
         .map(|l| l.split(',').map(|x| x.parse().unwrap()).collect())
         .collect();
@@ -505,12 +509,15 @@ fn single_output_subcommands() {
     for (command, header) in [
         (
             "bom",
-            "build,designators,kind,value,unit,series,tolerance,quantity,stage",
+            "build,designator,kind,value,unit,series,tolerance,count,stage",
         ),
-        ("sensitivity", "part,quantity,edge_db_per_percent"),
+        (
+            "sensitivity",
+            "build,designator,parameter,edge_db_per_percent",
+        ),
         (
             "levels",
-            "opamp,peak_gain_db,peak_hz,max_input_v,clips_first",
+            "build,designator,peak_gain_db,peak_hz,max_input_v_peak,clips_first",
         ),
     ] {
         let stdout = succeeds(&nocoil(&[command, spec]));
@@ -532,4 +539,238 @@ fn single_output_subcommands() {
     for f in ["report.html", "magnitude.svg", "bom.csv"] {
         assert!(dir.join(f).is_file(), "{f}");
     }
+}
+
+/// Spellings a programmer's `Debug` gives the library's enums; none may
+/// reach a person or a file.
+const DEBUG_SPELLINGS: [&str; 12] = [
+    "Gic",
+    "Fdnr",
+    "FloatingInductor",
+    "GroundedInductor",
+    "MinCapacitor",
+    "MinInductor",
+    "SinglePole",
+    "ZeroAtInfinity",
+    "ReflectionAtDc",
+    "Lowpass",
+    "Highpass",
+    "Some(",
+];
+
+/// Every demo design, run through `nocoil design`, speaks the glossary of
+/// DEVELOPERS.md: the printed summary starts with the verdict on the
+/// active on parts build, every figure line names its build, no output
+/// holds a Debug spelling, NaN, infinity or a negative zero, and every
+/// CSV says which build its figures belong to.
+#[test]
+fn every_example_speaks_the_glossary() {
+    let examples = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples");
+    let mut seen = 0;
+    for entry in std::fs::read_dir(&examples).unwrap() {
+        let path = entry.unwrap().path();
+        if path.extension().and_then(|e| e.to_str()) != Some("toml") {
+            continue;
+        }
+        seen += 1;
+        let name = path.file_stem().unwrap().to_str().unwrap();
+        let out = scratch(&format!("glossary-{name}"));
+        let stdout = succeeds(&nocoil(&[
+            "design",
+            path.to_str().unwrap(),
+            "--out",
+            out.to_str().unwrap(),
+        ]));
+        assert!(
+            stdout.starts_with("active on parts: "),
+            "{name}: the verdict on the build on parts comes first:\n{stdout}"
+        );
+        for line in stdout.lines() {
+            let figure = line.contains("deviation")
+                || line.contains("at the stopband edge")
+                || line.contains("yield")
+                || line.contains("moves to");
+            assert!(
+                !figure
+                    || ["passive ideal", "active exact", "active on parts"]
+                        .iter()
+                        .any(|b| line.contains(b)),
+                "{name}: a figure without its build: {line}"
+            );
+        }
+        let mut texts = vec![("stdout".to_string(), stdout)];
+        for file in [
+            "report.html",
+            "bom.csv",
+            "sensitivity.csv",
+            "montecarlo.csv",
+            "report.json",
+        ] {
+            texts.push((
+                file.to_string(),
+                std::fs::read_to_string(out.join(file)).unwrap(),
+            ));
+        }
+        for (file, text) in &texts {
+            for bad in DEBUG_SPELLINGS {
+                assert!(!text.contains(bad), "{name} {file}: Debug spelling {bad:?}");
+            }
+            for bad in ["NaN", "inf", "-0.000 "] {
+                assert!(!text.contains(bad), "{name} {file}: {bad:?} in\n{text}");
+            }
+        }
+        for (file, header_word) in [
+            ("bom.csv", "build,"),
+            ("sensitivity.csv", "build,"),
+            ("montecarlo.csv", "gain_db"),
+        ] {
+            let text = std::fs::read_to_string(out.join(file)).unwrap();
+            assert!(
+                text.lines().next().unwrap().contains(header_word),
+                "{name} {file}"
+            );
+        }
+        let bom = std::fs::read_to_string(out.join("bom.csv")).unwrap();
+        assert!(
+            bom.lines()
+                .skip(1)
+                .all(|l| l.starts_with("passive_ideal,") || l.starts_with("active_on_parts,")),
+            "{name}: bom.csv builds"
+        );
+    }
+    assert!(seen >= 4, "the demos");
+}
+
+/// The resolve step refuses bad flags with exit status 2, naming the flag,
+/// the value and what is accepted, before anything is computed or printed.
+#[test]
+fn bad_flags_name_the_flag_and_what_is_accepted() {
+    let spec = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples/rumble-highpass.toml");
+    let spec = spec.to_str().unwrap();
+    let cases: [(&[&str], &[&str]); 8] = [
+        (
+            &["sweep", spec, "--points", "1"],
+            &["--points 1", "from 2 to"],
+        ),
+        (
+            &["sweep", spec, "--points", "18446744073709551615"],
+            &["--points 18446744073709551615", "from 2 to"],
+        ),
+        (
+            &["sweep", spec, "--from", "-5"],
+            &["--from -5", "greater than 0"],
+        ),
+        (
+            &["montecarlo", spec, "--threads", "0"],
+            &["--threads 0", "from 1 to"],
+        ),
+        (
+            &["montecarlo", spec, "--trials", "0"],
+            &["--trials 0", "from 1 to"],
+        ),
+        (
+            &[
+                "order",
+                "--kind",
+                "notch",
+                "--passband",
+                "1000",
+                "--stopband",
+                "2000",
+                "--ripple",
+                "1",
+                "--attenuation",
+                "40",
+            ],
+            &["--kind notch", "lowpass, highpass, bandpass or bandstop"],
+        ),
+        (
+            &[
+                "order",
+                "--kind",
+                "lowpass",
+                "--passband",
+                "1,2,3",
+                "--stopband",
+                "2000",
+                "--ripple",
+                "1",
+                "--attenuation",
+                "40",
+            ],
+            &["--passband 1,2,3", "one frequency"],
+        ),
+        (
+            &[
+                "order",
+                "--kind",
+                "bandpass",
+                "--passband",
+                "1000",
+                "--stopband",
+                "500,3000",
+                "--ripple",
+                "1",
+                "--attenuation",
+                "40",
+            ],
+            &["--passband 1000", "low,high"],
+        ),
+    ];
+    for (args, needles) in cases {
+        let run = nocoil(args);
+        let stderr = String::from_utf8_lossy(&run.stderr);
+        assert_eq!(run.status.code(), Some(2), "{args:?}: {stderr}");
+        assert!(run.stdout.is_empty(), "{args:?}: nothing printed");
+        assert!(stderr.starts_with("nocoil: "), "{args:?}: {stderr}");
+        for n in needles {
+            assert!(stderr.contains(n), "{args:?}: {n:?} in {stderr}");
+        }
+    }
+}
+
+/// An output folder that cannot be written is bad input (exit status 2),
+/// found before anything is computed or printed.
+#[test]
+fn unwritable_out_is_bad_input() {
+    let dir = scratch("unwritable-out");
+    let blocker = dir.join("a-file");
+    std::fs::write(&blocker, "not a folder").unwrap();
+    let spec = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples/rumble-highpass.toml");
+    let run = nocoil(&[
+        "design",
+        spec.to_str().unwrap(),
+        "--out",
+        blocker.join("out").to_str().unwrap(),
+    ]);
+    let stderr = String::from_utf8_lossy(&run.stderr);
+    assert_eq!(run.status.code(), Some(2), "{stderr}");
+    assert!(run.stdout.is_empty());
+    assert!(stderr.contains("--out"), "{stderr}");
+}
+
+/// The FDNR method asked for a highpass is the input's fault (exit 2), and
+/// the message names active.method and what else to ask for.
+#[test]
+fn fdnr_on_a_highpass_names_the_key_and_the_alternatives() {
+    let dir = scratch("fdnr-highpass");
+    let spec = dir.join("spec.toml");
+    std::fs::write(
+        &spec,
+        with("kind = \"lowpass\"", "kind = \"highpass\"") + "[active]\nmethod = \"fdnr\"\n",
+    )
+    .unwrap();
+    let out = dir.join("out");
+    let run = nocoil(&[
+        "design",
+        spec.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+    ]);
+    let stderr = String::from_utf8_lossy(&run.stderr);
+    assert_eq!(run.status.code(), Some(2), "{stderr}");
+    for needle in ["active.method", "\"gic\"", "\"auto\"", "lowpass"] {
+        assert!(stderr.contains(needle), "{needle:?} in {stderr}");
+    }
+    assert!(!out.exists());
 }

@@ -4,10 +4,12 @@
 
 use crate::scipy_cases::{fixture, Case, REFERENCE_FLOOR_DB};
 use crate::util::ngspice_ac;
-use nocoil::design::{design, response};
+use nocoil::circuit::response;
+use nocoil::design::design;
 use nocoil::export::spice::{deck, AcSweep};
-use nocoil::spec::table::{PrototypeTable, TableArm};
+use nocoil::spec::table::PrototypeTable;
 use nocoil::spec::Spec;
+use nocoil::synth::ArmValues;
 use nocoil::synth::{Arm, Reactance};
 use std::path::Path;
 
@@ -89,7 +91,7 @@ fn exported_passive_decks_match_ngspice() {
     let mut report = Vec::new();
     for case in &fx.cases {
         let d = case.design();
-        let worst = worst_against_ngspice(&d.passive, d.default_band(), &case.name());
+        let worst = worst_against_ngspice(&d.passive, d.view_hz(), &case.name());
         report.push(format!("{:<60} worst {worst:.2e} dB", case.name()));
     }
     println!("passive deck, ngspice vs nocoil:\n{}", report.join("\n"));
@@ -112,8 +114,8 @@ fn prototype_tables_are_reproduced() {
         let table = PrototypeTable::load(&path).unwrap();
         let family = table.family.expect("shipped tables name their family");
         let form = match table.arms[0] {
-            TableArm::ShuntC(_) | TableArm::ShuntResonator(..) => "min_inductor",
-            TableArm::SeriesL(_) | TableArm::SeriesTank(..) => "min_capacitor",
+            ArmValues::ShuntC(_) | ArmValues::ShuntResonator(..) => "min_inductor",
+            ArmValues::SeriesL(_) | ArmValues::SeriesTank(..) => "min_capacitor",
         };
         let text = format!(
             "[filter]\nkind = \"lowpass\"\nfamily = \"{}\"\norder = {}\npassband_edge_hz = {:?}\npassband_ripple_db = {:?}\nform = \"{form}\"\n[terminations]\nsource_ohm = 1.0\nload_ohm = {:?}\n",
@@ -129,8 +131,8 @@ fn prototype_tables_are_reproduced() {
             .arms
             .iter()
             .map(|a| match *a {
-                TableArm::SeriesL(v) | TableArm::ShuntC(v) => v,
-                TableArm::SeriesTank(..) | TableArm::ShuntResonator(..) => {
+                ArmValues::SeriesL(v) | ArmValues::ShuntC(v) => v,
+                ArmValues::SeriesTank(..) | ArmValues::ShuntResonator(..) => {
                     panic!("no resonator tables shipped yet")
                 }
             })
@@ -147,7 +149,7 @@ fn prototype_tables_are_reproduced() {
         // The arms alternate as the table writes them.
         for (e, a) in d.ladder.elements.iter().zip(&table.arms) {
             let expected = match a {
-                TableArm::SeriesL(_) => (Arm::Series, Reactance::Inductor),
+                ArmValues::SeriesL(_) => (Arm::Series, Reactance::Inductor),
                 _ => (Arm::Shunt, Reactance::Capacitor),
             };
             assert_eq!((e.arm, e.kind), expected, "{}", path.display());
@@ -165,7 +167,7 @@ fn design_from_a_table() {
     let values: Vec<f64> = d.ladder.elements.iter().map(|e| e.value).collect();
     // prototypes/chebyshev-0.5db-3.toml
     assert_eq!(values, vec![1.5963, 1.0967, 1.5963]);
-    assert!(d.prototype.is_none());
+    assert!(d.prototype().is_none());
 }
 
 /// Every demo design runs, and one whose order is computed meets its mask
@@ -182,11 +184,8 @@ fn demo_designs_run_and_meet_their_masks() {
         let spec = Spec::load(&path).unwrap_or_else(|e| panic!("{e}"));
         let d = design(&spec).unwrap_or_else(|e| panic!("{e}"));
         let r = d.report();
-        if let (Some(stop), Some(att)) = (spec.stopband_edge_hz, r.stopband_attenuation_db) {
-            let edges = match stop {
-                nocoil::spec::Edge::Single(f) => vec![f],
-                nocoil::spec::Edge::Pair(a, b) => vec![a, b],
-            };
+        let edges = spec.band.stopband_edges_hz();
+        if let (false, Some(att)) = (edges.is_empty(), r.stopband_attenuation_db) {
             // Passband level: the resistive divider of the terminations
             // (common practice: the lossless ladder passes all power at its
             // reflection zeros; at best it reaches the divider).
@@ -251,8 +250,8 @@ fn active_with_ideal_opamps_matches_scipy() {
             report.push(format!(
                 "{:<56} {method:<4} {:?} {:>2} op-amps, worst {worst:.2e} dB",
                 case.name(),
-                a.comparison.method,
-                a.comparison.opamps
+                a.build.method_used,
+                a.build.opamps
             ));
         }
     }
@@ -284,4 +283,118 @@ fn exported_active_decks_match_ngspice() {
         }
     }
     println!("active decks, ngspice vs nocoil:\n{}", report.join("\n"));
+}
+
+/// `built.cir`, the active on parts build as soldered (each trim as its
+/// fixed resistor and its trimmer at the computed setting), runs in
+/// ngspice (live) as `nocoil design` writes it, and its V(out)/V(in)
+/// matches nocoil's own solve of the active on parts build within
+/// [`NGSPICE_TOL_DB`], on every demo design.
+#[test]
+fn built_decks_match_the_active_on_parts_build_in_ngspice() {
+    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples");
+    let mut report = Vec::new();
+    for entry in std::fs::read_dir(&dir).unwrap() {
+        let path = entry.unwrap().path();
+        if path.extension().and_then(|e| e.to_str()) != Some("toml") {
+            continue;
+        }
+        let d = design(&Spec::load(&path).unwrap()).unwrap();
+        let active = d.active().unwrap();
+        let docs = d.documents(&active, d.analyses(&active).unwrap());
+        let files = nocoil::export::files::design_files(&docs).unwrap();
+        let built = files.iter().find(|f| f.name == "built.cir").unwrap();
+        let text = String::from_utf8(built.bytes.clone()).unwrap();
+        // Every trim is there as a fixed resistor and a trimmer.
+        for t in &docs.report.active.as_ref().unwrap().trims {
+            let trimmer = nocoil::realize::trimmer_designator(&t.element);
+            assert!(
+                text.lines().any(|l| l.starts_with(&format!("{trimmer} "))),
+                "{}: {trimmer} in built.cir",
+                path.display()
+            );
+        }
+        let spice = ngspice_ac(&text);
+        let freqs: Vec<f64> = spice.iter().map(|(f, _)| *f).collect();
+        let ours = response(&active.on_parts.netlist, &freqs).unwrap().db();
+        let mut worst: f64 = 0.0;
+        for ((f, v), o) in spice.iter().zip(&ours) {
+            let theirs = 20.0 * v.norm().log10();
+            if theirs > REFERENCE_FLOOR_DB {
+                let err = (theirs - o).abs();
+                assert!(
+                    err <= NGSPICE_TOL_DB,
+                    "{} at {f} Hz: ngspice {theirs:.6} dB, nocoil {o:.6} dB",
+                    path.display()
+                );
+                worst = worst.max(err);
+            }
+        }
+        report.push(format!("{:<40} worst {worst:.2e} dB", path.display()));
+    }
+    assert!(report.len() >= 4, "the demos: {report:?}");
+    println!("built.cir, ngspice vs nocoil:\n{}", report.join("\n"));
+}
+
+/// Whose fault a failure is comes from the innermost error: a circuit
+/// fault inside the active or the parts stage is the program's (exit 1),
+/// a method that cannot serve the ladder or parts that cannot meet the
+/// range are the input's (exit 2).
+#[test]
+fn failures_are_blamed_from_the_innermost_error() {
+    use nocoil::active::{ActiveError, Method};
+    use nocoil::circuit::CircuitError;
+    use nocoil::design::{Blame, DesignError};
+    use nocoil::realize::PartsSnapError;
+    let file = || std::path::PathBuf::from("design.toml");
+    let fault = || CircuitError::NoSuchNode {
+        name: "out".to_string(),
+    };
+    let cases = [
+        (
+            DesignError::Active {
+                file: file(),
+                cause: ActiveError::Circuit(fault()),
+            },
+            Blame::Program,
+        ),
+        (
+            DesignError::Parts {
+                file: file(),
+                cause: PartsSnapError::Circuit(fault()),
+            },
+            Blame::Program,
+        ),
+        (
+            DesignError::Circuit {
+                file: file(),
+                cause: fault(),
+            },
+            Blame::Program,
+        ),
+        (
+            DesignError::Active {
+                file: file(),
+                cause: ActiveError::NotApplicable {
+                    method: Method::Fdnr,
+                    needs: "a lowpass ladder",
+                    offender: "L1 is an inductor to ground".to_string(),
+                },
+            },
+            Blame::Input,
+        ),
+        (
+            DesignError::Parts {
+                file: file(),
+                cause: PartsSnapError::BadRange {
+                    low_f: 1e-6,
+                    high_f: 1e-9,
+                },
+            },
+            Blame::Input,
+        ),
+    ];
+    for (error, blame) in cases {
+        assert_eq!(error.blame(), blame, "{error}");
+    }
 }

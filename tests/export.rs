@@ -671,7 +671,7 @@ fn bom_csv_has_the_header_and_quotes_per_rfc_4180() {
     let mut lines = text.lines();
     assert_eq!(
         lines.next(),
-        Some("build,designators,kind,value,unit,series,tolerance,quantity,stage,value_si")
+        Some("build,designator,kind,value,unit,series,tolerance,count,stage,value_si")
     );
     assert_eq!(
         lines.next(),
@@ -998,11 +998,13 @@ fn demo_report_renders_in_headless_chromium() {
     .unwrap();
     let d = nocoil::design::design(&spec).unwrap();
     let active = d.active().unwrap();
-    let files = d.document_files(&active).unwrap();
-    let (_, html) = files
+    let docs = d.documents(&active, d.analyses(&active).unwrap());
+    let files = nocoil::export::files::document_files(&docs).unwrap();
+    let html = &files
         .iter()
-        .find(|(n, _)| n == "report.html")
-        .expect("a report");
+        .find(|f| f.name == "report.html")
+        .expect("a report")
+        .bytes;
     let dir = samples_dir();
     let page = dir.join("demo-report.html");
     std::fs::write(&page, html).unwrap();

@@ -16,8 +16,9 @@ use network::SplitMix;
 
 /// Sparse versus dense oracle. Both solve the same equations in doubles
 /// with different pivots and scalings, so they differ by a few eps times
-/// the growth of the elimination and the condition of the answer; the
-/// brief asks for 1e-12, and a wrong stamp, pivot or fill shows as O(1).
+/// the growth of the elimination and the condition of the answer; 1e-12
+/// is the agreement this project holds the two paths to, and a wrong
+/// stamp, pivot or fill shows as O(1).
 const PATHS_REL_TOL: f64 = 1e-12;
 
 /// The band every test covers: 1 Hz to 10 MHz.
@@ -134,7 +135,8 @@ impl Cascade {
 
     /// Antoniou's chain Z1..Z5 from `top` to ground, `caps` naming the
     /// positions that hold capacitors (2: inductor; 1 and 5: FDNR), with
-    /// the op-amp polarities of the field notes' stable inductor.
+    /// the op-amp polarities of the GIC highpass in tests/circuit.rs,
+    /// which gic_stability_agrees_with_ngspice_step_responses finds stable.
     fn converter(&mut self, top: &str, caps: &[usize]) {
         let j: Vec<String> = (0..4).map(|_| self.fresh()).collect();
         let chain = [top, &j[0], &j[1], &j[2], &j[3], "0"];
@@ -361,7 +363,7 @@ fn output_condition(system: &AcSystem, freq_hz: f64, out: usize) -> f64 {
     y.map(|z| z.norm()).dot(&ax) / x[o].norm()
 }
 
-/// The tolerance at one point: the brief's 1e-12, or the first-order
+/// The tolerance at one point: PATHS_REL_TOL (1e-12), or the first-order
 /// error bound where the problem's conditioning allows no less. A solver
 /// whose computed factors satisfy (A + dA) x = b with |dA| <= 3 n eps
 /// |L||U| (Higham, "Accuracy and Stability of Numerical Algorithms", 2nd

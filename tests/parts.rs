@@ -1,5 +1,5 @@
-//! Tests of parts: the preferred-number tables against the IEC 60063
-//! facts in the field notes, snapping against a brute-force search over
+//! Tests of parts: the preferred-number tables against IEC 60063:2015
+//! (tables 1 and 2, from memory), snapping against a brute-force search over
 //! decimal literals, and the tolerance models against the moments of
 //! their distributions.
 
@@ -56,7 +56,7 @@ fn series_tables_have_their_sizes_and_ascend_within_a_decade() {
 
 #[test]
 fn e24_departs_from_the_formula_exactly_where_iec_60063_does() {
-    // Field notes section 5 (IEC 60063:2015, table 1, from memory): E24
+    // IEC 60063:2015, table 1 (from memory): E24
     // has 2.7, 3.0, 3.3, 3.6, 3.9, 4.3, 4.7 and 8.2 where round(10^(i/24))
     // gives 2.6, 2.9, 3.2, 3.5, 3.8, 4.2, 4.6 and 8.3, and nowhere else.
     let got: Vec<(u32, u32)> = departures(Series::E24)
@@ -78,7 +78,7 @@ fn e24_departs_from_the_formula_exactly_where_iec_60063_does() {
 
 #[test]
 fn e48_and_e96_equal_the_formula_and_e192_departs_only_at_9_20() {
-    // Field notes section 5 (IEC 60063:2015, table 2, from memory).
+    // IEC 60063:2015, table 2 (from memory).
     assert_eq!(departures(Series::E48), vec![]);
     assert_eq!(departures(Series::E96), vec![]);
     assert_eq!(departures(Series::E192), vec![(185, 920, 919)]);

@@ -22,12 +22,11 @@ use std::path::Path;
 use crate::util::ngspice_ac;
 use nocoil::active::{deviation_db, StageKind, PASSBAND_POINTS};
 use nocoil::circuit::{log_grid, Element, ElementKind, Netlist};
-use nocoil::design::{
-    design, passbands, snap_build, ActiveDesign, Design, PartsChoice, PartsSnapError, SnappedBuild,
-    TRIMMER_SERIES,
-};
+use nocoil::design::{design, ActiveDesign, Design};
 use nocoil::export::spice::{deck, AcSweep};
+use nocoil::parts::PartsChoice;
 use nocoil::parts::Series;
+use nocoil::realize::{snap_build, PartsSnapError, SnappedBuild, TRIMMER_SERIES};
 use nocoil::spec::Spec;
 
 /// The FDNR lowpass, the GIC highpass, the GIC bandpass and the GIC
@@ -76,7 +75,7 @@ impl Demo {
         let text = std::fs::read_to_string(&path).unwrap() + extra;
         let design = design(&Spec::from_toml(&path, &text).unwrap()).unwrap();
         let active = design.active().unwrap();
-        let bands = passbands(design.mapping, design.default_band());
+        let bands = design.passbands_hz();
         Demo {
             design,
             active,
@@ -424,7 +423,9 @@ fn capacitors_outside_the_range_are_moved_in_by_rescaling() {
             }
         }
         assert!(
-            s.rescaled.iter().any(|n| n.contains("outside the range")),
+            s.rescaled
+                .iter()
+                .any(|n| n.to_string().contains("outside the range")),
             "{name}: {:#?}",
             s.rescaled
         );
@@ -446,7 +447,11 @@ fn capacitors_outside_the_range_are_moved_in_by_rescaling() {
             "{name} in [{:e}, {:e}]: {e:?}\n  {}",
             range.0,
             range.1,
-            s.rescaled.join("\n  ")
+            s.rescaled
+                .iter()
+                .map(ToString::to_string)
+                .collect::<Vec<_>>()
+                .join("\n  ")
         );
         assert!(
             (e.ideal_values - e.as_built).abs() <= RESCALE_TOL_DB,

@@ -15,7 +15,7 @@ use std::f64::consts::{LN_10, PI};
 
 const FORMS: [Form; 2] = [Form::MinCapacitor, Form::MinInductor];
 
-/// Ripple factor eps = sqrt(10^(Ap/10) - 1) (domain.md section 1).
+/// Ripple factor eps = sqrt(10^(Ap/10) - 1) (common practice).
 fn eps_of(ap_db: f64) -> f64 {
     (ap_db * LN_10 / 10.0).exp_m1().sqrt()
 }
@@ -23,12 +23,13 @@ fn eps_of(ap_db: f64) -> f64 {
 /// Largest relative element error accepted against the closed forms.
 /// The roots are f64 (1e-16 relative) and so are the closed forms; the
 /// measured worst case over n <= 25 is 1.1e-14 (printed by the tests).
-/// 1e-12 leaves two decades of margin, while the f64 synthesis the field
-/// notes measured (1.5e-3 at n = 25) fails it by nine decades.
+/// 1e-12 leaves two decades of margin, while synthesis in plain f64
+/// (measured 1.5e-3 at n = 25, see src/synth/poly.rs) fails it by nine
+/// decades.
 const ELEMENT_TOLERANCE: f64 = 1e-12;
 
-/// The project's response budget for the synthesis stage, dB (the task's
-/// 0.001 dB target; 0.01 dB is the end-to-end budget).
+/// The project's response budget for the synthesis stage, dB: a tenth of
+/// the 0.01 dB end-to-end budget (tests/design.rs).
 const RESPONSE_TOLERANCE_DB: f64 = 1e-3;
 
 /// Responses below this (relative to the passband maximum) are not
@@ -77,7 +78,8 @@ impl AllPole {
     }
 
     /// The flat-loss level 1 - K_t, K_t = 4r / ((1 + r)^2 |H(0)|^2), in the
-    /// plain form of its definition (domain.md section 2).
+    /// plain form of its definition (the DC transducer gain of the
+    /// terminations over |H(0)|^2; common practice).
     fn level(self, r: f64) -> f64 {
         let h0_sq = 1.0 / (1.0 + self.dc_reflection());
         let level = 1.0 - 4.0 * r / ((1.0 + r).powi(2) * h0_sq);
@@ -331,8 +333,8 @@ fn chebyshev_even_standard_matches_myj_recursion() {
 }
 
 // Printed values, MYJ (1964) table 4.05-2 (from memory), each recomputed
-// with the closed-form recursion (domain.md section 2; the 0.1 dB n = 7 g4
-// is 1.5734, not the 1.5374 of circulating copies). Four decimals are
+// with the closed-form recursion (which gives the 0.1 dB n = 7 g4 as
+// 1.5734, not the 1.5374 of circulating copies). Four decimals are
 // printed: the tolerance is half a unit in the last place.
 #[test]
 fn chebyshev_matches_printed_table() {

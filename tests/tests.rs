@@ -9,6 +9,7 @@ mod cli;
 mod design;
 mod export;
 mod fast;
+mod layering;
 mod parts;
 mod scipy_cases;
 mod snap;

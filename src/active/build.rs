@@ -19,8 +19,9 @@
 //! sits across each: Rb across the load capacitor and Ra across the source
 //! one with Rb/(Ra + Rser + Rb) = RL/(RS + RL), Rser being the DC
 //! resistance of the image between them, so the DC gain is the ladder's
-//! (field notes, section 4). A unity-gain follower drives `out` from the
-//! high-impedance load node, renamed `ladder_out`.
+//! (checked by tests/active.rs, fdnr_dc_gain_is_the_ladders). A unity-gain
+//! follower drives `out` from the high-impedance load node, renamed
+//! `ladder_out`.
 //!
 //! Size of the DC-path resistors: in the image the source and load
 //! branches are exactly RS and RL times sT/(1 + sT), T = Ra CS or Rb CL
@@ -31,13 +32,14 @@
 
 use crate::circuit::{AcSystem, Element, ElementKind, Netlist, OpAmpModel};
 
+use super::chain::Chain;
 use super::error::ActiveError;
 use super::gic::{
     add_fresh, fdnr_chain, fresh_node, inductor_chain, place_floating, place_grounded, Placed,
     Tuning,
 };
 use super::passive::{grounded_at, Passive};
-use super::{Stage, StageKind};
+use super::{Handles, Stage, StageKind};
 
 /// The FDNR image's fixed quantities.
 #[derive(Debug, Clone, PartialEq)]
@@ -76,15 +78,55 @@ fn start(passive: &Passive, tag: &str) -> Netlist {
     }
 }
 
-fn stage(kind: StageKind, replaces: &Element, value: f64, nodes: Vec<String>, p: Placed) -> Stage {
-    Stage {
+/// The stage of what `p` placed for `replaces`, with its typed handles:
+/// a converter's chains in the order [`super::gic`] places them (Z1..Z5;
+/// a floating inductor's two GICs, then their shared Z5).
+fn stage(
+    netlist: &Netlist,
+    kind: StageKind,
+    replaces: &Element,
+    value: f64,
+    nodes: Vec<String>,
+    p: Placed,
+) -> Result<Stage, ActiveError> {
+    let chain = |z: [usize; 5]| {
+        Chain::read(netlist, z).ok_or_else(|| ActiveError::Contract {
+            problem: format!("the converter for {} is no GIC chain", replaces.name()),
+        })
+    };
+    let handles = match (kind, &p.indices[..]) {
+        (StageKind::GroundedInductor | StageKind::Fdnr, &[z1, z2, z3, z4, z5]) => {
+            Handles::Converter(vec![chain([z1, z2, z3, z4, z5])?])
+        }
+        (StageKind::FloatingInductor, &[a1, a2, a3, a4, b1, b2, b3, b4, z5]) => {
+            Handles::Converter(vec![
+                chain([a1, a2, a3, a4, z5])?,
+                chain([b1, b2, b3, b4, z5])?,
+            ])
+        }
+        (StageKind::Termination, &[capacitor, dc_path]) => {
+            Handles::Termination { capacitor, dc_path }
+        }
+        (StageKind::Resistor, &[element]) => Handles::Element(element),
+        _ => {
+            return Err(ActiveError::Contract {
+                problem: format!(
+                    "the {kind} for {} placed {} elements",
+                    replaces.name(),
+                    p.indices.len()
+                ),
+            })
+        }
+    };
+    Ok(Stage {
         kind,
         replaces: Some(replaces.name().to_string()),
         value,
         nodes,
         elements: p.elements,
         opamps: p.opamps,
-    }
+        handles,
+    })
 }
 
 /// The simulated-inductor network.
@@ -112,12 +154,26 @@ pub(crate) fn assemble_gic(
             Some(node) => {
                 let nodes = names(&[node]);
                 let placed = place_grounded(&mut netlist, name, node, chain, model)?;
-                stage(StageKind::GroundedInductor, element, henry, nodes, placed)
+                stage(
+                    &netlist,
+                    StageKind::GroundedInductor,
+                    element,
+                    henry,
+                    nodes,
+                    placed,
+                )?
             }
             None => {
                 let nodes = names(&[a, b]);
                 let placed = place_floating(&mut netlist, name, (a, b), chain, model)?;
-                stage(StageKind::FloatingInductor, element, henry, nodes, placed)
+                stage(
+                    &netlist,
+                    StageKind::FloatingInductor,
+                    element,
+                    henry,
+                    nodes,
+                    placed,
+                )?
             }
         };
         stages.push(built);
@@ -227,11 +283,19 @@ pub(crate) fn assemble_fdnr(
                     ohm: henry / tau,
                 };
                 let placed = Placed {
+                    indices: vec![netlist.elements.len()],
                     elements: vec![add_fresh(&mut netlist, resistor)?],
                     opamps: Vec::new(),
                 };
                 let nodes = vec![netlist.nodes[a].clone(), netlist.nodes[b].clone()];
-                stage(StageKind::Resistor, element, henry / tau, nodes, placed)
+                stage(
+                    &netlist,
+                    StageKind::Resistor,
+                    element,
+                    henry / tau,
+                    nodes,
+                    placed,
+                )?
             }
             Element::Capacitor {
                 ref name, farad, ..
@@ -242,7 +306,7 @@ pub(crate) fn assemble_fdnr(
                 let placed =
                     place_grounded(&mut netlist, name, node, fdnr_chain(d, tuning), model)?;
                 let nodes = vec![netlist.nodes[node].clone()];
-                stage(StageKind::Fdnr, element, d, nodes, placed)
+                stage(&netlist, StageKind::Fdnr, element, d, nodes, placed)?
             }
             _ => {
                 netlist.elements.push(element.clone());
@@ -277,21 +341,24 @@ fn termination(
         b,
         ohm: dc_ohm,
     };
+    let first = netlist.elements.len();
     let placed = Placed {
         elements: vec![
             add_fresh(netlist, capacitor)?,
             add_fresh(netlist, resistor)?,
         ],
+        indices: vec![first, first + 1],
         opamps: Vec::new(),
     };
     let nodes = vec![netlist.nodes[a].clone(), netlist.nodes[b].clone()];
-    Ok(stage(
+    stage(
+        netlist,
         StageKind::Termination,
         replaces,
         farad,
         nodes,
         placed,
-    ))
+    )
 }
 
 /// The unity-gain follower from the ladder's load node to `out`.
@@ -315,6 +382,7 @@ fn buffer(
         nodes: vec![netlist.nodes[ladder_out].clone(), "out".to_string()],
         elements: Vec::new(),
         opamps: vec![add_fresh(netlist, follower)?],
+        handles: Handles::Buffer,
     })
 }
 

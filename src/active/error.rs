@@ -45,7 +45,7 @@ pub enum ActiveError {
         problem: String,
     },
     /// The method asked for cannot realize this ladder.
-    #[error("method {method:?} cannot realize this ladder: it needs {needs}, but {offender}")]
+    #[error("active.method = {method}: the {method} method cannot realize this ladder: it needs {needs}, but {offender}; set active.method to \"gic\" (simulated inductors serve any ladder) or \"auto\"")]
     NotApplicable {
         /// The method asked for.
         method: Method,
@@ -65,7 +65,7 @@ pub enum ActiveError {
     },
     /// The active network has a natural frequency in the closed right half
     /// plane with the chosen op-amp model.
-    #[error("the {method:?} realization is not stable with this op-amp model: natural frequency {root} rad/s has a real part >= {margin:e} |s|")]
+    #[error("the {method} realization is not stable with this op-amp model: natural frequency {root} rad/s has a real part >= {margin:e} |s|")]
     Unstable {
         /// The method used.
         method: Method,

@@ -36,12 +36,13 @@
 //!
 //! Both inverting inputs sit on `b`, which each output reaches through one
 //! impedance (Z2 from `a`, Z3 from `c`): each op-amp has local negative
-//! feedback. The arrangement the field notes record for the inductor with
-//! its capacitor in position 2 (op-amp 1 between `p` and `b`, op-amp 2
-//! between `b` and `d`) grows at about 1e4 1/s when port 1 is left open
-//! (measured), so it is not used. tests/active.rs re-proves the choice on
-//! realized filters (natural frequencies and ngspice step responses) and
-//! shows that swapping either op-amp's inputs makes them diverge.
+//! feedback. An earlier arrangement for the inductor with its capacitor
+//! in position 2 (op-amp 1 between `p` and `b`, op-amp 2 between `b` and
+//! `d`) grows at about 1e4 1/s when port 1 is left open (measured by
+//! tests/active.rs, opamp_polarities_come_from_an_exhaustive_search), so
+//! it is not used. tests/active.rs re-proves the choice on realized
+//! filters (natural frequencies and ngspice step responses) and shows
+//! that swapping either op-amp's inputs makes them diverge.
 //!
 //! # Balanced values
 //! With single-pole op-amps (A = wt/s) the converter errs by about 4 w/wt
@@ -56,9 +57,9 @@
 //!   wb C R = 1, and R1 = wb L since L = C R1 R3 R5 / R4;
 //! - FDNR (capacitors in positions 1 and 5), Zin = 1/(s^2 D):
 //!   Z2 = Z3 = Z4 = R, Z5 = C5 with wb C5 R = 1, and C1 = wb D since
-//!   D = C1 C5 R2 R4 / R3 (the field notes print the reciprocal,
-//!   R3 / (C^2 R2 R4); the chain's Zin, checked in tests/active.rs,
-//!   gives this one).
+//!   D = C1 C5 R2 R4 / R3 (not its reciprocal R3 / (C^2 R2 R4): the
+//!   chain's Zin, checked in tests/active.rs,
+//!   gic_two_port_gives_z1_z3_z5_over_z2_z4, gives this one).
 //!
 //! The capacitor sits in position 2 rather than 4 so that the floating
 //! inductor (below) keeps a DC path to every op-amp input.
@@ -94,11 +95,13 @@ pub enum Impedance {
     Capacitor(f64),
 }
 
-/// Names of what one [`place_gic`] (or a whole converter) added.
+/// What one [`place_gic`] (or a whole converter) added.
 #[derive(Debug, Clone, PartialEq, Default)]
 pub struct Placed {
-    /// The passive elements (R and C), in chain order.
+    /// The passive elements (R and C) by name, in chain order.
     pub elements: Vec<String>,
+    /// The same by index in the netlist.
+    pub indices: Vec<usize>,
     /// The op-amps.
     pub opamps: Vec<String>,
 }
@@ -155,6 +158,7 @@ pub(crate) fn add_impedance(
     position: usize,
     (a, b): (usize, usize),
 ) -> Result<(), ActiveError> {
+    placed.indices.push(netlist.elements.len());
     let name = add_fresh(netlist, impedance_element(z, tag, position, a, b))?;
     placed.elements.push(name);
     Ok(())

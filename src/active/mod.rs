@@ -34,6 +34,7 @@
 //! method), `refine` (deviation and the simplex), `stability`.
 
 mod build;
+pub mod chain;
 mod error;
 pub mod gic;
 mod passive;
@@ -53,8 +54,8 @@ use passive::Passive;
 use crate::circuit::netlist::check_model;
 use crate::circuit::{log_grid, Element, ElementKind, Netlist, OpAmpModel};
 
-/// How the inductors are removed.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+/// How the inductors are removed (`[active] method` of a design file).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 #[serde(rename_all = "snake_case")]
 pub enum Method {
     /// The realization with fewer op-amps (see the module documentation).
@@ -63,6 +64,16 @@ pub enum Method {
     Gic,
     /// The Bruton FDNR image (lowpass ladders with grounded capacitors).
     Fdnr,
+}
+
+impl std::fmt::Display for Method {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self {
+            Method::Auto => "auto",
+            Method::Gic => "GIC",
+            Method::Fdnr => "FDNR",
+        })
+    }
 }
 
 /// Default impedance level of the converters' balanced elements, ohm: in
@@ -169,6 +180,19 @@ pub enum StageKind {
     Buffer,
 }
 
+impl std::fmt::Display for StageKind {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self {
+            StageKind::GroundedInductor => "grounded simulated inductor",
+            StageKind::FloatingInductor => "floating simulated inductor",
+            StageKind::Fdnr => "FDNR",
+            StageKind::Resistor => "FDNR-image resistor",
+            StageKind::Termination => "FDNR-image termination",
+            StageKind::Buffer => "output buffer",
+        })
+    }
+}
+
 /// One group of elements of the active network and what it stands for.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct Stage {
@@ -186,6 +210,106 @@ pub struct Stage {
     pub elements: Vec<String>,
     /// Its op-amps, by name.
     pub opamps: Vec<String>,
+    /// Its elements by index in the build's netlist, typed by their role.
+    pub handles: Handles,
+}
+
+/// The elements of a [`Stage`] by index in its build's netlist, typed by
+/// their role, so the parts stage needs no names to find them.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub enum Handles {
+    /// A converter: its GIC chains (a floating inductor has two, sharing
+    /// Z5).
+    Converter(Vec<chain::Chain>),
+    /// The FDNR image of a termination: its capacitor and the DC-path
+    /// resistor across it.
+    Termination {
+        /// The capacitor, the image of the termination resistor.
+        capacitor: usize,
+        /// The DC-path resistor.
+        dc_path: usize,
+    },
+    /// The one element standing for the replaced one (the FDNR image of
+    /// an inductor: a resistor).
+    Element(usize),
+    /// The output buffer: no resistor or capacitor.
+    Buffer,
+}
+
+/// Why a method was used: what was asked, what each method needs in
+/// op-amps, and what keeps the FDNR image out when it is.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct Why {
+    /// The method the design asked for.
+    pub asked: Method,
+    /// The method used ([`Method::Gic`] or [`Method::Fdnr`]).
+    pub used: Method,
+    /// Op-amps of the simulated-inductor build.
+    pub gic_opamps: usize,
+    /// Its grounded inductors (one converter each).
+    pub grounded_inductors: usize,
+    /// Its floating inductors (two converters each).
+    pub floating_inductors: usize,
+    /// Op-amps of the FDNR image, when the ladder allows one.
+    pub fdnr_opamps: Option<usize>,
+    /// What keeps the ladder from an FDNR image (naming the element),
+    /// when something does.
+    pub fdnr_obstacle: Option<String>,
+}
+
+/// A fact about a realization worth telling the designer.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+#[serde(tag = "note", rename_all = "snake_case")]
+pub enum Note {
+    /// An L-C pair in series from `node` to ground was swapped so that
+    /// `grounded` ends at ground.
+    SeriesSwap {
+        /// The element now at ground.
+        grounded: String,
+        /// The other element of the pair.
+        other: String,
+        /// The node the pair hangs from.
+        node: String,
+    },
+    /// The refinement of the converters' free values.
+    Refined {
+        /// The balance frequency found, Hz.
+        balance_hz: f64,
+        /// The trim correction found.
+        correction: f64,
+        /// Largest passband deviation with the balanced values, dB.
+        balanced_deviation_db: f64,
+        /// The same with the refined values, dB.
+        refined_deviation_db: f64,
+    },
+    /// The refined values gave an unstable network; the balanced ones are
+    /// kept.
+    RefinedUnstable {
+        /// Real part of the rightmost natural frequency, rad/s.
+        root_re_rad_s: f64,
+        /// Its imaginary part, rad/s.
+        root_im_rad_s: f64,
+    },
+    /// The FDNR image's DC gain, held at the ladder's by DC-path
+    /// resistors across the termination capacitors.
+    DcPath {
+        /// The image's DC gain, dB.
+        dc_gain_db: f64,
+        /// The ladder's, dB.
+        ladder_dc_gain_db: f64,
+        /// The DC-path resistors: designator and ohm.
+        resistors: Vec<(String, f64)>,
+    },
+    /// How far the DC-path resistors move the response below the balance
+    /// frequency (ideal op-amps, so only their effect shows).
+    DcPathEffect {
+        /// Largest deviation from the passive ideal, dB.
+        deviation_db: f64,
+        /// From, Hz.
+        from_hz: f64,
+        /// To (the balance frequency), Hz.
+        to_hz: f64,
+    },
 }
 
 /// The active network and what a designer needs to compare builds.
@@ -197,8 +321,8 @@ pub struct ActiveBuild {
     /// The method used ([`Method::Gic`] or [`Method::Fdnr`], never
     /// `Auto`).
     pub method_used: Method,
-    /// Why that method, in words.
-    pub why: String,
+    /// Why that method.
+    pub why: Why,
     /// Number of op-amps.
     pub opamps: usize,
     /// Number of capacitors.
@@ -208,7 +332,7 @@ pub struct ActiveBuild {
     /// Which elements and op-amps form which converter.
     pub stages: Vec<Stage>,
     /// Series swaps, the FDNR DC-gain effect, the refinement's outcome.
-    pub notes: Vec<String>,
+    pub notes: Vec<Note>,
     /// Largest deviation from the passive ideal over
     /// [`Options::passband_hz`] with [`Options::opamp`], dB (`None`
     /// without passbands).
@@ -244,12 +368,12 @@ pub fn realize(passive: &Netlist, opts: &Options) -> Result<ActiveBuild, ActiveE
     };
     if opts.optimize {
         let before = meter.deviation(&plan.assemble(&balanced, opts.opamp)?.0)?;
-        notes.push(format!(
-            "refined: balance at {:.6e} Hz, trim correction {:.6}; largest passband deviation {before:.4e} dB balanced, {:.4e} dB refined",
-            tuning.balance_rad_s / TAU,
-            tuning.correction,
-            passband_deviation_db.unwrap_or(f64::NAN)
-        ));
+        notes.push(Note::Refined {
+            balance_hz: tuning.balance_rad_s / TAU,
+            correction: tuning.correction,
+            balanced_deviation_db: before,
+            refined_deviation_db: meter.deviation(&netlist)?,
+        });
     }
     if let Plan::Fdnr(..) = plan {
         notes.extend(dc_path_notes(
@@ -308,16 +432,17 @@ fn stable_build(
     tuning: &Tuning,
     balanced: &Tuning,
     opts: &Options,
-    notes: &mut Vec<String>,
+    notes: &mut Vec<Note>,
 ) -> Result<(Netlist, Vec<Stage>, Option<StabilityVerdict>), ActiveError> {
     let (netlist, stages) = plan.assemble(tuning, opts.opamp)?;
     let stability = verdict(&netlist, &opts.opamp)?;
     match stability {
         Some(v) if !v.stable && tuning != balanced => {
-            notes.push(format!(
-                "the refined values gave a natural frequency at {:?} rad/s, so the balanced values are kept",
-                v.rightmost
-            ));
+            let root = v.rightmost.unwrap_or_default();
+            notes.push(Note::RefinedUnstable {
+                root_re_rad_s: root.re,
+                root_im_rad_s: root.im,
+            });
             stable_build(plan, balanced, balanced, opts, notes)
         }
         Some(v) if !v.stable => Err(ActiveError::Unstable {
@@ -363,7 +488,7 @@ fn choose(
     base: &Passive,
     opts: &Options,
     balanced: &Tuning,
-) -> Result<(Plan, String, Vec<String>), ActiveError> {
+) -> Result<(Plan, Why, Vec<Note>), ActiveError> {
     let mut gic = base.clone();
     let gic_notes = gic.ground_series_arms(ElementKind::Inductor);
     let mut fdnr = base.clone();
@@ -383,13 +508,16 @@ fn choose(
         (Method::Auto, Ok(_)) => counts.1 < counts.0,
         (Method::Auto, Err(_)) => false,
     };
-    let why = explain(
-        opts.method,
-        use_fdnr,
-        &gic,
-        &fdnr,
-        terminations.as_ref().err(),
-    );
+    let (grounded_inductors, floating_inductors) = count_inductors(&gic);
+    let why = Why {
+        asked: opts.method,
+        used: if use_fdnr { Method::Fdnr } else { Method::Gic },
+        gic_opamps: counts.0,
+        grounded_inductors,
+        floating_inductors,
+        fdnr_opamps: terminations.is_ok().then_some(counts.1),
+        fdnr_obstacle: terminations.as_ref().err().cloned(),
+    };
     match (use_fdnr, terminations) {
         (true, Ok((source, load))) => {
             let ohm = |i: usize| fdnr.netlist.elements[i].value().unwrap_or(f64::NAN);
@@ -411,41 +539,8 @@ fn choose(
     }
 }
 
-/// Why the method was used, with both op-amp counts.
-fn explain(
-    asked: Method,
-    use_fdnr: bool,
-    gic: &Passive,
-    fdnr: &Passive,
-    obstacle: Option<&String>,
-) -> String {
-    let gic_count = gic_opamps(gic);
-    let fdnr_words = format!(
-        "{} op-amps for the FDNR image ({} FDNRs and an output buffer)",
-        fdnr_opamps(fdnr),
-        fdnr.netlist.count(ElementKind::Capacitor)
-    );
-    let gic_words = format!(
-        "{gic_count} op-amps for simulated inductors ({})",
-        describe_inductors(gic)
-    );
-    match (asked, use_fdnr, obstacle) {
-        (Method::Auto, true, _) => format!("fewest op-amps: {fdnr_words} against {gic_words}"),
-        (Method::Auto, false, Some(offender)) => format!(
-            "simulated inductors, {gic_words}: the FDNR image needs {}, but {offender}",
-            build::FDNR_NEEDS
-        ),
-        (Method::Auto, false, None) => format!(
-            "fewest op-amps: {gic_words} against {fdnr_words} (a tie goes to simulated inductors, which keep the resistive terminations)"
-        ),
-        (_, true, _) => format!("FDNR image as asked: {fdnr_words}"),
-        (_, false, _) => format!("simulated inductors as asked: {gic_words}"),
-    }
-}
-
-/// "3 grounded inductors (2 op-amps each), 2 floating (4 each)" for the
-/// oriented netlist's inductors.
-fn describe_inductors(passive: &Passive) -> String {
+/// The grounded and the floating inductors of an oriented netlist.
+fn count_inductors(passive: &Passive) -> (usize, usize) {
     let (mut grounded, mut floating) = (0, 0);
     for e in &passive.netlist.elements {
         if let Element::Inductor { .. } = e {
@@ -455,7 +550,7 @@ fn describe_inductors(passive: &Passive) -> String {
             }
         }
     }
-    format!("{grounded} grounded inductors (2 op-amps each), {floating} floating (4 each)")
+    (grounded, floating)
 }
 
 /// Largest over smallest capacitance; 1 with fewer than two capacitors.
@@ -486,34 +581,34 @@ fn dc_path_notes(
     tuning: &Tuning,
     (active, stages): (&Netlist, &[Stage]),
     balance_hz: f64,
-) -> Result<Vec<String>, ActiveError> {
+) -> Result<Vec<Note>, ActiveError> {
     let dc = |n: &Netlist| -> Result<f64, ActiveError> {
         let h = refine::transfer(n, &[0.0])?;
         Ok(20.0 * h[0].norm().log10())
     };
-    // A termination stage holds its capacitor, then its DC-path resistor.
-    let resistors: Vec<String> = stages
+    let resistors: Vec<(String, f64)> = stages
         .iter()
-        .filter(|s| s.kind == StageKind::Termination)
-        .filter_map(|s| {
-            let name = s.elements.get(1)?;
-            let value = active.elements[active.element_index(name)?].value()?;
-            Some(format!("{name} = {value:.4e} ohm"))
+        .filter_map(|s| match s.handles {
+            Handles::Termination { dc_path, .. } => {
+                let e = &active.elements[dc_path];
+                Some((e.name().to_string(), e.value()?))
+            }
+            _ => None,
         })
         .collect();
     let ideal = plan.assemble(tuning, OpAmpModel::Ideal)?.0;
     let low_hz = balance_hz / DC_PATH_SPAN;
     let below = log_grid(low_hz, balance_hz, PASSBAND_POINTS)?;
     Ok(vec![
-        format!(
-            "DC gain {:.6} dB against the ladder's {:.6} dB: the termination capacitors would leave the FDNR inputs without a DC path, so {} across them set the DC gain to the ladder's",
-            dc(active)?,
-            dc(passive)?,
-            resistors.join(" and ")
-        ),
-        format!(
-            "with ideal op-amps the DC-path resistors move the response by at most {:.4e} dB between {low_hz:.4e} Hz and the balance frequency {balance_hz:.4e} Hz",
-            deviation_db(passive, &ideal, &below)?
-        ),
+        Note::DcPath {
+            dc_gain_db: dc(active)?,
+            ladder_dc_gain_db: dc(passive)?,
+            resistors,
+        },
+        Note::DcPathEffect {
+            deviation_db: deviation_db(passive, &ideal, &below)?,
+            from_hz: low_hz,
+            to_hz: balance_hz,
+        },
     ])
 }

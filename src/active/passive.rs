@@ -16,6 +16,7 @@
 use crate::circuit::{Element, ElementKind, Netlist};
 
 use super::error::ActiveError;
+use super::Note;
 
 /// A passive netlist that follows the contract.
 #[derive(Debug, Clone)]
@@ -120,7 +121,7 @@ impl Passive {
 
     /// Swaps every L-C pair in series from a node to ground whose grounded
     /// element is not of kind `grounded`, and returns one note per swap.
-    pub fn ground_series_arms(&mut self, grounded: ElementKind) -> Vec<String> {
+    pub fn ground_series_arms(&mut self, grounded: ElementKind) -> Vec<Note> {
         let touching = self.touching();
         let mut notes = Vec::new();
         for (m, list) in touching.iter().enumerate().skip(1) {
@@ -152,13 +153,11 @@ impl Passive {
             let top = if xa == m { xb } else { xa };
             set_ends(&mut self.netlist.elements[g], (top, m));
             set_ends(&mut self.netlist.elements[x], (m, 0));
-            notes.push(format!(
-                "{} and {} in series from node {} to ground: swapped so that {} ends at ground",
-                self.netlist.elements[x].name(),
-                self.netlist.elements[g].name(),
-                self.netlist.nodes[top],
-                self.netlist.elements[x].name()
-            ));
+            notes.push(Note::SeriesSwap {
+                grounded: self.netlist.elements[x].name().to_string(),
+                other: self.netlist.elements[g].name().to_string(),
+                node: self.netlist.nodes[top].clone(),
+            });
         }
         notes
     }

@@ -14,7 +14,7 @@
 use num_complex::Complex64;
 
 use super::error::ActiveError;
-use crate::circuit::{log_grid, AcSystem, Netlist};
+use crate::circuit::{band_grid, AcSystem, CircuitError, Netlist};
 
 /// Frequencies per passband at which deviations are measured. The
 /// largest deviation sits at an edge or on a ripple peak; against 2000
@@ -79,13 +79,13 @@ pub fn deviation_db(
 /// [`PASSBAND_POINTS`] log-spaced frequencies in each band, after checking
 /// each band is 0 < low < high.
 pub(crate) fn passband_grid(bands: &[[f64; 2]]) -> Result<Vec<f64>, ActiveError> {
-    let mut grid = Vec::new();
-    for &[low_hz, high_hz] in bands {
-        let points = log_grid(low_hz, high_hz, PASSBAND_POINTS)
-            .map_err(|_| ActiveError::BadPassband { low_hz, high_hz })?;
-        grid.extend(points);
-    }
-    Ok(grid)
+    band_grid(bands, PASSBAND_POINTS).map_err(|e| match e {
+        CircuitError::BadGrid { from_hz, to_hz, .. } => ActiveError::BadPassband {
+            low_hz: from_hz,
+            high_hz: to_hz,
+        },
+        other => ActiveError::Circuit(other),
+    })
 }
 
 /// Minimizes `cost` over two parameters from `start` with the Nelder-Mead

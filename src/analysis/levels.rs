@@ -3,16 +3,24 @@
 //! takes before the first op-amp clips.
 //!
 //! Op-amp outputs inside a GIC swing above the input near the band edges
-//! (field notes, section 5), so the stage with the highest peak gain sets
-//! the filter's maximum input: swing / peak gain. The output voltage read
-//! is the op-amp's `out` node (after any output resistance, which drops
-//! little at the loads a filter presents).
+//! (the GIC's node gains, e.g. 1 + R4/R5 at the Z3/Z4 junction, checked
+//! against their closed forms in tests/analysis.rs,
+//! opamp_levels_follow_the_closed_form_gic_node_gains), so the stage with
+//! the highest peak gain sets the filter's maximum input: swing / peak
+//! gain. The output voltage read is the op-amp's `out` node (after any
+//! output resistance, which drops little at the loads a filter presents).
 
 use super::AnalysisError;
 use crate::circuit::{AcSystem, CircuitError, Element};
 
+/// Points of the grid on which op-amp output levels are searched, over
+/// the view of a design (two decades or more around its edges): 400
+/// log-spaced points lie about 1.2 % apart across two decades, closer
+/// than the width of the GIC node peaks near a band edge.
+pub const LEVEL_POINTS: usize = 400;
+
 /// The level at one op-amp's output.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct OpAmpLevel {
     /// Element index in the netlist.
     pub element: usize,
@@ -100,4 +108,22 @@ pub fn opamp_levels(
             clips_first: gain == highest,
         })
         .collect())
+}
+
+/// The gain from node `inp` to the output of each op-amp of `levels`, dB,
+/// at each of `freqs_hz` (for a chart of the levels across frequency).
+pub fn level_traces(
+    system: &mut AcSystem,
+    inp: usize,
+    freqs_hz: &[f64],
+    levels: &[OpAmpLevel],
+) -> Result<Vec<Vec<f64>>, AnalysisError> {
+    let mut traces = vec![Vec::with_capacity(freqs_hz.len()); levels.len()];
+    for &f in freqs_hz {
+        let v = system.node_voltages(f)?;
+        for (trace, l) in traces.iter_mut().zip(levels) {
+            trace.push(20.0 * (v[l.out_node] / v[inp]).norm().log10());
+        }
+    }
+    Ok(traces)
 }

@@ -107,6 +107,55 @@ impl Mask {
     }
 }
 
+/// How one response stands against a mask: its smallest distance to a
+/// bound, and where.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct MaskVerdict {
+    /// Whether every bound is kept.
+    pub meets: bool,
+    /// The smallest distance to a bound, dB (negative: broken by that
+    /// much).
+    pub margin_db: f64,
+    /// The frequency of that distance, Hz.
+    pub at_hz: f64,
+    /// The response there, dB.
+    pub gain_db: f64,
+    /// The bound it is measured to, dB.
+    pub limit_db: f64,
+    /// Whether that bound is a lower one (a passband limit) rather than
+    /// an upper one (a stopband limit).
+    pub lower_bound: bool,
+}
+
+impl Mask {
+    /// How the response `db` at `freqs_hz` stands against the mask.
+    pub fn verdict(&self, freqs_hz: &[f64], db: &[f64]) -> Result<MaskVerdict, AnalysisError> {
+        let checks = self.checks(freqs_hz)?;
+        let mut best: Option<MaskVerdict> = None;
+        for c in &checks {
+            let g = db[c.point];
+            for (limit_db, distance, lower_bound) in [
+                (c.min_db, g - c.min_db, true),
+                (c.max_db, c.max_db - g, false),
+            ] {
+                if limit_db.is_finite() && best.is_none_or(|b| distance < b.margin_db) {
+                    best = Some(MaskVerdict {
+                        meets: distance >= 0.0,
+                        margin_db: distance,
+                        at_hz: freqs_hz[c.point],
+                        gain_db: g,
+                        limit_db,
+                        lower_bound,
+                    });
+                }
+            }
+        }
+        // `checks` holds at least one check per limit, and every limit has
+        // a finite bound (Mask::new), so `best` is set.
+        best.ok_or(AnalysisError::EmptyMask)
+    }
+}
+
 /// The smallest distance, in dB, from a response to the bounds it must
 /// keep: negative when some bound is broken.
 pub(crate) fn margin_db(checks: &[Check], db: &[f64]) -> f64 {

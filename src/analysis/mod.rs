@@ -9,21 +9,25 @@
 //!   a seed whatever the thread count.
 //! - [`opamp_levels`] (in `levels`): peak gain to every op-amp output and
 //!   the largest input before the first one clips.
+//! - [`compare`] (in `compare`): a build against the passive ideal
+//!   (passband deviation, edge shifts, stopband gains).
 //!
 //! Every analysis reads the circuit through [`crate::circuit::AcSystem`]'s
 //! public methods only, so any solver behind that interface serves it.
 //! Besides `circuit` this module imports only [`crate::parts::Tolerance`]
 //! (the tolerance model a Monte Carlo run draws from).
 
+mod compare;
 mod error;
 mod levels;
 mod mask;
 mod montecarlo;
 mod sensitivity;
 
+pub use compare::{compare, passband_level_db, ComparePoints, Comparison, EDGE_WINDOW};
 pub use error::AnalysisError;
-pub use levels::{opamp_levels, OpAmpLevel};
-pub use mask::{Limit, Mask};
+pub use levels::{level_traces, opamp_levels, OpAmpLevel, LEVEL_POINTS};
+pub use mask::{Limit, Mask, MaskVerdict};
 pub use montecarlo::{
     monte_carlo, Envelope, MonteCarlo, MonteCarloResult, Scope, ToleranceRule, TrialSummary, Varied,
 };

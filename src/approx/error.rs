@@ -9,7 +9,7 @@ use super::{Family, Variant, MAX_LEVEL_DB, MIN_RIPPLE_DB};
 #[non_exhaustive]
 pub enum ApproxError {
     /// The order is 0 or above the family's largest supported order.
-    #[error("order {order} is out of range for {family:?}: accepted 1 to {max}")]
+    #[error("order {order} is out of range for a {family} approximation: accepted 1 to {max}")]
     OrderOutOfRange {
         /// The family asked for.
         family: Family,
@@ -37,7 +37,7 @@ pub enum ApproxError {
         ripple_db: f64,
     },
     /// A modified variant was asked for an odd order.
-    #[error("variant {variant:?} needs an even order, got {order}")]
+    #[error("the {variant} needs an even order, got {order}")]
     VariantNeedsEvenOrder {
         /// The variant asked for.
         variant: Variant,
@@ -45,7 +45,7 @@ pub enum ApproxError {
         order: usize,
     },
     /// A modified variant was asked for a family it does not modify.
-    #[error("variant {variant:?} does not apply to {family:?}: accepted for {accepted:?}")]
+    #[error("the {variant} does not apply to a {family} approximation: accepted for {}", accepted.iter().map(ToString::to_string).collect::<Vec<_>>().join(" and "))]
     VariantNotForFamily {
         /// The variant asked for.
         variant: Variant,
@@ -64,7 +64,7 @@ pub enum ApproxError {
     },
     /// The mask needs more than the family's largest supported order.
     #[error(
-        "the mask needs {family:?} order {needed:.2}, above the largest supported order {max}"
+        "the mask needs a {family} order of {}, above the largest supported order {max}", needed.ceil()
     )]
     OrderTooHigh {
         /// The family asked for.

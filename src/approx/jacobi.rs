@@ -6,7 +6,7 @@
 //!   of the two is computed directly and the larger from it as
 //!   sqrt((1 - x)(1 + x)), which is then exact to an ulp; the other way
 //!   round loses about `1e-16 / x^2` relative accuracy in the small one
-//!   (design notes, section 2).
+//!   (cancellation in 1 - x^2; common practice).
 //! - Arguments are normalized to the quarter period: `sn(u)` here means
 //!   sn(u K(k), k). The descending Landen transformation keeps the
 //!   normalized argument unchanged at every step (K(k) = (1 + k_1) K(k_1),

@@ -28,22 +28,17 @@ mod variant;
 pub use error::ApproxError;
 pub use order::{min_order, ORDER_TOLERANCE};
 
-/// Largest order of the all-pole families (Butterworth, Chebyshev). The
-/// poles come from closed forms and stay accurate far beyond this (2e-14
-/// relative against scipy at 25); the cap is where ladder synthesis from
-/// polynomial coefficients stops being trustworthy (design notes, section
-/// 2, report 1.5e-3 relative error at 25).
+/// Largest order the approximation computes, for every family. The
+/// all-pole poles come from closed forms and stay accurate far beyond this
+/// (2e-14 relative against scipy at 25); the elliptic zpk of every fixture
+/// mask, standard and modified, stays within 2e-14 relative of a 40-digit
+/// mpmath oracle up to 25 (tests/approx.rs), even where the transition
+/// 1/k - 1 falls below double resolution. What high orders do limit is
+/// the response itself (for a transition under about 1e-8 the loss near
+/// the band edge cannot be evaluated from any double-precision zpk to
+/// better than about 1e-7 dB) and the ladder synthesis, whose own limits
+/// are [`crate::synth::max_order`].
 pub const MAX_ORDER: usize = 25;
-
-/// Largest elliptic order, the same as [`MAX_ORDER`] because nothing in
-/// the approximation degrades sooner: against a 40-digit mpmath oracle
-/// (tests/approx.rs) the zpk of every fixture mask, standard and modified,
-/// stays within 2e-14 relative up to 25, even where the transition
-/// 1/k - 1 falls below double resolution. What high orders do limit is the
-/// response itself: for a transition under about 1e-8 the loss near the
-/// band edge cannot be evaluated from any double-precision zpk to better
-/// than about 1e-7 dB (H is that ill-conditioned next to its poles).
-pub const ELLIPTIC_MAX_ORDER: usize = 25;
 
 /// Smallest accepted passband ripple, dB. Below this (a reflection
 /// coefficient under 5e-7) no double-precision ladder could realize the
@@ -70,10 +65,18 @@ pub enum Family {
 impl Family {
     /// The largest order [`Prototype::new`] and [`min_order`] accept.
     pub fn max_order(self) -> usize {
-        match self {
-            Family::Butterworth | Family::Chebyshev => MAX_ORDER,
-            Family::Elliptic => ELLIPTIC_MAX_ORDER,
-        }
+        MAX_ORDER
+    }
+}
+
+impl std::fmt::Display for Family {
+    /// The family as the trade writes it.
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self {
+            Family::Butterworth => "Butterworth",
+            Family::Chebyshev => "Chebyshev",
+            Family::Elliptic => "elliptic",
+        })
     }
 }
 
@@ -96,6 +99,21 @@ pub enum Variant {
     /// Even Chebyshev or elliptic: additionally the lowest reflection zero
     /// moved to DC (Saal's type C), so equal terminations work.
     ReflectionAtDc,
+}
+
+impl std::fmt::Display for Variant {
+    /// The form in words, with why a modified form is used.
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self {
+            Variant::Standard => "standard form",
+            Variant::ZeroAtInfinity => {
+                "modified even-order form: highest transmission zero moved to infinity (unequal terminations)"
+            }
+            Variant::ReflectionAtDc => {
+                "modified even-order form: lowest reflection zero moved to DC, so the terminations may be equal"
+            }
+        })
+    }
 }
 
 /// Zeros, poles and gain of a rational transfer function of `s`.

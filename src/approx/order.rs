@@ -23,7 +23,7 @@ pub const ORDER_TOLERANCE: f64 = 1e-9;
 /// - Butterworth: log10((10^(As/10)-1)/(10^(Ap/10)-1)) / (2 log10 ws);
 /// - Chebyshev: acosh(sqrt(that ratio)) / acosh(ws);
 /// - elliptic: the degree equation K(k) K'(k1) / (K'(k) K(k1)) with
-///   k = 1/ws and k1 = eps/eps_s (design notes, section 1).
+///   k = 1/ws and k1 = eps/eps_s (Daniels 1974, ch. 5, from memory).
 ///
 /// Errors when `ws` is not finite and above 1, on levels out of range (the
 /// attenuation must exceed the ripple), and when the order needed exceeds

@@ -115,8 +115,8 @@ fn left_sqrt(z: Complex64) -> Complex64 {
 mod tests {
     use super::*;
 
-    /// The Moebius form really inverts the forward maps as the design notes
-    /// write them.
+    /// The Moebius form really inverts the forward maps of Saal's types B
+    /// and C as the module documentation writes them.
     #[test]
     fn inverts_the_forward_maps() {
         let (z, p) = (0.04, 9.0);

@@ -34,7 +34,7 @@ pub use error::CircuitError;
 pub use mna::{AcSystem, Adjoint, Target};
 pub use netlist::{ElementKind, Terminal};
 pub use reference::reference_transfer;
-pub use response::log_grid;
+pub use response::{band_grid, log_grid};
 pub use sparse::{SparseAc, SparseError, SparseStats};
 
 /// Model of an operational amplifier.
@@ -53,6 +53,62 @@ pub enum OpAmpModel {
         /// Output resistance, ohm (0 for none).
         output_ohm: f64,
     },
+}
+
+/// V(out)/V(in) at each of `freqs_hz` of a netlist that follows the
+/// project's contract (an `AC 1` source drives node `in`, the output is
+/// node `out`), by the dense solver.
+pub fn response(netlist: &Netlist, freqs_hz: &[f64]) -> Result<Response, CircuitError> {
+    let (inp, out) = (netlist.require_node("in")?, netlist.require_node("out")?);
+    AcSystem::new(netlist)?.sweep(freqs_hz, out, inp)
+}
+
+/// Which op-amp model (`[opamp] model` of a design file).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum OpAmpKind {
+    /// [`OpAmpModel::SinglePole`].
+    SinglePole,
+    /// [`OpAmpModel::Ideal`].
+    Ideal,
+}
+
+impl std::fmt::Display for OpAmpKind {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self {
+            OpAmpKind::SinglePole => "single-pole",
+            OpAmpKind::Ideal => "ideal",
+        })
+    }
+}
+
+impl OpAmpModel {
+    /// The model of `kind` with the figures a data sheet gives: the
+    /// gain-bandwidth product (Hz), the open-loop DC gain (dB) and the
+    /// output resistance (ohm); an ideal op-amp ignores them.
+    pub fn from_data_sheet(
+        kind: OpAmpKind,
+        gbw_hz: f64,
+        dc_gain_db: f64,
+        output_ohm: f64,
+    ) -> OpAmpModel {
+        match kind {
+            OpAmpKind::Ideal => OpAmpModel::Ideal,
+            OpAmpKind::SinglePole => OpAmpModel::SinglePole {
+                dc_gain: 10f64.powf(dc_gain_db / 20.0),
+                gbw_hz,
+                output_ohm,
+            },
+        }
+    }
+
+    /// Which model it is.
+    pub fn kind(&self) -> OpAmpKind {
+        match self {
+            OpAmpModel::Ideal => OpAmpKind::Ideal,
+            OpAmpModel::SinglePole { .. } => OpAmpKind::SinglePole,
+        }
+    }
 }
 
 /// One circuit element. Node indices refer to [`Netlist::nodes`].

@@ -117,6 +117,17 @@ pub fn log_grid(from_hz: f64, to_hz: f64, points: usize) -> Result<Vec<f64>, Cir
         .collect())
 }
 
+/// `points_each` frequencies of [`log_grid`] in each `[from, to]` band,
+/// in order (a band kind's passbands, say); the first bad band is the
+/// error.
+pub fn band_grid(bands: &[[f64; 2]], points_each: usize) -> Result<Vec<f64>, CircuitError> {
+    let mut grid = Vec::with_capacity(bands.len() * points_each);
+    for &[from_hz, to_hz] in bands {
+        grid.extend(log_grid(from_hz, to_hz, points_each)?);
+    }
+    Ok(grid)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -1,34 +1,76 @@
-//! The pipeline: wires the stages in workflow order, from a validated
-//! [`Spec`] to the passive ideal.
+//! The pipeline: wires the stages in workflow order, plain data in and
+//! plain data out.
 //!
-//! spec -> mask in the normalized lowpass domain -> order and variant ->
-//! approximation -> ladder -> transformed, scaled netlist. Neither the CLI
-//! nor any stage needs to know the whole chain.
+//! - [`design()`]: spec -> order and even-order variant -> approximation
+//!   (or a prototype table) -> ladder -> transformed, scaled netlist: the
+//!   passive ideal ([`Design`]).
+//! - [`Design::active`] (in `builds`): the active exact build (every
+//!   inductor replaced) and the active on parts build (preferred values,
+//!   trimmed), each compared with the passive ideal ([`ActiveDesign`]).
+//! - [`Design::analyses`] and the single analyses beside it (in
+//!   `analyses`): sensitivities, op-amp levels, Monte Carlo yield, chart
+//!   traces, each callable alone.
+//! - [`Design::report`] (in `report`): everything above as one plain,
+//!   serializable [`Report`], which `crate::export` renders.
+//!
+//! Neither the command line nor any stage needs to know the whole chain.
 
 use crate::active::ActiveError;
-use crate::analysis::AnalysisError;
+use crate::analysis::{passband_level_db, AnalysisError, Limit};
 use crate::approx::{self, ApproxError, Family, Params, Prototype};
-use crate::circuit::{AcSystem, CircuitError, Netlist, Response};
-use crate::spec::table::{PrototypeTable, TableArm};
-use crate::spec::{Edge, FamilyChoice, FormChoice, Kind, PrototypeSource, Spec, SpecError};
-use crate::synth::{self, ArmValues, Form, Ladder, SynthError};
-use crate::transform::{passive_netlist, Mapping};
+use crate::circuit::{CircuitError, Netlist};
+use crate::realize::PartsSnapError;
+use crate::spec::table::PrototypeTable;
+use crate::spec::{PrototypeSource, Spec, SpecError};
+use crate::synth::{self, Form, Ladder, SynthError};
+use crate::transform::{passive_netlist, Band, Kind, MaskField, MaskProblem};
 use std::path::PathBuf;
 
-mod active;
-mod documents;
-mod outputs;
-mod parts;
-pub use documents::{levels_csv, sensitivity_csv, Analyses, CAUTIONS};
+mod analyses;
+mod builds;
+mod order;
 mod report;
-mod yields;
-pub use active::{opamp_model, passbands, ActiveDesign, Comparison};
-pub use outputs::{OutputFile, DECK_POINTS_PER_DECADE};
-pub use parts::{
-    snap_build, ErrorSteps, PartsChoice, PartsSnapError, SnappedBuild, Trim, TRIMMER_SERIES,
+
+pub use analyses::{
+    Analyses, BuildTrace, ChartTraces, MONTE_CARLO_POINTS, SENSITIVITY_POINTS, WORST_TRIALS,
 };
-pub use report::{NormalizedElement, Report, ScaledElement};
-pub use yields::{envelope_csv, series, yield_summary, MONTE_CARLO_POINTS, WORST_TRIALS};
+pub use builds::{ActiveDesign, BuildFigures};
+pub use order::{order_table, OrderRow, OrderTable, FAMILIES};
+pub use report::{
+    ActiveReport, Documents, NaturalFrequency, NormalizedElement, Report, ScaledElement,
+};
+
+/// The three builds of a design, named so wherever a figure is shown.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Build {
+    /// The doubly terminated LC ladder, transformed and scaled.
+    PassiveIdeal,
+    /// Every inductor replaced by converters with exact values.
+    ActiveExact,
+    /// The active exact build on preferred values, trimmed: what is
+    /// soldered.
+    ActiveOnParts,
+}
+
+impl std::fmt::Display for Build {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self {
+            Build::PassiveIdeal => "passive ideal",
+            Build::ActiveExact => "active exact",
+            Build::ActiveOnParts => "active on parts",
+        })
+    }
+}
+
+/// Where the normalized lowpass prototype came from.
+#[derive(Debug, Clone)]
+pub enum Origin {
+    /// Computed from an approximation family.
+    Family(Prototype),
+    /// Read from a prototype table.
+    Table(PrototypeTable),
+}
 
 /// How the order was fixed.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
@@ -48,18 +90,35 @@ pub enum OrderChoice {
     Table,
 }
 
-/// What the mask looks like after the order was chosen.
+/// Where the surplus of a computed order goes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Margin {
+    /// No stopband edge was given.
+    NoStopband,
+    /// A table prototype: the mask is not checked.
+    Table,
+    /// Elliptic: the attenuation is kept; surplus order moves the
+    /// stopband edge closer to the passband.
+    StopbandEdge,
+    /// All-pole families: the stopband edge is kept; surplus order adds
+    /// attenuation there.
+    Attenuation,
+}
+
+/// What the mask looks like after the order was chosen, in the normalized
+/// lowpass domain of the prototype.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct MaskCheck {
-    /// Normalized stopband edge the mask asks for (rad/s), when given.
-    pub required_stopband_edge: Option<f64>,
-    /// Attenuation the approximation reaches there, dB.
-    pub attenuation_at_stopband_edge_db: Option<f64>,
-    /// Where the approximation first reaches the stopband attenuation
+    /// Normalized stopband edge the mask asks for, rad/s, when given.
+    pub required_stopband_edge_rad_s: Option<f64>,
+    /// The prototype's gain there, dB (negative).
+    pub gain_at_stopband_edge_db: Option<f64>,
+    /// Where the prototype first reaches the stopband attenuation
     /// (elliptic), normalized rad/s.
-    pub realized_stopband_edge: Option<f64>,
-    /// Which margin the surplus order went to, in words.
-    pub margin: String,
+    pub realized_stopband_edge_rad_s: Option<f64>,
+    /// Where the surplus order went.
+    pub margin: Margin,
     /// Whether the stopband attenuation is reached at the stopband edge
     /// (`None` without a stopband edge or attenuation). A given order can
     /// miss the mask; the summary warns.
@@ -71,20 +130,26 @@ pub struct MaskCheck {
 pub struct Design {
     /// The validated specification.
     pub spec: Spec,
-    /// The approximation, when computed from a family.
-    pub prototype: Option<Prototype>,
-    /// The table, when read from one.
-    pub table: Option<PrototypeTable>,
+    /// The approximation or the table the ladder came from.
+    pub origin: Origin,
     /// How the order was fixed.
     pub order_choice: OrderChoice,
     /// The mask after the order was chosen.
     pub mask: MaskCheck,
     /// The normalized ladder (1 ohm source, 1 rad/s edge).
     pub ladder: Ladder,
-    /// The frequency transformation applied.
-    pub mapping: Mapping,
     /// The passive ideal, scaled.
     pub passive: Netlist,
+}
+
+/// Whose fault a failure is, which decides the exit status of the
+/// command line: the user's input (2) or the program (1).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Blame {
+    /// The input asks for something that cannot be built or is malformed.
+    Input,
+    /// Something the program should have handled.
+    Program,
 }
 
 /// Why a design could not be made.
@@ -105,7 +170,7 @@ pub enum DesignError {
         /// Why.
         cause: ApproxError,
     },
-    /// The netlist could not be built or solved (a program fault).
+    /// The netlist could not be built or solved.
     #[error("{}: {cause}", file.display())]
     Circuit {
         /// The design file.
@@ -131,21 +196,13 @@ pub enum DesignError {
         /// Why.
         cause: PartsSnapError,
     },
-    /// An analysis of a built network failed (a program fault).
+    /// An analysis of a built network failed.
     #[error("{}: {cause}", file.display())]
     Analysis {
         /// The design file.
         file: PathBuf,
         /// Why.
         cause: AnalysisError,
-    },
-    /// An output could not be rendered (a program fault).
-    #[error("{}: writing the outputs: {cause}", file.display())]
-    Export {
-        /// The design file.
-        file: PathBuf,
-        /// Why.
-        cause: String,
     },
     /// Synthesis could not hold its accuracy for this approximation.
     #[error("{}: the ladder synthesis could not hold its accuracy for this design; a lower order or a wider transition band will do ({cause})", file.display())]
@@ -158,131 +215,113 @@ pub enum DesignError {
 }
 
 impl DesignError {
+    /// Whose fault it is, decided from the innermost error: a method that
+    /// cannot serve the ladder, an unstable build, parts that cannot meet
+    /// the range are the input's; a singular matrix or a broken contract
+    /// between stages is the program's.
+    pub fn blame(&self) -> Blame {
+        let input = match self {
+            DesignError::Spec(_) | DesignError::Approx { .. } | DesignError::Synth { .. } => true,
+            DesignError::Circuit { .. } | DesignError::Analysis { .. } => false,
+            DesignError::Active { cause, .. } => matches!(
+                cause,
+                ActiveError::NotApplicable { .. } | ActiveError::Unstable { .. }
+            ),
+            DesignError::Parts { cause, .. } => cause.is_bad_input(),
+        };
+        if input {
+            Blame::Input
+        } else {
+            Blame::Program
+        }
+    }
+
     /// Whether the problem is in the user's input (exit status 2) rather
     /// than in the program.
     pub fn is_bad_input(&self) -> bool {
-        !matches!(
-            self,
-            DesignError::Circuit { .. } | DesignError::Analysis { .. } | DesignError::Export { .. }
-        )
-    }
-}
-
-/// The frequency transformation a spec asks for.
-pub fn mapping(kind: Kind, passband: Edge) -> Mapping {
-    match (kind, passband) {
-        (Kind::Lowpass, Edge::Single(f)) => Mapping::Lowpass(f),
-        (Kind::Highpass, Edge::Single(f)) => Mapping::Highpass(f),
-        (Kind::Bandpass, Edge::Pair(a, b)) => Mapping::Bandpass(a, b),
-        (Kind::Bandstop, Edge::Pair(a, b)) => Mapping::Bandstop(a, b),
-        // Spec validation guarantees the edge shape matches the kind.
-        (kind, edge) => unreachable!("edge {edge:?} does not fit {kind:?}"),
-    }
-}
-
-/// The normalized lowpass stopband edge a mask asks for: the nearer of the
-/// two transformed edges for band kinds.
-pub fn normalized_stopband(mapping: Mapping, stop: Edge) -> f64 {
-    match stop {
-        Edge::Single(f) => mapping.normalized(f),
-        Edge::Pair(a, b) => mapping.normalized(a).min(mapping.normalized(b)),
-    }
-}
-
-/// The approximation family for a design-file family.
-pub fn family(choice: FamilyChoice) -> Family {
-    match choice {
-        FamilyChoice::Butterworth => Family::Butterworth,
-        FamilyChoice::Chebyshev => Family::Chebyshev,
-        FamilyChoice::Elliptic => Family::Elliptic,
-    }
-}
-
-fn form(choice: Option<FormChoice>) -> Form {
-    match choice {
-        Some(FormChoice::MinInductor) => Form::MinInductor,
-        // The default: the capacitors sit in shunt arms that end at
-        // ground, which is what the inductorless realizations want.
-        Some(FormChoice::MinCapacitor) | None => Form::MinCapacitor,
+        self.blame() == Blame::Input
     }
 }
 
 /// Runs the pipeline up to the passive ideal.
 pub fn design(spec: &Spec) -> Result<Design, DesignError> {
-    let mapping = mapping(spec.kind, spec.passband_edge_hz);
     let ratio = spec.load_ohm / spec.source_ohm;
-    let ws = spec
-        .stopband_edge_hz
-        .map(|s| normalized_stopband(mapping, s));
+    let ws = spec.band.normalized_stopband();
     let file = || spec.file.clone();
-    let (prototype, table, order_choice, ladder) = match &spec.prototype {
+    let (origin, order_choice, ladder) = match &spec.prototype {
         PrototypeSource::Family {
-            family: choice,
+            family,
             order,
             passband_ripple_db,
             stopband_attenuation_db,
         } => {
-            let fam = family(*choice);
             let attenuation = stopband_attenuation_db.unwrap_or(0.0);
+            let ask = match (order, ws) {
+                (Some(n), _) => OrderAsk::Given(*n),
+                (None, Some(ws)) => OrderAsk::ForMask(ws),
+                (None, None) => {
+                    return Err(SpecError::Invalid {
+                        file: file(),
+                        key: "filter.order",
+                        got: "(missing)".to_string(),
+                        expected: "expected an order, or filter.stopband_edge_hz to compute it"
+                            .to_string(),
+                    }
+                    .into())
+                }
+            };
             let (proto, how) =
-                choose_prototype(fam, *order, ws, *passband_ripple_db, attenuation, ratio)
-                    .map_err(|cause| DesignError::Approx {
+                choose_prototype(*family, ask, *passband_ripple_db, attenuation, ratio).map_err(
+                    |cause| DesignError::Approx {
                         file: file(),
                         cause,
-                    })?;
+                    },
+                )?;
             check_synthesis_limit(spec, &proto)?;
             let ladder = ladder(spec, &proto, ratio)?;
-            (Some(proto), None, how, ladder)
+            (Origin::Family(proto), how, ladder)
         }
         PrototypeSource::Table { path } => {
             let table = PrototypeTable::load(path)?;
-            let ladder = table_ladder(&table);
-            (None, Some(table), OrderChoice::Table, ladder)
+            let ladder = Ladder::from_arms(table.arms.iter().copied(), table.load_ohm);
+            (Origin::Table(table), OrderChoice::Table, ladder)
         }
     };
-    let mask = mask_check(prototype.as_ref(), ws, stopband_attenuation(spec));
+    let mask = mask_check(&origin, ws, stopband_attenuation(spec));
     let title = format!("nocoil passive ideal: {}", spec.file.display());
-    let passive = passive_netlist(&ladder, mapping, spec.source_ohm, &title).map_err(|cause| {
-        DesignError::Circuit {
-            file: file(),
-            cause,
-        }
-    })?;
+    let passive =
+        passive_netlist(&ladder, spec.band, spec.source_ohm, &title).map_err(|cause| {
+            DesignError::Circuit {
+                file: file(),
+                cause,
+            }
+        })?;
     Ok(Design {
         spec: spec.clone(),
-        prototype,
-        table,
+        origin,
         order_choice,
         mask,
         ladder,
-        mapping,
         passive,
     })
 }
 
-/// Elliptic orders beyond [`synth::ELLIPTIC_MAX_ORDER`] are refused up
-/// front, naming the key that set the order.
+/// A computed order beyond what the synthesis holds (see
+/// [`synth::max_order`]) is refused up front, naming the stopband edge
+/// that asked for it (a given order beyond it is refused when the file is
+/// read).
 fn check_synthesis_limit(spec: &Spec, proto: &Prototype) -> Result<(), DesignError> {
-    let n = proto.params.order;
-    if proto.params.family != Family::Elliptic || n <= synth::ELLIPTIC_MAX_ORDER {
+    let (n, max) = (proto.params.order, synth::max_order(proto.params.family));
+    if n <= max {
         return Ok(());
     }
-    let given = matches!(
-        spec.prototype,
-        PrototypeSource::Family { order: Some(_), .. }
-    );
-    let (key, got) = if given {
-        ("filter.order", n.to_string())
-    } else {
-        ("filter.stopband_edge_hz", format!("(needs order {n})"))
-    };
     Err(SpecError::Invalid {
         file: spec.file.clone(),
-        key,
-        got,
+        key: "filter.stopband_edge_hz",
+        got: format!("(needs order {n})"),
         expected: format!(
-            "expected an elliptic order of at most {} (the synthesis accuracy limit); relax the mask",
-            synth::ELLIPTIC_MAX_ORDER
+            "expected a mask a {} ladder of order {max} or less meets (the limit to which its synthesis holds its accuracy): move the stopband edge away from the passband, or lower the attenuation or raise the ripple",
+            proto.params.family
         ),
     }
     .into())
@@ -296,7 +335,10 @@ fn ladder(spec: &Spec, proto: &Prototype, ratio: f64) -> Result<Ladder, DesignEr
         file: spec.file.clone(),
         cause,
     };
-    match (synth::synthesize(proto, ratio, form(spec.form)), spec.form) {
+    // The default: the capacitors sit in shunt arms that end at ground,
+    // which is what the inductorless realizations want.
+    let asked = spec.form.unwrap_or(Form::MinCapacitor);
+    match (synth::synthesize(proto, ratio, asked), spec.form) {
         (Err(SynthError::EvenOrderOrientation { .. }), None) => {
             synth::synthesize(proto, ratio, Form::MinInductor).map_err(synth_error)
         }
@@ -304,7 +346,7 @@ fn ladder(spec: &Spec, proto: &Prototype, ratio: f64) -> Result<Ladder, DesignEr
             Err(SpecError::Invalid {
                 file: spec.file.clone(),
                 key: "filter.form",
-                got: asked.as_str().to_string(),
+                got: crate::spec::as_written(&asked),
                 expected: format!("expected the other form for these terminations ({cause})"),
             }
             .into())
@@ -313,13 +355,20 @@ fn ladder(spec: &Spec, proto: &Prototype, ratio: f64) -> Result<Ladder, DesignEr
     }
 }
 
+/// How the order is asked for.
+enum OrderAsk {
+    /// Given in the design file.
+    Given(usize),
+    /// The minimum for the normalized stopband edge (rad/s).
+    ForMask(f64),
+}
+
 /// Picks order and even-order variant. With a computed order, the
 /// variant the terminations force may miss the mask (the modified forms
 /// are slightly less selective); then one more order is taken.
 fn choose_prototype(
     family: Family,
-    order: Option<usize>,
-    ws: Option<f64>,
+    ask: OrderAsk,
     ripple_db: f64,
     attenuation_db: f64,
     ratio: f64,
@@ -335,65 +384,58 @@ fn choose_prototype(
             variant,
         })
     };
-    match (order, ws) {
-        (Some(n), _) => Ok((build(n)?, OrderChoice::Given)),
-        (None, Some(ws)) => {
-            let minimum = approx::min_order(family, ws, ripple_db, attenuation_db)?;
-            let proto = build(minimum)?;
-            if meets_stopband(&proto, ws, attenuation_db) {
-                return Ok((
-                    proto,
-                    OrderChoice::Computed {
-                        minimum,
-                        raised_for_form: false,
-                    },
-                ));
-            }
-            Ok((
-                build(minimum + 1)?,
-                OrderChoice::Computed {
-                    minimum,
-                    raised_for_form: true,
-                },
-            ))
-        }
-        // Spec validation asks for an order or a stopband edge.
-        (None, None) => unreachable!("validated spec has an order or a stopband edge"),
-    }
+    let ws = match ask {
+        OrderAsk::Given(n) => return Ok((build(n)?, OrderChoice::Given)),
+        OrderAsk::ForMask(ws) => ws,
+    };
+    let minimum = approx::min_order(family, ws, ripple_db, attenuation_db)?;
+    let proto = build(minimum)?;
+    let raised_for_form = !meets_stopband(&proto, ws, attenuation_db);
+    let proto = if raised_for_form {
+        build(minimum + 1)?
+    } else {
+        proto
+    };
+    Ok((
+        proto,
+        OrderChoice::Computed {
+            minimum,
+            raised_for_form,
+        },
+    ))
 }
 
-/// Allowed shortfall of the attenuation at the stopband edge, dB: the
-/// standard approximation at its minimum order meets the mask exactly up
-/// to rounding of the order formula's inputs.
-const MASK_TOLERANCE_DB: f64 = 1e-6;
+/// Allowed shortfall of the attenuation at the stopband edge, and slack
+/// of every mask limit, dB: the standard approximation at its minimum
+/// order meets the mask exactly up to rounding of the order formula's
+/// inputs, and an equiripple response touches its ripple limit exactly at
+/// each ripple minimum; rounding must not turn either into a failure. Far
+/// below anything a measurement resolves.
+pub const MASK_SLACK_DB: f64 = 1e-6;
 
 fn meets_stopband(proto: &Prototype, ws: f64, attenuation_db: f64) -> bool {
-    proto.attenuation_db(ws) >= attenuation_db - MASK_TOLERANCE_DB
+    proto.attenuation_db(ws) >= attenuation_db - MASK_SLACK_DB
 }
 
-fn mask_check(
-    proto: Option<&Prototype>,
-    ws: Option<f64>,
-    attenuation_db: Option<f64>,
-) -> MaskCheck {
+fn mask_check(origin: &Origin, ws: Option<f64>, attenuation_db: Option<f64>) -> MaskCheck {
+    let proto = match origin {
+        Origin::Family(p) => Some(p),
+        Origin::Table(_) => None,
+    };
     let attenuation = proto.zip(ws).map(|(p, w)| p.attenuation_db(w));
     let meets_mask = attenuation
         .zip(attenuation_db)
-        .map(|(got, asked)| got >= asked - MASK_TOLERANCE_DB);
-    let realized = proto.and_then(|p| p.stopband_edge);
+        .map(|(got, asked)| got >= asked - MASK_SLACK_DB);
     let margin = match (proto.map(|p| p.params.family), ws) {
-        (_, None) => "no stopband edge given",
-        (None, Some(_)) => "a table prototype: the mask is not checked",
-        (Some(Family::Elliptic), Some(_)) => {
-            "the stopband attenuation is kept; any surplus order moves the stopband edge closer to the passband"
-        }
-        (Some(_), Some(_)) => "the stopband edge is kept; any surplus order adds attenuation there",
-    }
-    .to_string();
+        (_, None) => Margin::NoStopband,
+        (None, Some(_)) => Margin::Table,
+        (Some(Family::Elliptic), Some(_)) => Margin::StopbandEdge,
+        (Some(_), Some(_)) => Margin::Attenuation,
+    };
     MaskCheck {
-        required_stopband_edge: ws,
-        attenuation_at_stopband_edge_db: attenuation,
-        realized_stopband_edge: realized,
+        required_stopband_edge_rad_s: ws,
+        gain_at_stopband_edge_db: attenuation.map(|a| -a),
+        realized_stopband_edge_rad_s: proto.and_then(|p| p.stopband_edge),
         margin,
         meets_mask,
     }
@@ -410,60 +452,106 @@ fn stopband_attenuation(spec: &Spec) -> Option<f64> {
     }
 }
 
-/// The ladder a table writes out arm by arm.
-fn table_ladder(table: &PrototypeTable) -> Ladder {
-    synth::Ladder::from_arms(
-        table.arms.iter().map(|a| match *a {
-            TableArm::SeriesL(l) => ArmValues::SeriesL(l),
-            TableArm::ShuntC(c) => ArmValues::ShuntC(c),
-            TableArm::SeriesTank(l, c) => ArmValues::SeriesTank(l, c),
-            TableArm::ShuntResonator(l, c) => ArmValues::ShuntResonator(l, c),
-        }),
-        table.load_ohm,
-    )
-}
-
 impl Design {
-    /// The frequency band worth looking at: a decade below the lowest edge
-    /// to a decade above the highest, Hz.
-    pub fn default_band(&self) -> (f64, f64) {
-        let edges = [Some(self.spec.passband_edge_hz), self.spec.stopband_edge_hz];
-        let all = edges.iter().flatten().flat_map(|e| match *e {
-            Edge::Single(f) => vec![f],
-            Edge::Pair(a, b) => vec![a, b],
-        });
-        let (lo, hi) = all.fold((f64::INFINITY, 0.0_f64), |(lo, hi), f| {
-            (lo.min(f), hi.max(f))
-        });
-        (lo / 10.0, hi * 10.0)
+    /// The frequency range worth looking at, Hz (see [`Band::view_hz`]).
+    pub fn view_hz(&self) -> (f64, f64) {
+        self.spec.band.view_hz()
     }
 
-    /// The passive ideal's V(out)/V(in) at each frequency.
-    pub fn passive_response(&self, freqs_hz: &[f64]) -> Result<Response, CircuitError> {
-        response(&self.passive, freqs_hz)
+    /// The passbands within the view, Hz.
+    pub fn passbands_hz(&self) -> Vec<[f64; 2]> {
+        self.spec.band.passbands_hz(self.view_hz())
+    }
+
+    /// The passband level: the terminations' divider, dB.
+    pub fn passband_level_db(&self) -> f64 {
+        passband_level_db(self.spec.source_ohm, self.spec.load_ohm)
+    }
+
+    /// The prototype, when the design was computed from a family.
+    pub fn prototype(&self) -> Option<&Prototype> {
+        match &self.origin {
+            Origin::Family(p) => Some(p),
+            Origin::Table(_) => None,
+        }
+    }
+
+    /// The passband ripple (Butterworth: loss at the edge), dB.
+    pub fn passband_ripple_db(&self) -> f64 {
+        match &self.origin {
+            Origin::Family(p) => p.params.passband_ripple_db,
+            Origin::Table(t) => t.passband_ripple_db,
+        }
+    }
+
+    /// The stopband attenuation the design file or table asks for, dB.
+    pub fn stopband_attenuation_db(&self) -> Option<f64> {
+        match &self.origin {
+            Origin::Family(_) => stopband_attenuation(&self.spec),
+            Origin::Table(t) => t.stopband_attenuation_db,
+        }
+    }
+
+    /// The specification as absolute gain limits, dB: across each
+    /// passband no lower than the level less the ripple (and the Monte
+    /// Carlo margin), across each stopband no higher than the level less
+    /// the attenuation (and its margin). Above the level there is no
+    /// limit: a gain a hair above the divider is not a failure of the
+    /// specification.
+    pub fn mask_limits(&self) -> Vec<Limit> {
+        let view = self.view_hz();
+        let level = self.passband_level_db();
+        let mc = &self.spec.montecarlo;
+        let ripple = self.passband_ripple_db();
+        let mut limits: Vec<Limit> = self
+            .spec
+            .band
+            .passbands_hz(view)
+            .into_iter()
+            .map(|[from_hz, to_hz]| Limit {
+                from_hz,
+                to_hz,
+                min_db: level - ripple + mc.passband_margin_db - MASK_SLACK_DB,
+                max_db: f64::INFINITY,
+            })
+            .collect();
+        // A table's attenuation describes the table, not the mask: only a
+        // design file's asks the board to meet it.
+        if let Some(att) = stopband_attenuation(&self.spec) {
+            limits.extend(
+                self.spec
+                    .band
+                    .stopbands_hz(view)
+                    .into_iter()
+                    .map(|[from_hz, to_hz]| Limit {
+                        from_hz,
+                        to_hz,
+                        min_db: f64::NEG_INFINITY,
+                        max_db: level - att - mc.stopband_margin_db + MASK_SLACK_DB,
+                    }),
+            );
+        }
+        limits
     }
 }
 
-/// Group delay of V(out)/V(in), seconds, at each frequency: exact up to
-/// rounding (one extra solve per point, see [`AcSystem::group_delay`]),
-/// so a transmission zero does not smear into the neighbouring points as a
-/// difference quotient of the phase would. At a zero itself the delay is
-/// undefined and comes out as NaN.
-pub fn group_delay(netlist: &Netlist, freqs_hz: &[f64]) -> Result<Vec<f64>, CircuitError> {
-    let (inp, out) = (netlist.require_node("in")?, netlist.require_node("out")?);
-    let mut system = AcSystem::new(netlist)?;
-    freqs_hz
-        .iter()
-        .map(|&f| match system.group_delay(f, out, inp) {
-            Err(CircuitError::ZeroVoltage { .. }) => Ok(f64::NAN),
-            other => other,
-        })
-        .collect()
-}
-
-/// V(out)/V(in) of a netlist that follows the project's contract (nodes
-/// `in` and `out`).
-pub fn response(netlist: &Netlist, freqs_hz: &[f64]) -> Result<Response, CircuitError> {
-    let (inp, out) = (netlist.require_node("in")?, netlist.require_node("out")?);
-    AcSystem::new(netlist)?.sweep(freqs_hz, out, inp)
+/// Checks a mask given by command-line flags, as [`Band::new`] and
+/// [`crate::transform::check_levels`] do for a design file.
+pub fn mask_band(
+    kind: Kind,
+    passband_hz: &[f64],
+    stopband_hz: &[f64],
+    ripple_db: f64,
+    attenuation_db: f64,
+) -> Result<Band, MaskProblem> {
+    let band = Band::new(kind, passband_hz, Some(stopband_hz))?;
+    crate::transform::check_levels(ripple_db, Some(attenuation_db))?;
+    if band.normalized_stopband().is_none_or(|w| !w.is_finite()) {
+        return Err(MaskProblem {
+            field: MaskField::Stopband,
+            got: format!("{stopband_hz:?}"),
+            expected: "expected a stopband edge a finite distance from the passband".to_string(),
+        });
+    }
+    Ok(band)
 }

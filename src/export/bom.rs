@@ -1,9 +1,9 @@
 //! The bill of materials as CSV: one row per orderable part (same kind,
-//! value, series, tolerance and stage), for each build ("passive",
-//! "active"), so the two can be compared side by side.
+//! value, series, tolerance and stage), for the passive ideal and the
+//! active on parts build, so the two can be compared side by side.
 //!
-//! Generic: a row is plain data, and nothing here knows what a ladder or a
-//! converter is. Invariants of what [`bom_csv`] writes: the header is
+//! [`bom_csv`], [`group_rows`] and [`tally`] are generic: a row is plain
+//! data. [`design_rows`] makes the rows of a design's documents. Invariants of what [`bom_csv`] writes: the header is
 //! [`HEADER`]; each row's quantity equals its number of designators; the
 //! `value` column is engineering notation for people ("10.2 kohm") and
 //! `value_si` the same number in the base unit for programs, written so
@@ -14,16 +14,21 @@
 /// spreadsheets that sort or sum.
 pub const HEADER: [&str; 10] = [
     "build",
-    "designators",
+    "designator",
     "kind",
     "value",
     "unit",
     "series",
     "tolerance",
-    "quantity",
+    "count",
     "stage",
     "value_si",
 ];
+
+use crate::active::Stage;
+use crate::circuit::{Element, ElementKind, Netlist, OpAmpModel};
+use crate::design::{Build, Report};
+use crate::realize::{trimmer_designator, TRIMMER_SERIES};
 
 /// One line of the bill of materials.
 #[derive(Debug, Clone, PartialEq)]
@@ -45,7 +50,7 @@ pub struct BomRow {
     pub quantity: usize,
     /// The stage (section, converter) the parts belong to.
     pub stage: String,
-    /// Which build: "passive" or "active".
+    /// Which build: "passive_ideal" or "active_on_parts".
     pub build: String,
 }
 
@@ -260,4 +265,100 @@ pub fn tally(rows: &[BomRow]) -> Vec<KindTally> {
         }
     }
     tallies
+}
+
+/// The bill of materials of a design, identical parts grouped: the
+/// passive ideal's parts (ideal values, no series), then the active on
+/// parts build's, each trim as two rows (its fixed resistor from the
+/// resistor series, and the trimmer with its nominal value), each op-amp
+/// with its gain-bandwidth.
+pub fn design_rows(
+    report: &Report,
+    passive_ideal: &Netlist,
+    on_parts: &Netlist,
+    stages: &[Stage],
+) -> Vec<BomRow> {
+    let mut rows = Vec::new();
+    let stage_of = |name: &str| {
+        stages
+            .iter()
+            .find(|s| s.elements.iter().chain(&s.opamps).any(|e| e == name))
+            .map(|s| match &s.replaces {
+                Some(r) => format!("{} {r}", s.kind),
+                None => s.kind.to_string(),
+            })
+            .unwrap_or_else(|| "ladder".to_string())
+    };
+    let row = |build: Build, designator: &str, kind: &str, value: f64, unit: &str| BomRow {
+        designators: vec![designator.to_string()],
+        kind: kind.to_string(),
+        value,
+        unit: unit.to_string(),
+        series: None,
+        tolerance: None,
+        quantity: 1,
+        stage: "ladder".to_string(),
+        build: super::data_name(&build),
+    };
+    for e in &passive_ideal.elements {
+        let (kind, unit) = match e.kind() {
+            ElementKind::Resistor => ("resistor", "ohm"),
+            ElementKind::Capacitor => ("capacitor", "F"),
+            ElementKind::Inductor => ("inductor", "H"),
+            _ => continue,
+        };
+        if let Some(v) = e.value() {
+            rows.push(row(Build::PassiveIdeal, e.name(), kind, v, unit));
+        }
+    }
+    let Some(active) = &report.active else {
+        return group_rows(&rows);
+    };
+    let p = &active.parts;
+    let built = Build::ActiveOnParts;
+    for e in &on_parts.elements {
+        let stage = stage_of(e.name());
+        let trim = active.trims.iter().find(|t| t.element == e.name());
+        let mut part = match (e, trim) {
+            (_, Some(t)) => {
+                rows.push(BomRow {
+                    series: Some(TRIMMER_SERIES.to_string()),
+                    stage: stage.clone(),
+                    ..row(
+                        built,
+                        &trimmer_designator(&t.element),
+                        "trimmer",
+                        t.pot_ohm,
+                        "ohm",
+                    )
+                });
+                BomRow {
+                    series: Some(p.resistor_series.to_string()),
+                    tolerance: Some(p.resistor_tolerance),
+                    ..row(built, e.name(), "resistor", t.fixed_ohm, "ohm")
+                }
+            }
+            (Element::Resistor { ohm, .. }, None) => BomRow {
+                series: Some(p.resistor_series.to_string()),
+                tolerance: Some(p.resistor_tolerance),
+                ..row(built, e.name(), "resistor", *ohm, "ohm")
+            },
+            (Element::Capacitor { farad, .. }, None) => BomRow {
+                series: Some(p.capacitor_series.to_string()),
+                tolerance: Some(p.capacitor_tolerance),
+                ..row(built, e.name(), "capacitor", *farad, "F")
+            },
+            (
+                Element::OpAmp {
+                    model: OpAmpModel::SinglePole { gbw_hz, .. },
+                    ..
+                },
+                None,
+            ) => row(built, e.name(), "op-amp", *gbw_hz, "Hz GBW"),
+            _ => continue,
+        };
+        part.stage = stage;
+        rows.push(part);
+    }
+    group_rows(&rows)
 }

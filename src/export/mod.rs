@@ -1,32 +1,35 @@
-//! Outputs: SPICE netlists, the JSON report, engineering notation, charts
-//! (SVG, PNG), the bill of materials (CSV) and the HTML report.
+//! Rendering: every output a person or a program reads, driven by the
+//! plain report data of [`crate::design`] ([`crate::design::Documents`]):
+//! the printed summary, SPICE decks, the JSON report, CSV tables, charts
+//! (SVG, PNG), the bill of materials and the HTML report, and the atomic
+//! writing of an output set. Nothing here computes a filter; nothing but
+//! the binary imports this module.
+//!
+//! - `prose`: the typed notes and reasons in words, once.
+//! - `summary`: the text `nocoil design` prints.
+//! - `tables`: sensitivity, level, envelope and order tables.
+//! - `charts`: the charts of a design, as [`plot::Chart`] data.
+//! - `page`: the HTML report of a design, through [`html`].
+//! - `files`: every file of an output set, in memory first.
 
 pub mod bom;
+pub mod charts;
 pub mod eng;
+pub mod files;
 pub mod html;
+pub mod page;
 pub mod plot;
+pub mod prose;
 pub mod spice;
+pub mod summary;
+pub mod tables;
 
-/// Writes `bytes` to `path` through a temporary file in the same folder
-/// and a rename, so that `path` never holds a half-written file and a
-/// failure leaves nothing behind.
-pub fn write_atomic(path: &std::path::Path, bytes: &[u8]) -> std::io::Result<()> {
-    use std::io::Write;
-    let dir = path
-        .parent()
-        .filter(|d| !d.as_os_str().is_empty())
-        .unwrap_or(std::path::Path::new("."));
-    let mut tmp = tempfile::NamedTempFile::new_in(dir)?;
-    tmp.write_all(bytes)?;
-    // The temporary file is created private (0600); an output is an
-    // ordinary file, readable by others as one written directly would be.
-    #[cfg(unix)]
-    {
-        use std::os::unix::fs::PermissionsExt;
-        tmp.as_file()
-            .set_permissions(std::fs::Permissions::from_mode(0o644))?;
+/// A value's data spelling: its serde name (`active_on_parts`, `gic`),
+/// the one CSV and JSON use.
+pub fn data_name<T: serde::Serialize>(value: &T) -> String {
+    match serde_json::to_value(value) {
+        Ok(serde_json::Value::String(s)) => s,
+        Ok(other) => other.to_string(),
+        Err(e) => format!("(unnamed: {e})"),
     }
-    tmp.as_file().sync_all()?;
-    tmp.persist(path).map_err(|e| e.error)?;
-    Ok(())
 }

@@ -127,7 +127,8 @@ pub struct Chart {
     /// Logarithmic frequency axis (labelled at decades when the range
     /// spans two or more).
     pub log_x: bool,
-    /// Curves, drawn in order, colours from a fixed palette.
+    /// Curves, colours from a fixed palette in this order; dashed curves
+    /// are drawn first, solid ones over them.
     pub traces: Vec<Trace>,
     /// Forbidden regions of the specification mask.
     pub mask: Vec<MaskBox>,

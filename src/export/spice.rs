@@ -12,7 +12,8 @@
 use crate::circuit::{CircuitError, Element, Netlist, OpAmpModel};
 use crate::export::eng;
 
-/// Significant digits of values in a deck. The brief asks for at least 9;
+/// Significant digits of values in a deck: at least 9, this project's
+/// floor, so that rounding never shows in a comparison with ngspice;
 /// 10 keeps the rounding (at most 5e-11 relative) far below ngspice's own
 /// numerical noise (about 1e-6) and the 0.001 dB (1.2e-4) comparisons,
 /// while the values stay readable.

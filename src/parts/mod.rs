@@ -5,16 +5,20 @@
 //!   snapping of any positive value to the series across decades.
 //! - [`Tolerance`] (in `tolerance`): a relative tolerance with a uniform
 //!   or truncated-Gaussian spread, drawn from a caller's seeded generator.
+//! - [`PartsChoice`] (in `choice`): the series, tolerances and capacitor
+//!   range a build is bought from.
 //!
 //! Invariants: a [`Series`] value is always one of its table's mantissas
 //! times a power of ten; a [`Tolerance`] always lies in
 //! [0, [`MAX_TOLERANCE`]] and every factor it draws lies within
 //! 1 +- tolerance. This module imports nothing else of nocoil.
 
+mod choice;
 mod error;
 mod series;
 mod tolerance;
 
+pub use choice::PartsChoice;
 pub use error::PartsError;
 pub use series::Series;
 pub use tolerance::{Distribution, Tolerance, MAX_TOLERANCE};

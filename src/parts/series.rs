@@ -1,6 +1,6 @@
 //! The IEC 60063 preferred-number series as the published tables
-//! (IEC 60063:2015, tables 1 and 2, from memory; the tests check them
-//! against the facts in the project's field notes).
+//! (IEC 60063:2015, tables 1 and 2, from memory; tests/parts.rs checks
+//! where each departs from round(10^(i/N)) against the same standard).
 //!
 //! The tables are kept as written rather than computed from
 //! round(10^(i/N)): E24 differs from that formula at eight values and E192
@@ -25,8 +25,9 @@ pub(crate) const MIN_VALUE: f64 = 1e-18;
 /// Largest value accepted (1e18 ohm is beyond any resistor sold).
 pub(crate) const MAX_VALUE: f64 = 1e18;
 
-/// A preferred-number series of IEC 60063.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+/// A preferred-number series of IEC 60063 (`E3` .. `E192` in a design
+/// file; its [`fmt::Display`] is the same name).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, serde::Serialize, serde::Deserialize)]
 pub enum Series {
     /// 3 values per decade (about 40 % steps).
     E3,

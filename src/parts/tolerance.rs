@@ -2,8 +2,8 @@
 //! the parts within it, drawn from a caller's seeded generator so that a
 //! Monte Carlo run is reproducible.
 //!
-//! Gaussian parts put 3 sigma at the tolerance (the field notes, section
-//! 5) and are truncated there: a maker tests its parts against the
+//! Gaussian parts put 3 sigma at the tolerance (common practice) and
+//! are truncated there: a maker tests its parts against the
 //! tolerance it prints and rejects those outside, so a 1 % resistor is
 //! never 1.2 % off. Truncating at 3 sigma drops 0.27 % of the bell, which
 //! leaves the standard deviation at 0.987 sigma (the tests check it).
@@ -18,21 +18,32 @@ use super::PartsError;
 /// and beyond it a draw could come close to a zero value.
 pub const MAX_TOLERANCE: f64 = 0.5;
 
-/// Standard deviations per tolerance for Gaussian parts (field notes,
-/// section 5: 3 sigma = tolerance), which is also the truncation point.
+/// Standard deviations per tolerance for Gaussian parts (3 sigma =
+/// tolerance, common practice), which is also the truncation point.
 const SIGMAS_PER_TOLERANCE: f64 = 3.0;
 
 /// 2^-53: turns the top 53 bits of a random u64 into a uniform double in
 /// [0, 1) with every value a multiple of 2^-53.
 const UNIT: f64 = 1.0 / (1u64 << 53) as f64;
 
-/// How parts spread within their tolerance.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+/// How parts spread within their tolerance (`[parts] distribution` of a
+/// design file).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+#[serde(rename_all = "lowercase")]
 pub enum Distribution {
     /// Evenly over +- tolerance.
     Uniform,
     /// Gaussian with 3 sigma = tolerance, truncated at +- tolerance.
     Gaussian,
+}
+
+impl std::fmt::Display for Distribution {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self {
+            Distribution::Uniform => "uniform",
+            Distribution::Gaussian => "Gaussian",
+        })
+    }
 }
 
 /// A relative tolerance (0.01 is 1 %) and how parts spread within it.

@@ -1,12 +1,13 @@
 //! First step of reading a design file: the raw tables as serde sees them,
 //! then the checks that turn them into a [`Spec`].
 
-use super::mask::{check_edge, check_levels, check_sides, MaskField, MaskProblem};
-use super::{
-    ActiveSpec, Edge, FamilyChoice, FormChoice, Kind, MethodChoice, MonteCarloSpec, OpAmpKind,
-    OpAmpSpec, PartsSpec, PrototypeSource, SeriesChoice, Spec, SpecError, SpreadChoice, MAX_ORDER,
-    MAX_TOLERANCE, MAX_TRIALS,
-};
+use super::{ActiveSpec, MonteCarloSpec, OpAmpSpec, PrototypeSource, Spec, SpecError, MAX_TRIALS};
+use crate::active::Method;
+use crate::approx::Family;
+use crate::circuit::{OpAmpKind, OpAmpModel};
+use crate::parts::{Distribution, PartsChoice, Series, MAX_TOLERANCE};
+use crate::synth::{self, Form};
+use crate::transform::{check_levels, Band, Kind, MaskField, MaskProblem};
 use serde::Deserialize;
 use std::path::Path;
 
@@ -32,14 +33,14 @@ struct RawSpec {
 #[derive(Deserialize, Default)]
 #[serde(deny_unknown_fields)]
 struct RawParts {
-    resistor_series: Option<SeriesChoice>,
+    resistor_series: Option<Series>,
     #[serde(default, deserialize_with = "number")]
     resistor_tolerance: Option<f64>,
-    capacitor_series: Option<SeriesChoice>,
+    capacitor_series: Option<Series>,
     #[serde(default, deserialize_with = "number")]
     capacitor_tolerance: Option<f64>,
     capacitor_range: Option<toml::Value>,
-    distribution: Option<SpreadChoice>,
+    distribution: Option<Distribution>,
 }
 
 #[derive(Deserialize, Default)]
@@ -58,7 +59,7 @@ struct RawMonteCarlo {
 #[derive(Deserialize, Default)]
 #[serde(deny_unknown_fields)]
 struct RawActive {
-    method: Option<MethodChoice>,
+    method: Option<Method>,
     optimize: Option<bool>,
 }
 
@@ -80,7 +81,7 @@ struct RawOpAmp {
 #[serde(deny_unknown_fields)]
 struct RawFilter {
     kind: Kind,
-    family: Option<FamilyChoice>,
+    family: Option<Family>,
     prototype: Option<String>,
     order: Option<i64>,
     passband_edge_hz: toml::Value,
@@ -89,7 +90,7 @@ struct RawFilter {
     passband_ripple_db: Option<f64>,
     #[serde(default, deserialize_with = "number")]
     stopband_attenuation_db: Option<f64>,
-    form: Option<FormChoice>,
+    form: Option<Form>,
 }
 
 #[derive(Deserialize)]
@@ -146,32 +147,25 @@ impl Checker<'_> {
         self.positive(key, v, what)
     }
 
-    /// An edge as written: one number, or a `[low, high]` array.
-    fn edge(&self, key: &'static str, kind: Kind, v: &toml::Value) -> Result<Edge, SpecError> {
+    /// Edges as written: one number, or an array of numbers; their shape
+    /// is checked against the kind by [`Band::new`].
+    fn edges(&self, key: &'static str, v: &toml::Value) -> Result<Vec<f64>, SpecError> {
         let as_f64 = |x: &toml::Value| match x {
             toml::Value::Integer(i) => Some(*i as f64),
             toml::Value::Float(f) => Some(*f),
             _ => None,
         };
-        let edge = match v {
-            toml::Value::Array(a) if a.len() == 2 => as_f64(&a[0])
-                .zip(as_f64(&a[1]))
-                .map(|(lo, hi)| Edge::Pair(lo, hi)),
-            x => as_f64(x).map(Edge::Single),
+        let edges = match v {
+            toml::Value::Array(a) => a.iter().map(as_f64).collect(),
+            x => as_f64(x).map(|f| vec![f]),
         };
-        let field = if key == KEY_PASSBAND {
-            MaskField::Passband
-        } else {
-            MaskField::Stopband
-        };
-        let edge = edge.ok_or_else(|| {
+        edges.ok_or_else(|| {
             self.invalid(
                 key,
                 v,
                 "expected a frequency in Hz, or [low, high] for a band kind",
             )
-        })?;
-        check_edge(field, kind, edge).map_err(|p| self.problem(p))
+        })
     }
 
     /// A mask problem under the design file's key names.
@@ -218,14 +212,12 @@ pub(super) fn parse(file: &Path, text: &str) -> Result<Spec, SpecError> {
     let raw: RawSpec = toml::from_str(text).map_err(|e| syntax_error(file, text, e))?;
     let c = Checker { file };
     let f = raw.filter;
-    let passband = c.edge(KEY_PASSBAND, f.kind, &f.passband_edge_hz)?;
+    let passband = c.edges(KEY_PASSBAND, &f.passband_edge_hz)?;
     let stopband = match &f.stopband_edge_hz {
-        Some(v) => Some(c.edge("filter.stopband_edge_hz", f.kind, v)?),
+        Some(v) => Some(c.edges("filter.stopband_edge_hz", v)?),
         None => None,
     };
-    if let Some(s) = stopband {
-        check_sides(f.kind, passband, s).map_err(|p| c.problem(p))?;
-    }
+    let band = Band::new(f.kind, &passband, stopband.as_deref()).map_err(|p| c.problem(p))?;
     let prototype = prototype_source(&c, &f, stopband.is_some())?;
     let source_ohm = c.required(
         "terminations.source_ohm",
@@ -242,15 +234,13 @@ pub(super) fn parse(file: &Path, text: &str) -> Result<Spec, SpecError> {
     let montecarlo = montecarlo(&c, &raw.montecarlo)?;
     Ok(Spec {
         file: file.to_path_buf(),
-        kind: f.kind,
+        band,
         prototype,
-        passband_edge_hz: passband,
-        stopband_edge_hz: stopband,
         form: f.form,
         source_ohm,
         load_ohm,
         active: ActiveSpec {
-            method: raw.active.method.unwrap_or(MethodChoice::Auto),
+            method: raw.active.method.unwrap_or(Method::Auto),
             optimize: raw.active.optimize.unwrap_or(false),
         },
         opamp,
@@ -277,8 +267,8 @@ fn fraction(
     }
 }
 
-fn parts(c: &Checker, raw: &RawParts) -> Result<PartsSpec, SpecError> {
-    let d = PartsSpec::default();
+fn parts(c: &Checker, raw: &RawParts) -> Result<PartsChoice, SpecError> {
+    let d = PartsChoice::default();
     let range =
         match &raw.capacitor_range {
             None => d.capacitor_range_f,
@@ -299,7 +289,7 @@ fn parts(c: &Checker, raw: &RawParts) -> Result<PartsSpec, SpecError> {
                 }
             }
         };
-    Ok(PartsSpec {
+    Ok(PartsChoice {
         resistor_series: raw.resistor_series.unwrap_or(d.resistor_series),
         resistor_tolerance: fraction(
             c,
@@ -357,12 +347,20 @@ fn montecarlo(c: &Checker, raw: &RawMonteCarlo) -> Result<MonteCarloSpec, SpecEr
 /// [`OpAmpSpec`].
 fn opamp(c: &Checker, raw: &RawOpAmp) -> Result<OpAmpSpec, SpecError> {
     let d = OpAmpSpec::default();
+    let (default_gbw_hz, default_dc_gain_db, default_output_ohm) = match d.model {
+        OpAmpModel::SinglePole {
+            dc_gain,
+            gbw_hz,
+            output_ohm,
+        } => (gbw_hz, 20.0 * dc_gain.log10(), output_ohm),
+        OpAmpModel::Ideal => (f64::INFINITY, f64::INFINITY, 0.0),
+    };
     let gbw_hz = match raw.gbw_hz {
-        None => d.gbw_hz,
+        None => default_gbw_hz,
         Some(v) => c.positive("opamp.gbw_hz", v, "a gain-bandwidth product in Hz")?,
     };
     let dc_gain_db = match raw.dc_gain_db {
-        None => d.dc_gain_db,
+        None => default_dc_gain_db,
         Some(v) if v.is_finite() && v > 0.0 && v <= MAX_DC_GAIN_DB => v,
         Some(v) => {
             return Err(c.invalid(
@@ -375,7 +373,7 @@ fn opamp(c: &Checker, raw: &RawOpAmp) -> Result<OpAmpSpec, SpecError> {
         }
     };
     let output_ohm = match raw.output_ohm {
-        None => d.output_ohm,
+        None => default_output_ohm,
         Some(v) if v.is_finite() && v >= 0.0 => v,
         Some(v) => {
             return Err(c.invalid(
@@ -389,12 +387,10 @@ fn opamp(c: &Checker, raw: &RawOpAmp) -> Result<OpAmpSpec, SpecError> {
         None => d.swing_v,
         Some(v) => c.positive("opamp.swing_v", v, "an output swing in V peak")?,
     };
+    let kind = raw.model.unwrap_or(d.model.kind());
     Ok(OpAmpSpec {
+        model: OpAmpModel::from_data_sheet(kind, gbw_hz, dc_gain_db, output_ohm),
         swing_v,
-        model: raw.model.unwrap_or(d.model),
-        gbw_hz,
-        dc_gain_db,
-        output_ohm,
     })
 }
 
@@ -411,7 +407,7 @@ fn prototype_source(
         if let Some(family) = f.family {
             return Err(c.invalid(
                 "filter.family",
-                format!("{family:?}").to_lowercase(),
+                as_written(&family),
                 "expected no family when filter.prototype names a table (the table fixes it)",
             ));
         }
@@ -427,13 +423,19 @@ fn prototype_source(
             "expected butterworth, chebyshev or elliptic (or filter.prototype naming a table)",
         )
     })?;
+    let max = synth::max_order(family);
     let order = match f.order {
-        Some(n) if (1..=MAX_ORDER as i64).contains(&n) => Some(n as usize),
+        Some(n) if (1..=max as i64).contains(&n) => Some(n as usize),
         Some(n) => {
             return Err(c.invalid(
                 "filter.order",
                 n,
-                format!("expected a whole number from 1 to {MAX_ORDER}"),
+                match family {
+                    Family::Elliptic => format!(
+                        "expected a whole number from 1 to {max} (at most {max} for an elliptic ladder: its synthesis holds its accuracy no further)"
+                    ),
+                    _ => format!("expected a whole number from 1 to {max}"),
+                },
             ))
         }
         None if has_stopband => None,
@@ -442,13 +444,13 @@ fn prototype_source(
                 "filter.order",
                 "(missing)",
                 format!(
-                "expected an order from 1 to {MAX_ORDER}, or filter.stopband_edge_hz to compute it"
-            ),
+                    "expected an order from 1 to {max}, or filter.stopband_edge_hz to compute it"
+                ),
             ))
         }
     };
     let ripple = match (family, f.passband_ripple_db) {
-        (FamilyChoice::Butterworth, None) => HALF_POWER_DB,
+        (Family::Butterworth, None) => HALF_POWER_DB,
         (_, None) => {
             return Err(c.invalid(
                 "filter.passband_ripple_db",
@@ -459,7 +461,7 @@ fn prototype_source(
         (_, Some(r)) => r,
     };
     check_levels(ripple, f.stopband_attenuation_db).map_err(|p| c.problem(p))?;
-    let needs_attenuation = family == FamilyChoice::Elliptic || order.is_none();
+    let needs_attenuation = family == Family::Elliptic || order.is_none();
     if needs_attenuation && f.stopband_attenuation_db.is_none() {
         return Err(c.invalid(
             "filter.stopband_attenuation_db",
@@ -473,4 +475,14 @@ fn prototype_source(
         passband_ripple_db: ripple,
         stopband_attenuation_db: f.stopband_attenuation_db,
     })
+}
+
+/// A value as a design file writes it (its serde name), for messages that
+/// quote the file.
+pub fn as_written<T: serde::Serialize>(value: &T) -> String {
+    match toml::Value::try_from(value) {
+        Ok(toml::Value::String(s)) => s,
+        Ok(other) => other.to_string(),
+        Err(_) => String::from("(unprintable)"),
+    }
 }

@@ -22,23 +22,11 @@
 //! ```
 
 use super::raw::{number, syntax_error};
-use super::{FamilyChoice, SpecError};
+use super::SpecError;
+use crate::approx::Family;
+use crate::synth::ArmValues;
 use serde::Deserialize;
 use std::path::{Path, PathBuf};
-
-/// One arm of a tabulated ladder.
-#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
-#[serde(rename_all = "snake_case")]
-pub enum TableArm {
-    /// Inductor in a series arm, henry.
-    SeriesL(f64),
-    /// Capacitor to ground, farad.
-    ShuntC(f64),
-    /// Parallel LC (henry, farad) in a series arm.
-    SeriesTank(f64, f64),
-    /// Series LC (henry, farad) from the node to ground.
-    ShuntResonator(f64, f64),
-}
 
 /// A tabulated normalized lowpass prototype.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
@@ -50,7 +38,7 @@ pub struct PrototypeTable {
     /// Where the values come from (book, table, "from memory").
     pub reference: String,
     /// The family that generated the values, when known.
-    pub family: Option<FamilyChoice>,
+    pub family: Option<Family>,
     /// Number of reactive elements.
     pub order: usize,
     /// Passband ripple (or Butterworth edge attenuation), dB.
@@ -60,7 +48,7 @@ pub struct PrototypeTable {
     /// Load resistance, ohm (source = 1 ohm).
     pub load_ohm: f64,
     /// The arms, from source to load.
-    pub arms: Vec<TableArm>,
+    pub arms: Vec<ArmValues>,
 }
 
 #[derive(Deserialize)]
@@ -68,7 +56,7 @@ pub struct PrototypeTable {
 struct RawTable {
     description: String,
     reference: String,
-    family: Option<FamilyChoice>,
+    family: Option<Family>,
     order: usize,
     #[serde(deserialize_with = "number")]
     passband_ripple_db: Option<f64>,
@@ -108,10 +96,10 @@ impl PrototypeTable {
         let mut arms = Vec::with_capacity(raw.arm.len());
         for (i, a) in raw.arm.iter().enumerate() {
             let arm = match (a.series_l, a.shunt_c, a.series_tank, a.shunt_resonator) {
-                (Some(l), None, None, None) if positive(l) => TableArm::SeriesL(l),
-                (None, Some(c), None, None) if positive(c) => TableArm::ShuntC(c),
-                (None, None, Some([l, c]), None) if positive(l) && positive(c) => TableArm::SeriesTank(l, c),
-                (None, None, None, Some([l, c])) if positive(l) && positive(c) => TableArm::ShuntResonator(l, c),
+                (Some(l), None, None, None) if positive(l) => ArmValues::SeriesL(l),
+                (None, Some(c), None, None) if positive(c) => ArmValues::ShuntC(c),
+                (None, None, Some([l, c]), None) if positive(l) && positive(c) => ArmValues::SeriesTank(l, c),
+                (None, None, None, Some([l, c])) if positive(l) && positive(c) => ArmValues::ShuntResonator(l, c),
                 _ => {
                     return Err(invalid(
                         "arm",

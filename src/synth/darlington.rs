@@ -3,10 +3,11 @@
 //!
 //! With E(s) = prod(s - p) over the poles and F(s) = c prod(s - f) over
 //! the reflection zeros, S11 = F/E and the input impedance (source 1 ohm)
-//! is Z = (E + F)/(E - F) (domain.md section 2). Every ladder here has
-//! S21 = 0 at infinity, so |F/E| -> 1 there and |c| = 1 exactly: c = +1
-//! makes Z grow like s L (series inductor first, `MinCapacitor`), c = -1
-//! makes Z vanish like 1/(s C) (shunt capacitor first, `MinInductor`).
+//! is Z = (E + F)/(E - F) (Temes and LaPatra 1977, from memory). Every
+//! ladder here has S21 = 0 at infinity, so |F/E| -> 1 there and |c| = 1
+//! exactly: c = +1 makes Z grow like s L (series inductor first,
+//! `MinCapacitor`), c = -1 makes Z vanish like 1/(s C) (shunt capacitor
+//! first, `MinInductor`).
 //! In both cases the *primary* immittance (Z, or Y = 1/Z) is
 //! (E + F^)/(E - F^) with the monic F^ = prod(s - f), and its DC value is
 //! rho = r or 1/r: the two forms are one synthesis read two ways.
@@ -226,8 +227,8 @@ const NEWTON_STEPS: usize = 3;
 const POLE_MOVE_TOLERANCE: f64 = 1e-5;
 
 /// The poles polished so that E E* = F F* + k P P* holds to double-double
-/// precision (the Feldtkeller equation, domain.md section 2), with k fixed
-/// at DC by the given poles.
+/// precision (the Feldtkeller equation; Temes and LaPatra 1977, from
+/// memory), with k fixed at DC by the given poles.
 ///
 /// Why: a ladder exists only for an exactly consistent E, F, P. The f64
 /// poles violate the identity by about 1e-16 relative, which puts

@@ -22,8 +22,8 @@ pub enum SynthError {
     /// The terminations ask for more DC transmission than the prototype
     /// allows (flat-loss factor K_t > 1).
     #[error(
-        "load ratio {load_ratio} is infeasible for the {variant:?} form of order {order}: \
-         it needs a ratio <= {lower} or >= {upper}, or the ReflectionAtDc variant for any ratio"
+        "load ratio {load_ratio} is infeasible for the {variant} of order {order}: \
+         it needs a ratio <= {lower} or >= {upper}, or the modified form with its lowest reflection zero at DC, which takes any ratio"
     )]
     InfeasibleRatio {
         /// The ratio given.
@@ -41,7 +41,7 @@ pub enum SynthError {
     /// orientation: series inductor first needs R_load > R_source, shunt
     /// capacitor first needs R_load < R_source.
     #[error(
-        "an even-order ({order}) ladder in the {form:?} form needs a load ratio {needs} 1, got {load_ratio}: \
+        "an even-order ({order}) ladder in the {form} form needs a load ratio {needs} 1, got {load_ratio}: \
          use the ratio {inverse} (terminations swapped) or the other form"
     )]
     EvenOrderOrientation {

@@ -27,6 +27,8 @@ mod poly;
 mod prototype;
 mod terminations;
 
+use crate::approx::{self, Family};
+
 pub use darlington::{synthesize_characteristic, Characteristic};
 pub use error::SynthError;
 pub use prototype::synthesize;
@@ -37,7 +39,19 @@ pub use terminations::variant_for;
 /// response to 2e-4 dB; masks with very narrow transitions fail earlier
 /// (order 7 to 11) with a [`SynthError`] rather than a wrong ladder. The
 /// limit comes from the double-precision roots of the prototype.
-pub const ELLIPTIC_MAX_ORDER: usize = 16;
+pub const ELLIPTIC_SYNTHESIS_MAX_ORDER: usize = 16;
+
+/// Highest order the synthesis is asked for in `family`: the
+/// approximation's own limit ([`approx::MAX_ORDER`]; the all-pole ladders
+/// hold it, tests/synth.rs checks them to order 25 against closed forms),
+/// or [`ELLIPTIC_SYNTHESIS_MAX_ORDER`] for elliptic ladders.
+pub fn max_order(family: Family) -> usize {
+    if family == Family::Elliptic {
+        ELLIPTIC_SYNTHESIS_MAX_ORDER
+    } else {
+        approx::MAX_ORDER
+    }
+}
 
 /// Which of the two dual ladders.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
@@ -49,6 +63,15 @@ pub enum Form {
     /// Series inductor first; the capacitors (and elliptic series
     /// resonators) sit in the shunt arms, all ending at ground.
     MinCapacitor,
+}
+
+impl std::fmt::Display for Form {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self {
+            Form::MinInductor => "minimum-inductor",
+            Form::MinCapacitor => "minimum-capacitor",
+        })
+    }
 }
 
 /// A reactive element of a normalized ladder.
@@ -69,6 +92,15 @@ pub enum Arm {
     Series,
     /// From a ladder node to ground (possibly through an internal node).
     Shunt,
+}
+
+impl std::fmt::Display for Arm {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self {
+            Arm::Series => "series",
+            Arm::Shunt => "shunt",
+        })
+    }
 }
 
 /// One L or C of a ladder, between two of its nodes.

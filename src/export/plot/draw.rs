@@ -136,8 +136,15 @@ where
     if let Some(band) = &chart.band {
         canvas.band(band)?;
     }
-    for (i, trace) in chart.traces.iter().enumerate() {
-        canvas.curve(&trace.freq_hz, &trace.values, color(i), trace.dashed)?;
+    // Dashed traces first, solid ones over them: a solid reference (the
+    // passive ideal) stays visible, and a dashed build shows wherever it
+    // departs from it. Colours follow the traces' order either way.
+    for dashed in [true, false] {
+        for (i, trace) in chart.traces.iter().enumerate() {
+            if trace.dashed == dashed {
+                canvas.curve(&trace.freq_hz, &trace.values, color(i), trace.dashed)?;
+            }
+        }
     }
     canvas.outline()?;
     canvas.labels(chart)?;

@@ -58,10 +58,10 @@ pub enum PartsSnapError {
     },
     /// The termination capacitors of an FDNR image keep the ratio of the
     /// terminations, and it is wider than the range.
-    #[error("the FDNR image's termination capacitors ({capacitors}) keep the ratio of the terminations, {ratio:.4}, which no impedance level fits into parts.capacitor_range = [{low_f:e}, {high_f:e}]: widen the range")]
+    #[error("the FDNR image's termination capacitors ({}) keep the ratio of the terminations, {ratio:.4}, which no impedance level fits into parts.capacitor_range = [{low_f:e}, {high_f:e}]: widen the range", capacitors.join(", "))]
     TerminationsSpread {
-        /// The capacitors and their stages, in words.
-        capacitors: String,
+        /// The capacitors, by designator.
+        capacitors: Vec<String>,
         /// Largest over smallest of them.
         ratio: f64,
         /// Lower end of the range, farad.
@@ -82,14 +82,6 @@ pub enum PartsSnapError {
         /// Upper edge given.
         high_hz: f64,
     },
-    /// A stage of the build does not match its netlist (a program fault).
-    #[error("stage {stage}: {problem}")]
-    Contract {
-        /// The stage, by what it replaces.
-        stage: String,
-        /// What is wrong, naming the element.
-        problem: String,
-    },
     /// A value the preferred-number series cannot snap (a program fault:
     /// the active stage builds finite, positive values).
     #[error("{element}: {cause}")]
@@ -105,4 +97,19 @@ pub enum PartsSnapError {
     /// Changing a value of the netlist failed.
     #[error("circuit: {0}")]
     Circuit(#[from] CircuitError),
+}
+
+impl PartsSnapError {
+    /// Whether the design file's `[parts]` table asks for what cannot be
+    /// bought or built (exit status 2), rather than a program fault.
+    pub fn is_bad_input(&self) -> bool {
+        matches!(
+            self,
+            PartsSnapError::BadTolerance { .. }
+                | PartsSnapError::BadRange { .. }
+                | PartsSnapError::NoSeriesValue { .. }
+                | PartsSnapError::OutOfRange { .. }
+                | PartsSnapError::TerminationsSpread { .. }
+        )
+    }
 }

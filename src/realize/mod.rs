@@ -1,5 +1,5 @@
-//! Real parts for an active build: every resistor and capacitor on a
-//! preferred value (IEC 60063, see [`crate::parts`]), capacitors inside
+//! The active on parts build: every resistor and capacitor of the active
+//! exact build on a preferred value (IEC 60063, see [`crate::parts`]), capacitors inside
 //! the range the designer buys, and one trimming resistor per GIC that
 //! restores what its converter realizes.
 //!
@@ -16,7 +16,7 @@
 //! 2. Each converter's capacitors are put on the capacitor-series value
 //!    in range nearest to them by the converter's own freedoms (its
 //!    impedance level, and for an FDNR's Z1 its balance point; see
-//!    `converter`), which keep its realized L or D and its op-amp
+//!    [`crate::active::chain`]), which keep its realized L or D and its op-amp
 //!    balance. These are the "ideal values": the network realizes exactly
 //!    what the build did.
 //! 3. Every resistor snaps to the nearest resistor-series value and every
@@ -41,60 +41,35 @@
 //! realized in the build (an FDNR's D divided by the image level of step
 //! 1, which multiplied every impedance of the image).
 
-mod converter;
 mod error;
 mod trim;
 
 pub use error::PartsSnapError;
 pub use trim::{Trim, TRIMMER_SERIES};
 
-use converter::{converters, is_capacitor, scale_impedance, value, Converter, Moves};
-
-use crate::active::{deviation_db, ActiveBuild, Stage, StageKind, PASSBAND_POINTS};
-use crate::circuit::{log_grid, ElementKind, Netlist};
-use crate::export::eng::format_trimmed;
-use crate::parts::{Distribution, Series, Tolerance};
+use crate::active::chain::{self, is_capacitor, scale_impedance, value, Chain, Moves};
+use crate::active::{deviation_db, ActiveBuild, Handles, Stage, PASSBAND_POINTS};
+use crate::circuit::{band_grid, CircuitError, Element, ElementKind, Netlist};
+use crate::parts::{Distribution, PartsChoice, Tolerance};
 
 /// Relative slack on the capacitor range for values placed on one of its
 /// ends: rescaling by a computed factor can land a few units in the last
 /// place outside the end it aimed at. Far below any part tolerance.
 const RANGE_SLACK: f64 = 1e-9;
 
-/// The parts a design is bought from (the `[parts]` table of a design
-/// file).
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct PartsChoice {
-    /// Series of the fixed resistors.
-    pub resistor_series: Series,
-    /// Their relative tolerance (0.01 is 1 %).
-    pub resistor_tolerance: f64,
-    /// Series of the capacitors.
-    pub capacitor_series: Series,
-    /// Their relative tolerance.
-    pub capacitor_tolerance: f64,
-    /// Smallest and largest capacitor bought, farad.
-    pub capacitor_range_f: (f64, f64),
+/// What the parts stage asks of a [`PartsChoice`].
+trait Buying {
+    fn check(&self) -> Result<(), PartsSnapError>;
+    fn contains(&self, farad: f64) -> bool;
+    fn in_range(&self, farad: f64) -> Result<f64, PartsSnapError>;
+    fn tolerance_of(&self, netlist: &Netlist, index: usize) -> f64;
 }
 
-impl Default for PartsChoice {
-    /// 1 % resistors from E96, 5 % capacitors from E12, 100 pF to 1 uF: a
-    /// common stock of metal-film resistors and film capacitors.
-    fn default() -> PartsChoice {
-        PartsChoice {
-            resistor_series: Series::E96,
-            resistor_tolerance: 0.01,
-            capacitor_series: Series::E12,
-            capacitor_tolerance: 0.05,
-            capacitor_range_f: (100e-12, 1e-6),
-        }
-    }
-}
-
-impl PartsChoice {
+impl Buying for PartsChoice {
     /// Checks the tolerances (0 to [`crate::parts::MAX_TOLERANCE`]) and the
     /// range (0 < low <= high, finite, holding a capacitor-series value);
     /// names the design-file key.
-    pub fn check(&self) -> Result<(), PartsSnapError> {
+    fn check(&self) -> Result<(), PartsSnapError> {
         for (key, value) in [
             ("parts.resistor_tolerance", self.resistor_tolerance),
             ("parts.capacitor_tolerance", self.capacitor_tolerance),
@@ -180,8 +155,8 @@ pub struct SnappedBuild {
     pub stages: Vec<Stage>,
     /// One trimming resistor per GIC chain, in stage order.
     pub trims: Vec<Trim>,
-    /// What each rescaling did, in words.
-    pub rescaled: Vec<String>,
+    /// What each rescaling did.
+    pub rescaled: Vec<Rescale>,
     /// The passband error after each step.
     pub error_db: ErrorSteps,
 }
@@ -197,10 +172,19 @@ pub fn snap_build(
     passband_hz: &[[f64; 2]],
 ) -> Result<SnappedBuild, PartsSnapError> {
     choice.check()?;
-    let grid = passband_grid(passband_hz)?;
+    if passband_hz.is_empty() {
+        return Err(PartsSnapError::NoPassband);
+    }
+    let grid = band_grid(passband_hz, PASSBAND_POINTS).map_err(|e| match e {
+        CircuitError::BadGrid { from_hz, to_hz, .. } => PartsSnapError::BadPassband {
+            low_hz: from_hz,
+            high_hz: to_hz,
+        },
+        other => PartsSnapError::Circuit(other),
+    })?;
     let deviation = |n: &Netlist| deviation_db(passive, n, &grid);
     let as_built = deviation(&build.netlist)?;
-    let converters = converters(&build.stages, &build.netlist)?;
+    let converters = converters(&build.stages);
     let (mut netlist, rescaled) = rescale(build, &converters, choice)?;
     let targets: Vec<Vec<f64>> = converters
         .iter()
@@ -214,7 +198,7 @@ pub fn snap_build(
         for (chain, &target) in c.chains.iter().zip(targets) {
             trims.push(trim::solve(
                 &mut netlist,
-                &c.replaces,
+                c.replaces,
                 chain,
                 target,
                 choice,
@@ -236,65 +220,158 @@ pub fn snap_build(
     })
 }
 
-/// [`PASSBAND_POINTS`] log-spaced frequencies in each band.
-fn passband_grid(bands: &[[f64; 2]]) -> Result<Vec<f64>, PartsSnapError> {
-    if bands.is_empty() {
-        return Err(PartsSnapError::NoPassband);
+/// The designator of the trimmer of trim element `name` ("R_L1_1" ->
+/// "RV_L1_1": RV for a variable resistor, common practice; SPICE reads
+/// any name starting with R as a resistor).
+pub fn trimmer_designator(name: &str) -> String {
+    format!("RV{}", name.strip_prefix('R').unwrap_or(name))
+}
+
+/// The build as it is soldered: `netlist` (an active on parts build) with
+/// every trim element split into its fixed resistor, a series value, and
+/// a trimmer at the setting the design computed, in series through a new
+/// node. Electrically the same network: the two add up to the solved
+/// value.
+pub fn soldered(netlist: &Netlist, trims: &[Trim]) -> Result<Netlist, PartsSnapError> {
+    let mut built = netlist.clone();
+    for t in trims {
+        let Some(&Element::Resistor { a, b, .. }) = built.elements.get(t.index) else {
+            continue;
+        };
+        let mid = built.node(&format!("{}_trim", t.element));
+        built.elements[t.index] = Element::Resistor {
+            name: t.element.clone(),
+            a,
+            b: mid,
+            ohm: t.fixed_ohm,
+        };
+        built.add(Element::Resistor {
+            name: trimmer_designator(&t.element),
+            a: mid,
+            b,
+            ohm: t.setting_ohm,
+        })?;
     }
-    let mut grid = Vec::new();
-    for &[low_hz, high_hz] in bands {
-        grid.extend(
-            log_grid(low_hz, high_hz, PASSBAND_POINTS)
-                .map_err(|_| PartsSnapError::BadPassband { low_hz, high_hz })?,
-        );
-    }
-    Ok(grid)
+    built.title = format!(
+        "{} (as soldered: fixed resistors and trimmers)",
+        netlist.title
+    );
+    Ok(built)
+}
+
+/// One converter of a build: its stage, what it replaces, its chains.
+struct Converter<'a> {
+    stage: usize,
+    replaces: &'a str,
+    chains: &'a [Chain],
+}
+
+/// The converters of a build, in stage order, from their typed handles.
+fn converters(stages: &[Stage]) -> Vec<Converter<'_>> {
+    stages
+        .iter()
+        .enumerate()
+        .filter_map(|(stage, s)| match &s.handles {
+            Handles::Converter(chains) => Some(Converter {
+                stage,
+                replaces: s.replaces.as_deref().unwrap_or_default(),
+                chains,
+            }),
+            _ => None,
+        })
+        .collect()
+}
+
+/// One capacitor as a rescaling left it.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct Moved {
+    /// Its designator.
+    pub designator: String,
+    /// Its value before, farad.
+    pub from_f: f64,
+    /// Its value after, farad.
+    pub to_f: f64,
+    /// Whether the value before lay outside the capacitor range.
+    pub was_outside_range: bool,
+}
+
+/// What one rescaling (steps 1 and 2 of the module documentation) did.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+#[serde(tag = "rescaled", rename_all = "snake_case")]
+pub enum Rescale {
+    /// Every impedance of the FDNR image times `factor`, so that its
+    /// termination capacitors land on series values in range (the voltage
+    /// ratios do not change).
+    ImageLevel {
+        /// The factor on every impedance.
+        factor: f64,
+        /// The termination capacitors.
+        capacitors: Vec<Moved>,
+    },
+    /// One converter's capacitors placed by its own freedoms; the value it
+    /// realizes is unchanged.
+    Converter {
+        /// The passive element it replaces.
+        replaces: String,
+        /// Its capacitors.
+        capacitors: Vec<Moved>,
+        /// The freedoms used.
+        moves: Moves,
+    },
 }
 
 /// Steps 1 and 2: the build's netlist with the image level and every
-/// converter's capacitors placed, and what was done, in words.
+/// converter's capacitors placed, and what was done.
 fn rescale(
     build: &ActiveBuild,
     converters: &[Converter],
     choice: &PartsChoice,
-) -> Result<(Netlist, Vec<String>), PartsSnapError> {
+) -> Result<(Netlist, Vec<Rescale>), PartsSnapError> {
     let mut netlist = build.netlist.clone();
-    let mut notes = Vec::new();
-    let terminations = termination_capacitors(&netlist, &build.stages);
+    let mut done = Vec::new();
+    let terminations = termination_capacitors(&build.stages);
     if !terminations.is_empty() {
-        let level = image_level(&netlist, &terminations, choice)?;
+        let factor = image_level(&netlist, &terminations, choice)?;
         for index in 0..netlist.elements.len() {
             if matches!(
                 netlist.elements[index].kind(),
                 ElementKind::Resistor | ElementKind::Capacitor
             ) {
-                scale_impedance(&mut netlist, index, level)?;
+                scale_impedance(&mut netlist, index, factor)?;
             }
         }
-        notes.push(format!(
-            "FDNR image: every impedance x{level:.6} (the voltage ratios do not change), so its termination capacitors land on {} values in range: {}{}",
-            choice.capacitor_series,
-            describe_values(&build.netlist, &netlist, &terminations),
-            outside(&build.netlist, &terminations, choice)
-        ));
+        done.push(Rescale::ImageLevel {
+            factor,
+            capacitors: moved(&build.netlist, &netlist, &terminations, choice),
+        });
     }
     check_plain_capacitors(&netlist, &build.stages, converters, choice)?;
     for c in converters {
         let before = netlist.clone();
-        let moves = c.place(&mut netlist, |farad| choice.in_range(farad))?;
-        notes.push(describe_moves(c, moves, &before, &netlist, choice));
+        let moves = chain::place(c.chains, &mut netlist, |farad| choice.in_range(farad))?;
+        let mut capacitors: Vec<usize> = Vec::new();
+        for i in c.chains.iter().flat_map(|ch| ch.z) {
+            if is_capacitor(&netlist, i) && !capacitors.contains(&i) {
+                capacitors.push(i);
+            }
+        }
+        done.push(Rescale::Converter {
+            replaces: c.replaces.to_string(),
+            capacitors: moved(&before, &netlist, &capacitors, choice),
+            moves,
+        });
     }
-    Ok((netlist, notes))
+    Ok((netlist, done))
 }
 
-/// The element indices of the FDNR image's termination capacitors (the
-/// first element of each termination stage).
-fn termination_capacitors(netlist: &Netlist, stages: &[Stage]) -> Vec<usize> {
+/// The element indices of the FDNR image's termination capacitors.
+fn termination_capacitors(stages: &[Stage]) -> Vec<usize> {
     stages
         .iter()
-        .filter(|s| s.kind == StageKind::Termination)
-        .filter_map(|s| netlist.element_index(s.elements.first()?))
-        .filter(|&i| is_capacitor(netlist, i))
+        .filter_map(|s| match s.handles {
+            Handles::Termination { capacitor, .. } => Some(capacitor),
+            _ => None,
+        })
         .collect()
 }
 
@@ -327,7 +404,10 @@ fn image_level(
         let max = values.iter().copied().fold(f64::NAN, f64::max);
         let min = values.iter().copied().fold(f64::NAN, f64::min);
         PartsSnapError::TerminationsSpread {
-            capacitors: describe_values(netlist, netlist, capacitors),
+            capacitors: capacitors
+                .iter()
+                .map(|&i| netlist.elements[i].name().to_string())
+                .collect(),
             ratio: max / min,
             low_f: choice.capacitor_range_f.0,
             high_f: choice.capacitor_range_f.1,
@@ -398,88 +478,32 @@ fn snap_all(netlist: &mut Netlist, choice: &PartsChoice) -> Result<(), PartsSnap
 fn realized_stages(netlist: &Netlist, stages: &[Stage], converters: &[Converter]) -> Vec<Stage> {
     let mut out = stages.to_vec();
     for stage in &mut out {
-        let first = stage
-            .elements
-            .first()
-            .and_then(|n| netlist.element_index(n));
+        let first = match stage.handles {
+            Handles::Termination { capacitor, .. } => Some(capacitor),
+            Handles::Element(index) => Some(index),
+            Handles::Converter(_) | Handles::Buffer => None,
+        };
         if let Some(i) = first {
             stage.value = value(netlist, i);
         }
     }
     for c in converters {
-        out[c.stage].value = c.chains[0].realized(netlist);
+        if let Some(first) = c.chains.first() {
+            out[c.stage].value = first.realized(netlist);
+        }
     }
     out
 }
 
-/// "C_RS 5.305 nF -> 5.6 nF, ..." for elements `indices`, from `before`
-/// to `after`.
-fn describe_values(before: &Netlist, after: &Netlist, indices: &[usize]) -> String {
-    let farad = |n: &Netlist, i: usize| format_trimmed(value(n, i), "F");
+/// The capacitors `indices` from `before` to `after`.
+fn moved(before: &Netlist, after: &Netlist, indices: &[usize], choice: &PartsChoice) -> Vec<Moved> {
     indices
         .iter()
-        .map(|&i| {
-            let name = after.elements[i].name();
-            let (from, to) = (farad(before, i), farad(after, i));
-            if from == to {
-                format!("{name} {to}")
-            } else {
-                format!("{name} {from} -> {to}")
-            }
+        .map(|&i| Moved {
+            designator: after.elements[i].name().to_string(),
+            from_f: value(before, i),
+            to_f: value(after, i),
+            was_outside_range: !choice.contains(value(before, i)),
         })
-        .collect::<Vec<_>>()
-        .join(", ")
-}
-
-/// One line on how a converter's capacitors were placed.
-fn describe_moves(
-    c: &Converter,
-    moves: Moves,
-    before: &Netlist,
-    after: &Netlist,
-    choice: &PartsChoice,
-) -> String {
-    let mut capacitors: Vec<usize> = Vec::new();
-    for i in c.chains.iter().flat_map(|ch| ch.z) {
-        if is_capacitor(after, i) && !capacitors.contains(&i) {
-            capacitors.push(i);
-        }
-    }
-    let mut line = format!(
-        "{}: {}; impedance level of Z2..Z5 x{:.4}",
-        c.replaces,
-        describe_values(before, after, &capacitors),
-        moves.level
-    );
-    if moves.balance != 1.0 {
-        line += &format!(
-            ", Z1 x{:.4} and Z5 /{:.4} (its Z4:Z5 balance frequency x{:.4})",
-            moves.balance,
-            moves.balance,
-            1.0 / moves.balance
-        );
-    }
-    line += &outside(before, &capacitors, choice);
-    line + "; the value it realizes is unchanged"
-}
-
-/// "; C_RS and C_RL were outside the range [...]" for those of `indices`
-/// whose value in `before` lies outside, or nothing.
-fn outside(before: &Netlist, indices: &[usize], choice: &PartsChoice) -> String {
-    let names: Vec<&str> = indices
-        .iter()
-        .filter(|&&i| !choice.contains(value(before, i)))
-        .map(|&i| before.elements[i].name())
-        .collect();
-    let (low, high) = choice.capacitor_range_f;
-    match names.len() {
-        0 => String::new(),
-        n => format!(
-            "; {} {} outside the range [{}, {}]",
-            names.join(" and "),
-            if n == 1 { "was" } else { "were" },
-            format_trimmed(low, "F"),
-            format_trimmed(high, "F")
-        ),
-    }
+        .collect()
 }

@@ -1,6 +1,7 @@
 //! The converters of an active build seen as GIC chains: the value each
 //! realizes, and the two freedoms that move its capacitors without
-//! changing that value.
+//! changing that value. The parts stage ([`crate::realize`]) rescales,
+//! snaps and trims converters through these.
 //!
 //! # Realized value
 //! A chain Z1..Z5 has Zin = Z1 Z3 Z5 / (Z2 Z4) with ideal op-amps
@@ -32,25 +33,12 @@
 //! A floating inductor is two chains sharing Z5; every freedom applies to
 //! both chains at once, so both keep their value.
 
-use super::PartsSnapError;
-use crate::active::{Stage, StageKind};
-use crate::circuit::{Element, ElementKind, Netlist};
+use crate::circuit::{CircuitError, Element, ElementKind, Netlist};
 
-/// One converter of a build: its stage and its chains (a floating
-/// inductor's two chains share Z5).
-#[derive(Debug, Clone, PartialEq)]
-pub(super) struct Converter {
-    /// Index of its stage in the build.
-    pub stage: usize,
-    /// What the stage replaces.
-    pub replaces: String,
-    /// Its chains.
-    pub chains: Vec<Chain>,
-}
-
-/// One GIC chain and what the trim needs of it.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub(super) struct Chain {
+/// One GIC chain of a converter, by element index in its build's netlist
+/// (typed handles: the parts stage never looks elements up by name).
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct Chain {
     /// Z1..Z5 as element indices.
     pub z: [usize; 5],
     /// The exponent of each in the realized value (see the module
@@ -61,99 +49,58 @@ pub(super) struct Chain {
 }
 
 /// How one converter's capacitors were moved.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub(super) struct Moves {
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct Moves {
     /// The balance-shift factor m (1 when Z1 is a resistor).
     pub balance: f64,
     /// The level factor k (1 without a capacitor in positions 2 to 5).
     pub level: f64,
 }
 
-/// The converters of a build, in stage order.
-pub(super) fn converters(
-    stages: &[Stage],
-    netlist: &Netlist,
-) -> Result<Vec<Converter>, PartsSnapError> {
-    let mut found = Vec::new();
-    for (index, stage) in stages.iter().enumerate() {
-        let replaces = stage.replaces.clone().unwrap_or_default();
-        let fault = |problem: String| PartsSnapError::Contract {
-            stage: replaces.clone(),
-            problem,
-        };
-        let Some(names) = chain_names(stage).map_err(fault)? else {
-            continue;
-        };
-        let mut chains = Vec::new();
-        for chain in names {
-            let mut z = [0; 5];
-            for (slot, name) in z.iter_mut().zip(chain) {
-                *slot = impedance_index(netlist, name).map_err(fault)?;
-            }
-            chains.push(read_chain(netlist, z).map_err(fault)?);
-        }
-        found.push(Converter {
-            stage: index,
-            replaces,
-            chains,
-        });
-    }
-    Ok(found)
-}
-
-/// The chains of a converter stage by element name (`None` for a stage
-/// that is no converter): the order [`crate::active::gic`] places them in.
-fn chain_names(stage: &Stage) -> Result<Option<Vec<[&str; 5]>>, String> {
-    let e: Vec<&str> = stage.elements.iter().map(String::as_str).collect();
-    match (stage.kind, &e[..]) {
-        (StageKind::GroundedInductor | StageKind::Fdnr, &[z1, z2, z3, z4, z5]) => {
-            Ok(Some(vec![[z1, z2, z3, z4, z5]]))
-        }
-        (StageKind::FloatingInductor, &[a1, a2, a3, a4, b1, b2, b3, b4, z5]) => {
-            Ok(Some(vec![[a1, a2, a3, a4, z5], [b1, b2, b3, b4, z5]]))
-        }
-        (StageKind::GroundedInductor | StageKind::Fdnr | StageKind::FloatingInductor, _) => {
-            Err(format!(
-                "a {:?} stage lists {} elements, not its chain Z1..Z5 (9 for a floating inductor)",
-                stage.kind,
-                e.len()
-            ))
-        }
-        _ => Ok(None),
-    }
-}
-
-/// The index of a resistor or capacitor by name.
-fn impedance_index(netlist: &Netlist, name: &str) -> Result<usize, String> {
-    let index = netlist
-        .element_index(name)
-        .ok_or_else(|| format!("its element {name:?} is not in the netlist"))?;
-    match netlist.elements[index].kind() {
-        ElementKind::Resistor | ElementKind::Capacitor => Ok(index),
-        other => Err(format!("its element {name:?} is a {}", other.word())),
-    }
-}
-
 /// Whether element `index` is a capacitor.
-pub(super) fn is_capacitor(netlist: &Netlist, index: usize) -> bool {
+pub fn is_capacitor(netlist: &Netlist, index: usize) -> bool {
     netlist.elements[index].kind() == ElementKind::Capacitor
 }
 
-/// The value of element `index` (a resistor or capacitor, checked when
-/// the converters were read).
-pub(super) fn value(netlist: &Netlist, index: usize) -> f64 {
+/// The value of element `index` (NaN for an element without one, which a
+/// chain never holds: [`Chain::read`] checks its kinds).
+pub fn value(netlist: &Netlist, index: usize) -> f64 {
     netlist.elements[index].value().unwrap_or(f64::NAN)
 }
 
-/// The chain of elements `z`, its exponents and its trimming resistor.
-fn read_chain(netlist: &Netlist, z: [usize; 5]) -> Result<Chain, String> {
-    let exponents = exponents(netlist, &z).ok_or(
-        "its chain has as many capacitors in odd as in even positions, so it realizes no L or D",
-    )?;
-    let capacitor = z.map(|i| is_capacitor(netlist, i));
-    let trim = trim_position(capacitor)
-        .ok_or("its chain has no resistor in positions 1, 2 or 4 to trim it with")?;
-    Ok(Chain { z, exponents, trim })
+impl Chain {
+    /// The chain of elements `z`, its exponents and its trimming resistor;
+    /// `None` when an element is no resistor or capacitor, or the chain
+    /// has as many capacitors in odd as in even positions (it realizes no
+    /// L or D), or no resistor in positions 1, 2 or 4 to trim it with.
+    pub fn read(netlist: &Netlist, z: [usize; 5]) -> Option<Chain> {
+        let plain = z.iter().all(|&i| {
+            matches!(
+                netlist.elements.get(i).map(Element::kind),
+                Some(ElementKind::Resistor | ElementKind::Capacitor)
+            )
+        });
+        if !plain {
+            return None;
+        }
+        let exponents = exponents(netlist, &z)?;
+        let trim = trim_position(z.map(|i| is_capacitor(netlist, i)))?;
+        Some(Chain { z, exponents, trim })
+    }
+
+    /// The value it realizes with ideal op-amps: henry or farad second.
+    pub fn realized(&self, netlist: &Netlist) -> f64 {
+        self.z
+            .iter()
+            .zip(self.exponents)
+            .map(|(&index, e)| value(netlist, index).powi(e))
+            .product()
+    }
+
+    /// The index of its trimming resistor.
+    pub fn trim_element(&self) -> usize {
+        self.z[self.trim]
+    }
 }
 
 /// The position of the trimming resistor: Z1 when it is a resistor,
@@ -187,71 +134,57 @@ fn exponents(netlist: &Netlist, chain: &[usize; 5]) -> Option<[i32; 5]> {
     (sign != 0).then(|| k.map(|e| e * sign))
 }
 
-impl Chain {
-    /// The value it realizes with ideal op-amps: henry or farad second.
-    pub fn realized(&self, netlist: &Netlist) -> f64 {
-        self.z
-            .iter()
-            .zip(self.exponents)
-            .map(|(&index, e)| value(netlist, index).powi(e))
-            .product()
-    }
-}
-
 /// Multiplies the impedance of element `index` by `factor`: R times it,
 /// C divided by it.
-pub(super) fn scale_impedance(
+pub fn scale_impedance(
     netlist: &mut Netlist,
     index: usize,
     factor: f64,
-) -> Result<(), PartsSnapError> {
+) -> Result<(), CircuitError> {
     let v = value(netlist, index);
     let scaled = match netlist.elements[index] {
         Element::Capacitor { .. } => v / factor,
         _ => v * factor,
     };
-    Ok(netlist.set_value(index, scaled)?)
+    netlist.set_value(index, scaled)
 }
 
-impl Converter {
-    /// The shared Z5.
-    fn load(&self) -> usize {
-        self.chains[0].z[4]
-    }
-
-    /// Puts the capacitors of the first chain on the values `place`
-    /// chooses for them (a series value in range), by the balance shift
-    /// for a capacitor Z1 and the level for the first capacitor of Z2..Z5.
-    pub fn place(
-        &self,
-        netlist: &mut Netlist,
-        mut place: impl FnMut(f64) -> Result<f64, PartsSnapError>,
-    ) -> Result<Moves, PartsSnapError> {
-        let mut moves = Moves {
-            balance: 1.0,
-            level: 1.0,
-        };
-        let first = self.chains[0].z;
-        if is_capacitor(netlist, first[0]) {
-            let c = value(netlist, first[0]);
-            moves.balance = c / place(c)?;
-            for chain in &self.chains {
-                scale_impedance(netlist, chain.z[0], moves.balance)?;
-            }
-            scale_impedance(netlist, self.load(), 1.0 / moves.balance)?;
+/// Puts the capacitors of the first of a converter's `chains` (a floating
+/// inductor's two share Z5) on the values `place` chooses for them, by the
+/// balance shift for a capacitor Z1 and the level for the first capacitor
+/// of Z2..Z5; every chain keeps its realized value.
+pub fn place<E: From<CircuitError>>(
+    chains: &[Chain],
+    netlist: &mut Netlist,
+    mut place: impl FnMut(f64) -> Result<f64, E>,
+) -> Result<Moves, E> {
+    let mut moves = Moves {
+        balance: 1.0,
+        level: 1.0,
+    };
+    let Some(first) = chains.first().map(|c| c.z) else {
+        return Ok(moves);
+    };
+    let load = first[4];
+    if is_capacitor(netlist, first[0]) {
+        let c = value(netlist, first[0]);
+        moves.balance = c / place(c)?;
+        for chain in chains {
+            scale_impedance(netlist, chain.z[0], moves.balance)?;
         }
-        if let Some(&cap) = first[1..].iter().find(|&&i| is_capacitor(netlist, i)) {
-            let c = value(netlist, cap);
-            moves.level = c / place(c)?;
-            for chain in &self.chains {
-                for &index in &chain.z[1..4] {
-                    scale_impedance(netlist, index, moves.level)?;
-                }
-            }
-            scale_impedance(netlist, self.load(), moves.level)?;
-        }
-        Ok(moves)
+        scale_impedance(netlist, load, 1.0 / moves.balance)?;
     }
+    if let Some(&cap) = first[1..].iter().find(|&&i| is_capacitor(netlist, i)) {
+        let c = value(netlist, cap);
+        moves.level = c / place(c)?;
+        for chain in chains {
+            for &index in &chain.z[1..4] {
+                scale_impedance(netlist, index, moves.level)?;
+            }
+        }
+        scale_impedance(netlist, load, moves.level)?;
+    }
+    Ok(moves)
 }
 
 #[cfg(test)]
@@ -284,14 +217,14 @@ mod tests {
             };
             n.add(e).unwrap();
         }
-        let c = read_chain(&n, [0, 1, 2, 3, 4]).unwrap();
+        let c = Chain::read(&n, [0, 1, 2, 3, 4]).unwrap();
         (n, c)
     }
 
     /// The exponents reproduce the closed forms of the four converters of
-    /// the GIC relation Zin = Z1 Z3 Z5 / (Z2 Z4) (common practice; the
-    /// field notes, section 4), including the two this crate does not
-    /// build (capacitor in position 4; capacitors in 1 and 3).
+    /// the GIC relation Zin = Z1 Z3 Z5 / (Z2 Z4) (Antoniou 1969, Proc. IEE
+    /// 116; common practice), including the two this crate does not build
+    /// (capacitor in position 4; capacitors in 1 and 3).
     #[test]
     fn realized_values_follow_the_gic_relation() {
         let v = [1.1e3, 2.3e-9, 3.7e3, 4.1e3, 5.3e3];
@@ -326,6 +259,6 @@ mod tests {
             })
             .unwrap();
         }
-        assert!(read_chain(&n, [0, 1, 2, 3, 4]).is_err());
+        assert!(Chain::read(&n, [0, 1, 2, 3, 4]).is_none());
     }
 }

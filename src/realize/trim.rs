@@ -2,7 +2,7 @@
 //! as a fixed resistor in series with a potentiometer.
 //!
 //! The realized value q of a chain is a product of its element values
-//! with exponents +-1 (see `converter`), so with the trim element at R and
+//! with exponents +-1 (see [`crate::active::chain`]), so with the trim element at R and
 //! exponent e, q(R') = q(R) (R'/R)^e: R' = R (q_target/q)^e restores the
 //! target exactly in one step.
 //!
@@ -13,8 +13,8 @@
 //! With zero tolerances this is the series value just below the solved
 //! value and a potentiometer for the rest.
 
-use super::converter::{value, Chain};
-use super::{PartsChoice, PartsSnapError};
+use super::{Buying, PartsChoice, PartsSnapError};
+use crate::active::chain::{value, Chain};
 use crate::circuit::Netlist;
 use crate::parts::Series;
 
@@ -38,6 +38,9 @@ pub struct Trim {
     pub stage: String,
     /// The trimmed resistor.
     pub element: String,
+    /// Its index in the build's netlist.
+    #[serde(skip)]
+    pub index: usize,
     /// The solved value with the snapped parts at their nominal values,
     /// ohm: the value the netlist holds.
     pub value_ohm: f64,
@@ -87,6 +90,7 @@ pub(super) fn solve(
     Ok(Trim {
         stage: stage.to_string(),
         element,
+        index,
         value_ohm,
         fixed_ohm,
         pot_ohm,

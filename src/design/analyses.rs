@@ -1,0 +1,248 @@
+//! The analyses behind a design's documents, each a function a caller can
+//! run alone: chart traces of the three builds, sensitivities and the
+//! Monte Carlo yield of the active on parts build.
+
+use super::{ActiveDesign, Design, DesignError};
+use crate::analysis::{
+    level_traces, monte_carlo, summarize, Mask, MaskVerdict, MonteCarlo, MonteCarloResult, Scope,
+    SensitivitySummary, SummaryPoints, ToleranceRule,
+};
+use crate::circuit::{band_grid, log_grid, AcSystem, CircuitError, Netlist};
+use crate::parts::Tolerance;
+
+/// Points per passband of the worst-case sensitivity search.
+pub const SENSITIVITY_POINTS: usize = 50;
+
+/// Points of the response charts.
+const CHART_POINTS: usize = 600;
+
+/// Points of the Monte Carlo frequency grid (the mask edges are added).
+pub const MONTE_CARLO_POINTS: usize = 200;
+
+/// How many of the worst trials a run reports.
+pub const WORST_TRIALS: usize = 5;
+
+/// Without a stopband edge in the design file, sensitivities "at the
+/// stopband edge" are taken where the normalized prototype is at twice
+/// its passband edge: a point of the transition band every family has.
+const STOPBAND_REFERENCE_RAD_S: f64 = 2.0;
+
+/// One build's response over the chart grid.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct BuildTrace {
+    /// Gain, dB.
+    pub gain_db: Vec<f64>,
+    /// Phase, degrees, unwrapped.
+    pub phase_deg: Vec<f64>,
+    /// Group delay, s, exact (one more solve per point); `None` at an
+    /// exact transmission zero, where it is undefined.
+    pub group_delay_s: Vec<Option<f64>>,
+}
+
+/// The responses the charts draw.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct ChartTraces {
+    /// Chart frequencies, Hz.
+    pub freq_hz: Vec<f64>,
+    /// The passive ideal.
+    pub passive_ideal: BuildTrace,
+    /// The active exact build.
+    pub active_exact: BuildTrace,
+    /// The active on parts build.
+    pub active_on_parts: BuildTrace,
+    /// Gain from the input to each op-amp output of the active on parts
+    /// build, dB, by designator, in netlist order.
+    pub opamp_gain_db: Vec<(String, Vec<f64>)>,
+}
+
+/// Everything the documents show beyond the builds themselves.
+#[derive(Debug, Clone)]
+pub struct Analyses {
+    /// The chart responses.
+    pub traces: ChartTraces,
+    /// Sensitivities of the active on parts build.
+    pub sensitivity: Vec<SensitivitySummary>,
+    /// The Monte Carlo run of the active on parts build.
+    pub montecarlo: MonteCarloResult,
+    /// The active exact build against the specification.
+    pub active_exact_verdict: MaskVerdict,
+    /// The active on parts build against the specification, nominal parts
+    /// (the headline).
+    pub active_on_parts_verdict: MaskVerdict,
+}
+
+/// Gain, phase and exact group delay of `netlist` at `freq_hz`.
+fn trace(netlist: &Netlist, freq_hz: &[f64]) -> Result<BuildTrace, CircuitError> {
+    let (inp, out) = (netlist.require_node("in")?, netlist.require_node("out")?);
+    let mut system = AcSystem::new(netlist)?;
+    let response = system.sweep(freq_hz, out, inp)?;
+    let group_delay_s = freq_hz
+        .iter()
+        .map(|&f| match system.group_delay(f, out, inp) {
+            Ok(tau) => Ok(Some(tau)),
+            Err(CircuitError::ZeroVoltage { .. }) => Ok(None),
+            Err(e) => Err(e),
+        })
+        .collect::<Result<_, _>>()?;
+    Ok(BuildTrace {
+        gain_db: response.db(),
+        phase_deg: response.phase_deg(),
+        group_delay_s,
+    })
+}
+
+impl Design {
+    /// The responses of the three builds over the chart grid, and the
+    /// op-amp output levels of the active on parts build.
+    pub fn chart_traces(&self, active: &ActiveDesign) -> Result<ChartTraces, DesignError> {
+        let (lo, hi) = self.view_hz();
+        let grid = log_grid(lo, hi, CHART_POINTS).map_err(|cause| self.circuit_error(cause))?;
+        self.traces(active, grid)
+    }
+
+    /// The responses of the three builds at `freq_hz` (ascending, Hz), and
+    /// the op-amp output levels of the active on parts build.
+    pub fn traces(
+        &self,
+        active: &ActiveDesign,
+        freq_hz: Vec<f64>,
+    ) -> Result<ChartTraces, DesignError> {
+        let circuit = |cause| self.circuit_error(cause);
+        let parts = &active.on_parts.netlist;
+        let inp = parts.require_node("in").map_err(circuit)?;
+        let mut system = AcSystem::new(parts).map_err(circuit)?;
+        let levels = &active.on_parts_figures.levels;
+        let traces = level_traces(&mut system, inp, &freq_hz, levels)
+            .map_err(|cause| self.analysis_error(cause))?;
+        Ok(ChartTraces {
+            passive_ideal: trace(&self.passive, &freq_hz).map_err(circuit)?,
+            active_exact: trace(&active.build.netlist, &freq_hz).map_err(circuit)?,
+            active_on_parts: trace(parts, &freq_hz).map_err(circuit)?,
+            opamp_gain_db: levels.iter().map(|l| l.name.clone()).zip(traces).collect(),
+            freq_hz,
+        })
+    }
+
+    /// Sensitivities of `netlist` (a build of this design) to every part
+    /// and op-amp GBW: at the passband edge(s), the worst over the
+    /// passband, and at the stopband edge(s).
+    pub fn sensitivity(&self, netlist: &Netlist) -> Result<Vec<SensitivitySummary>, DesignError> {
+        let circuit = |cause| self.circuit_error(cause);
+        let (inp, out) = (
+            netlist.require_node("in").map_err(circuit)?,
+            netlist.require_node("out").map_err(circuit)?,
+        );
+        let mut system = AcSystem::new(netlist).map_err(circuit)?;
+        let band = &self.spec.band;
+        let stopband_edges_hz = match band.stopband_edges_hz() {
+            edges if edges.is_empty() => band.frequencies_hz(STOPBAND_REFERENCE_RAD_S),
+            edges => edges,
+        };
+        let points = SummaryPoints {
+            passband_edges_hz: band.passband_edges_hz(),
+            passband_hz: band_grid(&self.passbands_hz(), SENSITIVITY_POINTS).map_err(circuit)?,
+            stopband_edges_hz,
+        };
+        summarize(&mut system, out, inp, &points).map_err(|cause| self.analysis_error(cause))
+    }
+
+    /// The Monte Carlo frequency grid: log-spaced over the view, with every
+    /// mask edge added so each limit is sampled where it is tightest.
+    pub fn monte_carlo_grid(&self) -> Result<Vec<f64>, DesignError> {
+        let (lo, hi) = self.view_hz();
+        let mut grid =
+            log_grid(lo, hi, MONTE_CARLO_POINTS).map_err(|cause| self.circuit_error(cause))?;
+        for l in self.mask_limits() {
+            grid.extend([l.from_hz, l.to_hz]);
+        }
+        grid.sort_by(f64::total_cmp);
+        grid.dedup();
+        Ok(grid)
+    }
+
+    /// The tolerance rules of the design file: every resistor, every
+    /// capacitor, every op-amp's gain-bandwidth (an active build has no
+    /// inductor to vary).
+    pub fn tolerance_rules(&self) -> Result<Vec<ToleranceRule>, DesignError> {
+        let p = &self.spec.parts;
+        let rule = |scope, relative| {
+            Tolerance::new(relative, p.distribution)
+                .map(|tolerance| ToleranceRule { scope, tolerance })
+                .map_err(|e| {
+                    DesignError::Spec(crate::spec::SpecError::Invalid {
+                        file: self.spec.file.clone(),
+                        key: "parts",
+                        got: relative.to_string(),
+                        expected: e.to_string(),
+                    })
+                })
+        };
+        Ok(vec![
+            rule(Scope::Resistors, p.resistor_tolerance)?,
+            rule(Scope::Capacitors, p.capacitor_tolerance)?,
+            rule(Scope::OpAmpGbw, self.spec.montecarlo.gbw_spread)?,
+        ])
+    }
+
+    /// The Monte Carlo yield of `netlist` (a build of this design) against
+    /// the specification, with the design file's tolerances, and `trials`
+    /// and `seed`. Runs on the current rayon pool; `progress` is told how
+    /// many trials are done.
+    pub fn monte_carlo(
+        &self,
+        netlist: &Netlist,
+        trials: usize,
+        seed: u64,
+        progress: Option<&(dyn Fn(usize) + Sync)>,
+    ) -> Result<MonteCarloResult, DesignError> {
+        let circuit = |cause| self.circuit_error(cause);
+        let analysis = |cause| self.analysis_error(cause);
+        let mask = Mask::new(self.mask_limits()).map_err(analysis)?;
+        let freqs = self.monte_carlo_grid()?;
+        let rules = self.tolerance_rules()?;
+        let system = AcSystem::new(netlist).map_err(circuit)?;
+        let setup = MonteCarlo {
+            out: netlist.require_node("out").map_err(circuit)?,
+            inp: netlist.require_node("in").map_err(circuit)?,
+            freqs_hz: &freqs,
+            rules: &rules,
+            mask: &mask,
+            trials,
+            seed,
+            worst: WORST_TRIALS,
+        };
+        monte_carlo(&system, &setup, progress).map_err(analysis)
+    }
+
+    /// How `netlist` (a build of this design) stands against the
+    /// specification, on the Monte Carlo grid.
+    pub fn verdict(&self, netlist: &Netlist) -> Result<MaskVerdict, DesignError> {
+        let circuit = |cause| self.circuit_error(cause);
+        let freqs = self.monte_carlo_grid()?;
+        let (inp, out) = (
+            netlist.require_node("in").map_err(circuit)?,
+            netlist.require_node("out").map_err(circuit)?,
+        );
+        let db = AcSystem::new(netlist)
+            .and_then(|mut s| s.sweep(&freqs, out, inp))
+            .map_err(circuit)?
+            .db();
+        Mask::new(self.mask_limits())
+            .and_then(|m| m.verdict(&freqs, &db))
+            .map_err(|cause| self.analysis_error(cause))
+    }
+
+    /// Every analysis the documents need, on the active on parts build
+    /// (what is soldered), with the design file's Monte Carlo run.
+    pub fn analyses(&self, active: &ActiveDesign) -> Result<Analyses, DesignError> {
+        let mc = &self.spec.montecarlo;
+        let parts = &active.on_parts.netlist;
+        Ok(Analyses {
+            traces: self.chart_traces(active)?,
+            sensitivity: self.sensitivity(parts)?,
+            montecarlo: self.monte_carlo(parts, mc.trials, mc.seed, None)?,
+            active_exact_verdict: self.verdict(&active.build.netlist)?,
+            active_on_parts_verdict: self.verdict(parts)?,
+        })
+    }
+}

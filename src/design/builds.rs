@@ -1,0 +1,140 @@
+//! The two active builds of a design, each measured against the passive
+//! ideal: the active exact build (converters with exact values) and the
+//! active on parts build (preferred values, trimmed), which is what gets
+//! soldered and so what the headline figures describe.
+
+use super::{Design, DesignError};
+use crate::active::{self, ActiveBuild, Options};
+use crate::analysis::{compare, opamp_levels, ComparePoints, Comparison, OpAmpLevel, LEVEL_POINTS};
+use crate::circuit::{band_grid, log_grid, AcSystem, Netlist};
+use crate::realize::{snap_build, SnappedBuild};
+
+/// How one build compares with the passive ideal, and its op-amp levels.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct BuildFigures {
+    /// Deviation, edge shifts and stopband gains against the passive
+    /// ideal.
+    pub comparison: Comparison,
+    /// Peak gain from the input to every op-amp output, and the input
+    /// level the design file's swing allows.
+    pub levels: Vec<OpAmpLevel>,
+}
+
+impl BuildFigures {
+    /// The op-amp whose output swings highest (the one that clips first),
+    /// if the build has any.
+    pub fn highest_level(&self) -> Option<&OpAmpLevel> {
+        self.levels
+            .iter()
+            .max_by(|a, b| a.peak_gain_db.total_cmp(&b.peak_gain_db))
+    }
+}
+
+/// The active builds of a design and their figures.
+#[derive(Debug, Clone)]
+pub struct ActiveDesign {
+    /// The active exact build.
+    pub build: ActiveBuild,
+    /// The active on parts build: preferred values, trimmed.
+    pub on_parts: SnappedBuild,
+    /// The active exact build against the passive ideal.
+    pub exact_figures: BuildFigures,
+    /// The active on parts build against the passive ideal (the headline).
+    pub on_parts_figures: BuildFigures,
+}
+
+impl Design {
+    /// The realization options of the design file: where the converters
+    /// are balanced (see [`crate::transform::Band::balance_hz`]), the
+    /// method, the op-amp model, the passbands.
+    pub fn active_options(&self) -> Options {
+        Options {
+            method: self.spec.active.method,
+            opamp: self.spec.opamp.model,
+            balance_hz: self.spec.band.balance_hz(),
+            optimize: self.spec.active.optimize,
+            passband_hz: self.passbands_hz(),
+            ..Options::new(1.0)
+        }
+    }
+
+    /// Where builds are compared with the passive ideal.
+    pub fn compare_points(&self) -> Result<ComparePoints, DesignError> {
+        Ok(ComparePoints {
+            passband_grid_hz: band_grid(&self.passbands_hz(), active::PASSBAND_POINTS)
+                .map_err(|cause| self.circuit_error(cause))?,
+            passband_edges_hz: self.spec.band.passband_edges_hz(),
+            stopband_edges_hz: self.spec.band.stopband_edges_hz(),
+            passband_level_db: self.passband_level_db(),
+        })
+    }
+
+    /// Builds the active exact network the design file asks for, puts it
+    /// on real parts, and measures both against the passive ideal.
+    pub fn active(&self) -> Result<ActiveDesign, DesignError> {
+        let file = || self.spec.file.clone();
+        let opts = self.active_options();
+        let build = active::realize(&self.passive, &opts).map_err(|cause| DesignError::Active {
+            file: file(),
+            cause,
+        })?;
+        let on_parts = snap_build(&self.passive, &build, &self.spec.parts, &opts.passband_hz)
+            .map_err(|cause| DesignError::Parts {
+                file: file(),
+                cause,
+            })?;
+        let points = self.compare_points()?;
+        Ok(ActiveDesign {
+            exact_figures: self.figures(&build.netlist, &points)?,
+            on_parts_figures: self.figures(&on_parts.netlist, &points)?,
+            build,
+            on_parts,
+        })
+    }
+
+    /// One build's figures.
+    fn figures(
+        &self,
+        netlist: &Netlist,
+        points: &ComparePoints,
+    ) -> Result<BuildFigures, DesignError> {
+        let (lo, hi) = self.view_hz();
+        let grid = log_grid(lo, hi, LEVEL_POINTS).map_err(|cause| self.circuit_error(cause))?;
+        Ok(BuildFigures {
+            comparison: compare(&self.passive, netlist, points)
+                .map_err(|cause| self.analysis_error(cause))?,
+            levels: self.levels(netlist, &grid)?,
+        })
+    }
+
+    /// Peak gain from the input to every op-amp output of `netlist` over
+    /// `freq_hz`, and the input level the design file's swing allows.
+    pub fn levels(
+        &self,
+        netlist: &Netlist,
+        freq_hz: &[f64],
+    ) -> Result<Vec<OpAmpLevel>, DesignError> {
+        let inp = netlist
+            .require_node("in")
+            .map_err(|cause| self.circuit_error(cause))?;
+        let mut system = AcSystem::new(netlist).map_err(|cause| self.circuit_error(cause))?;
+        opamp_levels(&mut system, inp, freq_hz, self.spec.opamp.swing_v)
+            .map_err(|cause| self.analysis_error(cause))
+    }
+
+    /// A circuit failure, naming the design file.
+    pub(super) fn circuit_error(&self, cause: crate::circuit::CircuitError) -> DesignError {
+        DesignError::Circuit {
+            file: self.spec.file.clone(),
+            cause,
+        }
+    }
+
+    /// An analysis failure, naming the design file.
+    pub(super) fn analysis_error(&self, cause: crate::analysis::AnalysisError) -> DesignError {
+        DesignError::Analysis {
+            file: self.spec.file.clone(),
+            cause,
+        }
+    }
+}

@@ -1,0 +1,47 @@
+//! The minimum order of every family for a mask (the `order` command).
+
+use crate::approx::{self, ApproxError, Family};
+use crate::synth;
+use crate::transform::Band;
+
+/// Every family, in the order a table lists them.
+pub const FAMILIES: [Family; 3] = [Family::Butterworth, Family::Chebyshev, Family::Elliptic];
+
+/// One family's minimum order for a mask.
+#[derive(Debug, Clone, PartialEq)]
+pub struct OrderRow {
+    /// The family.
+    pub family: Family,
+    /// Its minimum order, or why there is none.
+    pub order: Result<usize, ApproxError>,
+    /// The highest order its ladder synthesis holds
+    /// ([`synth::max_order`]).
+    pub synthesis_max_order: usize,
+}
+
+/// The minimum orders of every family for one mask.
+#[derive(Debug, Clone, PartialEq)]
+pub struct OrderTable {
+    /// The normalized lowpass stopband edge the mask maps to, rad/s.
+    pub normalized_stopband_rad_s: f64,
+    /// One row per family.
+    pub rows: Vec<OrderRow>,
+}
+
+/// The minimum order of every family for `band` (which must have a
+/// stopband edge; without one the normalized edge is infinite and every
+/// family needs order 1) with these ripple and attenuation.
+pub fn order_table(band: &Band, ripple_db: f64, attenuation_db: f64) -> OrderTable {
+    let ws = band.normalized_stopband().unwrap_or(f64::INFINITY);
+    OrderTable {
+        normalized_stopband_rad_s: ws,
+        rows: FAMILIES
+            .iter()
+            .map(|&family| OrderRow {
+                family,
+                order: approx::min_order(family, ws, ripple_db, attenuation_db),
+                synthesis_max_order: synth::max_order(family),
+            })
+            .collect(),
+    }
+}

@@ -1,0 +1,172 @@
+//! The charts of a design, as plain [`Chart`] data drawn by
+//! [`super::plot`]: magnitude with the specification mask, passband
+//! detail, phase, group delay, op-amp levels and the Monte Carlo envelope.
+//! Every trace is labelled with the build it belongs to.
+
+use super::plot::{Band, Chart, MaskBox, Trace};
+use crate::design::{Build, BuildTrace, Documents};
+
+/// How far below the passband level the magnitude charts reach, dB.
+const CHART_FLOOR_DB: f64 = 120.0;
+
+/// How far above the passband level the magnitude charts reach, dB.
+const CHART_CEILING_DB: f64 = 5.0;
+
+/// The smallest ripple the passband chart is scaled to, dB, so that a
+/// Butterworth or a 0.01 dB design still shows its deviations.
+const MIN_CHART_RIPPLE_DB: f64 = 0.05;
+
+/// One chart of a design: its file stem, its caption, the chart.
+pub struct NamedChart {
+    /// File stem ("magnitude").
+    pub stem: &'static str,
+    /// Caption in the report.
+    pub caption: &'static str,
+    /// The chart.
+    pub chart: Chart,
+}
+
+/// The specification mask as shaded boxes.
+fn mask_boxes(d: &Documents) -> Vec<MaskBox> {
+    d.mask
+        .iter()
+        .map(|l| MaskBox {
+            from_hz: l.from_hz,
+            to_hz: l.to_hz,
+            min_db: Some(l.min_db).filter(|v| v.is_finite()),
+            max_db: Some(l.max_db).filter(|v| v.is_finite()),
+        })
+        .collect()
+}
+
+/// Every chart of a design, in the order the report shows them.
+pub fn design_charts(d: &Documents) -> Vec<NamedChart> {
+    let t = &d.analyses.traces;
+    let f = &t.freq_hz;
+    let trace = |label: String, values: Vec<f64>, dashed: bool| Trace {
+        label,
+        freq_hz: f.clone(),
+        values,
+        dashed,
+    };
+    let three = |pick: &dyn Fn(&BuildTrace) -> Vec<f64>| {
+        vec![
+            trace(
+                Build::PassiveIdeal.to_string(),
+                pick(&t.passive_ideal),
+                false,
+            ),
+            trace(Build::ActiveExact.to_string(), pick(&t.active_exact), true),
+            // Both active builds dashed, so the passive ideal they are
+            // measured against shows through wherever they coincide.
+            trace(
+                Build::ActiveOnParts.to_string(),
+                pick(&t.active_on_parts),
+                true,
+            ),
+        ]
+    };
+    let base = |title: &str, y: &str| Chart {
+        title: title.to_string(),
+        x_label: "frequency (Hz)".to_string(),
+        y_label: y.to_string(),
+        log_x: true,
+        ..Chart::default()
+    };
+    let level = d.report.passband_level_db;
+    let ripple = d
+        .mask
+        .iter()
+        .filter(|l| l.min_db.is_finite())
+        .map(|l| level - l.min_db)
+        .fold(0.0, f64::max)
+        .max(MIN_CHART_RIPPLE_DB);
+    let pass = d.report.band.passbands_hz(d.view_hz);
+    let (plo, phi) = pass
+        .iter()
+        .fold((f64::INFINITY, 0.0_f64), |(lo, hi), [a, b]| {
+            (lo.min(*a), hi.max(*b))
+        });
+    let magnitude_range = Some((level - CHART_FLOOR_DB, level + CHART_CEILING_DB));
+    let gain = |b: &BuildTrace| b.gain_db.clone();
+    let delay_ms = |b: &BuildTrace| {
+        b.group_delay_s
+            .iter()
+            .map(|d| d.map_or(f64::NAN, |s| s * 1e3))
+            .collect()
+    };
+    let mc = &d.analyses.montecarlo;
+    vec![
+        NamedChart {
+            stem: "magnitude",
+            caption: "Magnitude of the three builds, with the specification mask",
+            chart: Chart {
+                traces: three(&gain),
+                mask: mask_boxes(d),
+                y_range: magnitude_range,
+                ..base("Magnitude", "gain (dB)")
+            },
+        },
+        NamedChart {
+            stem: "passband",
+            caption: "Passband detail of the three builds, with the ripple limit",
+            chart: Chart {
+                traces: three(&gain),
+                mask: mask_boxes(d),
+                x_range: Some((plo, phi)),
+                y_range: Some((level - 2.0 * ripple, level + 0.5 * ripple)),
+                ..base("Passband detail", "gain (dB)")
+            },
+        },
+        NamedChart {
+            stem: "phase",
+            caption: "Phase of the three builds",
+            chart: Chart {
+                traces: three(&|b: &BuildTrace| b.phase_deg.clone()),
+                ..base("Phase", "phase (degrees)")
+            },
+        },
+        NamedChart {
+            stem: "delay",
+            caption: "Group delay of the three builds (exact, not a difference of phases)",
+            chart: Chart {
+                traces: three(&delay_ms),
+                ..base("Group delay", "delay (ms)")
+            },
+        },
+        NamedChart {
+            stem: "levels",
+            caption: "Gain from the input to every op-amp output of the active on parts build",
+            chart: Chart {
+                traces: t
+                    .opamp_gain_db
+                    .iter()
+                    .map(|(n, v)| trace(n.clone(), v.clone(), false))
+                    .collect(),
+                ..base("Op-amp output levels, active on parts", "gain to output (dB)")
+            },
+        },
+        NamedChart {
+            stem: "montecarlo",
+            caption: "Monte Carlo envelope of the active on parts build (min, median, max), with the specification mask",
+            chart: Chart {
+                traces: vec![Trace {
+                    label: format!("{}, nominal parts", Build::ActiveOnParts),
+                    freq_hz: mc.freq_hz.clone(),
+                    values: mc.nominal_db.clone(),
+                    dashed: true,
+                }],
+                band: Some(Band {
+                    label: format!("{} boards", mc.per_trial.len()),
+                    freq_hz: mc.freq_hz.clone(),
+                    min: mc.envelope.min_db.clone(),
+                    median: mc.envelope.median_db.clone(),
+                    max: mc.envelope.max_db.clone(),
+                }),
+                mask: mask_boxes(d),
+                y_range: magnitude_range,
+                ..base("Monte Carlo envelope, active on parts", "gain (dB)")
+            },
+        },
+    ]
+}

@@ -1,0 +1,198 @@
+//! The files of an output set, made in memory first, and written so that
+//! a folder never holds half of a set: every file goes to a temporary
+//! name in the folder, and only when all are written are they renamed
+//! into place.
+
+use super::bom::{bom_csv, design_rows, BomError};
+use super::charts::design_charts;
+use super::html::Figure;
+use super::page::design_page;
+use super::plot::{self, PlotError, PngOutput};
+use super::spice::{deck, AcSweep, SpiceError};
+use super::tables::{envelope_csv, sensitivity_csv};
+use crate::design::{Build, Documents};
+use crate::realize::{soldered, PartsSnapError};
+use std::io::Write as _;
+use std::path::{Path, PathBuf};
+
+/// Resolution of the `.ac` line in exported decks: fine enough to see
+/// every elliptic notch of a 16th-order design on a plot.
+pub const DECK_POINTS_PER_DECADE: usize = 100;
+
+/// Size of a standalone chart, pixels.
+const CHART_SIZE: (u32, u32) = (800, 500);
+
+/// Size of a chart inside the report: two to a printed row stay legible.
+const REPORT_CHART_SIZE: (u32, u32) = (640, 400);
+
+/// One output file: its name inside the output folder and its contents.
+#[derive(Debug, Clone, PartialEq)]
+pub struct OutputFile {
+    /// File name, e.g. `passive.cir`.
+    pub name: String,
+    /// Contents.
+    pub bytes: Vec<u8>,
+}
+
+/// Why an output could not be rendered (a program fault: the report data
+/// comes from the pipeline's own checked stages).
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum ExportError {
+    /// A SPICE deck.
+    #[error("writing a SPICE deck: {0}")]
+    Spice(#[from] SpiceError),
+    /// A chart.
+    #[error("drawing a chart: {0}")]
+    Plot(#[from] PlotError),
+    /// The bill of materials.
+    #[error("the bill of materials: {0}")]
+    Bom(#[from] BomError),
+    /// The report as JSON.
+    #[error("the JSON report: {0}")]
+    Json(#[from] serde_json::Error),
+    /// The build as soldered.
+    #[error("the build as soldered: {0}")]
+    Soldered(#[from] PartsSnapError),
+}
+
+/// The charts (SVG, and PNG where a TrueType font is found), the Monte
+/// Carlo envelope, the sensitivities, the bill of materials and the HTML
+/// report.
+pub fn document_files(d: &Documents) -> Result<Vec<OutputFile>, ExportError> {
+    let mut files = Vec::new();
+    let mut figures = Vec::new();
+    for c in design_charts(d) {
+        let svg = plot::svg(&c.chart, CHART_SIZE.0, CHART_SIZE.1)?;
+        files.push(file(&format!("{}.svg", c.stem), svg.into_bytes()));
+        if let PngOutput::Image { bytes, .. } = plot::png(&c.chart, CHART_SIZE.0, CHART_SIZE.1)? {
+            files.push(file(&format!("{}.png", c.stem), bytes));
+        }
+        figures.push(Figure {
+            caption: c.caption.to_string(),
+            svg: plot::svg(&c.chart, REPORT_CHART_SIZE.0, REPORT_CHART_SIZE.1)?,
+        });
+    }
+    let bom = design_rows(&d.report, &d.passive_ideal, &d.active_on_parts, &d.stages);
+    files.push(file("bom.csv", bom_csv(&bom)?.into_bytes()));
+    files.push(file(
+        "montecarlo.csv",
+        envelope_csv(&d.analyses.montecarlo).into_bytes(),
+    ));
+    files.push(file(
+        "sensitivity.csv",
+        sensitivity_csv(Build::ActiveOnParts, &d.analyses.sensitivity).into_bytes(),
+    ));
+    files.push(file(
+        "report.html",
+        design_page(d, figures, &bom).into_bytes(),
+    ));
+    Ok(files)
+}
+
+/// Every file of a design: the decks of the three builds (`passive.cir`
+/// the passive ideal, `active.cir` the active exact build, `built.cir`
+/// the active on parts build as soldered, element for element what
+/// `bom.csv` lists), the JSON report and the [`document_files`].
+pub fn design_files(d: &Documents) -> Result<Vec<OutputFile>, ExportError> {
+    let (start_hz, stop_hz) = d.view_hz;
+    let sweep = AcSweep {
+        points_per_decade: DECK_POINTS_PER_DECADE,
+        start_hz,
+        stop_hz,
+    };
+    let trims = d
+        .report
+        .active
+        .as_ref()
+        .map(|a| a.trims.as_slice())
+        .unwrap_or_default();
+    let mut exact = d.active_exact.clone();
+    exact.title = format!("nocoil {}: {}", Build::ActiveExact, d.report.design_file);
+    let mut built = soldered(&d.active_on_parts, trims)?;
+    built.title = format!(
+        "nocoil {} (fixed resistors and trimmers as set): {}",
+        Build::ActiveOnParts,
+        d.report.design_file
+    );
+    let mut files = vec![
+        file("passive.cir", deck(&d.passive_ideal, &sweep)?.into_bytes()),
+        file("active.cir", deck(&exact, &sweep)?.into_bytes()),
+        file("built.cir", deck(&built, &sweep)?.into_bytes()),
+        file(
+            "report.json",
+            serde_json::to_string_pretty(&d.report)?.into_bytes(),
+        ),
+    ];
+    files.extend(document_files(d)?);
+    Ok(files)
+}
+
+fn file(name: &str, bytes: Vec<u8>) -> OutputFile {
+    OutputFile {
+        name: name.to_string(),
+        bytes,
+    }
+}
+
+/// Why an output folder cannot take an output set.
+#[derive(Debug, thiserror::Error)]
+#[error("--out {}: cannot write there ({cause}); give a folder you may create and write", dir.display())]
+pub struct OutDirError {
+    /// The folder.
+    pub dir: PathBuf,
+    /// Why.
+    pub cause: std::io::Error,
+}
+
+/// Checks, before anything is computed and without leaving anything
+/// behind, that `dir` can take an output set: it is a folder a file can be
+/// written in, or it does not exist yet and its nearest existing parent
+/// is such a folder (where it will be created).
+pub fn prepare_out_dir(dir: &Path) -> Result<(), OutDirError> {
+    let fail = |cause| OutDirError {
+        dir: dir.to_path_buf(),
+        cause,
+    };
+    let absolute = std::path::absolute(dir).map_err(fail)?;
+    let existing = absolute
+        .ancestors()
+        .find(|p| p.exists())
+        .unwrap_or(Path::new("/"));
+    if !existing.is_dir() {
+        return Err(fail(std::io::Error::new(
+            std::io::ErrorKind::NotADirectory,
+            format!("{} is not a folder", existing.display()),
+        )));
+    }
+    // A probe file, removed when dropped.
+    tempfile::NamedTempFile::new_in(existing).map_err(fail)?;
+    Ok(())
+}
+
+/// Writes the set `files` into `dir`: all to temporary files first, then
+/// each renamed into place, so a failure while writing leaves none of the
+/// set behind.
+pub fn write_set(dir: &Path, files: &[OutputFile]) -> std::io::Result<()> {
+    std::fs::create_dir_all(dir)?;
+    let mut staged = Vec::with_capacity(files.len());
+    for f in files {
+        let mut tmp = tempfile::NamedTempFile::new_in(dir)?;
+        tmp.write_all(&f.bytes)?;
+        // The temporary file is created private (0600); an output is an
+        // ordinary file, readable by others as one written directly would
+        // be.
+        #[cfg(unix)]
+        {
+            use std::os::unix::fs::PermissionsExt;
+            tmp.as_file()
+                .set_permissions(std::fs::Permissions::from_mode(0o644))?;
+        }
+        tmp.as_file().sync_all()?;
+        staged.push((tmp, dir.join(&f.name)));
+    }
+    for (tmp, path) in staged {
+        tmp.persist(path).map_err(|e| e.error)?;
+    }
+    Ok(())
+}

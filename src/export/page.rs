@@ -1,0 +1,266 @@
+//! The one-page HTML report of a design, as [`ReportDoc`] data for
+//! [`super::html::html_report`]: the verdict on the active on parts build
+//! first, then the builds side by side, the charts and the tables.
+
+use super::bom::{tally, BomRow};
+use super::eng::format_trimmed as eng;
+use super::html::{html_report, Figure, ReportDoc, Table};
+use super::prose::{db, factor, opamp_model};
+use super::summary::{edges, verdict_line};
+use crate::analysis::Parameter;
+use crate::design::{Build, Documents};
+
+/// The cautions every report carries.
+pub const CAUTIONS: [&str; 3] = [
+    "These results are a design aid: a prototype built from real parts must be measured against the specification before the design is released.",
+    "Mains-powered or safety-related equipment follows local codes and licensed practice; nothing here replaces them.",
+    "The op-amp model is single-pole; slew rate, noise, output current and input bias are not simulated.",
+];
+
+/// The report page, with the charts as SVG `figures` and the bill of
+/// materials `bom`.
+pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> String {
+    let r = &d.report;
+    let a = &d.analyses;
+    let mc = &a.montecarlo;
+    let mut summary = vec![
+        (
+            "verdict".to_string(),
+            verdict_line(Build::ActiveOnParts, &a.active_on_parts_verdict),
+        ),
+        (
+            "yield".to_string(),
+            format!(
+                "{}: {} of {} boards meet the specification ({:.1} %), Monte Carlo seed {}",
+                Build::ActiveOnParts,
+                mc.passed,
+                mc.per_trial.len(),
+                100.0 * mc.yield_fraction,
+                d.seed
+            ),
+        ),
+        (
+            "active exact".to_string(),
+            verdict_line(Build::ActiveExact, &a.active_exact_verdict),
+        ),
+        ("design file".to_string(), r.design_file.clone()),
+        (
+            "filter".to_string(),
+            format!(
+                "{} {}, order {}; passband edge {}",
+                r.family.map_or("table".to_string(), |f| f.to_string()),
+                r.kind,
+                r.order,
+                edges(&r.band.passband_edges_hz())
+            ),
+        ),
+        (
+            "form".to_string(),
+            format!(
+                "{}; {} ladder",
+                r.variant
+                    .map_or("tabulated ladder".to_string(), |v| v.to_string()),
+                r.form
+            ),
+        ),
+        (
+            "terminations".to_string(),
+            format!("{} / {}", eng(r.source_ohm, "ohm"), eng(r.load_ohm, "ohm")),
+        ),
+    ];
+    let mut tables = Vec::new();
+    let mut notes = Vec::new();
+    if let Some(act) = &r.active {
+        summary.push((
+            "active builds".to_string(),
+            format!(
+                "{}: {} op-amps, {} capacitors (spread {}); {}; {}",
+                act.method,
+                act.opamps,
+                act.capacitors,
+                factor(act.capacitor_spread),
+                opamp_model(&act.opamp),
+                match act.stable {
+                    Some(true) => "stable",
+                    Some(false) => "UNSTABLE",
+                    None => "stability not judged with ideal op-amps",
+                }
+            ),
+        ));
+        summary.push(("why".to_string(), act.why.to_string()));
+        for (build, f) in [
+            (Build::ActiveExact, &act.active_exact),
+            (Build::ActiveOnParts, &act.active_on_parts),
+        ] {
+            let c = &f.comparison;
+            summary.push((
+                format!("{build}: passband deviation"),
+                format!("{} dB from the passive ideal", db(c.passband_deviation_db)),
+            ));
+            for (hz, g) in c.stopband_edge_hz.iter().zip(&c.stopband_edge_gain_db) {
+                summary.push((
+                    format!("{build}: attenuation at {}", eng(*hz, "Hz")),
+                    format!("{} dB", db(-g)),
+                ));
+            }
+        }
+        let e = &act.parts_error_db;
+        summary.push((
+            format!("{}: parts steps", Build::ActiveOnParts),
+            format!(
+                "passband deviation {} dB after rescaling, {} dB on preferred values, {} dB trimmed",
+                db(e.ideal_values),
+                db(e.snapped),
+                db(e.trimmed)
+            ),
+        ));
+        tables.push(Table {
+            caption: format!(
+                "Trims of the {} build (set each trimmer to its setting, then check the response)",
+                Build::ActiveOnParts
+            ),
+            header: [
+                "trimmed resistor",
+                "converter for",
+                "solved value",
+                "fixed",
+                "trimmer",
+                "setting",
+            ]
+            .map(String::from)
+            .to_vec(),
+            rows: act
+                .trims
+                .iter()
+                .map(|t| {
+                    vec![
+                        t.element.clone(),
+                        t.stage.clone(),
+                        eng(t.value_ohm, "ohm"),
+                        eng(t.fixed_ohm, "ohm"),
+                        eng(t.pot_ohm, "ohm"),
+                        eng(t.setting_ohm, "ohm"),
+                    ]
+                })
+                .collect(),
+        });
+        tables.push(Table {
+            caption: format!("Op-amp signal levels, {}", Build::ActiveOnParts),
+            header: [
+                "op-amp",
+                "peak gain (dB)",
+                "at",
+                "max input (V peak)",
+                "clips first",
+            ]
+            .map(String::from)
+            .to_vec(),
+            rows: act
+                .active_on_parts
+                .levels
+                .iter()
+                .map(|l| {
+                    vec![
+                        l.name.clone(),
+                        db(l.peak_gain_db),
+                        eng(l.peak_freq_hz, "Hz"),
+                        eng(l.max_input_v, "V"),
+                        if l.clips_first {
+                            "yes".into()
+                        } else {
+                            String::new()
+                        },
+                    ]
+                })
+                .collect(),
+        });
+        notes.extend(act.notes.iter().map(|n| n.to_string()));
+        notes.extend(act.rescaled.iter().map(|n| n.to_string()));
+    }
+    let mut worst: Vec<_> = a.sensitivity.iter().collect();
+    worst.sort_by(|x, y| {
+        y.passband_worst
+            .db_per_percent
+            .abs()
+            .total_cmp(&x.passband_worst.db_per_percent.abs())
+    });
+    tables.push(Table {
+        caption: format!(
+            "Sensitivities of the {} build, dB per % (largest passband effect first)",
+            Build::ActiveOnParts
+        ),
+        header: [
+            "designator",
+            "parameter",
+            "passband edge",
+            "passband worst",
+            "stopband edge",
+        ]
+        .map(String::from)
+        .to_vec(),
+        rows: worst
+            .iter()
+            .map(|s| {
+                vec![
+                    s.name.clone(),
+                    match s.parameter {
+                        Parameter::Value => "value".into(),
+                        Parameter::GainBandwidth => "GBW".into(),
+                    },
+                    format!("{:+.5}", s.passband_edge.db_per_percent),
+                    format!("{:+.5}", s.passband_worst.db_per_percent),
+                    format!("{:+.5}", s.stopband_edge.db_per_percent),
+                ]
+            })
+            .collect(),
+    });
+    tables.push(Table {
+        caption: "Parts of the passive ideal and the active on parts build".to_string(),
+        header: [
+            "build",
+            "designator",
+            "kind",
+            "value",
+            "series",
+            "tolerance",
+            "count",
+            "stage",
+        ]
+        .map(String::from)
+        .to_vec(),
+        rows: bom
+            .iter()
+            .map(|b| {
+                vec![
+                    b.build.replace('_', " "),
+                    b.designators.join(" "),
+                    b.kind.clone(),
+                    super::eng::format_trimmed(b.value, &b.unit),
+                    b.series.clone().unwrap_or_default(),
+                    b.tolerance
+                        .map(|t| format!("{} %", factor(100.0 * t)))
+                        .unwrap_or_default(),
+                    b.quantity.to_string(),
+                    b.stage.clone(),
+                ]
+            })
+            .collect(),
+    });
+    notes.extend(tally(bom).iter().map(|t| {
+        format!(
+            "{}: {} x {}, spread {}",
+            t.build.replace('_', " "),
+            t.quantity,
+            t.kind,
+            factor(t.spread())
+        )
+    }));
+    html_report(&ReportDoc {
+        title: format!("nocoil design report: {}", r.design_file),
+        summary,
+        cautions: CAUTIONS.iter().map(|s| s.to_string()).collect(),
+        figures,
+        tables,
+        notes,
+    })
+}

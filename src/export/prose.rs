@@ -1,0 +1,287 @@
+//! The one place where the stages' typed reasons and notes become words:
+//! every renderer (the printed summary, the HTML report) shows them
+//! through these [`std::fmt::Display`] implementations, so a note reads
+//! the same wherever it appears. Values are in engineering notation
+//! ([`crate::export::eng`]).
+
+use super::eng::{format_trimmed as eng, HUMAN_DIGITS};
+use crate::active::{Method, Note, Why};
+use crate::circuit::OpAmpModel;
+use crate::design::{Margin, OrderChoice};
+use crate::realize::{Moved, Rescale};
+use std::fmt::{self, Display, Formatter};
+
+/// A dB figure as a designer writes it: at most four decimals, no
+/// trailing zeros, no negative zero ("70", "0.1", "0.0117").
+pub fn db(x: f64) -> String {
+    let s = format!("{x:.4}");
+    let s = s.trim_end_matches('0').trim_end_matches('.');
+    match s.strip_prefix('-') {
+        Some("0") => "0".to_string(),
+        _ => s.to_string(),
+    }
+}
+
+/// A percentage with three decimals and its sign, no negative zero.
+pub fn percent(x: f64) -> String {
+    let s = format!("{x:+.3}");
+    if s.trim_start_matches(['+', '-'])
+        .chars()
+        .all(|c| c == '0' || c == '.')
+    {
+        format!("{} %", s.trim_start_matches(['+', '-']))
+    } else {
+        format!("{s} %")
+    }
+}
+
+/// A factor (a ratio of values) with [`HUMAN_DIGITS`] significant
+/// digits, trailing zeros dropped; a power of ten written out beyond
+/// 1e-3 to 1e4, where plain digits stop being readable.
+pub fn factor(x: f64) -> String {
+    if !x.is_finite() || x == 0.0 {
+        return format!("{x}");
+    }
+    let magnitude = x.abs().log10().floor() as i32;
+    if !(-3..4).contains(&magnitude) {
+        let s = format!("{x:.*e}", HUMAN_DIGITS - 1);
+        let (mantissa, exponent) = s.split_once('e').unwrap_or((&s, "0"));
+        let mantissa = mantissa.trim_end_matches('0').trim_end_matches('.');
+        return format!("{mantissa}e{exponent}");
+    }
+    let decimals = (HUMAN_DIGITS as i32 - 1 - magnitude).max(0) as usize;
+    let s = format!("{x:.decimals$}");
+    if s.contains('.') {
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        s
+    }
+}
+
+impl Display for Why {
+    /// One plain sentence, e.g. "FDNR: 7 op-amps against 22 for simulated
+    /// inductors".
+    fn fmt(&self, f: &mut Formatter<'_>) -> fmt::Result {
+        let gic = format!("{} for simulated inductors", self.gic_opamps);
+        match (self.asked, self.used, self.fdnr_opamps, &self.fdnr_obstacle) {
+            (Method::Auto, Method::Fdnr, Some(fdnr), _) => {
+                write!(f, "FDNR: {fdnr} op-amps against {gic}")
+            }
+            (Method::Auto, _, _, Some(obstacle)) => write!(
+                f,
+                "GIC: {} op-amps; the FDNR method needs a lowpass ladder with grounded capacitors, but {obstacle}",
+                self.gic_opamps
+            ),
+            (Method::Auto, _, Some(fdnr), None) if fdnr == self.gic_opamps => write!(
+                f,
+                "GIC: {} op-amps, as many as the FDNR image, and it keeps the resistive terminations",
+                self.gic_opamps
+            ),
+            (Method::Auto, _, Some(fdnr), None) => write!(
+                f,
+                "GIC: {} op-amps against {fdnr} for the FDNR image",
+                self.gic_opamps
+            ),
+            (_, Method::Fdnr, Some(fdnr), _) => write!(f, "FDNR, as asked: {fdnr} op-amps"),
+            _ => write!(f, "GIC, as asked: {} op-amps", self.gic_opamps),
+        }
+    }
+}
+
+impl Display for Note {
+    fn fmt(&self, f: &mut Formatter<'_>) -> fmt::Result {
+        match self {
+            Note::SeriesSwap {
+                grounded,
+                other,
+                node,
+            } => write!(
+                f,
+                "{grounded} and {other} in series from node {node} to ground: swapped so that {grounded} ends at ground"
+            ),
+            Note::Refined {
+                balance_hz,
+                correction,
+                balanced_deviation_db,
+                refined_deviation_db,
+            } => write!(
+                f,
+                "refined: balance at {}, trim correction {}; largest passband deviation {} dB balanced, {} dB refined",
+                eng(*balance_hz, "Hz"),
+                factor(*correction),
+                db(*balanced_deviation_db),
+                db(*refined_deviation_db)
+            ),
+            Note::RefinedUnstable {
+                root_re_rad_s,
+                root_im_rad_s,
+            } => write!(
+                f,
+                "the refined values gave a natural frequency at {} {} j{} rad/s, so the balanced values are kept",
+                eng(*root_re_rad_s, ""),
+                if *root_im_rad_s < 0.0 { "-" } else { "+" },
+                eng(root_im_rad_s.abs(), "")
+            ),
+            Note::DcPath {
+                dc_gain_db,
+                ladder_dc_gain_db,
+                resistors,
+            } => {
+                let list: Vec<String> = resistors
+                    .iter()
+                    .map(|(name, ohm)| format!("{name} = {}", eng(*ohm, "ohm")))
+                    .collect();
+                write!(
+                    f,
+                    "DC gain {} dB against the ladder's {} dB: the termination capacitors would leave the FDNR inputs without a DC path, so {} across them hold the ladder's DC gain",
+                    db(*dc_gain_db),
+                    db(*ladder_dc_gain_db),
+                    list.join(" and ")
+                )
+            }
+            Note::DcPathEffect {
+                deviation_db,
+                from_hz,
+                to_hz,
+            } => write!(
+                f,
+                "with ideal op-amps the DC-path resistors move the response by at most {deviation_db:.1e} dB between {} and the balance frequency {}",
+                eng(*from_hz, "Hz"),
+                eng(*to_hz, "Hz")
+            ),
+        }
+    }
+}
+
+/// "C_RS 5.305 nF -> 5.6 nF, ..." for moved capacitors.
+fn moved(list: &[Moved]) -> String {
+    list.iter()
+        .map(|m| {
+            let (from, to) = (eng(m.from_f, "F"), eng(m.to_f, "F"));
+            let outside = if m.was_outside_range {
+                " (was outside the range)"
+            } else {
+                ""
+            };
+            if from == to {
+                format!("{} {to}", m.designator)
+            } else {
+                format!("{} {from} -> {to}{outside}", m.designator)
+            }
+        })
+        .collect::<Vec<_>>()
+        .join(", ")
+}
+
+impl Display for Rescale {
+    fn fmt(&self, f: &mut Formatter<'_>) -> fmt::Result {
+        match self {
+            Rescale::ImageLevel { factor: k, capacitors } => write!(
+                f,
+                "FDNR image: every impedance x{} (the voltage ratios do not change), so its termination capacitors land on preferred values in range: {}",
+                factor(*k),
+                moved(capacitors)
+            ),
+            Rescale::Converter {
+                replaces,
+                capacitors,
+                moves,
+            } => {
+                write!(
+                    f,
+                    "converter for {replaces}: {}; impedance level of Z2..Z5 x{}",
+                    moved(capacitors),
+                    factor(moves.level)
+                )?;
+                if moves.balance != 1.0 {
+                    write!(
+                        f,
+                        ", Z1 x{} and Z5 /{} (its Z4:Z5 balance frequency x{})",
+                        factor(moves.balance),
+                        factor(moves.balance),
+                        factor(1.0 / moves.balance)
+                    )?;
+                }
+                f.write_str("; the value it realizes is unchanged")
+            }
+        }
+    }
+}
+
+impl Display for Margin {
+    fn fmt(&self, f: &mut Formatter<'_>) -> fmt::Result {
+        f.write_str(match self {
+            Margin::NoStopband => "no stopband edge given",
+            Margin::Table => "a table prototype: the mask is not checked",
+            Margin::StopbandEdge => {
+                "the stopband attenuation is kept; any surplus order moves the stopband edge closer to the passband"
+            }
+            Margin::Attenuation => {
+                "the stopband edge is kept; any surplus order adds attenuation there"
+            }
+        })
+    }
+}
+
+impl Display for OrderChoice {
+    fn fmt(&self, f: &mut Formatter<'_>) -> fmt::Result {
+        match self {
+            OrderChoice::Given => f.write_str("given"),
+            OrderChoice::Table => f.write_str("from the table"),
+            OrderChoice::Computed {
+                minimum,
+                raised_for_form: false,
+            } => write!(f, "the minimum for the mask, {minimum}"),
+            OrderChoice::Computed {
+                minimum,
+                raised_for_form: true,
+            } => write!(
+                f,
+                "raised from the minimum {minimum}: the even-order form the terminations need missed the mask"
+            ),
+        }
+    }
+}
+
+/// The op-amp model in words: "single-pole op-amps, GBW 10 MHz, A0 100 dB".
+pub fn opamp_model(model: &OpAmpModel) -> String {
+    match *model {
+        OpAmpModel::SinglePole {
+            dc_gain,
+            gbw_hz,
+            output_ohm,
+        } => {
+            let mut s = format!(
+                "single-pole op-amps, GBW {}, A0 {} dB",
+                eng(gbw_hz, "Hz"),
+                factor(20.0 * dc_gain.log10())
+            );
+            if output_ohm > 0.0 {
+                s += &format!(", output {}", eng(output_ohm, "ohm"));
+            }
+            s
+        }
+        OpAmpModel::Ideal => "ideal op-amps".to_string(),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// No figure a person reads shows a negative zero.
+    #[test]
+    fn negative_zeros_are_dropped() {
+        assert_eq!(db(-0.00001), "0");
+        assert_eq!(db(-0.5), "-0.5");
+        assert_eq!(db(70.0), "70");
+        assert_eq!(db(0.01172), "0.0117");
+        assert_eq!(percent(-0.0001), "0.000 %");
+        assert_eq!(percent(-0.65), "-0.650 %");
+        assert_eq!(percent(0.007), "+0.007 %");
+        assert_eq!(factor(2947313.760961), "2.9473e6");
+        assert_eq!(factor(1.25), "1.25");
+        assert_eq!(factor(0.99871234), "0.99871");
+        assert_eq!(factor(100.0), "100");
+    }
+}

@@ -1,0 +1,256 @@
+//! The summary `nocoil design` prints: first whether the active on parts
+//! build (what is soldered) meets the specification, then the three
+//! builds, each figure labelled with the build it belongs to.
+
+use super::eng::format_trimmed as eng;
+use super::prose::{db, opamp_model, percent};
+use crate::analysis::MaskVerdict;
+use crate::design::{Build, BuildFigures, Documents, Report};
+use std::fmt::Write as _;
+
+/// The edges of a band as "3 kHz" or "300 Hz and 3.4 kHz".
+pub fn edges(hz: &[f64]) -> String {
+    hz.iter()
+        .map(|f| eng(*f, "Hz"))
+        .collect::<Vec<_>>()
+        .join(" and ")
+}
+
+/// One line on a build against the specification.
+pub fn verdict_line(build: Build, v: &MaskVerdict) -> String {
+    let bound = if v.lower_bound {
+        "passband limit"
+    } else {
+        "stopband limit"
+    };
+    if v.meets {
+        format!(
+            "{build}: meets the specification, with {} dB to spare (closest at {}, the {bound} {} dB)",
+            db(v.margin_db),
+            eng(v.at_hz, "Hz"),
+            db(v.limit_db)
+        )
+    } else {
+        format!(
+            "{build}: FAILS the specification by {} dB at {} (gain {} dB against the {bound} {} dB)",
+            db(-v.margin_db),
+            eng(v.at_hz, "Hz"),
+            db(v.gain_db),
+            db(v.limit_db)
+        )
+    }
+}
+
+/// The figures of one build against the passive ideal, one line each.
+fn figures(s: &mut String, build: Build, f: &BuildFigures) {
+    let c = &f.comparison;
+    let _ = writeln!(
+        s,
+        "  {build}: largest passband deviation from the passive ideal {} dB",
+        db(c.passband_deviation_db)
+    );
+    for ((e, a), p) in c
+        .passband_edge_hz
+        .iter()
+        .zip(&c.edge_hz)
+        .zip(&c.edge_shift_percent)
+    {
+        match (a, p) {
+            (Some(a), Some(p)) => {
+                let _ = writeln!(
+                    s,
+                    "  {build}: passband edge {} moves to {} ({})",
+                    eng(*e, "Hz"),
+                    eng(*a, "Hz"),
+                    percent(*p)
+                );
+            }
+            _ => {
+                let _ = writeln!(
+                    s,
+                    "  {build}: passband edge {}: no crossing within 25 %",
+                    eng(*e, "Hz")
+                );
+            }
+        }
+    }
+    for (f, g) in c.stopband_edge_hz.iter().zip(&c.stopband_edge_gain_db) {
+        let _ = writeln!(
+            s,
+            "  {build}: attenuation {} dB at the stopband edge {}",
+            db(-g),
+            eng(*f, "Hz")
+        );
+    }
+    if let Some(top) = f.highest_level() {
+        let _ = writeln!(
+            s,
+            "  {build}: largest gain to an op-amp output {} dB at {} ({}): {} peak at the input drives it to the swing",
+            db(top.peak_gain_db),
+            eng(top.peak_freq_hz, "Hz"),
+            top.name,
+            eng(top.max_input_v, "V")
+        );
+    }
+}
+
+/// The passive ideal: prototype, ladder and elements.
+fn passive(s: &mut String, r: &Report) {
+    let what = match (r.family, &r.prototype_table) {
+        (Some(f), _) => f.to_string(),
+        (None, Some(t)) => format!("table {t}"),
+        (None, None) => "table".to_string(),
+    };
+    let _ = writeln!(
+        s,
+        "{what} {}, order {} ({})",
+        r.kind, r.order, r.order_choice
+    );
+    let variant = r
+        .variant
+        .map_or("tabulated ladder".to_string(), |v| v.to_string());
+    let series_first = match r.form {
+        crate::synth::Form::MinCapacitor => "series inductor first",
+        crate::synth::Form::MinInductor => "shunt capacitor first",
+    };
+    let _ = writeln!(s, "  {variant}; {} ladder ({series_first})", r.form);
+    let _ = writeln!(
+        s,
+        "  passband edge {}, ripple {} dB",
+        edges(&r.band.passband_edges_hz()),
+        db(r.passband_ripple_db)
+    );
+    let stop = r.band.stopband_edges_hz();
+    if let (false, Some(a)) = (stop.is_empty(), r.stopband_attenuation_db) {
+        let reached = r
+            .mask
+            .gain_at_stopband_edge_db
+            .map(|g| format!(", {} dB reached there by the prototype", db(-g)))
+            .unwrap_or_default();
+        let _ = writeln!(
+            s,
+            "  stopband edge {}, attenuation {} dB asked{reached}",
+            edges(&stop),
+            db(a)
+        );
+    }
+    if r.mask.meets_mask == Some(false) {
+        let _ = writeln!(
+            s,
+            "  WARNING: the given order does not meet the stopband mask; raise filter.order or leave it out to have it computed"
+        );
+    }
+    if let Some(at) = &r.realized_stopband_edge_hz {
+        let _ = writeln!(s, "  attenuation first reached at {}", edges(at));
+    }
+    let _ = writeln!(
+        s,
+        "  terminations: source {}, load {}",
+        eng(r.source_ohm, "ohm"),
+        eng(r.load_ohm, "ohm")
+    );
+    let _ = writeln!(
+        s,
+        "normalized prototype (1 ohm source, 1 rad/s edge), load {} ohm:",
+        super::prose::factor(r.normalized_load_ohm)
+    );
+    for e in &r.normalized_elements {
+        let unit = match e.kind {
+            crate::synth::Reactance::Inductor => "H",
+            crate::synth::Reactance::Capacitor => "F",
+        };
+        let _ = writeln!(
+            s,
+            "  arm {:<3} {:<6} {} {unit}",
+            e.arm,
+            e.arm_kind.to_string(),
+            super::prose::factor(e.value)
+        );
+    }
+    let _ = writeln!(s, "{}:", Build::PassiveIdeal);
+    for e in &r.passive_ideal_elements {
+        let _ = writeln!(
+            s,
+            "  {:<5} {:<5} {:<5} {}",
+            e.designator,
+            e.nodes[0],
+            e.nodes[1],
+            eng(e.value, e.unit)
+        );
+    }
+}
+
+/// The whole summary of a designed filter.
+pub fn summary(d: &Documents) -> String {
+    let r = &d.report;
+    let a = &d.analyses;
+    let mut s = String::new();
+    let _ = writeln!(
+        s,
+        "{}",
+        verdict_line(Build::ActiveOnParts, &a.active_on_parts_verdict)
+    );
+    let mc = &a.montecarlo;
+    let _ = writeln!(
+        s,
+        "{}: yield {} of {} boards ({:.1} %) with the parts' tolerances and the op-amps' GBW spread",
+        Build::ActiveOnParts,
+        mc.passed,
+        mc.per_trial.len(),
+        100.0 * mc.yield_fraction
+    );
+    let _ = writeln!(
+        s,
+        "{}",
+        verdict_line(Build::ActiveExact, &a.active_exact_verdict)
+    );
+    passive(&mut s, r);
+    let Some(act) = &r.active else {
+        return s;
+    };
+    let stability = match act.stable {
+        Some(true) => "stable",
+        Some(false) => "UNSTABLE",
+        None => "stability not judged with ideal op-amps",
+    };
+    let _ = writeln!(
+        s,
+        "active builds: {}, {} op-amps, {} capacitors (spread {}), {}: {stability}",
+        act.method,
+        act.opamps,
+        act.capacitors,
+        super::prose::factor(act.capacitor_spread),
+        opamp_model(&act.opamp)
+    );
+    let _ = writeln!(s, "  why: {}", act.why);
+    figures(&mut s, Build::ActiveExact, &act.active_exact);
+    figures(&mut s, Build::ActiveOnParts, &act.active_on_parts);
+    let e = &act.parts_error_db;
+    let _ = writeln!(
+        s,
+        "  {}: passband deviation from the passive ideal {} dB after rescaling, {} dB on preferred values, {} dB trimmed",
+        Build::ActiveOnParts,
+        db(e.ideal_values),
+        db(e.snapped),
+        db(e.trimmed)
+    );
+    for t in &act.trims {
+        let _ = writeln!(
+            s,
+            "  trim {} (converter for {}): {} = {} fixed + {} trimmer set to {}",
+            t.element,
+            t.stage,
+            eng(t.value_ohm, "ohm"),
+            eng(t.fixed_ohm, "ohm"),
+            eng(t.pot_ohm, "ohm"),
+            eng(t.setting_ohm, "ohm")
+        );
+    }
+    for n in &act.notes {
+        let _ = writeln!(s, "  note: {n}");
+    }
+    for n in &act.rescaled {
+        let _ = writeln!(s, "  note: {n}");
+    }
+    s
+}

@@ -1,0 +1,138 @@
+//! Tables of one analysis each, as CSV for programs and as text for
+//! people: sensitivities, op-amp levels, the Monte Carlo envelope and
+//! yield, the minimum orders of a mask. Each CSV states the build its
+//! figures belong to in its header or its column names.
+
+use super::prose::db;
+use crate::analysis::{MonteCarloResult, OpAmpLevel, Parameter, SensitivitySummary};
+use crate::design::{Build, ChartTraces, OrderTable};
+use std::fmt::Write as _;
+
+/// Sensitivities of `build` as CSV: designator, quantity, and dB per %
+/// with its frequency at the passband edge, the passband's worst point
+/// and the stopband edge.
+pub fn sensitivity_csv(build: Build, rows: &[SensitivitySummary]) -> String {
+    let mut s = String::from("build,designator,parameter,edge_db_per_percent,edge_hz,passband_worst_db_per_percent,passband_worst_hz,stopband_db_per_percent,stopband_hz\n");
+    let build = super::data_name(&build);
+    for r in rows {
+        let q = match r.parameter {
+            Parameter::Value => "value",
+            Parameter::GainBandwidth => "gbw",
+        };
+        let _ = writeln!(
+            s,
+            "{build},{},{q},{:.6e},{:.6e},{:.6e},{:.6e},{:.6e},{:.6e}",
+            r.name,
+            r.passband_edge.db_per_percent,
+            r.passband_edge.freq_hz,
+            r.passband_worst.db_per_percent,
+            r.passband_worst.freq_hz,
+            r.stopband_edge.db_per_percent,
+            r.stopband_edge.freq_hz
+        );
+    }
+    s
+}
+
+/// Op-amp levels of `build` as CSV: designator, peak gain and its
+/// frequency, the largest input for the swing, and whether it clips
+/// first.
+pub fn levels_csv(build: Build, levels: &[OpAmpLevel]) -> String {
+    let mut s =
+        String::from("build,designator,peak_gain_db,peak_hz,max_input_v_peak,clips_first\n");
+    let build = super::data_name(&build);
+    for l in levels {
+        let _ = writeln!(
+            s,
+            "{build},{},{:.6},{:.6e},{:.6},{}",
+            l.name, l.peak_gain_db, l.peak_freq_hz, l.max_input_v, l.clips_first
+        );
+    }
+    s
+}
+
+/// The envelope of a Monte Carlo run of the active on parts build as
+/// CSV: `freq_hz,nominal_gain_db,min_gain_db,median_gain_db,max_gain_db`.
+pub fn envelope_csv(r: &MonteCarloResult) -> String {
+    let mut s = String::from("freq_hz,nominal_gain_db,min_gain_db,median_gain_db,max_gain_db\n");
+    for i in 0..r.freq_hz.len() {
+        let _ = writeln!(
+            s,
+            "{:.9e},{:.6},{:.6},{:.6},{:.6}",
+            r.freq_hz[i],
+            r.nominal_db[i],
+            r.envelope.min_db[i],
+            r.envelope.median_db[i],
+            r.envelope.max_db[i]
+        );
+    }
+    s
+}
+
+/// The run's account in words: yield and the worst trials.
+pub fn yield_summary(r: &MonteCarloResult, seed: u64) -> String {
+    let trials = r.per_trial.len();
+    let mut s = format!(
+        "Monte Carlo: {trials} trials, seed {seed}: yield {:.2} % ({} passed): boards of the {} build meeting the specification\n",
+        100.0 * r.yield_fraction,
+        r.passed,
+        Build::ActiveOnParts,
+    );
+    for t in &r.worst {
+        let _ = writeln!(
+            s,
+            "  trial {:>7}: margin {} dB to the specification, largest deviation from the nominal build {} dB{}",
+            t.trial,
+            db(t.margin_db),
+            db(t.max_deviation_db),
+            if t.passed { "" } else { "  FAILS" }
+        );
+    }
+    s
+}
+
+/// The minimum orders of a mask, one family a line.
+pub fn order_text(t: &OrderTable) -> String {
+    let mut s = format!(
+        "minimum order (normalized stopband edge {} rad/s)\n",
+        super::prose::factor(t.normalized_stopband_rad_s)
+    );
+    for row in &t.rows {
+        // The design-file spelling, to copy into `filter.family`.
+        let name = super::data_name(&row.family);
+        let _ = match &row.order {
+            Ok(n) if *n > row.synthesis_max_order => writeln!(
+                s,
+                "  {name:<12} {n} (above {}, the highest order its ladder synthesis holds: move the stopband edge away from the passband, or lower the attenuation)",
+                row.synthesis_max_order
+            ),
+            Ok(n) => writeln!(s, "  {name:<12} {n}"),
+            Err(e) => writeln!(s, "  {name:<12} none: {e}"),
+        };
+    }
+    s
+}
+
+/// The responses of the three builds as CSV: gain, phase and (for the
+/// passive ideal) the exact group delay at each frequency. A delay that
+/// is undefined (an exact transmission zero) is an empty field.
+pub fn sweep_csv(t: &ChartTraces) -> String {
+    let mut s = String::from("freq_hz,passive_ideal_gain_db,passive_ideal_phase_deg,passive_ideal_group_delay_s,active_exact_gain_db,active_exact_phase_deg,active_on_parts_gain_db,active_on_parts_phase_deg\n");
+    let (p, e, b) = (&t.passive_ideal, &t.active_exact, &t.active_on_parts);
+    for (i, f) in t.freq_hz.iter().enumerate() {
+        let delay = p.group_delay_s[i]
+            .map(|d| format!("{d:.9e}"))
+            .unwrap_or_default();
+        let _ = writeln!(
+            s,
+            "{f:.9e},{:.9},{:.6},{delay},{:.9},{:.6},{:.9},{:.6}",
+            p.gain_db[i],
+            p.phase_deg[i],
+            e.gain_db[i],
+            e.phase_deg[i],
+            b.gain_db[i],
+            b.phase_deg[i]
+        );
+    }
+    s
+}
