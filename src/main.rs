@@ -155,14 +155,9 @@ enum Request {
         threads: Option<usize>,
         out: Option<PathBuf>,
     },
-    Bom {
+    Table {
         spec: PathBuf,
-    },
-    Sensitivity {
-        spec: PathBuf,
-    },
-    Levels {
-        spec: PathBuf,
+        table: Table,
     },
     Report {
         spec: PathBuf,
@@ -173,6 +168,13 @@ enum Request {
         ripple_db: f64,
         attenuation_db: f64,
     },
+}
+
+/// The single tables a command prints as CSV.
+enum Table {
+    Bom,
+    Sensitivity,
+    Levels,
 }
 
 /// A flag whose value is not accepted: exit status 2.
@@ -261,9 +263,18 @@ fn resolve(cli: Cli) -> Result<Request, FlagError> {
                 .transpose()?,
             out,
         },
-        Command::Bom { spec } => Request::Bom { spec },
-        Command::Sensitivity { spec } => Request::Sensitivity { spec },
-        Command::Levels { spec } => Request::Levels { spec },
+        Command::Bom { spec } => Request::Table {
+            spec,
+            table: Table::Bom,
+        },
+        Command::Sensitivity { spec } => Request::Table {
+            spec,
+            table: Table::Sensitivity,
+        },
+        Command::Levels { spec } => Request::Table {
+            spec,
+            table: Table::Levels,
+        },
         Command::Report { spec, out } => Request::Report { spec, out },
         Command::Order {
             kind,
@@ -449,27 +460,23 @@ fn run(request: Request) -> anyhow::Result<()> {
                 None => Ok(()),
             }
         }
-        Request::Bom { spec } => {
+        Request::Table { spec, table } => {
             let (d, active) = load_active(&spec)?;
-            let rows = bom::design_rows(
-                &d.report_with(&active),
-                &d.passive,
-                &active.on_parts.netlist,
-                &active.on_parts.stages,
-            );
-            emit(&bom::bom_csv(&rows)?)
-        }
-        Request::Sensitivity { spec } => {
-            let (d, active) = load_active(&spec)?;
-            let rows = d.sensitivity(&active.on_parts.netlist)?;
-            emit(&tables::sensitivity_csv(Build::ActiveOnParts, &rows))
-        }
-        Request::Levels { spec } => {
-            let (_, active) = load_active(&spec)?;
-            emit(&tables::levels_csv(
-                Build::ActiveOnParts,
-                &active.on_parts_figures.levels,
-            ))
+            let parts = &active.on_parts;
+            emit(&match table {
+                Table::Bom => bom::bom_csv(&bom::design_rows(
+                    &d.report_with(&active),
+                    &d.passive,
+                    &parts.netlist,
+                    &parts.stages,
+                ))?,
+                Table::Sensitivity => {
+                    tables::sensitivity_csv(Build::ActiveOnParts, &d.sensitivity(&parts.netlist)?)
+                }
+                Table::Levels => {
+                    tables::levels_csv(Build::ActiveOnParts, &active.on_parts_figures.levels)
+                }
+            })
         }
         Request::Order {
             band,

@@ -76,6 +76,16 @@ fn rejects(case: &str, text: &str, needles: &[&str]) {
 }
 
 /// The standard output of a run that must succeed.
+/// `nocoil design SPEC --out OUT`.
+fn design_into(spec: &Path, out: &Path) -> std::process::Output {
+    nocoil(&[
+        "design",
+        spec.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+    ])
+}
+
 fn succeeds(run: &std::process::Output) -> String {
     let stderr = String::from_utf8_lossy(&run.stderr);
     assert!(run.status.success(), "{stderr}");
@@ -339,12 +349,7 @@ fn file_not_found() {
     let dir = scratch("not-found");
     let out = dir.join("out");
     let spec = dir.join("spec.toml");
-    let run = nocoil(&[
-        "design",
-        spec.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-    ]);
+    let run = design_into(&spec, &out);
     let stderr = String::from_utf8_lossy(&run.stderr);
     assert_eq!(run.status.code(), Some(2), "{stderr}");
     assert!(
@@ -575,12 +580,7 @@ fn every_example_speaks_the_glossary() {
         seen += 1;
         let name = path.file_stem().unwrap().to_str().unwrap();
         let out = scratch(&format!("glossary-{name}"));
-        let stdout = succeeds(&nocoil(&[
-            "design",
-            path.to_str().unwrap(),
-            "--out",
-            out.to_str().unwrap(),
-        ]));
+        let stdout = succeeds(&design_into(&path, &out));
         assert!(
             stdout.starts_with("active on parts: "),
             "{name}: the verdict on the build on parts comes first:\n{stdout}"
@@ -737,12 +737,7 @@ fn unwritable_out_is_bad_input() {
     let blocker = dir.join("a-file");
     std::fs::write(&blocker, "not a folder").unwrap();
     let spec = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples/rumble-highpass.toml");
-    let run = nocoil(&[
-        "design",
-        spec.to_str().unwrap(),
-        "--out",
-        blocker.join("out").to_str().unwrap(),
-    ]);
+    let run = design_into(&spec, &blocker.join("out"));
     let stderr = String::from_utf8_lossy(&run.stderr);
     assert_eq!(run.status.code(), Some(2), "{stderr}");
     assert!(run.stdout.is_empty());
@@ -761,12 +756,7 @@ fn fdnr_on_a_highpass_names_the_key_and_the_alternatives() {
     )
     .unwrap();
     let out = dir.join("out");
-    let run = nocoil(&[
-        "design",
-        spec.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-    ]);
+    let run = design_into(&spec, &out);
     let stderr = String::from_utf8_lossy(&run.stderr);
     assert_eq!(run.status.code(), Some(2), "{stderr}");
     for needle in ["active.method", "\"gic\"", "\"auto\"", "lowpass"] {

@@ -14,9 +14,9 @@ use crate::export::eng;
 
 /// Significant digits of values in a deck: at least 9, this project's
 /// floor, so that rounding never shows in a comparison with ngspice;
-/// 10 keeps the rounding (at most 5e-11 relative) far below ngspice's own
-/// numerical noise (about 1e-6) and the 0.001 dB (1.2e-4) comparisons,
-/// while the values stay readable.
+/// 10 keeps the rounding (at most 5e-10 relative, for a mantissa just
+/// above 1) far below ngspice's own numerical noise (about 1e-6) and the
+/// 0.001 dB (1.2e-4) comparisons, while the values stay readable.
 pub const SPICE_DIGITS: usize = 10;
 
 /// SPICE scale suffixes from 1e-15 to 1e12. `meg`, not `m`: SPICE reads
