@@ -326,6 +326,21 @@ fn built_decks_match_the_active_on_parts_build_in_ngspice() {
             );
         }
         let context = path.display().to_string();
+        // `ngspice -b built.cir`, the deck as written and nothing added,
+        // runs its sweep and tabulates it.
+        let dir = tempfile::tempdir().unwrap();
+        let deck_path = dir.path().join("built.cir");
+        std::fs::write(&deck_path, &text).unwrap();
+        let run = std::process::Command::new("ngspice")
+            .arg("-b")
+            .arg(&deck_path)
+            .output()
+            .expect("ngspice runs (Debian package ngspice)");
+        let printed = String::from_utf8_lossy(&run.stdout);
+        assert!(
+            run.status.success() && printed.contains("vdb(out)"),
+            "{context}: ngspice -b built.cir\n{printed}"
+        );
         let worst = worst_deck_against_ngspice(&text, &active.on_parts.netlist, &context);
         report.push(format!("{:<40} worst {worst:.2e} dB", path.display()));
     }

@@ -45,7 +45,7 @@ pub enum ActiveError {
         problem: String,
     },
     /// The method asked for cannot realize this ladder.
-    #[error("active.method = {method}: the {method} method cannot realize this ladder: it needs {needs}, but {offender}; set active.method to \"gic\" (simulated inductors serve any ladder) or \"auto\"")]
+    #[error("active.method: the {method} method cannot realize this ladder: it needs {needs}, but {offender}; set active.method to \"gic\" (simulated inductors serve any ladder) or \"auto\"")]
     NotApplicable {
         /// The method asked for.
         method: Method,

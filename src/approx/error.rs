@@ -64,7 +64,7 @@ pub enum ApproxError {
     },
     /// The mask needs more than the family's largest supported order.
     #[error(
-        "the mask needs a {family} order of {}, above the largest supported order {max}", needed.ceil()
+        "the mask needs order {} of the {family} approximation, above the largest supported order {max}", needed.ceil()
     )]
     OrderTooHigh {
         /// The family asked for.

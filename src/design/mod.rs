@@ -37,7 +37,7 @@ pub use analyses::{
 pub use builds::{ActiveDesign, BuildFigures};
 pub use order::{order_table, OrderRow, OrderTable, FAMILIES};
 pub use report::{
-    ActiveReport, Documents, NaturalFrequency, NormalizedElement, Report, ScaledElement,
+    ActiveReport, Documents, NaturalFrequency, NormalizedElement, Outcome, Report, ScaledElement,
 };
 
 /// The three builds of a design, named so wherever a figure is shown.
@@ -205,7 +205,7 @@ pub enum DesignError {
         cause: AnalysisError,
     },
     /// Synthesis could not hold its accuracy for this approximation.
-    #[error("{}: the ladder synthesis could not hold its accuracy for this design; a lower order or a wider transition band will do ({cause})", file.display())]
+    #[error("{}: the ladder synthesis could not hold its accuracy for this design ({cause}); a lower order, a wider transition band or terminations closer to equal will do", file.display())]
     Synth {
         /// The design file.
         file: PathBuf,
@@ -320,7 +320,7 @@ fn check_synthesis_limit(spec: &Spec, proto: &Prototype) -> Result<(), DesignErr
         key: "filter.stopband_edge_hz",
         got: format!("(needs order {n})"),
         expected: format!(
-            "expected a mask a {} ladder of order {max} or less meets (the limit to which its synthesis holds its accuracy): move the stopband edge away from the passband, or lower the attenuation or raise the ripple",
+            "expected a mask that an order of {max} or less meets (the highest order to which {} ladders are synthesized accurately): move the stopband edge away from the passband, lower the attenuation or raise the ripple",
             proto.params.family
         ),
     }

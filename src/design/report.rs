@@ -5,7 +5,7 @@
 
 use super::{ActiveDesign, Analyses, BuildFigures, Design, MaskCheck, OrderChoice, Origin};
 use crate::active::{Method, Note, Stage, Why};
-use crate::analysis::Limit;
+use crate::analysis::{Limit, MaskVerdict};
 use crate::approx::{Family, Variant};
 use crate::circuit::{Element, Netlist, OpAmpModel};
 use crate::parts::PartsChoice;
@@ -138,6 +138,27 @@ pub struct Report {
     pub passive_ideal_elements: Vec<ScaledElement>,
     /// The active builds, when built.
     pub active: Option<ActiveReport>,
+    /// How the active builds stand against the specification, and the
+    /// yield, when the analyses have run.
+    pub outcome: Option<Outcome>,
+}
+
+/// How the active builds stand against the specification.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct Outcome {
+    /// The active on parts build with nominal parts (the headline).
+    pub active_on_parts: MaskVerdict,
+    /// The active exact build.
+    pub active_exact: MaskVerdict,
+    /// Fraction of Monte Carlo boards of the active on parts build that
+    /// meet the specification.
+    pub yield_fraction: f64,
+    /// Boards drawn.
+    pub boards: usize,
+    /// Boards that meet the specification.
+    pub boards_meeting: usize,
+    /// The seed of the draws.
+    pub seed: u64,
 }
 
 /// Everything the documents of a design are rendered from: the report,
@@ -230,6 +251,7 @@ impl Design {
             normalized_load_ohm: self.ladder.load_ohm,
             passive_ideal_elements: scaled_elements(&self.passive),
             active: None,
+            outcome: None,
         }
     }
 
@@ -269,8 +291,20 @@ impl Design {
 
     /// Everything the documents are rendered from, with the analyses run.
     pub fn documents(&self, active: &ActiveDesign, analyses: Analyses) -> Documents {
+        let mc = &analyses.montecarlo;
+        let outcome = Outcome {
+            active_on_parts: analyses.active_on_parts_verdict,
+            active_exact: analyses.active_exact_verdict,
+            yield_fraction: mc.yield_fraction,
+            boards: mc.per_trial.len(),
+            boards_meeting: mc.passed,
+            seed: self.spec.montecarlo.seed,
+        };
         Documents {
-            report: self.report_with(active),
+            report: Report {
+                outcome: Some(outcome),
+                ..self.report_with(active)
+            },
             passive_ideal: self.passive.clone(),
             active_exact: active.build.netlist.clone(),
             active_on_parts: active.on_parts.netlist.clone(),

@@ -6,7 +6,7 @@ use super::bom::{tally, BomRow};
 use super::eng::format_trimmed as eng;
 use super::html::{html_report, Figure, ReportDoc, Table};
 use super::prose::{db, factor, opamp_model};
-use super::summary::{edges, verdict_line};
+use super::summary::{edges, verdict_line, yield_line};
 use crate::analysis::Parameter;
 use crate::design::{Build, Documents};
 
@@ -22,26 +22,16 @@ pub const CAUTIONS: [&str; 3] = [
 pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> String {
     let r = &d.report;
     let a = &d.analyses;
-    let mc = &a.montecarlo;
+    let level = r.passband_level_db;
     let mut summary = vec![
         (
             "verdict".to_string(),
-            verdict_line(Build::ActiveOnParts, &a.active_on_parts_verdict),
+            verdict_line(Build::ActiveOnParts, &a.active_on_parts_verdict, level),
         ),
-        (
-            "yield".to_string(),
-            format!(
-                "{}: {} of {} boards meet the specification ({:.1} %), Monte Carlo seed {}",
-                Build::ActiveOnParts,
-                mc.passed,
-                mc.per_trial.len(),
-                100.0 * mc.yield_fraction,
-                d.seed
-            ),
-        ),
+        ("yield".to_string(), yield_line(d)),
         (
             "active exact".to_string(),
-            verdict_line(Build::ActiveExact, &a.active_exact_verdict),
+            verdict_line(Build::ActiveExact, &a.active_exact_verdict, level),
         ),
         ("design file".to_string(), r.design_file.clone()),
         (
@@ -72,7 +62,7 @@ pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> Strin
     let mut notes = Vec::new();
     if let Some(act) = &r.active {
         summary.push((
-            "active builds".to_string(),
+            Build::ActiveExact.to_string(),
             format!(
                 "{}: {} op-amps, {} capacitors (spread {}); {}; {}",
                 act.method,
@@ -174,8 +164,16 @@ pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> Strin
                 })
                 .collect(),
         });
-        notes.extend(act.notes.iter().map(|n| n.to_string()));
-        notes.extend(act.rescaled.iter().map(|n| n.to_string()));
+        notes.extend(
+            act.notes
+                .iter()
+                .map(|n| format!("{}: {n}", Build::ActiveExact)),
+        );
+        notes.extend(
+            act.rescaled
+                .iter()
+                .map(|n| format!("{}: {n}", Build::ActiveOnParts)),
+        );
     }
     let mut worst: Vec<_> = a.sensitivity.iter().collect();
     worst.sort_by(|x, y| {

@@ -240,8 +240,11 @@ fn analysis_line(analysis: Analysis) -> Result<String, SpiceError> {
         }) => {
             let finite = start_hz.is_finite() && stop_hz.is_finite();
             if finite && points_per_decade >= 1 && start_hz > 0.0 && stop_hz > start_hz {
+                // The `.print` line makes `ngspice -b deck.cir` run and
+                // tabulate the sweep as it is (without one it runs
+                // nothing); classic SPICE 2 output syntax.
                 Ok(format!(
-                    ".ac dec {points_per_decade} {} {}",
+                    ".ac dec {points_per_decade} {} {}\n.print ac vdb(out) vp(out)",
                     value(start_hz),
                     value(stop_hz)
                 ))

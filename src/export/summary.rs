@@ -16,29 +16,47 @@ pub fn edges(hz: &[f64]) -> String {
         .join(" and ")
 }
 
-/// One line on a build against the specification.
-pub fn verdict_line(build: Build, v: &MaskVerdict) -> String {
-    let bound = if v.lower_bound {
-        "passband limit"
+/// One line on a build against the specification, in the designer's
+/// terms: the loss in the passband or the attenuation in the stopband,
+/// both measured from the passband level `level_db` (the terminations'
+/// divider), against what the specification allows or asks.
+pub fn verdict_line(build: Build, v: &MaskVerdict, level_db: f64) -> String {
+    let (what, limit) = if v.lower_bound {
+        ("passband loss", "allowed")
     } else {
-        "stopband limit"
+        ("attenuation", "asked")
     };
+    let (got, limit_db) = (level_db - v.gain_db, level_db - v.limit_db);
     if v.meets {
         format!(
-            "{build}: meets the specification, with {} dB to spare (closest at {}, the {bound} {} dB)",
+            "{build}: meets the specification with {} dB to spare (closest at {}: {what} {} dB, {} dB {limit})",
             db(v.margin_db),
             eng(v.at_hz, "Hz"),
-            db(v.limit_db)
+            db(got),
+            db(limit_db)
         )
     } else {
         format!(
-            "{build}: FAILS the specification by {} dB at {} (gain {} dB against the {bound} {} dB)",
+            "{build}: FAILS the specification by {} dB at {} ({what} {} dB, {} dB {limit})",
             db(-v.margin_db),
             eng(v.at_hz, "Hz"),
-            db(v.gain_db),
-            db(v.limit_db)
+            db(got),
+            db(limit_db)
         )
     }
+}
+
+/// The yield line of the summary and the report.
+pub fn yield_line(d: &Documents) -> String {
+    let mc = &d.analyses.montecarlo;
+    format!(
+        "{}: yield {:.2} % ({} of {} boards meet the specification with the parts' tolerances and the op-amps' GBW spread; Monte Carlo seed {})",
+        Build::ActiveOnParts,
+        100.0 * mc.yield_fraction,
+        mc.passed,
+        mc.per_trial.len(),
+        d.seed
+    )
 }
 
 /// The figures of one build against the passive ideal, one line each.
@@ -125,7 +143,13 @@ fn passive(s: &mut String, r: &Report) {
         let reached = r
             .mask
             .gain_at_stopband_edge_db
-            .map(|g| format!(", {} dB reached there by the prototype", db(-g)))
+            .map(|g| {
+                format!(
+                    ", {} dB reached there by the {}",
+                    db(-g),
+                    Build::PassiveIdeal
+                )
+            })
             .unwrap_or_default();
         let _ = writeln!(
             s,
@@ -141,7 +165,12 @@ fn passive(s: &mut String, r: &Report) {
         );
     }
     if let Some(at) = &r.realized_stopband_edge_hz {
-        let _ = writeln!(s, "  attenuation first reached at {}", edges(at));
+        let _ = writeln!(
+            s,
+            "  {}: attenuation first reached at {}",
+            Build::PassiveIdeal,
+            edges(at)
+        );
     }
     let _ = writeln!(
         s,
@@ -185,24 +214,17 @@ pub fn summary(d: &Documents) -> String {
     let r = &d.report;
     let a = &d.analyses;
     let mut s = String::new();
+    let level = r.passband_level_db;
     let _ = writeln!(
         s,
         "{}",
-        verdict_line(Build::ActiveOnParts, &a.active_on_parts_verdict)
+        verdict_line(Build::ActiveOnParts, &a.active_on_parts_verdict, level)
     );
-    let mc = &a.montecarlo;
-    let _ = writeln!(
-        s,
-        "{}: yield {} of {} boards ({:.1} %) with the parts' tolerances and the op-amps' GBW spread",
-        Build::ActiveOnParts,
-        mc.passed,
-        mc.per_trial.len(),
-        100.0 * mc.yield_fraction
-    );
+    let _ = writeln!(s, "{}", yield_line(d));
     let _ = writeln!(
         s,
         "{}",
-        verdict_line(Build::ActiveExact, &a.active_exact_verdict)
+        verdict_line(Build::ActiveExact, &a.active_exact_verdict, level)
     );
     passive(&mut s, r);
     let Some(act) = &r.active else {
@@ -215,7 +237,8 @@ pub fn summary(d: &Documents) -> String {
     };
     let _ = writeln!(
         s,
-        "active builds: {}, {} op-amps, {} capacitors (spread {}), {}: {stability}",
+        "{}: {}, {} op-amps, {} capacitors (spread {}), {}: {stability}",
+        Build::ActiveExact,
         act.method,
         act.opamps,
         act.capacitors,
@@ -247,10 +270,10 @@ pub fn summary(d: &Documents) -> String {
         );
     }
     for n in &act.notes {
-        let _ = writeln!(s, "  note: {n}");
+        let _ = writeln!(s, "  {}: note: {n}", Build::ActiveExact);
     }
     for n in &act.rescaled {
-        let _ = writeln!(s, "  note: {n}");
+        let _ = writeln!(s, "  {}: note: {n}", Build::ActiveOnParts);
     }
     s
 }

@@ -5,6 +5,7 @@
 
 use super::prose::db;
 use crate::analysis::{MonteCarloResult, OpAmpLevel, Parameter, SensitivitySummary};
+use crate::approx::ApproxError;
 use crate::design::{Build, ChartTraces, OrderTable};
 use std::fmt::Write as _;
 
@@ -52,9 +53,10 @@ pub fn levels_csv(build: Build, levels: &[OpAmpLevel]) -> String {
 }
 
 /// The envelope of a Monte Carlo run of the active on parts build as
-/// CSV: `freq_hz,nominal_gain_db,min_gain_db,median_gain_db,max_gain_db`.
+/// CSV: the frequency, then the nominal, lowest, median and highest gain
+/// of the trials, each column named with the build.
 pub fn envelope_csv(r: &MonteCarloResult) -> String {
-    let mut s = String::from("freq_hz,nominal_gain_db,min_gain_db,median_gain_db,max_gain_db\n");
+    let mut s = String::from("freq_hz,active_on_parts_nominal_gain_db,active_on_parts_min_gain_db,active_on_parts_median_gain_db,active_on_parts_max_gain_db\n");
     for i in 0..r.freq_hz.len() {
         let _ = writeln!(
             s,
@@ -107,6 +109,12 @@ pub fn order_text(t: &OrderTable) -> String {
                 row.synthesis_max_order
             ),
             Ok(n) => writeln!(s, "  {name:<12} {n}"),
+            Err(ApproxError::OrderTooHigh { needed, .. }) => writeln!(
+                s,
+                "  {name:<12} {} (above {}, the highest order its ladder synthesis holds: move the stopband edge away from the passband, or lower the attenuation)",
+                needed.ceil(),
+                row.synthesis_max_order
+            ),
             Err(e) => writeln!(s, "  {name:<12} none: {e}"),
         };
     }

@@ -164,8 +164,8 @@ pub enum SynthError {
     /// the load end disagree on the middle arm: the roots do not describe
     /// one ladder with these terminations (or precision ran out).
     #[error(
-        "arm {arm} is {from_source:?} from the source end but {from_load:?} from the load end \
-         (relative tolerance {tolerance:e})"
+        "arm {} is {from_source} from the source end but {from_load} from the load end \
+         (relative tolerance {tolerance:e})", arm + 1
     )]
     JunctionMismatch {
         /// The middle arm, counted from the source (0-based).

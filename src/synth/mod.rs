@@ -159,3 +159,18 @@ pub enum ArmValues {
     /// ladder side.
     ShuntResonator(f64, f64),
 }
+
+impl std::fmt::Display for ArmValues {
+    /// The arm in words, values to 6 significant digits (normalized henry
+    /// and farad).
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match *self {
+            ArmValues::SeriesL(l) => write!(f, "a series L of {l:.6e} H"),
+            ArmValues::ShuntC(c) => write!(f, "a shunt C of {c:.6e} F"),
+            ArmValues::SeriesTank(l, c) => write!(f, "a series tank of {l:.6e} H and {c:.6e} F"),
+            ArmValues::ShuntResonator(l, c) => {
+                write!(f, "a shunt resonator of {l:.6e} H and {c:.6e} F")
+            }
+        }
+    }
+}

@@ -9,6 +9,8 @@
 //! Problems name a [`MaskField`]; each caller turns it into its own key
 //! or flag name.
 
+use crate::approx::{MAX_LEVEL_DB, MIN_RIPPLE_DB};
+
 /// The kind of filter, as a design file and the command line name it.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 #[serde(rename_all = "lowercase")]
@@ -418,21 +420,22 @@ impl Band {
 /// builds and the stopband beyond it.
 const VIEW_DECADES: f64 = 10.0;
 
-/// Ripple and attenuation in dB: both positive, attenuation above ripple.
+/// Ripple and attenuation in dB: within what the approximation accepts
+/// ([`MIN_RIPPLE_DB`] to [`MAX_LEVEL_DB`]), attenuation above ripple.
 pub fn check_levels(ripple_db: f64, attenuation_db: Option<f64>) -> Result<(), MaskProblem> {
-    if !(ripple_db.is_finite() && ripple_db > 0.0) {
+    if !(MIN_RIPPLE_DB..=MAX_LEVEL_DB).contains(&ripple_db) {
         return Err(MaskProblem {
             field: MaskField::Ripple,
             got: ripple_db.to_string(),
-            expected: "expected a ripple in dB greater than 0".to_string(),
+            expected: format!("expected a ripple in dB greater than 0 and at most {MAX_LEVEL_DB}"),
         });
     }
     match attenuation_db {
-        Some(a) if !(a.is_finite() && a > ripple_db) => Err(MaskProblem {
+        Some(a) if !(a > ripple_db && a <= MAX_LEVEL_DB) => Err(MaskProblem {
             field: MaskField::Attenuation,
             got: a.to_string(),
             expected: format!(
-                "expected an attenuation in dB greater than the passband ripple ({ripple_db} dB)"
+                "expected an attenuation in dB greater than the passband ripple ({ripple_db} dB) and at most {MAX_LEVEL_DB}"
             ),
         }),
         _ => Ok(()),
