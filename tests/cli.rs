@@ -764,3 +764,29 @@ fn fdnr_on_a_highpass_names_the_key_and_the_alternatives() {
     }
     assert!(!out.exists());
 }
+
+/// A Monte Carlo passband margin at or beyond the ripple would put the
+/// limit above the passband level: refused naming the key.
+#[test]
+fn passband_margin_beyond_the_ripple() {
+    rejects(
+        "margin",
+        &(GOOD.to_string() + "[montecarlo]\npassband_margin_db = 0.5\n"),
+        &["montecarlo.passband_margin_db", "below the passband ripple"],
+    );
+}
+
+/// A prototype table that cannot be read is named under the design file's
+/// key.
+#[test]
+fn missing_prototype_table_names_the_key() {
+    let text = with(
+        "family = \"chebyshev\"",
+        "prototype = \"no-such-table.toml\"",
+    );
+    rejects(
+        "missing-table",
+        &text,
+        &["filter.prototype", "no-such-table.toml", "cannot be read"],
+    );
+}

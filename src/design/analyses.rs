@@ -152,7 +152,7 @@ impl Design {
         let (lo, hi) = self.view_hz();
         let mut grid =
             log_grid(lo, hi, MONTE_CARLO_POINTS).map_err(|cause| self.circuit_error(cause))?;
-        for l in self.mask_limits() {
+        for l in self.yield_limits().into_iter().chain(self.mask_limits()) {
             grid.extend([l.from_hz, l.to_hz]);
         }
         grid.sort_by(f64::total_cmp);
@@ -197,7 +197,7 @@ impl Design {
     ) -> Result<MonteCarloResult, DesignError> {
         let circuit = |cause| self.circuit_error(cause);
         let analysis = |cause| self.analysis_error(cause);
-        let mask = Mask::new(self.mask_limits()).map_err(analysis)?;
+        let mask = Mask::new(self.yield_limits()).map_err(analysis)?;
         let freqs = self.monte_carlo_grid()?;
         let rules = self.tolerance_rules()?;
         let system = AcSystem::new(netlist).map_err(circuit)?;

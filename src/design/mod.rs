@@ -282,7 +282,19 @@ pub fn design(spec: &Spec) -> Result<Design, DesignError> {
             (Origin::Family(proto), how, ladder)
         }
         PrototypeSource::Table { path } => {
-            let table = PrototypeTable::load(path)?;
+            let table = PrototypeTable::load(path).map_err(|e| match e {
+                // The table the design file names cannot be read: say so
+                // under the design file's key.
+                SpecError::Read { file: table, cause } => SpecError::Invalid {
+                    file: spec.file.clone(),
+                    key: "filter.prototype",
+                    got: table.display().to_string(),
+                    expected: format!(
+                        "expected a prototype table file (path relative to the design file's folder), but it cannot be read: {cause}"
+                    ),
+                },
+                other => other,
+            })?;
             let ladder = Ladder::from_arms(table.arms.iter().copied(), table.load_ohm);
             (Origin::Table(table), OrderChoice::Table, ladder)
         }
@@ -493,15 +505,25 @@ impl Design {
     }
 
     /// The specification as absolute gain limits, dB: across each
-    /// passband no lower than the level less the ripple (and the Monte
-    /// Carlo margin), across each stopband no higher than the level less
-    /// the attenuation (and its margin). Above the level there is no
-    /// limit: a gain a hair above the divider is not a failure of the
-    /// specification.
+    /// passband no lower than the level less the ripple, across each
+    /// stopband no higher than the level less the attenuation. Above the
+    /// level there is no limit: a gain a hair above the divider is not a
+    /// failure of the specification. The verdicts and the charts use it.
     pub fn mask_limits(&self) -> Vec<Limit> {
+        self.limits(0.0, 0.0)
+    }
+
+    /// The limits a Monte Carlo board must keep: the specification
+    /// tightened by the design file's `[montecarlo]` margins.
+    pub fn yield_limits(&self) -> Vec<Limit> {
+        let mc = &self.spec.montecarlo;
+        self.limits(mc.passband_margin_db, mc.stopband_margin_db)
+    }
+
+    /// The specification's limits tightened by these margins, dB.
+    fn limits(&self, passband_margin_db: f64, stopband_margin_db: f64) -> Vec<Limit> {
         let view = self.view_hz();
         let level = self.passband_level_db();
-        let mc = &self.spec.montecarlo;
         let ripple = self.passband_ripple_db();
         let mut limits: Vec<Limit> = self
             .spec
@@ -511,7 +533,7 @@ impl Design {
             .map(|[from_hz, to_hz]| Limit {
                 from_hz,
                 to_hz,
-                min_db: level - ripple + mc.passband_margin_db - MASK_SLACK_DB,
+                min_db: level - ripple + passband_margin_db - MASK_SLACK_DB,
                 max_db: f64::INFINITY,
             })
             .collect();
@@ -527,7 +549,7 @@ impl Design {
                         from_hz,
                         to_hz,
                         min_db: f64::NEG_INFINITY,
-                        max_db: level - att - mc.stopband_margin_db + MASK_SLACK_DB,
+                        max_db: level - att - stopband_margin_db + MASK_SLACK_DB,
                     }),
             );
         }

@@ -137,7 +137,7 @@ fn file(name: &str, bytes: Vec<u8>) -> OutputFile {
 
 /// Why an output folder cannot take an output set.
 #[derive(Debug, thiserror::Error)]
-#[error("--out {}: cannot write there ({cause}); give a folder you may create and write", dir.display())]
+#[error("--out {}: cannot write there ({}); give a folder you may create and write", dir.display(), cause.kind())]
 pub struct OutDirError {
     /// The folder.
     pub dir: PathBuf,

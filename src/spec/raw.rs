@@ -232,6 +232,21 @@ pub(super) fn parse(file: &Path, text: &str) -> Result<Spec, SpecError> {
     let opamp = opamp(&c, &raw.opamp)?;
     let parts = parts(&c, &raw.parts)?;
     let montecarlo = montecarlo(&c, &raw.montecarlo)?;
+    // The passband margin tightens the ripple limit; at or beyond the
+    // ripple the limit would sit above the passband level, which no
+    // board reaches.
+    if let PrototypeSource::Family {
+        passband_ripple_db, ..
+    } = prototype
+    {
+        if montecarlo.passband_margin_db >= passband_ripple_db {
+            return Err(c.invalid(
+                "montecarlo.passband_margin_db",
+                montecarlo.passband_margin_db,
+                format!("expected a margin below the passband ripple ({passband_ripple_db} dB)"),
+            ));
+        }
+    }
     Ok(Spec {
         file: file.to_path_buf(),
         band,
