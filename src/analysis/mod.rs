@@ -1,5 +1,5 @@
 //! Analyses of a built circuit that speak only the netlist type:
-//! sensitivity, Monte Carlo yield and signal levels.
+//! sensitivity, Monte Carlo yield, signal levels and the response sweep.
 //!
 //! - [`sensitivities`] and [`summarize`] (in `sensitivity`): dB per % of
 //!   |H| to every R, C, L and op-amp gain-bandwidth, by the adjoint method
@@ -9,6 +9,8 @@
 //!   a seed whatever the thread count.
 //! - [`opamp_levels`] (in `levels`): peak gain to every op-amp output and
 //!   the largest input before the first one clips.
+//! - [`trace`] (in `sweep`): gain, phase and exact group delay over a
+//!   grid through the sparse solver, every value finite.
 //!
 //! Every analysis reads the circuit through [`crate::circuit::AcSystem`]'s
 //! public methods only, so any solver behind that interface serves it.
@@ -20,6 +22,7 @@ mod levels;
 mod mask;
 mod montecarlo;
 mod sensitivity;
+mod sweep;
 
 pub use error::AnalysisError;
 pub use levels::{opamp_levels, OpAmpLevel};
@@ -31,3 +34,4 @@ pub use sensitivity::{
     sensitivities, summarize, Extreme, Parameter, Sensitivity, SensitivitySummary,
     SensitivityTable, SummaryPoints,
 };
+pub use sweep::{trace, Trace, ZERO_GAIN_DB};
