@@ -1,7 +1,9 @@
 //! Outputs: SPICE netlists, the JSON report, engineering notation, charts
-//! (SVG, PNG), the bill of materials (CSV) and the HTML report.
+//! (SVG, PNG), the bill of materials (CSV), numeric tables (CSV) and the
+//! HTML report.
 
 pub mod bom;
+pub mod csv;
 pub mod eng;
 pub mod html;
 pub mod plot;
