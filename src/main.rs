@@ -35,7 +35,8 @@ enum Command {
         #[arg(long, value_name = "DIR")]
         out: PathBuf,
     },
-    /// Print the frequency response of the passive ideal as CSV.
+    /// Print the frequency response of the passive ideal (gain, phase,
+    /// group delay) and of the active build (gain, phase) as CSV.
     Sweep {
         /// The design file (TOML).
         spec: PathBuf,
@@ -305,25 +306,12 @@ fn run_sweep(spec: &Path, from: Option<f64>, to: Option<f64>, points: usize) -> 
         return Err(BadInput(format!("--points {points}: expected at least 2")).into());
     }
     let freqs = log_grid(from, to, points)?;
-    let response = d.passive_response(&freqs)?;
-    let active = design::response(&d.active()?.build.netlist, &freqs)?;
-    let (active_db, active_phase) = (active.db(), active.phase_deg());
-    let (db, phase, delay) = (
-        response.db(),
-        response.phase_deg(),
-        design::group_delay(&d.passive, &freqs)?,
-    );
-    let mut csv = String::from(
-        "freq_hz,passive_db,passive_phase_deg,passive_group_delay_s,active_db,active_phase_deg\n",
-    );
-    for i in 0..freqs.len() {
-        csv.push_str(&format!(
-            "{:.9e},{:.9},{:.6},{:.9e},{:.9},{:.6}\n",
-            freqs[i], db[i], phase[i], delay[i], active_db[i], active_phase[i]
-        ));
-    }
-    print!("{csv}");
-    Ok(())
+    let csv = d.sweep_csv(&d.active()?.build.netlist, &freqs)?;
+    // One write of the whole table to the locked standard output.
+    let mut stdout = std::io::stdout().lock();
+    std::io::Write::write_all(&mut stdout, csv.as_bytes())
+        .and_then(|()| std::io::Write::flush(&mut stdout))
+        .context("writing the sweep to standard output")
 }
 
 fn run_order(

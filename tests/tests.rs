@@ -12,4 +12,5 @@ mod fast;
 mod parts;
 mod scipy_cases;
 mod snap;
+mod sweep;
 mod synth;

@@ -21,6 +21,7 @@ mod outputs;
 mod parts;
 pub use documents::{levels_csv, sensitivity_csv, Analyses, CAUTIONS};
 mod report;
+mod sweep;
 mod yields;
 pub use active::{opamp_model, passbands, ActiveDesign, Comparison};
 pub use outputs::{OutputFile, DECK_POINTS_PER_DECADE};
@@ -28,6 +29,7 @@ pub use parts::{
     snap_build, ErrorSteps, PartsChoice, PartsSnapError, SnappedBuild, Trim, TRIMMER_SERIES,
 };
 pub use report::{NormalizedElement, Report, ScaledElement};
+pub use sweep::SWEEP_COLUMNS;
 pub use yields::{envelope_csv, series, yield_summary, MONTE_CARLO_POINTS, WORST_TRIALS};
 
 /// How the order was fixed.
