@@ -306,12 +306,11 @@ fn run_sweep(spec: &Path, from: Option<f64>, to: Option<f64>, points: usize) -> 
         return Err(BadInput(format!("--points {points}: expected at least 2")).into());
     }
     let freqs = log_grid(from, to, points)?;
-    let csv = d.sweep_csv(&d.active()?.build.netlist, &freqs)?;
-    // One write of the whole table to the locked standard output.
+    let active = d.active()?;
+    // Blocks of the table straight to the locked standard output.
     let mut stdout = std::io::stdout().lock();
-    std::io::Write::write_all(&mut stdout, csv.as_bytes())
-        .and_then(|()| std::io::Write::flush(&mut stdout))
-        .context("writing the sweep to standard output")
+    d.write_sweep_csv(&active.build.netlist, &freqs, &mut stdout)?;
+    std::io::Write::flush(&mut stdout).context("writing the sweep to standard output")
 }
 
 fn run_order(
