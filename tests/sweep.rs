@@ -337,6 +337,29 @@ fn delay_at_a_multiple_zero_is_its_limit() {
     assert_eq!(t.gain_db[0], ZERO_GAIN_DB);
 }
 
+/// A long sweep is split over rayon's threads (one solver copy per
+/// part): the trace is the same, bit for bit, on one, two and three.
+#[test]
+fn trace_is_the_same_on_any_thread_count() {
+    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples/vibration-antialias.toml");
+    let d = design(&Spec::load(&path).unwrap()).unwrap();
+    let active = d.active().unwrap().build.netlist;
+    let (lo, hi) = d.default_band();
+    let freqs = log_grid(lo, hi, 20_001).unwrap();
+    let on = |threads: usize, netlist: &Netlist, with_delay: bool| {
+        rayon::ThreadPoolBuilder::new()
+            .num_threads(threads)
+            .build()
+            .unwrap()
+            .install(|| trace(netlist, &freqs, with_delay).unwrap())
+    };
+    for (netlist, with_delay) in [(&d.passive, true), (&active, false)] {
+        let one = on(1, netlist, with_delay);
+        assert_eq!(one, on(2, netlist, with_delay));
+        assert_eq!(one, on(3, netlist, with_delay));
+    }
+}
+
 #[test]
 fn trace_refuses_bad_grids_and_takes_empty_ones() {
     let netlist = rc_highpass(1e3, 1e-6);
