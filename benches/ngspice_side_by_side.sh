@@ -8,8 +8,18 @@
 #   every top-level resistor and capacitor by up to 1 % (sunif) and runs
 #   the 201-point `.ac` per trial; (t_MANY - t_FEW) / (MANY - FEW) is its
 #   cost per trial.
-# - nocoil: the criterion benches `sweep` and `montecarlo` (run here unless
-#   SKIP_CARGO_BENCH=1, then their last results are read).
+# - nocoil: the criterion benches `sweep`, `sweep_cli` and `montecarlo`
+#   (run here unless SKIP_CARGO_BENCH=1, then their last results are read).
+# - command line: `nocoil sweep examples/vibration-antialias.toml
+#   --points N` (its default band, 300 Hz to 44 kHz) for N = CLI_POINTS
+#   and N = 2, standard output to a file, (t_N - t_2) / (N - 2) per
+#   point: the design, the solvers' set-up and process start cancel, the
+#   sweep and the CSV printing remain. On rayon's default two threads
+#   (the machine's cores) and on one (RAYON_NUM_THREADS=1). ngspice runs the active deck that
+#   `nocoil design` writes for that demo on the same band at the same
+#   density (`.ac dec D 300 44k`, D chosen for about CLI_POINTS points;
+#   ngspice's count, read from its log, divides its time) and on two
+#   points.
 #
 # Every ngspice timing is the best of RUNS runs (default 7), and every
 # nocoil timing the fastest of criterion's samples: the machine is
@@ -21,6 +31,7 @@ set -euo pipefail
 RUNS=${RUNS:-7}
 MANY=${MANY:-100}
 FEW=${FEW:-10}
+CLI_POINTS=${CLI_POINTS:-100000}
 DIR=$(mktemp -d)
 trap 'rm -rf "$DIR"' EXIT
 
@@ -30,6 +41,10 @@ command -v ngspice >/dev/null || {
 }
 
 cargo run --quiet --release --example export_bench_deck -- "$DIR" >/dev/null
+cargo build --quiet --release
+NOCOIL=target/release/nocoil
+DEMO=examples/vibration-antialias.toml
+"$NOCOIL" design "$DEMO" --out "$DIR/demo" >/dev/null
 
 # The deck without its `.end`, then a control block, then `.end`.
 with_control() {
@@ -51,6 +66,26 @@ best_time() {
         grep -q "No. of Data Rows : $rows\$" "$log" || {
             echo "ngspice did not run $deck as expected:" >&2
             cat "$log" >&2
+            exit 1
+        }
+        t=$(echo "$end - $start" | bc -l)
+        if [ -z "$best" ] || [ "$(echo "$t < $best" | bc -l)" = 1 ]; then best=$t; fi
+    done
+    echo "$best"
+}
+
+# Best wall time of $RUNS runs of `nocoil sweep $DEMO --points $1` on $2
+# rayon threads, in seconds; the output must have $1 rows after the
+# header.
+best_cli_time() {
+    local points=$1 threads=$2 best= start end t out
+    out="$DIR/cli.csv"
+    for _ in $(seq "$RUNS"); do
+        start=$(date +%s.%N)
+        RAYON_NUM_THREADS=$threads "$NOCOIL" sweep "$DEMO" --points "$points" >"$out"
+        end=$(date +%s.%N)
+        [ "$(($(wc -l <"$out") - 1))" = "$points" ] || {
+            echo "nocoil sweep did not print $points rows" >&2
             exit 1
         }
         t=$(echo "$end - $start" | bc -l)
@@ -82,15 +117,43 @@ mc_deck "$MANY" >"$DIR/mc_many.cir"
 mc_deck "$FEW" >"$DIR/mc_few.cir"
 parts=$(echo "$alters" | grep -c alter)
 
+# Command-line decks: the demo's active deck with its `.ac` line replaced.
+# The command's default band is the demo's edges (3 kHz, 4.4 kHz) a decade
+# apart on either side, as the deck's own `.ac` line has it; D points per
+# decade over its log10(44000 / 300) = 2.166 decades.
+ac_line=$(grep -n '^\.ac dec [0-9]* 300 44k$' "$DIR/demo/active.cir" | cut -d: -f1)
+[ -n "$ac_line" ] || { echo "the demo's active deck does not sweep 300 Hz to 44 kHz" >&2; exit 1; }
+per_decade=$(echo "($CLI_POINTS - 1) / (l(44000 / 300) / l(10))" | bc -l | xargs printf '%.0f')
+cli_deck() {
+    sed "${ac_line}s/.*/$1/" "$DIR/demo/active.cir" >"$DIR/cli_$2.tmp"
+    with_control "$DIR/cli_$2.tmp" run >"$DIR/cli_$2.cir"
+}
+cli_deck ".ac dec $per_decade 300 44k" many
+cli_deck ".ac dec 1 300 3000" two
+# ngspice's own count of the many-point grid.
+ngspice -b "$DIR/cli_many.cir" >"$DIR/cli_many.log" 2>&1 || true
+cli_rows=$(sed -n 's/.*No. of Data Rows : \([0-9]*\)$/\1/p' "$DIR/cli_many.log" | head -1)
+[ -n "$cli_rows" ] || { echo "ngspice did not run the demo deck:" >&2; cat "$DIR/cli_many.log" >&2; exit 1; }
+
 t1000=$(best_time "$DIR/s1000.cir" 1000)
 t2=$(best_time "$DIR/s2.cir" 2)
 tmany=$(best_time "$DIR/mc_many.cir" 201)
 tfew=$(best_time "$DIR/mc_few.cir" 201)
 ng_point_us=$(echo "($t1000 - $t2) / 998 * 1000000" | bc -l)
+t_ng_cli_many=$(best_time "$DIR/cli_many.cir" "$cli_rows")
+t_ng_cli_two=$(best_time "$DIR/cli_two.cir" 2)
+ng_cli_point_us=$(echo "($t_ng_cli_many - $t_ng_cli_two) / ($cli_rows - 2) * 1000000" | bc -l)
+t_cli_many=$(best_cli_time "$CLI_POINTS" 2)
+t_cli_two=$(best_cli_time 2 2)
+cli_point_us=$(echo "($t_cli_many - $t_cli_two) / ($CLI_POINTS - 2) * 1000000" | bc -l)
+t_cli1_many=$(best_cli_time "$CLI_POINTS" 1)
+t_cli1_two=$(best_cli_time 2 1)
+cli1_point_us=$(echo "($t_cli1_many - $t_cli1_two) / ($CLI_POINTS - 2) * 1000000" | bc -l)
 ng_trial_us=$(echo "($tmany - $tfew) / ($MANY - $FEW) * 1000000" | bc -l)
 
 if [ "${SKIP_CARGO_BENCH:-0}" != 1 ]; then
     cargo bench --quiet --bench sweep >&2
+    cargo bench --quiet --bench sweep_cli >&2
     cargo bench --quiet --bench montecarlo >&2
 fi
 
@@ -103,6 +166,7 @@ print(min(t / i for t, i in zip(d["times"], d["iters"])))' \
 }
 sparse_point_us=$(echo "$(criterion_ns sweep_1000/sparse) / 1000 / 1000" | bc -l)
 dense_point_us=$(echo "$(criterion_ns sweep_1000/dense) / 1000 / 1000" | bc -l)
+table_point_us=$(echo "($(criterion_ns sweep_cli/table_1000) - $(criterion_ns sweep_cli/table_2)) / 998 / 1000" | bc -l)
 sparse_trial_us=$(echo "$(criterion_ns montecarlo_201/loop_sparse_10000_trials) / 10000 / 1000" | bc -l)
 dense_trial_us=$(echo "$(criterion_ns montecarlo_201/loop_dense_100_trials) / 100 / 1000" | bc -l)
 engine1_s=$(echo "$(criterion_ns montecarlo_201/engine_1_threads_10000_trials) / 1000000000" | bc -l)
@@ -114,6 +178,13 @@ printf '\n%-28s %12s %12s %12s\n' "per frequency point (us)" nocoil-sparse nocoi
 printf '%-28s %12.3f %12.3f %12.3f\n' "" "$sparse_point_us" "$dense_point_us" "$ng_point_us"
 printf '%-28s %12.1f %12.1f\n' "ngspice / nocoil" \
     "$(echo "$ng_point_us / $sparse_point_us" | bc -l)" "$(echo "$ng_point_us / $dense_point_us" | bc -l)"
+printf '\n%-28s %12s %12s %12s %12s\n' "command line, per point (us)" cli-2-threads cli-1-thread table ngspice
+printf '%-28s %12.3f %12.3f %12.3f %12.3f\n' "" "$cli_point_us" "$cli1_point_us" "$table_point_us" "$ng_cli_point_us"
+printf '%-28s %12.1f %12.1f %12.1f\n' "ngspice / nocoil" \
+    "$(echo "$ng_cli_point_us / $cli_point_us" | bc -l)" "$(echo "$ng_cli_point_us / $cli1_point_us" | bc -l)" \
+    "$(echo "$ng_cli_point_us / $table_point_us" | bc -l)"
+printf '(nocoil sweep, 2 threads: %d points %.4f s, 2 points %.4f s; 1 thread: %.4f s, %.4f s;\n ngspice: %d points %.4f s, 2 points %.4f s)\n' \
+    "$CLI_POINTS" "$t_cli_many" "$t_cli_two" "$t_cli1_many" "$t_cli1_two" "$cli_rows" "$t_ng_cli_many" "$t_ng_cli_two"
 printf '\n%-28s %12s %12s %12s\n' "per 201-point trial (us)" nocoil-sparse nocoil-dense ngspice
 printf '%-28s %12.2f %12.1f %12.1f\n' "" "$sparse_trial_us" "$dense_trial_us" "$ng_trial_us"
 printf '%-28s %12.1f %12.1f\n' "ngspice / nocoil" \

@@ -10,6 +10,7 @@
 
 use clap::{Parser, Subcommand};
 use nocoil::design::{self, ActiveDesign, Blame, Build, Design, DesignError};
+use nocoil::export::csv::{write_sweep_csv, CsvError};
 use nocoil::export::files::{
     design_files, document_files, prepare_out_dir, write_set, OutDirError,
 };
@@ -408,7 +409,16 @@ fn run(request: Request) -> anyhow::Result<()> {
                     "expected 0 < from < to, in Hz",
                 )
             })?;
-            emit(&tables::sweep_csv(&d.traces(&active, grid)?))
+            let table = d.sweep(&active, &grid)?;
+            let mut out = std::io::stdout().lock();
+            // Streamed block by block: a long table is never held twice.
+            write_sweep_csv(&mut out, &table.freq_hz, &table.named()).map_err(|e| match e {
+                CsvError::Write { kind, message } => {
+                    anyhow::Error::from(std::io::Error::new(kind, message))
+                }
+                other => other.into(),
+            })?;
+            Ok(out.flush()?)
         }
         Request::MonteCarlo {
             spec,

@@ -13,4 +13,5 @@ mod layering;
 mod parts;
 mod scipy_cases;
 mod snap;
+mod sweep;
 mod synth;

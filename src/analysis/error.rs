@@ -20,6 +20,15 @@ pub enum AnalysisError {
         #[source]
         source: CircuitError,
     },
+    /// A sweep grid with a point that is not finite, is negative, or
+    /// does not ascend.
+    #[error("sweep frequencies must be finite, at least 0 Hz and strictly ascending; point {index} ({freq_hz} Hz) breaks that")]
+    Grid {
+        /// The offending point.
+        index: usize,
+        /// Its frequency.
+        freq_hz: f64,
+    },
     /// A list of frequencies that must not be empty.
     #[error("the {what} list is empty; give at least one frequency")]
     EmptyGrid {

@@ -11,6 +11,8 @@
 //!   the largest input before the first one clips.
 //! - [`compare`] (in `compare`): a build against the passive ideal
 //!   (passband deviation, edge shifts, stopband gains).
+//! - [`trace`] (in `sweep`): gain, phase and exact group delay over a
+//!   grid through the sparse solver, every value finite.
 //!
 //! Every analysis reads the circuit through [`crate::circuit::AcSystem`]'s
 //! public methods only, so any solver behind that interface serves it.
@@ -23,6 +25,7 @@ mod levels;
 mod mask;
 mod montecarlo;
 mod sensitivity;
+mod sweep;
 
 pub use compare::{compare, passband_level_db, ComparePoints, Comparison, EDGE_WINDOW};
 pub use error::AnalysisError;
@@ -35,3 +38,4 @@ pub use sensitivity::{
     sensitivities, summarize, Extreme, Parameter, Sensitivity, SensitivitySummary,
     SensitivityTable, SummaryPoints,
 };
+pub use sweep::{trace, Trace, ZERO_GAIN_DB};

@@ -57,6 +57,14 @@ impl Lanes {
         }
     }
 
+    /// The real number `k` times self, lane by lane.
+    pub fn scale(self, k: f64) -> Lanes {
+        Lanes {
+            re: self.re.map(|x| k * x),
+            im: self.im.map(|x| k * x),
+        }
+    }
+
     /// self -= o, lane by lane.
     pub fn sub_assign(&mut self, o: Lanes) {
         for k in 0..LANES {

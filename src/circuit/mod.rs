@@ -11,12 +11,15 @@
 //! - [`SparseAc`] (in `sparse`; pivot order in `ordering`, elimination
 //!   program in `plan`, several points per pass in `lanes`): the sparse
 //!   solver for sweeps and Monte Carlo, refilled from an [`AcSystem`].
+//! - [`DenseDelay`] (in `delay`): the dense transfer with its exact group
+//!   delay, also at an exact transmission zero (the limit there).
 //! - [`reference_transfer`] (in `reference`): the slow dense oracle the
 //!   fast path is tested against.
 //! - [`log_grid`] and the [`Response`] readers (in `response`).
 //! - [`AcSystem::natural_frequencies`] (in `poles`): roots of
 //!   det(G + sC) for stability checks.
 
+mod delay;
 mod error;
 mod lanes;
 mod layout;
@@ -30,6 +33,7 @@ mod reference;
 mod response;
 mod sparse;
 
+pub use delay::DenseDelay;
 pub use error::CircuitError;
 pub use mna::{AcSystem, Adjoint, Target};
 pub use netlist::{ElementKind, Terminal};

@@ -6,7 +6,8 @@
 //! Invariants: `slot_g` and `slot_c` hold, per slot, the entry of G and C
 //! of the circuit last loaded (zero at fill-in slots); `row_g` and
 //! `row_c` the largest |G| and |C| entry of each step's pivot row; `rhs`
-//! the excitation in step order. The pattern and the order never change.
+//! the excitation in step order; `c_terms` the nonzero entries of C in
+//! step space. The pattern and the order never change.
 
 use nalgebra::{DMatrix, DVector};
 use num_complex::Complex64;
@@ -186,6 +187,15 @@ pub(crate) struct Plan {
     back: Vec<usize>,
     back_for: Option<[Option<usize>; 2]>,
     need: Vec<bool>,
+    /// Every step, ascending and descending: the substitutions of a full
+    /// solution and of a right-hand side that fills every row.
+    all_forward: Vec<usize>,
+    all_back: Vec<usize>,
+    /// The nonzero entries of C as (value, row step, column step), for
+    /// the right-hand side -C x of the derivative solve.
+    c_terms: Vec<(f64, usize, usize)>,
+    /// dx/ds in step order after [`Plan::solve_with_derivative`].
+    dy: Vec<Lanes>,
 }
 
 impl Plan {
@@ -234,6 +244,10 @@ impl Plan {
             back: Vec::with_capacity(n),
             back_for: None,
             need: vec![false; n],
+            all_forward: (0..n).collect(),
+            all_back: (0..n).rev().collect(),
+            c_terms: Vec::new(),
+            dy: vec![Lanes::real(0.0); n],
         }
     }
 
@@ -266,6 +280,13 @@ impl Plan {
         for (r, &row) in self.rhs.iter_mut().zip(&self.row_of_step) {
             *r = b[row];
         }
+        self.c_terms.clear();
+        for e in &self.entries {
+            let cv = self.slot_c[e.slot];
+            if cv != 0.0 {
+                self.c_terms.push((cv, e.step, self.step_of_unknown[e.col]));
+            }
+        }
     }
 
     /// Writes the loaded G, C and b into dense storage (zeros elsewhere).
@@ -291,6 +312,62 @@ impl Plan {
         guard: f64,
         wanted: [Option<usize>; 2],
     ) -> [bool; LANES] {
+        let ok = self.factor(omega, guard);
+        self.plan_back(wanted);
+        self.load_rhs();
+        let p = &self.program;
+        substitute(
+            p,
+            &self.values,
+            &self.inv_pivot,
+            &mut self.y,
+            &p.forward,
+            &self.back,
+        );
+        ok
+    }
+
+    /// [`Plan::solve`], and also the derivative of the unknowns `wanted`
+    /// with respect to s = j omega from the same factors: (G + sC) x = b
+    /// gives (G + sC) dx/ds = -C x, so the full solution x is substituted
+    /// and one more solve with the right-hand side -C x follows (read
+    /// with [`Plan::derivative`]).
+    pub fn solve_with_derivative(
+        &mut self,
+        omega: &[f64; LANES],
+        guard: f64,
+        wanted: [Option<usize>; 2],
+    ) -> [bool; LANES] {
+        let ok = self.factor(omega, guard);
+        self.plan_back(wanted);
+        self.load_rhs();
+        let p = &self.program;
+        substitute(
+            p,
+            &self.values,
+            &self.inv_pivot,
+            &mut self.y,
+            &p.forward,
+            &self.all_back,
+        );
+        self.dy.fill(Lanes::real(0.0));
+        for &(cv, row, col) in &self.c_terms {
+            self.dy[row].sub_assign(self.y[col].scale(cv));
+        }
+        substitute(
+            p,
+            &self.values,
+            &self.inv_pivot,
+            &mut self.dy,
+            &self.all_forward,
+            &self.back,
+        );
+        ok
+    }
+
+    /// Fills G + j omega C for each lane and factors it in place; lanes
+    /// whose pivots fail the guard come back `false`.
+    fn factor(&mut self, omega: &[f64; LANES], guard: f64) -> [bool; LANES] {
         for ((v, &g), &c) in self.values.iter_mut().zip(&self.slot_g).zip(&self.slot_c) {
             *v = Lanes::from_parts(g, c, omega);
         }
@@ -301,9 +378,14 @@ impl Plan {
         for t in 0..self.n {
             self.eliminate(t, guard, &mut ok);
         }
-        self.plan_back(wanted);
-        self.substitute();
         ok
+    }
+
+    /// The excitation, in step order, into `y`.
+    fn load_rhs(&mut self) {
+        for (y, &b) in self.y.iter_mut().zip(&self.rhs) {
+            *y = Lanes::real(b);
+        }
     }
 
     /// Step t of the factorization; clears `ok` for lanes whose pivot
@@ -366,31 +448,43 @@ impl Plan {
         self.back_for = Some(wanted);
     }
 
-    /// Solves with the factors into `y` (step order), back substitution
-    /// only for the steps `plan_back` chose.
-    fn substitute(&mut self) {
-        let p = &self.program;
-        for (y, &b) in self.y.iter_mut().zip(&self.rhs) {
-            *y = Lanes::real(b);
-        }
-        for &t in &p.forward {
-            let yt = self.y[t];
-            for k in p.lower.range(t) {
-                let d = self.values[p.lower.slot[k]].mul(yt);
-                self.y[p.lower.step[k]].sub_assign(d);
-            }
-        }
-        for &t in &self.back {
-            let mut sum = self.y[t];
-            for k in p.upper.range(t) {
-                sum.sub_assign(self.values[p.upper.slot[k]].mul(self.y[p.upper.step[k]]));
-            }
-            self.y[t] = sum.mul(self.inv_pivot[t]);
-        }
-    }
-
     /// Lane `lane` of unknown `u` in the last solution (one of `wanted`).
     pub fn unknown(&self, u: usize, lane: usize) -> Complex64 {
         self.y[self.step_of_unknown[u]].lane(lane)
+    }
+
+    /// Lane `lane` of dx_u/ds after [`Plan::solve_with_derivative`] (`u`
+    /// one of `wanted`).
+    pub fn derivative(&self, u: usize, lane: usize) -> Complex64 {
+        self.dy[self.step_of_unknown[u]].lane(lane)
+    }
+}
+
+/// Solves with the factors in `values` and `inv_pivot` in place: `y`
+/// holds the right-hand side in step order on entry. The forward
+/// substitution visits the steps `forward` (ascending; the others must
+/// stay zero through L), the back substitution the steps `back`
+/// (descending; each with every later step it depends on).
+fn substitute(
+    p: &Program,
+    values: &[Lanes],
+    inv_pivot: &[Lanes],
+    y: &mut [Lanes],
+    forward: &[usize],
+    back: &[usize],
+) {
+    for &t in forward {
+        let yt = y[t];
+        for k in p.lower.range(t) {
+            let d = values[p.lower.slot[k]].mul(yt);
+            y[p.lower.step[k]].sub_assign(d);
+        }
+    }
+    for &t in back {
+        let mut sum = y[t];
+        for k in p.upper.range(t) {
+            sum.sub_assign(values[p.upper.slot[k]].mul(y[p.upper.step[k]]));
+        }
+        y[t] = sum.mul(inv_pivot[t]);
     }
 }

@@ -21,6 +21,9 @@
 //!   multipliers no larger than 1 / `GUARD_THRESHOLD`, pivots above a
 //!   floor of their row); a point that fails is solved by the dense
 //!   partially pivoted LU of [`AcSystem`] and counted.
+//! - Group delay ([`SparseAc::sweep_delay_into`]): exact, from the same
+//!   factors by one more solve, dx/ds = -A^-1 C x; at an exact zero of
+//!   V(out) the dense path gives the limit (see [`DenseDelay`]).
 //!
 //! Invariant: the plan holds the values of the circuit last loaded; the
 //! topology (`shapes`) never changes after construction.
@@ -30,9 +33,9 @@ use std::f64::consts::TAU;
 use nalgebra::{DMatrix, DVector};
 use num_complex::Complex64;
 
+use super::delay::DenseDelay;
 use super::lanes::LANES;
 use super::layout::{has_output_resistor, Layout};
-use super::lu::Lu;
 use super::ordering::{markowitz, Sample};
 use super::plan::{row_size, Plan, GUARD_THRESHOLD};
 use super::{AcSystem, CircuitError, Element, ElementKind, Response};
@@ -196,14 +199,14 @@ pub struct SparseStats {
     pub multiply_adds: usize,
 }
 
-/// The dense fallback: G, C and b rebuilt from the plan's slots.
+/// The dense fallback: G, C and b rebuilt from the plan's slots, and the
+/// dense solver.
 #[derive(Debug, Clone)]
 struct Dense {
     g: DMatrix<f64>,
     c: DMatrix<f64>,
     b: DVector<f64>,
-    lu: Lu,
-    x: Vec<Complex64>,
+    solver: DenseDelay,
 }
 
 /// The sparse solver of one circuit; see the module documentation.
@@ -279,8 +282,7 @@ impl SparseAc {
                 g: DMatrix::zeros(n, n),
                 c: DMatrix::zeros(n, n),
                 b: DVector::zeros(n),
-                lu: Lu::new(n),
-                x: vec![Complex64::new(0.0, 0.0); n],
+                solver: DenseDelay::with_size(n),
             },
             fallbacks: 0,
         })
@@ -318,7 +320,8 @@ impl SparseAc {
     }
 
     /// How many points so far no sparse order could solve, so the dense
-    /// path did.
+    /// path did. (The delay limit at an exact zero of V(out), which also
+    /// takes the dense path, is not counted: the sparse solve passed.)
     pub fn fallbacks(&self) -> usize {
         self.fallbacks
     }
@@ -333,19 +336,12 @@ impl SparseAc {
         }
     }
 
-    /// The dense, partially pivoted solve of the loaded values into
-    /// `dense.x` (unknown order); `false` if singular.
+    /// The dense, partially pivoted solve of the loaded values (read
+    /// with `dense.solver.voltage`); `false` if singular.
     fn dense_solve(&mut self, omega: f64) -> bool {
         let d = &mut self.dense;
         self.plan.unload(&mut d.g, &mut d.c, &mut d.b);
-        if !d.lu.factor(&d.g, &d.c, Complex64::new(0.0, omega)) {
-            return false;
-        }
-        for (x, &b) in d.x.iter_mut().zip(d.b.iter()) {
-            *x = Complex64::new(b, 0.0);
-        }
-        d.lu.solve(&mut d.x);
-        d.x.iter().all(|z| z.is_finite())
+        d.solver.solve(&d.g, &d.c, &d.b, omega)
     }
 
     fn check_node(&self, node: usize, context: &str) -> Result<(), CircuitError> {
@@ -384,12 +380,68 @@ impl SparseAc {
                 if !self.dense_solve(omega[k]) {
                     return Err(CircuitError::Singular { freq_hz });
                 }
-                unknowns.map(|u| u.map_or(Complex64::new(0.0, 0.0), |u| self.dense.x[u]))
+                unknowns.map(|u| self.dense.solver.voltage(u))
             };
             if vin == Complex64::new(0.0, 0.0) {
                 return Err(CircuitError::ZeroVoltage { node: inp, freq_hz });
             }
             *h = vout / vin;
+        }
+        Ok(())
+    }
+
+    /// [`SparseAc::solve_chunk`] with the group delay of each point into
+    /// `delay_s`: one sparse pass that also solves for dx/ds, then the
+    /// dense path for lanes the guard rejected and for the delay where
+    /// V(out) is exactly zero (or so small its log-derivative overflows).
+    fn solve_chunk_delay(
+        &mut self,
+        freqs_hz: &[f64],
+        out: usize,
+        inp: usize,
+        h: &mut [Complex64],
+        delay_s: &mut [f64],
+    ) -> Result<(), CircuitError> {
+        const ZERO: Complex64 = Complex64::new(0.0, 0.0);
+        let omega = lane_omegas(freqs_hz);
+        let unknowns = [out.checked_sub(1), inp.checked_sub(1)];
+        let ok = self
+            .plan
+            .solve_with_derivative(&omega, GUARD_THRESHOLD, unknowns);
+        for (k, &freq_hz) in freqs_hz.iter().enumerate() {
+            let at = |read: &dyn Fn(usize) -> Complex64| unknowns.map(|u| u.map_or(ZERO, read));
+            let [vout, vin] = at(&|u| self.plan.unknown(u, k));
+            let [dout, din] = at(&|u| self.plan.derivative(u, k));
+            let sparse_ok = ok[k] && [vout, vin, dout, din].iter().all(|z| z.is_finite());
+            if sparse_ok && vin != ZERO {
+                let delay = -(dout / vout - din / vin).re;
+                if vout != ZERO && delay.is_finite() {
+                    h[k] = vout / vin;
+                    delay_s[k] = delay;
+                    continue;
+                }
+            }
+            // The dense path: a rejected lane, V(in) = 0 (an error either
+            // way), or the limit at a zero of V(out).
+            if !sparse_ok {
+                self.fallbacks += 1;
+            }
+            if !self.dense_solve(omega[k]) {
+                return Err(CircuitError::Singular { freq_hz });
+            }
+            let d = &mut self.dense;
+            let [vout, vin] = unknowns.map(|u| d.solver.voltage(u));
+            if vin == ZERO {
+                return Err(CircuitError::ZeroVoltage { node: inp, freq_hz });
+            }
+            // Where the sparse solve passed and found V(out) = 0, the
+            // dense one must not see rounding residue as a value.
+            let at_zero = sparse_ok && vout == ZERO;
+            h[k] = vout / vin;
+            delay_s[k] = d
+                .solver
+                .delay(&d.c, unknowns, at_zero)
+                .map_err(|_| CircuitError::ZeroVoltage { node: out, freq_hz })?;
         }
         Ok(())
     }
@@ -432,6 +484,51 @@ impl SparseAc {
         h.resize(freqs_hz.len(), Complex64::new(0.0, 0.0));
         for (chunk, h) in freqs_hz.chunks(LANES).zip(h.chunks_mut(LANES)) {
             self.solve_chunk(chunk, out, inp, h)?;
+        }
+        Ok(())
+    }
+
+    /// V(out) / V(inp) and its group delay, seconds, at one frequency
+    /// (see [`SparseAc::sweep_delay_into`]).
+    pub fn transfer_delay(
+        &mut self,
+        freq_hz: f64,
+        out: usize,
+        inp: usize,
+    ) -> Result<(Complex64, f64), CircuitError> {
+        let (mut h, mut delay) = ([Complex64::new(0.0, 0.0)], [0.0]);
+        self.check(&[freq_hz], out, inp)?;
+        self.solve_chunk_delay(&[freq_hz], out, inp, &mut h, &mut delay)?;
+        Ok((h[0], delay[0]))
+    }
+
+    /// [`SparseAc::sweep_into`] with the group delay -d arg H / d omega
+    /// of each point, seconds, into `delay_s` (cleared first): exact up to
+    /// rounding, as [`AcSystem::group_delay`] computes it (dx/ds =
+    /// -A^-1 C x by one more solve with the same factors, tau =
+    /// -Re(d ln H / ds)). Where V(out) is exactly zero, the delay is its
+    /// limit on either side, which is finite (see [`DenseDelay`]); where
+    /// V(out) vanishes identically, [`CircuitError::ZeroVoltage`] of
+    /// `out`. Every value is finite.
+    pub fn sweep_delay_into(
+        &mut self,
+        freqs_hz: &[f64],
+        out: usize,
+        inp: usize,
+        h: &mut Vec<Complex64>,
+        delay_s: &mut Vec<f64>,
+    ) -> Result<(), CircuitError> {
+        h.clear();
+        delay_s.clear();
+        self.check(freqs_hz, out, inp)?;
+        h.resize(freqs_hz.len(), Complex64::new(0.0, 0.0));
+        delay_s.resize(freqs_hz.len(), 0.0);
+        for ((chunk, h), d) in freqs_hz
+            .chunks(LANES)
+            .zip(h.chunks_mut(LANES))
+            .zip(delay_s.chunks_mut(LANES))
+        {
+            self.solve_chunk_delay(chunk, out, inp, h, d)?;
         }
         Ok(())
     }

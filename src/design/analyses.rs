@@ -4,10 +4,10 @@
 
 use super::{ActiveDesign, Design, DesignError};
 use crate::analysis::{
-    level_traces, monte_carlo, summarize, Mask, MaskVerdict, MonteCarlo, MonteCarloResult, Scope,
-    SensitivitySummary, SummaryPoints, ToleranceRule,
+    level_traces, monte_carlo, summarize, trace, AnalysisError, Mask, MaskVerdict, MonteCarlo,
+    MonteCarloResult, Scope, SensitivitySummary, SummaryPoints, ToleranceRule,
 };
-use crate::circuit::{band_grid, log_grid, AcSystem, CircuitError, Netlist};
+use crate::circuit::{band_grid, log_grid, AcSystem, Netlist};
 use crate::parts::Tolerance;
 
 /// Points per passband of the worst-case sensitivity search.
@@ -34,9 +34,9 @@ pub struct BuildTrace {
     pub gain_db: Vec<f64>,
     /// Phase, degrees, unwrapped.
     pub phase_deg: Vec<f64>,
-    /// Group delay, s, exact (one more solve per point); `None` at an
-    /// exact transmission zero, where it is undefined.
-    pub group_delay_s: Vec<Option<f64>>,
+    /// Group delay, s, exact (one more solve per point; at an exact
+    /// transmission zero its limit, see [`crate::analysis::trace`]).
+    pub group_delay_s: Vec<f64>,
 }
 
 /// The responses the charts draw.
@@ -71,23 +71,14 @@ pub struct Analyses {
     pub active_on_parts_verdict: MaskVerdict,
 }
 
-/// Gain, phase and exact group delay of `netlist` at `freq_hz`.
-fn trace(netlist: &Netlist, freq_hz: &[f64]) -> Result<BuildTrace, CircuitError> {
-    let (inp, out) = (netlist.require_node("in")?, netlist.require_node("out")?);
-    let mut system = AcSystem::new(netlist)?;
-    let response = system.sweep(freq_hz, out, inp)?;
-    let group_delay_s = freq_hz
-        .iter()
-        .map(|&f| match system.group_delay(f, out, inp) {
-            Ok(tau) => Ok(Some(tau)),
-            Err(CircuitError::ZeroVoltage { .. }) => Ok(None),
-            Err(e) => Err(e),
-        })
-        .collect::<Result<_, _>>()?;
+/// Gain, phase and exact group delay of `netlist` at `freq_hz`, through
+/// the fast exact path of [`trace`].
+fn build_trace(netlist: &Netlist, freq_hz: &[f64]) -> Result<BuildTrace, AnalysisError> {
+    let t = trace(netlist, freq_hz, true)?;
     Ok(BuildTrace {
-        gain_db: response.db(),
-        phase_deg: response.phase_deg(),
-        group_delay_s,
+        gain_db: t.gain_db,
+        phase_deg: t.phase_deg,
+        group_delay_s: t.group_delay_s.unwrap_or_default(),
     })
 }
 
@@ -114,10 +105,11 @@ impl Design {
         let levels = &active.on_parts_figures.levels;
         let traces = level_traces(&mut system, inp, &freq_hz, levels)
             .map_err(|cause| self.analysis_error(cause))?;
+        let analysis = |cause| self.analysis_error(cause);
         Ok(ChartTraces {
-            passive_ideal: trace(&self.passive, &freq_hz).map_err(circuit)?,
-            active_exact: trace(&active.build.netlist, &freq_hz).map_err(circuit)?,
-            active_on_parts: trace(parts, &freq_hz).map_err(circuit)?,
+            passive_ideal: build_trace(&self.passive, &freq_hz).map_err(analysis)?,
+            active_exact: build_trace(&active.build.netlist, &freq_hz).map_err(analysis)?,
+            active_on_parts: build_trace(parts, &freq_hz).map_err(analysis)?,
             opamp_gain_db: levels.iter().map(|l| l.name.clone()).zip(traces).collect(),
             freq_hz,
         })
@@ -217,18 +209,9 @@ impl Design {
     /// How `netlist` (a build of this design) stands against the
     /// specification, on the Monte Carlo grid.
     pub fn verdict(&self, netlist: &Netlist) -> Result<MaskVerdict, DesignError> {
-        let circuit = |cause| self.circuit_error(cause);
         let freqs = self.monte_carlo_grid()?;
-        let (inp, out) = (
-            netlist.require_node("in").map_err(circuit)?,
-            netlist.require_node("out").map_err(circuit)?,
-        );
-        let db = AcSystem::new(netlist)
-            .and_then(|mut s| s.sweep(&freqs, out, inp))
-            .map_err(circuit)?
-            .db();
-        Mask::new(self.mask_limits())
-            .and_then(|m| m.verdict(&freqs, &db))
+        trace(netlist, &freqs, false)
+            .and_then(|t| Mask::new(self.mask_limits())?.verdict(&freqs, &t.gain_db))
             .map_err(|cause| self.analysis_error(cause))
     }
 

@@ -89,12 +89,7 @@ pub fn design_charts(d: &Documents) -> Vec<NamedChart> {
         });
     let magnitude_range = Some((level - CHART_FLOOR_DB, level + CHART_CEILING_DB));
     let gain = |b: &BuildTrace| b.gain_db.clone();
-    let delay_ms = |b: &BuildTrace| {
-        b.group_delay_s
-            .iter()
-            .map(|d| d.map_or(f64::NAN, |s| s * 1e3))
-            .collect()
-    };
+    let delay_ms = |b: &BuildTrace| b.group_delay_s.iter().map(|s| s * 1e3).collect();
     let mc = &d.analyses.montecarlo;
     vec![
         NamedChart {

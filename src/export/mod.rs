@@ -8,12 +8,14 @@
 //! - `prose`: the typed notes and reasons in words, once.
 //! - `summary`: the text `nocoil design` prints.
 //! - `tables`: sensitivity, level, envelope and order tables.
+//! - `csv`: long numeric tables (the sweep), fast and round-tripping.
 //! - `charts`: the charts of a design, as [`plot::Chart`] data.
 //! - `page`: the HTML report of a design, through [`html`].
 //! - `files`: every file of an output set, in memory first.
 
 pub mod bom;
 pub mod charts;
+pub mod csv;
 pub mod eng;
 pub mod files;
 pub mod html;

@@ -6,7 +6,7 @@
 use super::prose::db;
 use crate::analysis::{MonteCarloResult, OpAmpLevel, Parameter, SensitivitySummary};
 use crate::approx::ApproxError;
-use crate::design::{Build, ChartTraces, OrderTable};
+use crate::design::{Build, OrderTable};
 use std::fmt::Write as _;
 
 /// Sensitivities of `build` as CSV: designator, quantity, and dB per %
@@ -117,30 +117,6 @@ pub fn order_text(t: &OrderTable) -> String {
             ),
             Err(e) => writeln!(s, "  {name:<12} none: {e}"),
         };
-    }
-    s
-}
-
-/// The responses of the three builds as CSV: gain, phase and (for the
-/// passive ideal) the exact group delay at each frequency. A delay that
-/// is undefined (an exact transmission zero) is an empty field.
-pub fn sweep_csv(t: &ChartTraces) -> String {
-    let mut s = String::from("freq_hz,passive_ideal_gain_db,passive_ideal_phase_deg,passive_ideal_group_delay_s,active_exact_gain_db,active_exact_phase_deg,active_on_parts_gain_db,active_on_parts_phase_deg\n");
-    let (p, e, b) = (&t.passive_ideal, &t.active_exact, &t.active_on_parts);
-    for (i, f) in t.freq_hz.iter().enumerate() {
-        let delay = p.group_delay_s[i]
-            .map(|d| format!("{d:.9e}"))
-            .unwrap_or_default();
-        let _ = writeln!(
-            s,
-            "{f:.9e},{:.9},{:.6},{delay},{:.9},{:.6},{:.9},{:.6}",
-            p.gain_db[i],
-            p.phase_deg[i],
-            e.gain_db[i],
-            e.phase_deg[i],
-            b.gain_db[i],
-            b.phase_deg[i]
-        );
     }
     s
 }
