@@ -257,6 +257,15 @@ pub struct Why {
     pub fdnr_obstacle: Option<String>,
 }
 
+/// A DC-path resistor of the FDNR image.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct DcPathResistor {
+    /// Its designator.
+    pub designator: String,
+    /// Its value, ohm.
+    pub ohm: f64,
+}
+
 /// A fact about a realization worth telling the designer.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 #[serde(tag = "note", rename_all = "snake_case")]
@@ -297,8 +306,8 @@ pub enum Note {
         dc_gain_db: f64,
         /// The ladder's, dB.
         ladder_dc_gain_db: f64,
-        /// The DC-path resistors: designator and ohm.
-        resistors: Vec<(String, f64)>,
+        /// The DC-path resistors.
+        resistors: Vec<DcPathResistor>,
     },
     /// How far the DC-path resistors move the response below the balance
     /// frequency (ideal op-amps, so only their effect shows).
@@ -586,12 +595,15 @@ fn dc_path_notes(
         let h = refine::transfer(n, &[0.0])?;
         Ok(20.0 * h[0].norm().log10())
     };
-    let resistors: Vec<(String, f64)> = stages
+    let resistors: Vec<DcPathResistor> = stages
         .iter()
         .filter_map(|s| match s.handles {
             Handles::Termination { dc_path, .. } => {
                 let e = &active.elements[dc_path];
-                Some((e.name().to_string(), e.value()?))
+                Some(DcPathResistor {
+                    designator: e.name().to_string(),
+                    ohm: e.value()?,
+                })
             }
             _ => None,
         })

@@ -25,6 +25,7 @@ pub struct OpAmpLevel {
     /// Element index in the netlist.
     pub element: usize,
     /// Element name.
+    #[serde(rename = "designator")]
     pub name: String,
     /// Its output node.
     pub out_node: usize,
@@ -34,6 +35,7 @@ pub struct OpAmpLevel {
     pub peak_freq_hz: f64,
     /// The input amplitude (V peak) at which this output reaches the
     /// stated swing: swing / peak gain.
+    #[serde(rename = "max_input_v_peak")]
     pub max_input_v: f64,
     /// Whether this op-amp has the highest peak gain of all, so it clips
     /// first (every op-amp tied at the highest is flagged).

@@ -129,7 +129,7 @@ impl Display for Note {
             } => {
                 let list: Vec<String> = resistors
                     .iter()
-                    .map(|(name, ohm)| format!("{name} = {}", eng(*ohm, "ohm")))
+                    .map(|r| format!("{} = {}", r.designator, eng(r.ohm, "ohm")))
                     .collect();
                 write!(
                     f,

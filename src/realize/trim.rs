@@ -35,8 +35,10 @@ const STRICTLY_BELOW: f64 = 1e-6;
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct Trim {
     /// The passive element the converter replaces.
+    #[serde(rename = "converter_for")]
     pub stage: String,
     /// The trimmed resistor.
+    #[serde(rename = "designator")]
     pub element: String,
     /// Its index in the build's netlist.
     #[serde(skip)]
