@@ -10,26 +10,24 @@
 //! [`DenseDelay`] when the delay is asked for, the same factorization).
 //! A long grid is split into one contiguous part per rayon thread, each
 //! solved by its own copy of the sparse solver; the result does not
-//! depend on the split.
-//! The dense path is the oracle: `tests/sweep.rs` checks this one against
-//! it on the demo designs.
+//! depend on the split. The dense path is the oracle: `tests/sweep.rs`
+//! checks this one against it on the demo designs.
 //!
 //! Every value is finite:
 //! - gain: 20 log10 |H|; where H is exactly zero, [`ZERO_GAIN_DB`];
-//! - phase: [`crate::circuit::Response::phase_deg`]'s convention (unwrapped, the first
-//!   point in (-180, 180]); where H is exactly zero, whatever the
-//!   unwrapping makes of arg 0;
+//! - phase: the convention of [`crate::circuit::Response::phase_deg`]
+//!   (unwrapped, the first point in (-180, 180]); where H is exactly
+//!   zero, whatever the unwrapping makes of arg 0;
 //! - group delay: exact up to rounding, and at an exact zero of H the
 //!   limit of the delay on either side (finite for a zero on the
 //!   j omega axis; see [`DenseDelay`]).
 
-use num_complex::Complex64;
-
-use super::AnalysisError;
-use rayon::prelude::*;
-
 use std::f64::consts::TAU;
 
+use num_complex::Complex64;
+use rayon::prelude::*;
+
+use super::AnalysisError;
 use crate::circuit::{AcSystem, CircuitError, DenseDelay, Netlist, SparseAc};
 
 /// The gain given where H is exactly zero (minus infinity in dB): that of
