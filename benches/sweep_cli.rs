@@ -1,8 +1,9 @@
 //! The work of `nocoil sweep examples/vibration-antialias.toml` after the
 //! design is made: the log grid, the passive ideal's trace with its exact
 //! group delay, the active build's trace, and the CSV table
-//! (`Design::sweep_csv`, the one call the command makes), on the
-//! command's default band (300 Hz to 44 kHz).
+//! (`Design::sweep_csv`, which the command's `Design::write_sweep_csv`
+//! writes into a string), on the command's default band (300 Hz to
+//! 44 kHz).
 //!
 //! - `table_N`: the whole table of N points; the difference of the
 //!   1,000- and 2-point runs over 998 is the cost per point, as
@@ -13,9 +14,9 @@
 //!   points.
 //!
 //! All on rayon's global pool (a thread per core unless
-//! RAYON_NUM_THREADS says otherwise); at 1,000 points only the two
-//! traces run side by side (a grid is split from 4,096 points, the
-//! table's blocks hold 4,096 rows).
+//! RAYON_NUM_THREADS says otherwise); at 1,000 points the table is one
+//! block (blocks hold 4,096 rows), so only the two solvers' set-up runs
+//! side by side, and the traces are not split (from 4,096 points).
 
 use criterion::{criterion_group, criterion_main, Criterion, Throughput};
 use nocoil::analysis::trace;

@@ -360,6 +360,40 @@ fn trace_is_the_same_on_any_thread_count() {
     }
 }
 
+/// The command's table, made and written block by block, is the text
+/// `export::csv::sweep_csv` makes of the two whole traces, on any thread
+/// count (20,001 rows: several rounds of blocks, the last one short).
+#[test]
+fn sweep_table_is_the_traces_written_whole() {
+    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples/vibration-antialias.toml");
+    let d = design(&Spec::load(&path).unwrap()).unwrap();
+    let active = d.active().unwrap().build.netlist;
+    let (lo, hi) = d.default_band();
+    let freqs = log_grid(lo, hi, 20_001).unwrap();
+    let passive_trace = trace(&d.passive, &freqs, true).unwrap();
+    let active_trace = trace(&active, &freqs, false).unwrap();
+    let delay = passive_trace.group_delay_s.clone().unwrap();
+    let columns: Vec<(&str, &[f64])> = SWEEP_COLUMNS
+        .into_iter()
+        .zip([
+            &passive_trace.gain_db[..],
+            &passive_trace.phase_deg,
+            &delay,
+            &active_trace.gain_db,
+            &active_trace.phase_deg,
+        ])
+        .collect();
+    let whole = nocoil::export::csv::sweep_csv(&freqs, &columns).unwrap();
+    for threads in [1, 2, 3] {
+        let table = rayon::ThreadPoolBuilder::new()
+            .num_threads(threads)
+            .build()
+            .unwrap()
+            .install(|| d.sweep_csv(&active, &freqs).unwrap());
+        assert!(table == whole, "{threads} threads: the table differs");
+    }
+}
+
 #[test]
 fn trace_refuses_bad_grids_and_takes_empty_ones() {
     let netlist = rc_highpass(1e3, 1e-6);

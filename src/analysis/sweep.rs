@@ -28,7 +28,7 @@ use num_complex::Complex64;
 use rayon::prelude::*;
 
 use super::AnalysisError;
-use crate::circuit::{AcSystem, CircuitError, DenseDelay, Netlist, SparseAc};
+use crate::circuit::{AcSystem, DenseDelay, Netlist, SparseAc};
 
 /// The gain given where H is exactly zero (minus infinity in dB): that of
 /// the smallest positive double, 2^-1074, so below the gain of every
@@ -60,65 +60,155 @@ pub fn trace(
     freqs_hz: &[f64],
     with_delay: bool,
 ) -> Result<Trace, AnalysisError> {
-    check_grid(freqs_hz)?;
-    let (inp, out) = (netlist.require_node("in")?, netlist.require_node("out")?);
-    let system = AcSystem::new(netlist)?;
-    // The span of the positive frequencies (the grid ascends, so its
-    // last point closes it): a sparse order is chosen on values at
-    // frequencies in it, and DC, if in the grid, is solved like any point
-    // outside it (the guard decides whether the dense LU takes it).
-    let lowest = freqs_hz.iter().copied().find(|&f| f > 0.0);
-    let span = lowest.zip(freqs_hz.last().copied());
+    let tracer = Tracer::new(netlist, freqs_hz, with_delay)?;
     let n = freqs_hz.len();
     // The output columns, filled in place. A zeroed allocation is mapped
     // lazily, so the delay column costs nothing when it is not asked for.
-    let mut columns = Columns {
-        gain_db: vec![0.0; n],
-        phase_deg: vec![0.0; n],
-        delay_s: vec![0.0; n],
+    let (mut gain_db, mut phase_deg, mut delay_s) = (vec![0.0; n], vec![0.0; n], vec![0.0; n]);
+    let threads = rayon::current_num_threads();
+    let part = if threads > 1 && n >= PARALLEL_POINTS {
+        n.div_ceil(threads)
+    } else {
+        n.max(1)
     };
-    match span.and_then(|(lo, hi)| SparseAc::new(&system, lo, hi).ok()) {
-        Some(sparse) => sparse_sweep(&sparse, freqs_hz, [out, inp], with_delay, &mut columns)?,
-        None => {
-            let mut part = columns.part(0, n);
-            dense_sweep(system, freqs_hz, [out, inp], with_delay, &mut part)?
-        }
-    }
-    unwrap_deg(&mut columns.phase_deg);
+    let parts: Vec<Result<(), AnalysisError>> = freqs_hz
+        .par_chunks(part)
+        .zip(gain_db.par_chunks_mut(part))
+        .zip(phase_deg.par_chunks_mut(part))
+        .zip(delay_s.par_chunks_mut(part))
+        .map_init(
+            || tracer.clone(),
+            |tracer, (((freqs, gain), arg), delay)| tracer.solve(freqs, gain, arg, delay),
+        )
+        .collect();
+    // In grid order, so the error reported is that of the lowest failing
+    // frequency whatever the thread count.
+    parts.into_iter().collect::<Result<(), _>>()?;
+    unwrap_deg(&mut None, &mut phase_deg);
     Ok(Trace {
-        gain_db: columns.gain_db,
-        phase_deg: columns.phase_deg,
-        group_delay_s: with_delay.then_some(columns.delay_s),
+        gain_db,
+        phase_deg,
+        group_delay_s: with_delay.then_some(delay_s),
     })
 }
 
-/// The columns of a trace while they are filled; `phase_deg` holds arg H
-/// in radians until [`unwrap_deg`].
-struct Columns {
-    gain_db: Vec<f64>,
-    phase_deg: Vec<f64>,
-    delay_s: Vec<f64>,
+/// The solver of one netlist over one grid, for a trace made part by
+/// part ([`trace`] is one over the whole grid, split over rayon's
+/// threads): each copy solves any run of the grid, and the phase of
+/// consecutive runs is unwrapped in order with [`unwrap_deg`]. Cloning
+/// copies the solver (a few tens of kilobytes).
+#[derive(Debug, Clone)]
+pub struct Tracer {
+    solver: Solver,
+    /// Nodes `out` and `in`.
+    nodes: [usize; 2],
+    with_delay: bool,
+    /// H and the delay of one pass, reused.
+    h: Vec<Complex64>,
+    delay: Vec<f64>,
 }
 
-/// The rows `start..start + len` of [`Columns`].
-struct Part<'a> {
+/// The sparse solver, or the dense LU where none could be built.
+#[derive(Debug, Clone)]
+enum Solver {
+    Sparse(Box<SparseAc>),
+    Dense(Box<(AcSystem, DenseDelay)>),
+}
+
+impl Tracer {
+    /// The solver of `netlist` (nodes `in` and `out`) for the grid
+    /// `freqs_hz` (finite, at least 0, strictly ascending; see [`trace`]
+    /// for the path and its errors); with `with_delay` it also gives the
+    /// exact group delay.
+    pub fn new(
+        netlist: &Netlist,
+        freqs_hz: &[f64],
+        with_delay: bool,
+    ) -> Result<Tracer, AnalysisError> {
+        check_grid(freqs_hz)?;
+        let (inp, out) = (netlist.require_node("in")?, netlist.require_node("out")?);
+        let system = AcSystem::new(netlist)?;
+        // The span of the positive frequencies (the grid ascends, so its
+        // last point closes it): a sparse order is chosen on values at
+        // frequencies in it, and DC, if in the grid, is solved like any
+        // point outside it (the guard decides whether the dense LU takes
+        // it).
+        let lowest = freqs_hz.iter().copied().find(|&f| f > 0.0);
+        let span = lowest.zip(freqs_hz.last().copied());
+        let solver = match span.and_then(|(lo, hi)| SparseAc::new(&system, lo, hi).ok()) {
+            Some(sparse) => Solver::Sparse(Box::new(sparse)),
+            None => {
+                let dense = DenseDelay::new(&system);
+                Solver::Dense(Box::new((system, dense)))
+            }
+        };
+        Ok(Tracer {
+            solver,
+            nodes: [out, inp],
+            with_delay,
+            h: Vec::new(),
+            delay: Vec::new(),
+        })
+    }
+
+    /// Solves the frequencies `freqs_hz` (a run of the grid given to
+    /// [`Tracer::new`]) into the rows of the same length: the gain in dB
+    /// ([`ZERO_GAIN_DB`] at an exact zero), arg H in radians, not yet
+    /// unwrapped, and the group delay in seconds (left untouched when it
+    /// was not asked for).
+    pub fn solve(
+        &mut self,
+        freqs_hz: &[f64],
+        gain_db: &mut [f64],
+        arg_rad: &mut [f64],
+        delay_s: &mut [f64],
+    ) -> Result<(), AnalysisError> {
+        let [out, inp] = self.nodes;
+        let with_delay = self.with_delay;
+        let mut rows = Rows {
+            gain_db,
+            arg_rad,
+            delay_s,
+        };
+        match &mut self.solver {
+            Solver::Sparse(sparse) => {
+                let (h, delay) = (&mut self.h, &mut self.delay);
+                for (pass, freqs) in freqs_hz.chunks(PASS_POINTS).enumerate() {
+                    let at = pass * PASS_POINTS;
+                    if with_delay {
+                        sparse.sweep_delay_into(freqs, out, inp, h, delay)?;
+                    } else {
+                        sparse.sweep_into(freqs, out, inp, h)?;
+                    }
+                    for (k, &hk) in h.iter().enumerate() {
+                        rows.set(at + k, hk, delay.get(k).copied());
+                    }
+                }
+            }
+            Solver::Dense(dense) => {
+                let (system, dense) = &mut **dense;
+                for (k, &f) in freqs_hz.iter().enumerate() {
+                    if with_delay {
+                        let (h, delay) = dense.transfer_delay(system, f, out, inp)?;
+                        rows.set(k, h, Some(delay));
+                    } else {
+                        rows.set(k, system.transfer(f, out, inp)?, None);
+                    }
+                }
+            }
+        }
+        Ok(())
+    }
+}
+
+/// Rows being filled by [`Tracer::solve`].
+struct Rows<'a> {
     gain_db: &'a mut [f64],
     arg_rad: &'a mut [f64],
     delay_s: &'a mut [f64],
 }
 
-impl Columns {
-    fn part(&mut self, start: usize, len: usize) -> Part<'_> {
-        let rows = start..start + len;
-        Part {
-            gain_db: &mut self.gain_db[rows.clone()],
-            arg_rad: &mut self.phase_deg[rows.clone()],
-            delay_s: &mut self.delay_s[rows],
-        }
-    }
-}
-
-impl Part<'_> {
+impl Rows<'_> {
     /// Row `k` from H (and the delay, if given).
     fn set(&mut self, k: usize, h: Complex64, delay_s: Option<f64>) {
         self.gain_db[k] = gain_db(h);
@@ -129,105 +219,37 @@ impl Part<'_> {
     }
 }
 
-/// Points from which a sparse sweep is split into one contiguous part per
-/// rayon thread, each solved by its own copy of the solver (a clone of a
-/// few tens of kilobytes); below, the calling thread solves them all. A
-/// part of 2,048 points takes about half a millisecond, far above the cost
-/// of a clone and of rayon's scheduling. Each frequency is solved in its
-/// own lane whatever points share its pass, so the result does not depend
-/// on the split (`tests/sweep.rs` compares one, two and three threads).
+/// Points from which [`trace`] splits its grid into one contiguous part
+/// per rayon thread, each solved by its own copy of the solver; below,
+/// the calling thread solves them all. A part of 2,048 points takes about
+/// half a millisecond, far above the cost of a copy and of rayon's
+/// scheduling. Each frequency is solved in its own lane whatever points
+/// share its pass, so the result does not depend on the split
+/// (`tests/sweep.rs` compares one, two and three threads).
 const PARALLEL_POINTS: usize = 4096;
 
-/// Points solved at a time within a part, into buffers reused from one
-/// pass to the next: only the output columns are fresh memory, which on
-/// the project's machine costs about as much per byte as the solve does
-/// per point (measured: a 100,000-point trace took 0.5 us per point while
-/// it allocated H and its copies afresh, 0.3 us when they were reused).
+/// Points solved at a time, into buffers reused from one pass to the
+/// next: only the output columns are fresh memory, which on the project's
+/// machine costs about as much per byte as the solve does per point
+/// (measured: a 100,000-point trace took 0.5 us per point while it
+/// allocated H and its copies afresh, 0.3 us when they were reused).
 const PASS_POINTS: usize = 512;
 
-/// Fills `columns` at every frequency through `sparse`, in parallel parts
-/// on long grids.
-fn sparse_sweep(
-    sparse: &SparseAc,
-    freqs_hz: &[f64],
-    [out, inp]: [usize; 2],
-    with_delay: bool,
-    columns: &mut Columns,
-) -> Result<(), CircuitError> {
-    let n = freqs_hz.len();
-    let threads = rayon::current_num_threads();
-    let part = if threads > 1 && n >= PARALLEL_POINTS {
-        n.div_ceil(threads)
-    } else {
-        n.max(1)
-    };
-    let parts: Vec<Result<(), CircuitError>> = freqs_hz
-        .par_chunks(part)
-        .zip(columns.gain_db.par_chunks_mut(part))
-        .zip(columns.phase_deg.par_chunks_mut(part))
-        .zip(columns.delay_s.par_chunks_mut(part))
-        .map_init(
-            || (sparse.clone(), Vec::new(), Vec::new()),
-            |(sparse, h, delay), (((freqs, gain_db), arg_rad), delay_s)| {
-                let mut part = Part {
-                    gain_db,
-                    arg_rad,
-                    delay_s,
-                };
-                for (pass, freqs) in freqs.chunks(PASS_POINTS).enumerate() {
-                    let at = pass * PASS_POINTS;
-                    if with_delay {
-                        sparse.sweep_delay_into(freqs, out, inp, h, delay)?;
-                    } else {
-                        sparse.sweep_into(freqs, out, inp, h)?;
-                    }
-                    for (k, &hk) in h.iter().enumerate() {
-                        part.set(at + k, hk, delay.get(k).copied());
-                    }
-                }
-                Ok(())
-            },
-        )
-        .collect();
-    // In grid order, so the error reported is that of the lowest failing
-    // frequency whatever the thread count.
-    parts.into_iter().collect()
-}
-
-/// Fills `part` at every frequency by the dense LU of `system`.
-fn dense_sweep(
-    mut system: AcSystem,
-    freqs_hz: &[f64],
-    [out, inp]: [usize; 2],
-    with_delay: bool,
-    part: &mut Part<'_>,
-) -> Result<(), CircuitError> {
-    let mut dense = DenseDelay::new(&system);
-    for (k, &f) in freqs_hz.iter().enumerate() {
-        if with_delay {
-            let (h, delay) = dense.transfer_delay(&system, f, out, inp)?;
-            part.set(k, h, Some(delay));
-        } else {
-            part.set(k, system.transfer(f, out, inp)?, None);
-        }
-    }
-    Ok(())
-}
-
-/// Unwraps the phase in place (radians in, degrees out) with the very
-/// operations of [`crate::circuit::Response::phase_deg`], so the values are the same
-/// doubles (a unit test below compares them bit for bit): the first point
-/// stays in (-180, 180], each later one is shifted by whole turns to
-/// within half a turn of its predecessor.
-fn unwrap_deg(phase: &mut [f64]) {
-    let mut last: Option<f64> = None;
+/// Unwraps a run of phases in place, radians in, degrees out, with the
+/// very operations of [`crate::circuit::Response::phase_deg`], so the
+/// values are the same doubles (a unit test below compares them bit for
+/// bit): the first point of a grid (`last` is `None`) stays in
+/// (-180, 180], each later one is shifted by whole turns to within half
+/// a turn of its predecessor. `last` carries the unwrapped phase of the
+/// previous run, in radians, so consecutive runs unwrap as one.
+pub fn unwrap_deg(last: &mut Option<f64>, phase: &mut [f64]) {
     for p in phase.iter_mut() {
         let raw = *p;
-        let next = match last {
+        let next = match *last {
             Some(last) => raw + TAU * ((last - raw) / TAU).round(),
             None => raw,
         };
-        last = Some(next);
+        *last = Some(next);
         *p = next.to_degrees();
     }
 }
@@ -307,9 +329,16 @@ mod tests {
         }
         .phase_deg();
         let mut got: Vec<f64> = h.iter().map(|z| z.arg()).collect();
-        unwrap_deg(&mut got);
+        let mut split = got.clone();
+        unwrap_deg(&mut None, &mut got);
         let bits = |v: &[f64]| v.iter().map(|x| x.to_bits()).collect::<Vec<_>>();
         assert_eq!(bits(&got), bits(&want));
+        // In runs, carrying the last phase: the same.
+        let mut last = None;
+        for run in split.chunks_mut(37) {
+            unwrap_deg(&mut last, run);
+        }
+        assert_eq!(bits(&split), bits(&want));
     }
 
     #[test]
