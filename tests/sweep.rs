@@ -37,6 +37,14 @@ const DELAY_REL_TOL: f64 = 1e-9;
 /// its centre frequency, where the passive ideal's equations are
 /// numerically singular to both paths (`nocoil sweep` of that demo at
 /// the default 401 points fails there, before this path as after).
+///
+/// Finer grids come closer to the transmission zeros, where no double
+/// solve holds the delay to 1e-9: measured at 20,000 points, three
+/// points of `mains-notch`'s passive ideal within 0.03 % of its zeros
+/// (gain -103 to -113 dB) differ from the dense path by up to 7.3e-8
+/// relative, and against a double-double solve the sparse path is off
+/// by at most 4.1e-9 there and the dense path by up to 6.9e-8; both are
+/// within the conditioning bound the random-cascade test below uses.
 const DEMO_POINTS: [usize; 2] = [400, 2_000];
 
 /// Every demo design of `examples/`, with its active build's netlist.
