@@ -181,7 +181,7 @@ print(min(t / i for t, i in zip(d["times"], d["iters"])))' \
 }
 sparse_point_us=$(echo "$(criterion_ns sweep_1000/sparse) / 1000 / 1000" | bc -l)
 dense_point_us=$(echo "$(criterion_ns sweep_1000/dense) / 1000 / 1000" | bc -l)
-table_point_us=$(echo "($(criterion_ns sweep_cli/table_1000) - $(criterion_ns sweep_cli/table_2)) / 998 / 1000" | bc -l)
+table_point_us=$(echo "($(criterion_ns sweep_cli/table_20000) - $(criterion_ns sweep_cli/table_2)) / 19998 / 1000" | bc -l)
 sparse_trial_us=$(echo "$(criterion_ns montecarlo_201/loop_sparse_10000_trials) / 10000 / 1000" | bc -l)
 dense_trial_us=$(echo "$(criterion_ns montecarlo_201/loop_dense_100_trials) / 100 / 1000" | bc -l)
 engine1_s=$(echo "$(criterion_ns montecarlo_201/engine_1_threads_10000_trials) / 1000000000" | bc -l)
