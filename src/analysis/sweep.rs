@@ -229,10 +229,10 @@ impl Rows<'_> {
 const PARALLEL_POINTS: usize = 4096;
 
 /// Points solved at a time, into buffers reused from one pass to the
-/// next: only the output columns are fresh memory, which on the project's
-/// machine costs about as much per byte as the solve does per point
-/// (measured: a 100,000-point trace took 0.5 us per point while it
-/// allocated H and its copies afresh, 0.3 us when they were reused).
+/// next, so that only the output columns are fresh memory: on the
+/// project's machine memory touched for the first time is dear (measured:
+/// a 100,000-point trace took 0.5 us per point while it allocated H and
+/// its copies afresh, 0.3 us when they were reused).
 const PASS_POINTS: usize = 512;
 
 /// Unwraps a run of phases in place, radians in, degrees out, with the
