@@ -80,7 +80,7 @@ pub fn sweep_csv(freqs_hz: &[f64], columns: &[(&str, &[f64])]) -> Result<String,
 }
 
 /// [`sweep_csv`] written to `out` block by block (one `write_all` per
-/// block of [`BLOCK_ROWS`] rows), for a table too long to hold twice.
+/// block of 4,096 rows), for a table too long to hold twice.
 pub fn write_sweep_csv<W: std::io::Write + ?Sized>(
     out: &mut W,
     freqs_hz: &[f64],
