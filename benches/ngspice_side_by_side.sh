@@ -12,18 +12,19 @@
 #   (run here unless SKIP_CARGO_BENCH=1, then their last results are read).
 # - command line: `nocoil sweep examples/vibration-antialias.toml
 #   --points N` (its default band, 300 Hz to 44 kHz) for N = CLI_POINTS
-#   and N = 2, standard output to a file, (t_N - t_2) / (N - 2) per
+#   and N = 2, standard output to /dev/null, (t_N - t_2) / (N - 2) per
 #   point: the design, the solvers' set-up and process start cancel, the
 #   sweep and the CSV printing remain. On rayon's default two threads
-#   (the machine's cores) and on one (RAYON_NUM_THREADS=1). ngspice runs the active deck that
-#   `nocoil design` writes for that demo on the same band at the same
-#   density (`.ac dec D 300 44k`, D chosen for about CLI_POINTS points;
-#   ngspice's count, read from its log, divides its time) and on two
-#   points.
+#   (the machine's cores) and on one (RAYON_NUM_THREADS=1). ngspice runs
+#   the active deck that `nocoil design` writes for that demo on the same
+#   band at the same density (`.ac dec D 300 44k`, D chosen for about
+#   CLI_POINTS points; ngspice's count, read from its log, divides its
+#   time) and on two points. The runs of this row are interleaved (see
+#   cli_times).
 #
-# Every ngspice timing is the best of RUNS runs (default 7), and every
-# nocoil timing the fastest of criterion's samples: the machine is
-# shared, and the minimum is the least disturbed on both sides.
+# Every ngspice and command-line timing is the best of RUNS runs (default
+# 7), and every criterion timing the fastest of its samples: the machine
+# is shared, and the minimum is the least disturbed on both sides.
 #
 # Usage: bash benches/ngspice_side_by_side.sh   (from the repository root)
 set -euo pipefail
@@ -74,24 +75,42 @@ best_time() {
     echo "$best"
 }
 
-# Best wall time of $RUNS runs of `nocoil sweep $DEMO --points $1` on $2
-# rayon threads, in seconds; the output must have $1 rows after the
-# header.
-best_cli_time() {
-    local points=$1 threads=$2 best= start end t out
-    out="$DIR/cli.csv"
-    for _ in $(seq "$RUNS"); do
-        start=$(date +%s.%N)
-        RAYON_NUM_THREADS=$threads "$NOCOIL" sweep "$DEMO" --points "$points" >"$out"
-        end=$(date +%s.%N)
-        [ "$(($(wc -l <"$out") - 1))" = "$points" ] || {
-            echo "nocoil sweep did not print $points rows" >&2
-            exit 1
-        }
-        t=$(echo "$end - $start" | bc -l)
-        if [ -z "$best" ] || [ "$(echo "$t < $best" | bc -l)" = 1 ]; then best=$t; fi
-    done
-    echo "$best"
+# The command-line row, interleaved: each of RUNS rounds runs, one after
+# the other, nocoil sweep for CLI_POINTS and 2 points on two threads and
+# on one (RAYON_NUM_THREADS=1), printing to /dev/null (what the output's
+# destination costs is not the command's), and ngspice on the two
+# command-line decks; each keeps its fastest time, so a change of the
+# machine's load between runs falls on both sides alike. A first run of
+# each must show its row count. Prints the six times, seconds.
+cli_times() {
+    python3 - "$NOCOIL" "$DEMO" "$CLI_POINTS" "$DIR" "$cli_rows" "$RUNS" <<'PY'
+import os, subprocess, sys, time
+nocoil, demo, points, folder, rows, runs = sys.argv[1:]
+points, rows, runs = int(points), int(rows), int(runs)
+def nocoil_run(n, threads):
+    env = dict(os.environ, RAYON_NUM_THREADS=str(threads))
+    return [nocoil, "sweep", demo, "--points", str(n)], env
+cases = [
+    (*nocoil_run(points, 2), points + 1),
+    (*nocoil_run(2, 2), 3),
+    (*nocoil_run(points, 1), points + 1),
+    (*nocoil_run(2, 1), 3),
+    (["ngspice", "-b", f"{folder}/cli_many.cir"], None, f"No. of Data Rows : {rows}"),
+    (["ngspice", "-b", f"{folder}/cli_two.cir"], None, "No. of Data Rows : 2"),
+]
+for cmd, env, expect in cases:
+    out = subprocess.run(cmd, env=env, capture_output=True, text=True)
+    ok = (out.stdout.count("\n") == expect) if isinstance(expect, int) else (expect in out.stdout + out.stderr)
+    if not ok:
+        sys.exit(f"{' '.join(cmd)} did not run as expected")
+best = [float("inf")] * len(cases)
+for _ in range(runs):
+    for k, (cmd, env, _) in enumerate(cases):
+        start = time.perf_counter()
+        subprocess.run(cmd, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+        best[k] = min(best[k], time.perf_counter() - start)
+print(" ".join(f"{t:.6f}" for t in best))
+PY
 }
 
 # Sweep decks: the deck's own `.ac` line, run once.
@@ -141,14 +160,10 @@ t2=$(best_time "$DIR/s2.cir" 2)
 tmany=$(best_time "$DIR/mc_many.cir" 201)
 tfew=$(best_time "$DIR/mc_few.cir" 201)
 ng_point_us=$(echo "($t1000 - $t2) / 998 * 1000000" | bc -l)
-t_ng_cli_many=$(best_time "$DIR/cli_many.cir" "$cli_rows")
-t_ng_cli_two=$(best_time "$DIR/cli_two.cir" 2)
+read -r t_cli_many t_cli_two t_cli1_many t_cli1_two t_ng_cli_many t_ng_cli_two <<<"$(cli_times)"
+[ -n "$t_ng_cli_two" ] || { echo "the command-line timing failed" >&2; exit 1; }
 ng_cli_point_us=$(echo "($t_ng_cli_many - $t_ng_cli_two) / ($cli_rows - 2) * 1000000" | bc -l)
-t_cli_many=$(best_cli_time "$CLI_POINTS" 2)
-t_cli_two=$(best_cli_time 2 2)
 cli_point_us=$(echo "($t_cli_many - $t_cli_two) / ($CLI_POINTS - 2) * 1000000" | bc -l)
-t_cli1_many=$(best_cli_time "$CLI_POINTS" 1)
-t_cli1_two=$(best_cli_time 2 1)
 cli1_point_us=$(echo "($t_cli1_many - $t_cli1_two) / ($CLI_POINTS - 2) * 1000000" | bc -l)
 ng_trial_us=$(echo "($tmany - $tfew) / ($MANY - $FEW) * 1000000" | bc -l)
 
@@ -167,7 +182,7 @@ print(min(t / i for t, i in zip(d["times"], d["iters"])))' \
 }
 sparse_point_us=$(echo "$(criterion_ns sweep_1000/sparse) / 1000 / 1000" | bc -l)
 dense_point_us=$(echo "$(criterion_ns sweep_1000/dense) / 1000 / 1000" | bc -l)
-table_point_us=$(echo "($(criterion_ns sweep_cli/table_1000) - $(criterion_ns sweep_cli/table_2)) / 998 / 1000" | bc -l)
+table_point_us=$(echo "($(criterion_ns sweep_cli/table_20000) - $(criterion_ns sweep_cli/table_2)) / 19998 / 1000" | bc -l)
 sparse_trial_us=$(echo "$(criterion_ns montecarlo_201/loop_sparse_10000_trials) / 10000 / 1000" | bc -l)
 dense_trial_us=$(echo "$(criterion_ns montecarlo_201/loop_dense_100_trials) / 100 / 1000" | bc -l)
 engine1_s=$(echo "$(criterion_ns montecarlo_201/engine_1_threads_10000_trials) / 1000000000" | bc -l)

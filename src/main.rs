@@ -10,10 +10,10 @@
 
 use clap::{Parser, Subcommand};
 use nocoil::design::{self, ActiveDesign, Blame, Build, Design, DesignError};
-use nocoil::export::csv::{write_sweep_csv, CsvError};
 use nocoil::export::files::{
     design_files, document_files, prepare_out_dir, write_set, OutDirError,
 };
+use nocoil::export::sweep::{write_sweep_csv, SweepError};
 use nocoil::export::{bom, summary, tables};
 use nocoil::spec::{Spec, MAX_TRIALS};
 use nocoil::transform::{Band, Kind, MaskField};
@@ -45,9 +45,8 @@ enum Command {
         #[arg(long, value_name = "DIR")]
         out: PathBuf,
     },
-    /// Print the response of the passive ideal, the active exact and the
-    /// active on parts builds as CSV: gain and phase of each, and the
-    /// group delay of the passive ideal.
+    /// Print the response of the passive ideal (gain, phase, exact group
+    /// delay) and of the active on parts build (gain, phase) as CSV.
     Sweep {
         /// The design file (TOML).
         spec: PathBuf,
@@ -409,15 +408,14 @@ fn run(request: Request) -> anyhow::Result<()> {
                     "expected 0 < from < to, in Hz",
                 )
             })?;
-            let table = d.sweep(&active, &grid)?;
             let mut out = std::io::stdout().lock();
-            // Streamed block by block: a long table is never held twice.
-            write_sweep_csv(&mut out, &table.freq_hz, &table.named()).map_err(|e| match e {
-                CsvError::Write { kind, message } => {
-                    anyhow::Error::from(std::io::Error::new(kind, message))
-                }
-                other => other.into(),
-            })?;
+            // Streamed block by block: a long table is never held whole.
+            write_sweep_csv(&d.passive, &active.on_parts.netlist, &grid, &mut out).map_err(
+                |e| match e {
+                    SweepError::Io(io) => anyhow::Error::from(io),
+                    other => other.into(),
+                },
+            )?;
             Ok(out.flush()?)
         }
         Request::MonteCarlo {

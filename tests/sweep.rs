@@ -10,6 +10,7 @@ use std::path::Path;
 use nocoil::analysis::{trace, Trace, ZERO_GAIN_DB};
 use nocoil::circuit::{log_grid, AcSystem, DenseDelay, Element, Netlist, SparseAc};
 use nocoil::design::{design, Design};
+use nocoil::export::sweep::{sweep_table_csv, SWEEP_COLUMNS};
 use nocoil::spec::Spec;
 
 use crate::fast::{cascade, extended_log_derivative, tolerance, Models};
@@ -37,6 +38,14 @@ const DELAY_REL_TOL: f64 = 1e-9;
 /// its centre frequency, where the passive ideal's equations are
 /// numerically singular to both paths (`nocoil sweep` of that demo at
 /// the default 401 points fails there, before this path as after).
+///
+/// Finer grids come closer to the transmission zeros, where no double
+/// solve holds the delay to 1e-9: measured at 20,000 points, three
+/// points of `mains-notch`'s passive ideal within 0.03 % of its zeros
+/// (gain -103 to -113 dB) differ from the dense path by up to 7.3e-8
+/// relative, and against a double-double solve the sparse path is off
+/// by at most 4.1e-9 there and the dense path by up to 6.9e-8; both are
+/// within the conditioning bound the random-cascade test below uses.
 const DEMO_POINTS: [usize; 2] = [400, 2_000];
 
 /// Every demo design of `examples/`, with its active build's netlist.
@@ -142,8 +151,7 @@ fn sweep_command_prints_the_dense_values() {
         String::from_utf8_lossy(&run.stderr)
     );
     let d = design(&Spec::load(&spec).unwrap()).unwrap();
-    let builds = d.active().unwrap();
-    let (active, on_parts) = (builds.build.netlist, builds.on_parts.netlist);
+    let on_parts = d.active().unwrap().on_parts.netlist;
     let (lo, hi) = d.view_hz();
     let freqs = log_grid(lo, hi, 301).unwrap();
     let mut reader = csv::Reader::from_reader(run.stdout.as_slice());
@@ -154,8 +162,6 @@ fn sweep_command_prints_the_dense_values() {
             "passive_ideal_gain_db",
             "passive_ideal_phase_deg",
             "passive_ideal_group_delay_s",
-            "active_exact_gain_db",
-            "active_exact_phase_deg",
             "active_on_parts_gain_db",
             "active_on_parts_phase_deg"
         ]
@@ -180,12 +186,6 @@ fn sweep_command_prints_the_dense_values() {
     );
     assert_agrees(
         &printed(4, 5, None),
-        &dense(&active, &freqs, false),
-        &freqs,
-        context,
-    );
-    assert_agrees(
-        &printed(6, 7, None),
         &dense(&on_parts, &freqs, false),
         &freqs,
         context,
@@ -365,6 +365,40 @@ fn trace_is_the_same_on_any_thread_count() {
         let one = on(1, netlist, with_delay);
         assert_eq!(one, on(2, netlist, with_delay));
         assert_eq!(one, on(3, netlist, with_delay));
+    }
+}
+
+/// The command's table, made and written block by block, is the text
+/// `export::csv::sweep_csv` makes of the two whole traces, on any thread
+/// count (20,001 rows: several rounds of blocks, the last one short).
+#[test]
+fn sweep_table_is_the_traces_written_whole() {
+    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples/vibration-antialias.toml");
+    let d = design(&Spec::load(&path).unwrap()).unwrap();
+    let active = d.active().unwrap().on_parts.netlist;
+    let (lo, hi) = d.view_hz();
+    let freqs = log_grid(lo, hi, 20_001).unwrap();
+    let passive_trace = trace(&d.passive, &freqs, true).unwrap();
+    let active_trace = trace(&active, &freqs, false).unwrap();
+    let delay = passive_trace.group_delay_s.clone().unwrap();
+    let columns: Vec<(&str, &[f64])> = SWEEP_COLUMNS
+        .into_iter()
+        .zip([
+            &passive_trace.gain_db[..],
+            &passive_trace.phase_deg,
+            &delay,
+            &active_trace.gain_db,
+            &active_trace.phase_deg,
+        ])
+        .collect();
+    let whole = nocoil::export::csv::sweep_csv(&freqs, &columns).unwrap();
+    for threads in [1, 2, 3] {
+        let table = rayon::ThreadPoolBuilder::new()
+            .num_threads(threads)
+            .build()
+            .unwrap()
+            .install(|| sweep_table_csv(&d.passive, &active, &freqs).unwrap());
+        assert!(table == whole, "{threads} threads: the table differs");
     }
 }
 

@@ -38,4 +38,4 @@ pub use sensitivity::{
     sensitivities, summarize, Extreme, Parameter, Sensitivity, SensitivitySummary,
     SensitivityTable, SummaryPoints,
 };
-pub use sweep::{trace, Trace, ZERO_GAIN_DB};
+pub use sweep::{trace, unwrap_deg, Trace, Tracer, ZERO_GAIN_DB};

@@ -30,7 +30,6 @@ mod analyses;
 mod builds;
 mod order;
 mod report;
-mod sweep;
 
 pub use analyses::{
     Analyses, BuildTrace, ChartTraces, MONTE_CARLO_POINTS, SENSITIVITY_POINTS, WORST_TRIALS,
@@ -40,7 +39,6 @@ pub use order::{order_table, OrderRow, OrderTable, FAMILIES};
 pub use report::{
     ActiveReport, Documents, NaturalFrequency, NormalizedElement, Outcome, Report, ScaledElement,
 };
-pub use sweep::SweepTable;
 
 /// The three builds of a design, named so wherever a figure is shown.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]

@@ -80,7 +80,7 @@ pub fn sweep_csv(freqs_hz: &[f64], columns: &[(&str, &[f64])]) -> Result<String,
 }
 
 /// [`sweep_csv`] written to `out` block by block (one `write_all` per
-/// block of [`BLOCK_ROWS`] rows), for a table too long to hold twice.
+/// block of 4,096 rows), for a table too long to hold twice.
 pub fn write_sweep_csv<W: std::io::Write + ?Sized>(
     out: &mut W,
     freqs_hz: &[f64],
@@ -91,6 +91,34 @@ pub fn write_sweep_csv<W: std::io::Write + ?Sized>(
         out.write_all(text.as_bytes())
     })
     .map_err(write_error)
+}
+
+/// The header line of a table with these value columns (`freq_hz,` and
+/// the names, `\n`-ended), for a caller that writes the rows itself
+/// ([`append_csv_rows`]).
+pub fn csv_header(names: &[&str]) -> Result<String, CsvError> {
+    let columns: Vec<(&str, &[f64])> = names.iter().map(|&n| (n, &[][..])).collect();
+    check(&[], &columns)?;
+    let mut header = String::new();
+    emit(&[], &columns, &mut |text| {
+        header.push_str(text);
+        Ok(())
+    })
+    .map_err(write_error)?;
+    Ok(header)
+}
+
+/// Appends the lines of the rows of `freqs_hz` and `columns` (no header)
+/// to `out`, as [`sweep_csv`] writes them: a table written run by run
+/// with this is the same text.
+pub fn append_csv_rows(
+    out: &mut String,
+    freqs_hz: &[f64],
+    columns: &[(&str, &[f64])],
+) -> Result<(), CsvError> {
+    check(freqs_hz, columns)?;
+    write_rows(out, 0..freqs_hz.len(), freqs_hz, columns);
+    Ok(())
 }
 
 fn write_error(e: std::io::Error) -> CsvError {
@@ -322,6 +350,20 @@ mod tests {
             ),
             "{err:?}"
         );
+    }
+
+    #[test]
+    fn a_table_written_run_by_run_is_the_same_text() {
+        let freqs: Vec<f64> = (0..100).map(|i| 10.0 + i as f64).collect();
+        let v: Vec<f64> = freqs.iter().map(|f| f.sqrt()).collect();
+        let whole = sweep_csv(&freqs, &[("v", &v)]).unwrap();
+        let mut runs = csv_header(&["v"]).unwrap();
+        for (f, v) in freqs.chunks(7).zip(v.chunks(7)) {
+            append_csv_rows(&mut runs, f, &[("v", v)]).unwrap();
+        }
+        assert_eq!(runs, whole);
+        assert!(csv_header(&["a\nb"]).is_err());
+        assert!(append_csv_rows(&mut runs, &freqs, &[("v", &v[1..])]).is_err());
     }
 
     #[test]

@@ -8,7 +8,8 @@
 //! - `prose`: the typed notes and reasons in words, once.
 //! - `summary`: the text `nocoil design` prints.
 //! - `tables`: sensitivity, level, envelope and order tables.
-//! - `csv`: long numeric tables (the sweep), fast and round-tripping.
+//! - `csv`: long numeric tables, fast and round-tripping; `sweep`: the
+//!   sweep table, streamed block by block.
 //! - `charts`: the charts of a design, as [`plot::Chart`] data.
 //! - `page`: the HTML report of a design, through [`html`].
 //! - `files`: every file of an output set, in memory first.
@@ -24,6 +25,7 @@ pub mod plot;
 pub mod prose;
 pub mod spice;
 pub mod summary;
+pub mod sweep;
 pub mod tables;
 
 /// A value's data spelling: its serde name (`active_on_parts`, `gic`),
