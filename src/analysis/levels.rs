@@ -11,7 +11,7 @@
 //! output resistance, which drops little at the loads a filter presents).
 
 use super::AnalysisError;
-use crate::circuit::{AcSystem, CircuitError, Element};
+use crate::circuit::{AcSystem, CircuitError, Element, SparseAc};
 
 /// Points of the grid on which op-amp output levels are searched, over
 /// the view of a design (two decades or more around its edges): 400
@@ -78,24 +78,23 @@ pub fn opamp_levels(
             _ => None,
         })
         .collect();
-    // (peak |gain|, its frequency) per op-amp.
-    let mut peaks = vec![(f64::NEG_INFINITY, f64::NAN); outputs.len()];
-    for &f in freqs_hz {
-        let v = system.node_voltages(f)?;
-        if v[inp].norm() == 0.0 {
-            return Err(CircuitError::ZeroVoltage {
-                node: inp,
-                freq_hz: f,
-            }
-            .into());
-        }
-        for (peak, &(_, _, out)) in peaks.iter_mut().zip(&outputs) {
-            let gain = (v[out] / v[inp]).norm();
-            if gain > peak.0 {
-                *peak = (gain, f);
-            }
-        }
-    }
+    let outs: Vec<usize> = outputs.iter().map(|o| o.2).collect();
+    let gains = output_gains(system, inp, freqs_hz, &outs)?;
+    // (peak |gain|, its frequency) per op-amp; the first on a tie.
+    let peaks: Vec<(f64, f64)> = gains
+        .iter()
+        .map(|g| {
+            g.iter()
+                .zip(freqs_hz)
+                .fold((f64::NEG_INFINITY, f64::NAN), |best, (&gain, &f)| {
+                    if gain > best.0 {
+                        (gain, f)
+                    } else {
+                        best
+                    }
+                })
+        })
+        .collect();
     let highest = peaks.iter().map(|p| p.0).fold(f64::NEG_INFINITY, f64::max);
     Ok(outputs
         .into_iter()
@@ -120,12 +119,51 @@ pub fn level_traces(
     freqs_hz: &[f64],
     levels: &[OpAmpLevel],
 ) -> Result<Vec<Vec<f64>>, AnalysisError> {
-    let mut traces = vec![Vec::with_capacity(freqs_hz.len()); levels.len()];
-    for &f in freqs_hz {
-        let v = system.node_voltages(f)?;
-        for (trace, l) in traces.iter_mut().zip(levels) {
-            trace.push(20.0 * (v[l.out_node] / v[inp]).norm().log10());
+    let outs: Vec<usize> = levels.iter().map(|l| l.out_node).collect();
+    Ok(output_gains(system, inp, freqs_hz, &outs)?
+        .into_iter()
+        .map(|g| g.into_iter().map(|x| 20.0 * x.log10()).collect())
+        .collect())
+}
+
+/// |V(out)/V(inp)| for each of `outs` at each of `freqs_hz`, one row per
+/// output, through the fastest exact path: the sparse solver over the
+/// grid's span (one sweep per output, each a solve per point reading two
+/// unknowns; its guard sends weak points to the dense LU itself), or the
+/// dense solver's node voltages where no sparse solver can be built
+/// (`tests/fast.rs` holds the two paths to 1e-12 of each other).
+fn output_gains(
+    system: &mut AcSystem,
+    inp: usize,
+    freqs_hz: &[f64],
+    outs: &[usize],
+) -> Result<Vec<Vec<f64>>, AnalysisError> {
+    let lo = freqs_hz.iter().copied().fold(f64::INFINITY, f64::min);
+    let hi = freqs_hz.iter().copied().fold(0.0, f64::max);
+    if lo > 0.0 {
+        if let Ok(mut sparse) = SparseAc::new(system, lo, hi) {
+            let mut h = Vec::with_capacity(freqs_hz.len());
+            let mut rows = Vec::with_capacity(outs.len());
+            for &out in outs {
+                sparse.sweep_into(freqs_hz, out, inp, &mut h)?;
+                rows.push(h.iter().map(|x| x.norm()).collect());
+            }
+            return Ok(rows);
         }
     }
-    Ok(traces)
+    let mut rows = vec![Vec::with_capacity(freqs_hz.len()); outs.len()];
+    for &f in freqs_hz {
+        let v = system.node_voltages(f)?;
+        if v[inp].norm() == 0.0 {
+            return Err(CircuitError::ZeroVoltage {
+                node: inp,
+                freq_hz: f,
+            }
+            .into());
+        }
+        for (row, &out) in rows.iter_mut().zip(outs) {
+            row.push((v[out] / v[inp]).norm());
+        }
+    }
+    Ok(rows)
 }
