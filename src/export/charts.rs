@@ -39,6 +39,20 @@ fn mask_boxes(d: &Documents) -> Vec<MaskBox> {
         .collect()
 }
 
+/// The y range of the delay chart: the passive ideal's delay with a
+/// quarter of its span to spare on either side (`None`, the data's own
+/// span, for a flat or empty trace).
+fn delay_range(ms: &[f64]) -> Option<(f64, f64)> {
+    let (lo, hi) = ms
+        .iter()
+        .filter(|v| v.is_finite())
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), &v| {
+            (lo.min(v), hi.max(v))
+        });
+    let spare = 0.25 * (hi - lo);
+    (spare > 0.0).then_some((lo - spare, hi + spare))
+}
+
 /// Every chart of a design, in the order the report shows them.
 pub fn design_charts(d: &Documents) -> Vec<NamedChart> {
     let t = &d.analyses.traces;
@@ -126,6 +140,11 @@ pub fn design_charts(d: &Documents) -> Vec<NamedChart> {
             caption: "Group delay of the three builds (exact, not a difference of phases)",
             chart: Chart {
                 traces: three(&delay_ms),
+                // Scaled to the passive ideal's delay: near a notch of
+                // the active builds, whose zeros sit a hair off the axis,
+                // the delay spikes by orders of magnitude (real, and
+                // clipped at the frame) and would flatten the passband.
+                y_range: delay_range(&delay_ms(&t.passive_ideal)),
                 ..base("Group delay", "delay (ms)")
             },
         },

@@ -5,7 +5,7 @@
 use super::bom::{tally, BomRow};
 use super::eng::format_trimmed as eng;
 use super::html::{html_report, Figure, ReportDoc, Table};
-use super::prose::{db, factor, opamp_model};
+use super::prose::{db, factor, opamp_model, signed};
 use super::summary::{edges, verdict_line, yield_line};
 use crate::analysis::Parameter;
 use crate::design::{Build, Documents};
@@ -205,9 +205,9 @@ pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> Strin
                         Parameter::Value => "value".into(),
                         Parameter::GainBandwidth => "GBW".into(),
                     },
-                    format!("{:+.5}", s.passband_edge.db_per_percent),
-                    format!("{:+.5}", s.passband_worst.db_per_percent),
-                    format!("{:+.5}", s.stopband_edge.db_per_percent),
+                    signed(s.passband_edge.db_per_percent),
+                    signed(s.passband_worst.db_per_percent),
+                    signed(s.stopband_edge.db_per_percent),
                 ]
             })
             .collect(),

@@ -22,6 +22,17 @@ pub fn db(x: f64) -> String {
     }
 }
 
+/// A sensitivity (dB per %) with five decimals and its sign; one that
+/// rounds to zero is written "0" rather than "-0.00000".
+pub fn signed(x: f64) -> String {
+    let s = format!("{x:+.5}");
+    if s[1..].chars().all(|c| c == '0' || c == '.') {
+        "0".to_string()
+    } else {
+        s
+    }
+}
+
 /// A percentage with three decimals and its sign, no negative zero.
 pub fn percent(x: f64) -> String {
     let s = format!("{x:+.3}");
@@ -272,6 +283,8 @@ mod tests {
     /// No figure a person reads shows a negative zero.
     #[test]
     fn negative_zeros_are_dropped() {
+        assert_eq!(signed(-0.000001), "0");
+        assert_eq!(signed(-0.0123), "-0.01230");
         assert_eq!(db(-0.00001), "0");
         assert_eq!(db(-0.5), "-0.5");
         assert_eq!(db(70.0), "70");
