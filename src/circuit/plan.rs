@@ -312,17 +312,31 @@ impl Plan {
         guard: f64,
         wanted: [Option<usize>; 2],
     ) -> [bool; LANES] {
+        self.factor_and_substitute(omega, guard, wanted, false)
+    }
+
+    /// Factors, plans the back substitution for `wanted` and substitutes
+    /// the excitation: for the unknowns `wanted` only, or (`all`) for
+    /// every unknown, which the derivative's right-hand side needs.
+    fn factor_and_substitute(
+        &mut self,
+        omega: &[f64; LANES],
+        guard: f64,
+        wanted: [Option<usize>; 2],
+        all: bool,
+    ) -> [bool; LANES] {
         let ok = self.factor(omega, guard);
         self.plan_back(wanted);
         self.load_rhs();
         let p = &self.program;
+        let back = if all { &self.all_back } else { &self.back };
         substitute(
             p,
             &self.values,
             &self.inv_pivot,
             &mut self.y,
             &p.forward,
-            &self.back,
+            back,
         );
         ok
     }
@@ -338,18 +352,8 @@ impl Plan {
         guard: f64,
         wanted: [Option<usize>; 2],
     ) -> [bool; LANES] {
-        let ok = self.factor(omega, guard);
-        self.plan_back(wanted);
-        self.load_rhs();
+        let ok = self.factor_and_substitute(omega, guard, wanted, true);
         let p = &self.program;
-        substitute(
-            p,
-            &self.values,
-            &self.inv_pivot,
-            &mut self.y,
-            &p.forward,
-            &self.all_back,
-        );
         self.dy.fill(Lanes::real(0.0));
         for &(cv, row, col) in &self.c_terms {
             self.dy[row].sub_assign(self.y[col].scale(cv));

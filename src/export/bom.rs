@@ -298,7 +298,7 @@ pub fn design_rows(
         tolerance: None,
         quantity: 1,
         stage: "ladder".to_string(),
-        build: super::data_name(&build),
+        build: crate::spec::as_written(&build),
     };
     for e in &passive_ideal.elements {
         let (kind, unit) = match e.kind() {

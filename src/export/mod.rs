@@ -27,13 +27,3 @@ pub mod spice;
 pub mod summary;
 pub mod sweep;
 pub mod tables;
-
-/// A value's data spelling: its serde name (`active_on_parts`, `gic`),
-/// the one CSV and JSON use.
-pub fn data_name<T: serde::Serialize>(value: &T) -> String {
-    match serde_json::to_value(value) {
-        Ok(serde_json::Value::String(s)) => s,
-        Ok(other) => other.to_string(),
-        Err(e) => format!("(unnamed: {e})"),
-    }
-}

@@ -14,7 +14,7 @@ use std::fmt::Write as _;
 /// and the stopband edge.
 pub fn sensitivity_csv(build: Build, rows: &[SensitivitySummary]) -> String {
     let mut s = String::from("build,designator,parameter,edge_db_per_percent,edge_hz,passband_worst_db_per_percent,passband_worst_hz,stopband_db_per_percent,stopband_hz\n");
-    let build = super::data_name(&build);
+    let build = crate::spec::as_written(&build);
     for r in rows {
         let q = match r.parameter {
             Parameter::Value => "value",
@@ -41,7 +41,7 @@ pub fn sensitivity_csv(build: Build, rows: &[SensitivitySummary]) -> String {
 pub fn levels_csv(build: Build, levels: &[OpAmpLevel]) -> String {
     let mut s =
         String::from("build,designator,peak_gain_db,peak_hz,max_input_v_peak,clips_first\n");
-    let build = super::data_name(&build);
+    let build = crate::spec::as_written(&build);
     for l in levels {
         let _ = writeln!(
             s,
@@ -101,22 +101,26 @@ pub fn order_text(t: &OrderTable) -> String {
     );
     for row in &t.rows {
         // The design-file spelling, to copy into `filter.family`.
-        let name = super::data_name(&row.family);
+        let name = crate::spec::as_written(&row.family);
         let _ = match &row.order {
-            Ok(n) if *n > row.synthesis_max_order => writeln!(
-                s,
-                "  {name:<12} {n} (above {}, the highest order its ladder synthesis holds: move the stopband edge away from the passband, or lower the attenuation)",
-                row.synthesis_max_order
-            ),
-            Ok(n) => writeln!(s, "  {name:<12} {n}"),
-            Err(ApproxError::OrderTooHigh { needed, .. }) => writeln!(
-                s,
-                "  {name:<12} {} (above {}, the highest order its ladder synthesis holds: move the stopband edge away from the passband, or lower the attenuation)",
-                needed.ceil(),
-                row.synthesis_max_order
-            ),
+            Ok(n) if *n <= row.synthesis_max_order => writeln!(s, "  {name:<12} {n}"),
+            // Beyond the synthesis (or the approximation) the order the
+            // mask needs is still worth knowing.
+            Ok(n) => too_high(&mut s, &name, *n as f64, row.synthesis_max_order),
+            Err(ApproxError::OrderTooHigh { needed, .. }) => {
+                too_high(&mut s, &name, needed.ceil(), row.synthesis_max_order)
+            }
             Err(e) => writeln!(s, "  {name:<12} none: {e}"),
         };
     }
     s
+}
+
+/// One line of [`order_text`] for an order beyond what the synthesis
+/// holds.
+fn too_high(s: &mut String, name: &str, needed: f64, max: usize) -> std::fmt::Result {
+    writeln!(
+        s,
+        "  {name:<12} {needed} (above {max}, the highest order its ladder synthesis holds: move the stopband edge away from the passband, or lower the attenuation)"
+    )
 }

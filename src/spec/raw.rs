@@ -492,8 +492,9 @@ fn prototype_source(
     })
 }
 
-/// A value as a design file writes it (its serde name), for messages that
-/// quote the file.
+/// A value as a design file writes it (its serde name): for messages that
+/// quote the file, and the data spelling CSV and JSON use
+/// (`active_on_parts`, `butterworth`).
 pub fn as_written<T: serde::Serialize>(value: &T) -> String {
     match toml::Value::try_from(value) {
         Ok(toml::Value::String(s)) => s,
