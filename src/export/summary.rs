@@ -4,7 +4,7 @@
 
 use super::eng::format_trimmed as eng;
 use super::prose::{db, opamp_model, percent};
-use crate::analysis::MaskVerdict;
+use crate::analysis::{MaskVerdict, EDGE_WINDOW};
 use crate::design::{Build, BuildFigures, Documents, Report};
 use std::fmt::Write as _;
 
@@ -86,8 +86,9 @@ fn figures(s: &mut String, build: Build, f: &BuildFigures) {
             _ => {
                 let _ = writeln!(
                     s,
-                    "  {build}: passband edge {}: no crossing within 25 %",
-                    eng(*e, "Hz")
+                    "  {build}: passband edge {}: no crossing within {} % of it",
+                    eng(*e, "Hz"),
+                    super::prose::factor(100.0 * (EDGE_WINDOW - 1.0))
                 );
             }
         }
