@@ -568,7 +568,7 @@ fn stable_builds_settle_like_the_passive_ideal_in_ngspice() {
             opts.opamp = single_pole(gbw);
             let b = realize(&d.passive, &opts).unwrap();
             let verdict = b.stability.expect("a finite-bandwidth model has a verdict");
-            let rightmost = verdict.rightmost.unwrap();
+            let rightmost = verdict.least_damped.unwrap().root();
             assert!(
                 verdict.stable && rightmost.re < 0.0,
                 "{name} {gbw:e}: {verdict:?}"
@@ -627,7 +627,7 @@ fn swapped_opamp_inputs_diverge_at_the_predicted_rate_in_ngspice() {
             for op in &stage.opamps {
                 let n = swapped(&b.netlist, op);
                 let verdict = is_stable(&n).unwrap();
-                let r = verdict.rightmost.unwrap();
+                let r = verdict.least_damped.unwrap().root();
                 assert!(
                     !verdict.stable && r.re > 0.0 && r.im == 0.0,
                     "{name} {op} swapped: {verdict:?}"

@@ -3,10 +3,8 @@
 //! Every variant carries the offending value or element by name and its
 //! message says what would have been accepted.
 
-use num_complex::Complex64;
-
-use super::Method;
-use crate::circuit::CircuitError;
+use super::{Method, NaturalFrequency};
+use crate::circuit::{CircuitError, OpAmpModel};
 
 /// Why no active network was built.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -65,12 +63,15 @@ pub enum ActiveError {
     },
     /// The active network has a natural frequency in the closed right half
     /// plane with the chosen op-amp model.
-    #[error("the {method} realization is not stable with this op-amp model: natural frequency {root} rad/s has a real part >= {margin:e} |s|")]
+    #[error("the {method} realization is not stable with {opamp:?}: its least-damped natural frequency, {:.6} Hz, has damping ratio {:.3e} (more than {margin:e} is needed); try a faster op-amp, the other method, or `optimize = true`", root.frequency_hz, root.damping_ratio)]
     Unstable {
         /// The method used.
         method: Method,
-        /// The rightmost natural frequency, rad/s.
-        root: Complex64,
+        /// The least-damped natural frequency.
+        root: NaturalFrequency,
+        /// The op-amp model (nominal or a corner of the spread) it was
+        /// found with.
+        opamp: OpAmpModel,
         /// The relative margin it failed (see [`super::STABILITY_MARGIN`]).
         margin: f64,
     },

@@ -25,7 +25,7 @@
 //! Re(s) < -margin |s|. The margin keeps a root that rounding has moved
 //! off the imaginary axis (a lossless resonance) from passing as stable.
 
-use nalgebra::{DMatrix, Schur};
+use nalgebra::DMatrix;
 use num_complex::Complex64;
 
 use super::error::ActiveError;
@@ -44,17 +44,13 @@ pub const STABILITY_MARGIN: f64 = 1e-9;
 /// finite ones above 1.7e-6.
 const ZERO_EIGENVALUE: f64 = 1e-12;
 
-/// QR iterations allowed per unknown of the reduced matrix; the shifted
-/// iteration needs two or three per eigenvalue, so 200 only stops a
-/// runaway (as in the circuit module).
-const SCHUR_SWEEPS: usize = 200;
-
 /// Shifts sigma tried in turn, as multiples of |G| / |C| of the network
 /// scaled to a mean resistance of 1 ohm (where |G| / |C| sits near the
 /// filter's band, the capacitors dominating C); the first that converges
 /// is used. The shift maps every root s to the eigenvalue 1/(sigma - s),
 /// so roots far above sigma shrink towards the zero eigenvalues, and a
-/// shift amid the filter's poles stalled the QR iteration (measured on
+/// shift amid the filter's poles stalled nalgebra's QR iteration, used
+/// before faer's (measured on
 /// 210 builds of the fixture designs, GBW 1 to 7 MHz: 7 % failed at
 /// |G|/|C|, none at 1e-2 of it or below). Fast roots stay well inside the
 /// ZERO_EIGENVALUE range: at 1e-4 of the band scale a root at 1e9 rad/s
@@ -62,15 +58,52 @@ const SCHUR_SWEEPS: usize = 200;
 /// with a root at 0.
 const SHIFT_FACTORS: [f64; 6] = [1e-2, 1e-3, 1e-1, 1e-4, 1.0, 10.0];
 
-/// Whether a circuit is stable, and its rightmost natural frequency.
+/// A natural frequency as a designer reads it.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct NaturalFrequency {
+    /// Real part, rad/s (negative: decaying).
+    pub re_rad_s: f64,
+    /// Imaginary part, rad/s.
+    pub im_rad_s: f64,
+    /// |s| / 2 pi, Hz: the undamped natural frequency.
+    pub frequency_hz: f64,
+    /// -Re(s) / |s|: the damping ratio (negative: growing).
+    pub damping_ratio: f64,
+}
+
+impl NaturalFrequency {
+    /// The figures of the root `s`.
+    pub fn of(s: Complex64) -> NaturalFrequency {
+        NaturalFrequency {
+            re_rad_s: s.re,
+            im_rad_s: s.im,
+            frequency_hz: s.norm() / std::f64::consts::TAU,
+            // A root at s = 0 (only a charge mode can sit there exactly)
+            // is undamped.
+            damping_ratio: if s.norm() > 0.0 {
+                -s.re / s.norm()
+            } else {
+                0.0
+            },
+        }
+    }
+
+    /// The root, rad/s.
+    pub fn root(&self) -> Complex64 {
+        Complex64::new(self.re_rad_s, self.im_rad_s)
+    }
+}
+
+/// Whether a circuit is stable, and its least-damped natural frequency.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
 pub struct StabilityVerdict {
     /// Every natural frequency but the charge modes has
     /// Re(s) < -[`STABILITY_MARGIN`] |s|.
     pub stable: bool,
-    /// The natural frequency with the largest real part, charge modes
-    /// aside, rad/s, or `None` for a circuit without other dynamics.
-    pub rightmost: Option<Complex64>,
+    /// The natural frequency with the smallest damping ratio, charge
+    /// modes aside, or `None` for a circuit without other dynamics: the
+    /// one that decides the verdict.
+    pub least_damped: Option<NaturalFrequency>,
     /// How many finite natural frequencies the circuit has, charge modes
     /// included.
     pub count: usize,
@@ -79,41 +112,173 @@ pub struct StabilityVerdict {
     pub charge_modes: usize,
 }
 
+/// Relative spread of the op-amps' output resistance whose corners the
+/// verdict is repeated at: a data sheet's open-loop output resistance is
+/// a typical figure that moves with load and temperature; nocoil brackets
+/// it by a factor of two either way (a choice of the project, stated in
+/// the README).
+pub const OUTPUT_OHM_FACTORS: [f64; 2] = [0.5, 2.0];
+
+/// The verdict at one corner of the op-amps' spread.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct CornerVerdict {
+    /// Every op-amp's model at this corner.
+    pub opamp: OpAmpModel,
+    /// The verdict there.
+    pub verdict: StabilityVerdict,
+}
+
+/// The op-amp models at the corners of the spread of `model`: the
+/// gain-bandwidth times (1 - spread) and (1 + spread), each with the
+/// output resistance times [`OUTPUT_OHM_FACTORS`] (once when it is 0).
+/// Empty for the nullor, which has no dynamics to spread.
+pub fn corner_models(model: &OpAmpModel, gbw_spread: f64) -> Vec<OpAmpModel> {
+    let OpAmpModel::SinglePole {
+        dc_gain,
+        gbw_hz,
+        output_ohm,
+    } = *model
+    else {
+        return Vec::new();
+    };
+    let outputs: Vec<f64> = match output_ohm > 0.0 {
+        true => OUTPUT_OHM_FACTORS.iter().map(|f| f * output_ohm).collect(),
+        false => vec![0.0],
+    };
+    let mut corners = Vec::new();
+    for gbw in [gbw_hz * (1.0 - gbw_spread), gbw_hz * (1.0 + gbw_spread)] {
+        for &ohm in &outputs {
+            let corner = OpAmpModel::SinglePole {
+                dc_gain,
+                gbw_hz: gbw,
+                output_ohm: ohm,
+            };
+            if corner != *model && !corners.contains(&corner) {
+                corners.push(corner);
+            }
+        }
+    }
+    corners
+}
+
+/// `netlist` with every op-amp's model replaced by `model`.
+pub fn with_model(netlist: &Netlist, model: OpAmpModel) -> Netlist {
+    let mut changed = netlist.clone();
+    for element in &mut changed.elements {
+        if let Element::OpAmp { model: m, .. } = element {
+            *m = model;
+        }
+    }
+    changed
+}
+
+/// The verdicts of `netlist` at each of `corners`.
+pub fn corner_verdicts(
+    netlist: &Netlist,
+    corners: &[OpAmpModel],
+) -> Result<Vec<CornerVerdict>, ActiveError> {
+    corners
+        .iter()
+        .map(|&opamp| {
+            Ok(CornerVerdict {
+                opamp,
+                verdict: is_stable(&with_model(netlist, opamp))?,
+            })
+        })
+        .collect()
+}
+
 /// The stability verdict of `netlist` with its own op-amp models.
 pub fn is_stable(netlist: &Netlist) -> Result<StabilityVerdict, ActiveError> {
     netlist.validate()?;
     let scaled = impedance_scaled(netlist, 1.0 / mean_resistance(netlist));
     let system = AcSystem::new(&scaled)?;
-    let mut roots = SHIFT_FACTORS
+    let (g, c) = (system.g(), system.c());
+    let scale = (g.norm() / c.norm()).max(f64::MIN_POSITIVE);
+    let (sigma, roots) = SHIFT_FACTORS
         .iter()
-        .find_map(|&factor| reduced_roots(&system, factor))
+        .find_map(|&factor| Some((factor * scale, reduced_roots(&system, factor * scale)?)))
         .ok_or(CircuitError::NoConvergence {
             what: "natural frequencies at every shift",
         })?;
+    let mut roots = banded_roots(&system, sigma, roots);
     let count = roots.len();
     let charge_modes = charge_modes(netlist).min(count);
     roots.sort_by(|a, b| a.norm().total_cmp(&b.norm()));
-    let mut deciding = roots.split_off(charge_modes);
-    deciding.sort_by(|a, b| b.re.total_cmp(&a.re));
+    let deciding = roots.split_off(charge_modes);
+    let least_damped = deciding
+        .iter()
+        .map(|&s| NaturalFrequency::of(s))
+        .min_by(|a, b| {
+            // Growing real roots all have ratio -1: the fastest decides.
+            (a.damping_ratio.total_cmp(&b.damping_ratio)).then(b.re_rad_s.total_cmp(&a.re_rad_s))
+        });
     Ok(StabilityVerdict {
         stable: deciding.iter().all(|s| s.re < -STABILITY_MARGIN * s.norm()),
-        rightmost: deciding.first().copied(),
+        least_damped,
         count,
         charge_modes,
     })
 }
 
+/// Roots farther than this from the shift, as a multiple of it, are
+/// taken from further shifts: a root s comes from mu = 1/(sigma - s) with
+/// an absolute error of about eps |N|, so its relative error grows as
+/// eps |s| / sigma. With near-ideal op-amps (GBW 10 THz, roots ten
+/// decades above the filter's) one shift reported a growing real root at
+/// 4.1e12 rad/s where det(G + sC) keeps one sign along the positive real
+/// axis from 1e6 to 1e16 rad/s, so no real root is there (measured on a
+/// 5th-order elliptic bandpass); the shift at 1.1e13 rad/s put every root
+/// of that decade in the left half plane.
+const BAND: f64 = 1e4;
+
+/// How far past the first shift's largest root the bands reach. A root a
+/// band's shift reports above the band is not taken: the infinite roots of
+/// the MNA equations (op-amp and source rows) come out of a shift as tiny
+/// eigenvalues blurred by rounding, and one at 2.3e9 rad/s reported a
+/// "root" at 7.8e19 rad/s on a 5th-order elliptic highpass whose largest
+/// root is 4.4e7.
+const TOP_MARGIN: f64 = 10.0;
+
+/// The roots of every magnitude, each from a shift within a factor
+/// sqrt([`BAND`]) of it: `first` (from `sigma`) below sigma sqrt(BAND),
+/// then one shift per band up to [`TOP_MARGIN`] times the largest root. A band whose shift
+/// singular at all three of 1, sqrt 2 and e times its value keeps
+/// `first`'s roots (the only estimate there is).
+fn banded_roots(system: &AcSystem, sigma: f64, first: Vec<Complex64>) -> Vec<Complex64> {
+    // The first shift's estimate of the largest root may be off by a
+    // factor when it lies far above the shift; the bands reach past it.
+    let top = TOP_MARGIN * first.iter().map(|s| s.norm()).fold(0.0, f64::max);
+    let half = BAND.sqrt();
+    let mut roots: Vec<Complex64> = Vec::with_capacity(first.len());
+    let (mut low, mut shift) = (0.0, sigma);
+    while low <= top {
+        let high = shift * half;
+        let in_band = |s: &&Complex64| (low..high).contains(&s.norm());
+        let estimates = match shift == sigma {
+            true => None,
+            false => [1.0, std::f64::consts::SQRT_2, std::f64::consts::E]
+                .iter()
+                .find_map(|&f| reduced_roots(system, f * shift)),
+        };
+        roots.extend(estimates.as_ref().unwrap_or(&first).iter().filter(in_band));
+        low = high;
+        shift *= BAND;
+    }
+    roots
+}
+
 /// The roots of det(G + sC) from the eigenvalues of the reduced matrix
 /// N = C[R, Q] (G + sigma C)^-1[Q, R], R and Q the rows and columns where
-/// C has entries, sigma = `factor` |G| / |C|; `None` if the shift is
-/// singular or the eigenvalue iteration does not converge.
+/// C has entries, shift `sigma` (rad/s); `None` if the shift is singular
+/// or the eigenvalue iteration does not converge.
 ///
 /// With K = G + sigma C, G + sC = K (I + (s - sigma) K^-1 C), and
 /// K^-1 C = (K^-1 E_R)(C[R, Q] E_Q^T) has the nonzero eigenvalues of the
 /// product taken the other way round, N: each eigenvalue mu != 0 gives
 /// s = sigma - 1/mu (the shift-and-invert relation of
 /// [`AcSystem::natural_frequencies`], on |R| unknowns instead of all).
-fn reduced_roots(system: &AcSystem, factor: f64) -> Option<Vec<Complex64>> {
+fn reduced_roots(system: &AcSystem, sigma: f64) -> Option<Vec<Complex64>> {
     let (g, c) = (system.g(), system.c());
     let rows: Vec<usize> = (0..c.nrows())
         .filter(|&i| c.row(i).iter().any(|&x| x != 0.0))
@@ -124,15 +289,13 @@ fn reduced_roots(system: &AcSystem, factor: f64) -> Option<Vec<Complex64>> {
     if rows.is_empty() {
         return Some(Vec::new());
     }
-    let sigma = factor * (g.norm() / c.norm()).max(f64::MIN_POSITIVE);
     let mut picks = DMatrix::zeros(c.nrows(), rows.len());
     for (column, &row) in rows.iter().enumerate() {
         picks[(row, column)] = 1.0;
     }
     let solved = (g + c * sigma).lu().solve(&picks)?;
     let n = c.select_rows(&rows).select_columns(&cols) * solved.select_rows(&cols);
-    let sweeps = SCHUR_SWEEPS * n.nrows();
-    let mu = Schur::try_new(n, f64::EPSILON, sweeps)?.complex_eigenvalues();
+    let mu = eigenvalues(n)?;
     let largest = mu.iter().map(|z| z.norm()).fold(0.0, f64::max);
     Some(
         mu.iter()
@@ -140,6 +303,19 @@ fn reduced_roots(system: &AcSystem, factor: f64) -> Option<Vec<Complex64>> {
             .map(|z| sigma - 1.0 / z)
             .collect(),
     )
+}
+
+/// The eigenvalues of `n` by faer's dense eigensolver (Hessenberg
+/// reduction and a multishift QR iteration with aggressive early
+/// deflation). It replaced nalgebra's real Schur form, whose QR iteration
+/// stalled at every shift on builds with near-ideal op-amps (GBW 10 THz,
+/// A0 200 dB; 7th- to 9th-order elliptic bandpasses and bandstops), even
+/// after balancing; faer converged on all of them (the band-filter grid
+/// of tests/damping.rs).
+fn eigenvalues(n: DMatrix<f64>) -> Option<Vec<Complex64>> {
+    let m = faer::Mat::<f64>::from_fn(n.nrows(), n.ncols(), |i, j| n[(i, j)]);
+    let values = m.eigenvalues().ok()?;
+    Some(values.iter().map(|z| Complex64::new(z.re, z.im)).collect())
 }
 
 /// Nodes merged into groups; each group is named by its lowest node, so

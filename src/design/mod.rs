@@ -36,9 +36,7 @@ pub use analyses::{
 };
 pub use builds::{ActiveDesign, BuildFigures};
 pub use order::{order_table, OrderRow, OrderTable, FAMILIES};
-pub use report::{
-    ActiveReport, Documents, NaturalFrequency, NormalizedElement, Outcome, Report, ScaledElement,
-};
+pub use report::{ActiveReport, Documents, NormalizedElement, Outcome, Report, ScaledElement};
 
 /// The three builds of a design, named so wherever a figure is shown.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]

@@ -4,7 +4,7 @@
 //! decks and tables need.
 
 use super::{ActiveDesign, Analyses, BuildFigures, Design, MaskCheck, OrderChoice, Origin};
-use crate::active::{Method, Note, Stage, Why};
+use crate::active::{CornerVerdict, Method, NaturalFrequency, Note, Stage, Why};
 use crate::analysis::{Limit, MaskVerdict};
 use crate::approx::{Family, Variant};
 use crate::circuit::{Element, Netlist, OpAmpModel};
@@ -39,15 +39,6 @@ pub struct ScaledElement {
     pub unit: &'static str,
 }
 
-/// A natural frequency, rad/s.
-#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
-pub struct NaturalFrequency {
-    /// Real part, rad/s (negative: decaying).
-    pub re_rad_s: f64,
-    /// Imaginary part, rad/s.
-    pub im_rad_s: f64,
-}
-
 /// The active builds in a report.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct ActiveReport {
@@ -68,8 +59,10 @@ pub struct ActiveReport {
     /// Whether the active exact build is stable with the op-amp model
     /// (`None`: ideal op-amps, a nullor has no dynamics to judge).
     pub stable: Option<bool>,
-    /// Its natural frequency with the largest real part.
-    pub rightmost_natural_frequency: Option<NaturalFrequency>,
+    /// Its natural frequency with the smallest damping ratio.
+    pub least_damped_natural_frequency: Option<NaturalFrequency>,
+    /// The verdict at the corners of the op-amps' spread.
+    pub stability_corners: Vec<CornerVerdict>,
     /// Facts of the realization.
     pub notes: Vec<Note>,
     /// The active exact build against the passive ideal.
@@ -269,12 +262,8 @@ impl Design {
                 capacitors: b.capacitors,
                 capacitor_spread: b.capacitor_spread,
                 stable: verdict.map(|v| v.stable),
-                rightmost_natural_frequency: verdict.and_then(|v| v.rightmost).map(|r| {
-                    NaturalFrequency {
-                        re_rad_s: r.re,
-                        im_rad_s: r.im,
-                    }
-                }),
+                least_damped_natural_frequency: verdict.and_then(|v| v.least_damped),
+                stability_corners: b.corners.clone(),
                 notes: b.notes.clone(),
                 active_exact: active.exact_figures.clone(),
                 active_on_parts: active.on_parts_figures.clone(),

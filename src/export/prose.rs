@@ -46,6 +46,14 @@ pub fn percent(x: f64) -> String {
     }
 }
 
+/// A damping ratio: four significant digits, scientific below 1e-3.
+pub fn damping(zeta: f64) -> String {
+    match zeta.abs() < 1e-3 && zeta != 0.0 {
+        true => format!("{zeta:.3e}"),
+        false => format!("{zeta:.4}"),
+    }
+}
+
 /// A factor (a ratio of values) with [`HUMAN_DIGITS`] significant
 /// digits, trailing zeros dropped; a power of ten written out beyond
 /// 1e-3 to 1e4, where plain digits stop being readable.
@@ -123,16 +131,30 @@ impl Display for Note {
                 db(*balanced_deviation_db),
                 db(*refined_deviation_db)
             ),
-            Note::RefinedUnstable {
-                root_re_rad_s,
-                root_im_rad_s,
-            } => write!(
+            Note::RefinedUnstable { root } => write!(
                 f,
-                "the refined values gave a natural frequency at {} {} j{} rad/s, so the balanced values are kept",
-                eng(*root_re_rad_s, ""),
-                if *root_im_rad_s < 0.0 { "-" } else { "+" },
-                eng(root_im_rad_s.abs(), "")
+                "the refined values left a natural frequency at {} with damping ratio {}, so the balanced values are kept",
+                eng(root.frequency_hz, "Hz"),
+                damping(root.damping_ratio)
             ),
+            Note::Damped {
+                loop_hz,
+                q,
+                resistors,
+            } => {
+                let list: Vec<String> = resistors
+                    .iter()
+                    .map(|r| format!("{} = {}", r.designator, eng(r.ohm, "ohm")))
+                    .collect();
+                write!(
+                    f,
+                    "the ladder has loops of series L-C pairs or cutsets of L-C tanks all resonant at {} (the bandstop image of the prototype's capacitor loops or inductor cutsets): an undamped natural frequency the output never sees and the op-amps can push into growth; damping resistors ({}) give each of those resonators Q = {} and the mode a damping ratio of {} with ideal op-amps",
+                    eng(*loop_hz, "Hz"),
+                    list.join(", "),
+                    q,
+                    damping(0.5 / q)
+                )
+            }
             Note::DcPath {
                 dc_gain_db,
                 ladder_dc_gain_db,
