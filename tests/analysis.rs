@@ -337,11 +337,11 @@ fn perturbed(system: &AcSystem, row: &Sensitivity, factor: f64) -> AcSystem {
             s.set_value(row.element, v * factor).unwrap();
         }
         (Parameter::GainBandwidth, Element::OpAmp { model, .. }) => {
-            let mut model = *model;
-            match &mut model {
-                OpAmpModel::SinglePole { gbw_hz, .. } => *gbw_hz *= factor,
-                OpAmpModel::Ideal => panic!("{}: an ideal op-amp has no GBW", row.name),
-            }
+            let gbw_hz = model
+                .gbw_hz()
+                .unwrap_or_else(|| panic!("{}: an ideal op-amp has no GBW", row.name));
+            // A second pole moves with the GBW (OpAmpModel::with_gbw).
+            let model = model.with_gbw(gbw_hz * factor);
             s.set_opamp_model(row.element, model).unwrap();
         }
         (_, other) => panic!("no gain-bandwidth in {other:?}"),

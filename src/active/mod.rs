@@ -470,7 +470,7 @@ fn stable_build(
 fn verdict(netlist: &Netlist, model: &OpAmpModel) -> Result<Option<StabilityVerdict>, ActiveError> {
     match model {
         OpAmpModel::Ideal => Ok(None),
-        OpAmpModel::SinglePole { .. } => Ok(Some(is_stable(netlist)?)),
+        OpAmpModel::SinglePole { .. } | OpAmpModel::TwoPole { .. } => Ok(Some(is_stable(netlist)?)),
     }
 }
 
