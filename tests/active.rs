@@ -683,6 +683,133 @@ fn ideal_builds_carry_no_verdict_and_charge_modes_are_set_aside() {
     assert_eq!(real.stability.unwrap().charge_modes, capacitor_only);
 }
 
+// --- two-pole op-amps ----------------------------------------------------
+
+/// A two-pole op-amp: A0 = 1e5, GBW 10 MHz, the second pole at
+/// `second_pole_hz`.
+fn two_pole(second_pole_hz: f64) -> OpAmpModel {
+    OpAmpModel::TwoPole {
+        dc_gain: 1e5,
+        gbw_hz: 10e6,
+        second_pole_hz,
+        output_ohm: 0.0,
+    }
+}
+
+/// A follower loaded by 10 kohm whose feedback passes an RC lag of
+/// `tau_s` (R = 1 kohm from `out` to `f`, C from `f` to ground, the
+/// inverting input at `f`); `tau_s = 0` feeds `out` straight back.
+fn lagged_follower(model: OpAmpModel, tau_s: f64) -> Netlist {
+    let mut n = Netlist::new("lagged follower");
+    let (inp, out) = (n.node("in"), n.node("out"));
+    let minus = if tau_s > 0.0 { n.node("f") } else { out };
+    let mut elements = vec![
+        Element::VoltageSource {
+            name: "V1".into(),
+            pos: inp,
+            neg: 0,
+            ac_volt: 1.0,
+        },
+        Element::Resistor {
+            name: "RL".into(),
+            a: out,
+            b: 0,
+            ohm: 10e3,
+        },
+        Element::OpAmp {
+            name: "X1".into(),
+            plus: inp,
+            minus,
+            out,
+            model,
+        },
+    ];
+    if tau_s > 0.0 {
+        elements.push(Element::Resistor {
+            name: "RF".into(),
+            a: out,
+            b: minus,
+            ohm: 1e3,
+        });
+        elements.push(Element::Capacitor {
+            name: "CF".into(),
+            a: minus,
+            b: 0,
+            farad: tau_s / 1e3,
+        });
+    }
+    for e in elements {
+        n.add(e).unwrap();
+    }
+    n
+}
+
+/// Verdict root against closed form: the roots come from a shifted
+/// eigenvalue problem, accurate to about 1e-10 of |s| on the circuit
+/// module's checks; 1e-6 leaves room for the impedance scaling and the
+/// reduced matrix of the verdict, while a wrong stamp is off by O(1).
+const VERDICT_ROOT_REL_TOL: f64 = 1e-6;
+
+#[test]
+fn two_pole_verdicts_match_the_hand_analysis() {
+    // A follower (common practice): with the input shorted,
+    // (1 + s/w1)(1 + s/w2) + A0 = 0, that is
+    // s^2 / (w1 w2) + s (1/w1 + 1/w2) + 1 + A0 = 0: a damped pair from
+    // the quadratic formula, stable wherever the second pole is.
+    let (a0, w1) = (1e5, std::f64::consts::TAU * 10e6 / 1e5);
+    for f2 in [20e6, 5e6] {
+        let w2 = std::f64::consts::TAU * f2;
+        let (a, b, c) = (1.0 / (w1 * w2), 1.0 / w1 + 1.0 / w2, 1.0 + a0);
+        let root = (-b + Complex64::new(b * b - 4.0 * a * c, 0.0).sqrt()) / (2.0 * a);
+        let verdict = is_stable(&lagged_follower(two_pole(f2), 0.0)).unwrap();
+        let got = verdict.rightmost.unwrap();
+        let want = if got.im >= 0.0 { root } else { root.conj() };
+        assert!(
+            verdict.stable && (got - want).norm() <= VERDICT_ROOT_REL_TOL * want.norm(),
+            "follower, f2 {f2:e} Hz: {verdict:?}, closed form {want}"
+        );
+    }
+    // A lag in the feedback makes the loop third order:
+    // P(s) = (1 + s/w1)(1 + s/w2)(1 + s tau) + A0
+    //      = a3 s^3 + a2 s^2 + a1 s + a0,
+    // stable exactly when a2 a1 > a3 a0 (Routh-Hurwitz, all coefficients
+    // positive; common practice). For large A0 that is
+    // tau (2 pi GBW - w2) < 1: a 100 ns lag is harmless with the second
+    // pole at 20 MHz (above the GBW) or with a single pole, and makes the
+    // loop oscillate with it at 5 MHz (critical lag about 32 ns).
+    let tau = 100e-9;
+    for (model, stable) in [
+        (single_pole(10e6), true),
+        (two_pole(20e6), true),
+        (two_pole(5e6), false),
+    ] {
+        let inv_w2 = match model {
+            OpAmpModel::TwoPole { second_pole_hz, .. } => {
+                1.0 / (std::f64::consts::TAU * second_pole_hz)
+            }
+            _ => 0.0,
+        };
+        let inv_w1 = 1.0 / w1;
+        let (a3, a2, a1) = (
+            tau * inv_w1 * inv_w2,
+            inv_w1 * inv_w2 + tau * (inv_w1 + inv_w2),
+            inv_w1 + inv_w2 + tau,
+        );
+        let routh = a2 * a1 > a3 * (1.0 + a0);
+        assert_eq!(routh, stable, "{model:?}: the hand analysis");
+        let verdict = is_stable(&lagged_follower(model, tau)).unwrap();
+        assert_eq!(verdict.stable, routh, "{model:?}: {verdict:?}");
+        // The rightmost root is a root of P.
+        let s = verdict.rightmost.unwrap();
+        let loop_part = (1.0 + s * inv_w1) * (1.0 + s * inv_w2) * (1.0 + s * tau);
+        let residual = (loop_part + a0).norm() / (loop_part.norm() + a0);
+        assert!(
+            residual <= VERDICT_ROOT_REL_TOL,
+            "{model:?}: P({s}) is {residual:e} of its terms"
+        );
+    }
+}
+
 // --- the FDNR image, the method choice, the series swaps ----------------
 
 #[test]
@@ -709,7 +836,9 @@ fn fdnr_dc_gain_is_the_ladders() {
             // A finite A0 leaves the follower and FDNRs a 1/A0 error.
             let tol = match opamp {
                 OpAmpModel::Ideal => DC_REL_TOL,
-                OpAmpModel::SinglePole { dc_gain, .. } => 2.0 / dc_gain,
+                OpAmpModel::SinglePole { dc_gain, .. } | OpAmpModel::TwoPole { dc_gain, .. } => {
+                    2.0 / dc_gain
+                }
             };
             assert!(
                 (dc.re - want).abs() <= tol * want && dc.im.abs() <= tol * want,

@@ -337,11 +337,11 @@ fn perturbed(system: &AcSystem, row: &Sensitivity, factor: f64) -> AcSystem {
             s.set_value(row.element, v * factor).unwrap();
         }
         (Parameter::GainBandwidth, Element::OpAmp { model, .. }) => {
-            let mut model = *model;
-            match &mut model {
-                OpAmpModel::SinglePole { gbw_hz, .. } => *gbw_hz *= factor,
-                OpAmpModel::Ideal => panic!("{}: an ideal op-amp has no GBW", row.name),
-            }
+            let gbw_hz = model
+                .gbw_hz()
+                .unwrap_or_else(|| panic!("{}: an ideal op-amp has no GBW", row.name));
+            // A second pole moves with the GBW (OpAmpModel::with_gbw).
+            let model = model.with_gbw(gbw_hz * factor);
             s.set_opamp_model(row.element, model).unwrap();
         }
         (_, other) => panic!("no gain-bandwidth in {other:?}"),
@@ -371,11 +371,20 @@ fn central_difference(system: &AcSystem, row: &Sensitivity, f: f64) -> Complex64
 }
 
 /// Circuits with every kind of parameter: L and C (ladder), R, C and
-/// op-amp gain-bandwidth (GIC highpass, FDNR lowpass).
+/// op-amp gain-bandwidth (GIC highpass with single-pole and with two-pole
+/// op-amps, FDNR lowpass).
 fn sensitivity_circuits() -> Vec<Netlist> {
+    let mut two_pole_gic = gic_highpass(OpAmpModel::TwoPole {
+        dc_gain: 2e5,
+        gbw_hz: 1e6,
+        second_pole_hz: 2e6,
+        output_ohm: 0.0,
+    });
+    two_pole_gic.title += ", two-pole op-amps";
     vec![
         ladder(&chebyshev(0.1, 5), true, 1e3, 1e3),
         gic_highpass(single_pole(2e5, 1e6)),
+        two_pole_gic,
         fdnr_lowpass(&chebyshev(0.1, 7), 1e3, 10e3, single_pole(1e5, 3e6)),
     ]
 }
@@ -399,7 +408,7 @@ fn sensitivity_runs() -> Vec<(Netlist, AcSystem, SensitivityTable)> {
 fn adjoint_sensitivities_match_central_differences() {
     for (n, sys, table) in &sensitivity_runs() {
         let freqs = &table.freq_hz;
-        // Every R, C, L and single-pole op-amp has its row, in order.
+        // Every R, C, L and finite-bandwidth op-amp has its row, in order.
         let expected: Vec<usize> = n
             .elements
             .iter()
@@ -1036,6 +1045,34 @@ fn monte_carlo_refuses_bad_setups_naming_the_offender() {
     )
     .unwrap();
     assert!(r.varied.is_empty());
+    // ... and spreads the GBW of the two-pole ones like the single-pole.
+    let two_pole = system(&gic_highpass(OpAmpModel::TwoPole {
+        dc_gain: 2e5,
+        gbw_hz: 1e6,
+        second_pole_hz: 2e6,
+        output_ohm: 0.0,
+    }));
+    let r = monte_carlo(
+        &two_pole,
+        &MonteCarlo {
+            rules: &gbw,
+            ..base
+        },
+        None,
+    )
+    .unwrap();
+    let varied: Vec<_> = r
+        .varied
+        .iter()
+        .map(|v| (v.name.as_str(), v.parameter, v.nominal))
+        .collect();
+    assert_eq!(
+        varied,
+        [
+            ("XA", Parameter::GainBandwidth, 1e6),
+            ("XB", Parameter::GainBandwidth, 1e6)
+        ]
+    );
     let narrow = Mask::new(vec![Limit {
         from_hz: 2e3,
         to_hz: 3e3,

@@ -5,7 +5,8 @@
 use std::f64::consts::TAU;
 
 use nocoil::circuit::{
-    log_grid, reference_transfer, AcSystem, CircuitError, Element, ElementKind, Netlist, OpAmpModel,
+    log_grid, reference_transfer, AcSystem, CircuitError, Element, ElementKind, Netlist, OpAmpKind,
+    OpAmpModel, SparseAc,
 };
 use nocoil::export::eng;
 use nocoil::export::spice::{self, AcSweep};
@@ -162,17 +163,36 @@ fn single_pole(dc_gain: f64, gbw_hz: f64, output_ohm: f64) -> OpAmpModel {
     }
 }
 
-/// Single-pole gain A(s) = A0 / (1 + s/wp), wp = 2 pi gbw / A0.
-fn single_pole_gain(model: OpAmpModel, s: Complex64) -> Complex64 {
+/// A two-pole op-amp model.
+fn two_pole(dc_gain: f64, gbw_hz: f64, second_pole_hz: f64, output_ohm: f64) -> OpAmpModel {
+    OpAmpModel::TwoPole {
+        dc_gain,
+        gbw_hz,
+        second_pole_hz,
+        output_ohm,
+    }
+}
+
+/// Open-loop gain: A(s) = A0 / (1 + s/wp), wp = 2 pi gbw / A0, for the
+/// single-pole model, and that times 1 / (1 + s/w2), w2 = 2 pi f2, for
+/// the two-pole one.
+fn open_loop_gain(model: OpAmpModel, s: Complex64) -> Complex64 {
     match model {
         OpAmpModel::SinglePole {
             dc_gain, gbw_hz, ..
         } => dc_gain / (1.0 + s * dc_gain / (TAU * gbw_hz)),
+        OpAmpModel::TwoPole {
+            dc_gain,
+            gbw_hz,
+            second_pole_hz,
+            ..
+        } => dc_gain / ((1.0 + s * dc_gain / (TAU * gbw_hz)) * (1.0 + s / (TAU * second_pole_hz))),
         OpAmpModel::Ideal => panic!("closed form needs a finite gain"),
     }
 }
 
-/// Checks fast and reference paths against a closed form at each frequency.
+/// Checks the fast (dense), sparse and reference paths against a closed
+/// form at each frequency.
 fn check_closed_form(
     netlist: &Netlist,
     freqs: &[f64],
@@ -193,11 +213,29 @@ fn check_closed_form(
         .iter()
         .map(|&f| reference_transfer(netlist, f, out, inp).unwrap())
         .collect();
+    // The sparse solver, its pivots chosen over the positive frequencies
+    // (ascending); for DC alone any band will do.
+    let positive: Vec<f64> = freqs.iter().copied().filter(|&f| f > 0.0).collect();
+    let (from, to) = match (positive.first(), positive.last()) {
+        (Some(&from), Some(&to)) => (from, to),
+        _ => (1.0, 1.0),
+    };
+    let mut sparse = SparseAc::new(&system, from, to).expect("a band the circuit solves in");
+    let sparse: Vec<Complex64> = freqs
+        .iter()
+        .map(|&f| sparse.transfer(f, out, inp).unwrap())
+        .collect();
     assert_close_rel(
         &expected,
         &fast,
         CLOSED_FORM_REL_TOL,
         &format!("{context}: fast path"),
+    );
+    assert_close_rel(
+        &expected,
+        &sparse,
+        CLOSED_FORM_REL_TOL,
+        &format!("{context}: sparse path"),
     );
     assert_close_rel(
         &expected,
@@ -276,11 +314,20 @@ fn inverting_amplifier_with_single_pole_opamp_matches_closed_loop_form() {
         &n,
         &FREQS,
         |s| {
-            let a = single_pole_gain(model, s);
+            let a = open_loop_gain(model, s);
             -a * r2 / (r1 + r2 + a * r1)
         },
         "inverting, single pole",
     );
+}
+
+/// A unity-gain follower driving RL.
+fn follower(model: OpAmpModel, rl: f64) -> Netlist {
+    Build::new("follower")
+        .source()
+        .opamp("X1", "in", "out", "out", model)
+        .r("RL", "out", "0", rl)
+        .done()
 }
 
 #[test]
@@ -288,22 +335,110 @@ fn follower_with_output_resistance_matches_closed_loop_form() {
     // Follower sensing its loaded output: v_o = k A (v_in - v_o) with the
     // divider k = RL / (Ro + RL), so H = k A / (1 + k A).
     let (ro, rl) = (75.0, 600.0);
-    let model = single_pole(1.0e5, 3.0e6, ro);
-    let n = Build::new("follower")
-        .source()
-        .opamp("X1", "in", "out", "out", model)
-        .r("RL", "out", "0", rl)
-        .done();
-    let k = rl / (ro + rl);
-    check_closed_form(
-        &n,
-        &FREQS,
-        |s| {
-            let a = single_pole_gain(model, s);
-            k * a / (1.0 + k * a)
-        },
-        "follower with output resistance",
+    for model in [
+        single_pole(1.0e5, 3.0e6, ro),
+        two_pole(1.0e5, 3.0e6, 6.0e6, ro),
+    ] {
+        let k = rl / (ro + rl);
+        check_closed_form(
+            &follower(model, rl),
+            &FREQS,
+            |s| {
+                let a = open_loop_gain(model, s);
+                k * a / (1.0 + k * a)
+            },
+            &format!("follower with output resistance, {}", model.kind()),
+        );
+    }
+}
+
+#[test]
+fn follower_with_two_pole_opamp_is_a_over_one_plus_a() {
+    // Closed form (common practice): a unity-gain follower feeds its whole
+    // output back, v_o = A (v_in - v_o), so H = A / (1 + A), with
+    // A(s) = A0 / ((1 + s/w1)(1 + s/w2)). Second poles at twice the GBW
+    // (a flat closed loop) and at half of it (a peak near 7 MHz), over
+    // 0 Hz and 1 Hz to 1 GHz, 13 points per decade.
+    let mut freqs = vec![0.0];
+    freqs.extend(log_grid(1.0, 1e9, 118).unwrap());
+    for f2 in [20e6, 5e6] {
+        let model = two_pole(1.0e5, 10e6, f2, 0.0);
+        check_closed_form(
+            &follower(model, 2e3),
+            &freqs,
+            |s| {
+                let a = open_loop_gain(model, s);
+                a / (1.0 + a)
+            },
+            &format!("two-pole follower, second pole {f2:e} Hz"),
+        );
+    }
+}
+
+#[test]
+fn phase_margin_is_read_at_the_unity_gain_crossover() {
+    // Definition (common practice): the phase margin of a follower is
+    // 180 deg + arg A(j wu) where |A(j wu)| = 1; here wu is found by
+    // bisection on the closed-form gain, apart from the library's
+    // quadratic. The quick estimate 90 deg - atan(GBW / f2) (common
+    // practice) holds once the second pole is well above the GBW, where
+    // the crossover stays near the GBW: within 2.5 deg from f2 = 2 GBW up.
+    const MARGIN_TOL_DEG: f64 = 1e-9;
+    const ESTIMATE_TOL_DEG: f64 = 2.5;
+    for (model, estimate) in [
+        (two_pole(1e5, 10e6, 20e6, 0.0), true),
+        (two_pole(1e5, 10e6, 100e6, 0.0), true),
+        (two_pole(1e5, 10e6, 5e6, 0.0), false),
+        (two_pole(3e3, 1e6, 1e6, 50.0), false),
+        (single_pole(2e5, 1e6, 0.0), true),
+    ] {
+        let gain = |w: f64| open_loop_gain(model, Complex64::new(0.0, w));
+        let (mut lo, mut hi) = (1.0_f64, 1e12_f64);
+        for _ in 0..200 {
+            let mid = (lo * hi).sqrt();
+            if gain(mid).norm() > 1.0 {
+                lo = mid;
+            } else {
+                hi = mid;
+            }
+        }
+        let want = 180.0 + gain(lo).arg().to_degrees();
+        let got = model.phase_margin_deg().unwrap();
+        assert!(
+            (got - want).abs() <= MARGIN_TOL_DEG,
+            "{model:?}: {got} deg, bisection {want} deg"
+        );
+        if estimate {
+            let ratio = match model {
+                OpAmpModel::TwoPole {
+                    gbw_hz,
+                    second_pole_hz,
+                    ..
+                } => gbw_hz / second_pole_hz,
+                _ => 0.0,
+            };
+            let quick = 90.0 - ratio.atan().to_degrees();
+            assert!(
+                (got - quick).abs() <= ESTIMATE_TOL_DEG,
+                "{model:?}: {got} deg, estimate {quick} deg"
+            );
+        }
+    }
+    // A GBW spread moves a second pole in proportion (OpAmpModel::with_gbw):
+    // A(s) becomes A(s/k), the crossover moves by k and the phase margin
+    // stays (common practice: scaling frequency leaves phases where they
+    // were), to rounding.
+    let base = two_pole(1e5, 10e6, 20e6, 0.0);
+    let faster = base.with_gbw(13e6);
+    assert_eq!(
+        faster,
+        two_pole(1e5, 13e6, 26e6, 0.0),
+        "the second pole keeps its ratio to the GBW"
     );
+    assert!((faster.phase_margin_deg().unwrap() - base.phase_margin_deg().unwrap()).abs() <= 1e-12);
+    assert_eq!(OpAmpModel::Ideal.phase_margin_deg(), None);
+    assert_eq!(two_pole(0.5, 1e6, 1e6, 0.0).phase_margin_deg(), None);
+    assert_eq!(two_pole(1e5, 1e6, 1e6, 0.0).kind(), OpAmpKind::TwoPole);
 }
 
 /// A fixed-seed linear congruential generator (Knuth's MMIX constants):
@@ -464,15 +599,7 @@ fn refills_match_reference_and_a_fresh_build() {
                             OpAmpModel::SinglePole {
                                 output_ohm: 0.0, ..
                             } => OpAmpModel::Ideal,
-                            OpAmpModel::SinglePole {
-                                dc_gain,
-                                output_ohm,
-                                ..
-                            } => OpAmpModel::SinglePole {
-                                dc_gain,
-                                gbw_hz: rng.log_uniform(1e5, 1e7),
-                                output_ohm,
-                            },
+                            other => other.with_gbw(rng.log_uniform(1e5, 1e7)),
                         };
                         system.set_opamp_model(index, new).unwrap();
                         *model = new;
@@ -762,8 +889,10 @@ fn opamp_model_changes_keep_or_refuse_the_pattern() {
         s.set_opamp_model(1, OpAmpModel::Ideal),
         Err(CircuitError::OpAmpStructure {
             name: "X1".into(),
-            old: 75.0,
-            new: 0.0
+            old: OpAmpKind::SinglePole,
+            old_ohm: 75.0,
+            new: OpAmpKind::Ideal,
+            new_ohm: 0.0
         })
     );
     assert!(matches!(
@@ -776,6 +905,33 @@ fn opamp_model_changes_keep_or_refuse_the_pattern() {
     assert!(matches!(
         s.set_value(1, 1.0),
         Err(CircuitError::NoScalarValue { .. })
+    ));
+    // A second pole is an unknown of its own: a two-pole model refills a
+    // two-pole one (bit for bit what a fresh build gives), never another.
+    assert_eq!(
+        s.set_opamp_model(1, two_pole(1e5, 1e6, 2e6, 75.0)),
+        Err(CircuitError::OpAmpStructure {
+            name: "X1".into(),
+            old: OpAmpKind::SinglePole,
+            old_ohm: 75.0,
+            new: OpAmpKind::TwoPole,
+            new_ohm: 75.0
+        })
+    );
+    let mut t = AcSystem::new(&follower(two_pole(1e5, 1e6, 2e6, 50.0), 1e3)).unwrap();
+    t.set_opamp_model(1, two_pole(2e5, 3e6, 5e6, 50.0)).unwrap();
+    let fresh = AcSystem::new(t.netlist()).unwrap();
+    assert_eq!((t.g(), t.c()), (fresh.g(), fresh.c()));
+    assert!(matches!(
+        t.set_opamp_model(1, two_pole(1e5, 1e6, f64::NAN, 50.0)),
+        Err(CircuitError::BadValue {
+            quantity: "second_pole_hz",
+            ..
+        })
+    ));
+    assert!(matches!(
+        t.set_opamp_model(1, model(50.0)),
+        Err(CircuitError::OpAmpStructure { .. })
     ));
 }
 
@@ -894,12 +1050,7 @@ fn opamp_output_alone_fixes_a_node() {
     };
     let n = open_loop(model);
     assert_eq!(n.validate(), Ok(()));
-    check_closed_form(
-        &n,
-        &FREQS,
-        |s| single_pole_gain(model, s),
-        "open-loop op-amp",
-    );
+    check_closed_form(&n, &FREQS, |s| open_loop_gain(model, s), "open-loop op-amp");
     assert_singular(&open_loop(OpAmpModel::Ideal), 1e3);
 }
 
@@ -1018,6 +1169,21 @@ fn single_pole_opamp_decks_match_ngspice() {
         .r("RL", "out", "0", 600.0)
         .done();
     check_against_ngspice(&follower, SWEEP, "loaded follower, single pole");
+}
+
+#[test]
+fn two_pole_opamp_decks_match_ngspice() {
+    // The deck's two-pole subcircuit (two RC lags in cascade) against the
+    // solver's extra unknown: a GIC with one plain and one loaded op-amp,
+    // and a peaking follower (second pole at half the GBW).
+    let a = two_pole(2e5, 1e6, 2e6, 0.0);
+    let b = two_pole(1e5, 3e6, 1.5e6, 50.0);
+    check_against_ngspice(&gic_highpass([a, b]), SWEEP, "GIC, two poles");
+    let wide = AcSweep {
+        stop_hz: 1e8,
+        ..SWEEP
+    };
+    check_against_ngspice(&follower(b, 600.0), wide, "loaded follower, two poles");
 }
 
 #[test]
@@ -1141,6 +1307,24 @@ fn natural_frequencies_match_closed_forms() {
         &[Complex64::new(-wp * (r1 + r2 + a0 * r1) / (r1 + r2), 0.0)],
         "inverting, single pole",
     );
+    // Two-pole follower: with the source shorted, v_o = -A v_o, so
+    // (1 + s/w1)(1 + s/w2) + A0 = 0, that is
+    // s^2 / (w1 w2) + s (1/w1 + 1/w2) + 1 + A0 = 0 (common practice),
+    // roots by the quadratic formula: a flat pair (second pole at twice
+    // the GBW) and a peaking one (at half of it).
+    for f2 in [20e6, 5e6] {
+        let (a0, gbw) = (1e5, 10e6);
+        let (w1, w2) = (TAU * gbw / a0, TAU * f2);
+        let (a, b, c) = (1.0 / (w1 * w2), 1.0 / w1 + 1.0 / w2, 1.0 + a0);
+        let disc = Complex64::new(b * b - 4.0 * a * c, 0.0).sqrt();
+        let mut expected = [(-b - disc) / (2.0 * a), (-b + disc) / (2.0 * a)];
+        expected.sort_by(|x, y| y.re.total_cmp(&x.re).then(x.im.total_cmp(&y.im)));
+        assert_roots(
+            &follower(two_pole(a0, gbw, f2, 0.0), 2e3),
+            &expected,
+            &format!("two-pole follower, second pole {f2:e} Hz"),
+        );
+    }
     // A capacitor straight across the source (shorted with it) adds no
     // natural frequency: the highpass C1-R1 keeps its one root -1/RC.
     let across = Build::new("across")

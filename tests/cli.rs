@@ -259,6 +259,46 @@ const BAD_EDITS: &[(&str, &str, &str, &[&str])] = &[
         &["opamp.dc_gain_db", "greater than 0"],
     ),
     (
+        "second-pole-zero",
+        "load_ohm = 600",
+        "load_ohm = 600\n[opamp]\nmodel = \"two_pole\"\nsecond_pole_hz = 0",
+        &["opamp.second_pole_hz", "second pole in Hz greater than 0"],
+    ),
+    (
+        "second-pole-infinite",
+        "load_ohm = 600",
+        "load_ohm = 600\n[opamp]\nmodel = \"two_pole\"\nsecond_pole_hz = inf",
+        &["opamp.second_pole_hz", "inf", "greater than 0"],
+    ),
+    (
+        "second-pole-nan",
+        "load_ohm = 600",
+        "load_ohm = 600\n[opamp]\nmodel = \"two_pole\"\nsecond_pole_hz = nan",
+        &["opamp.second_pole_hz", "NaN", "greater than 0"],
+    ),
+    (
+        "second-pole-missing",
+        "load_ohm = 600",
+        "load_ohm = 600\n[opamp]\nmodel = \"two_pole\"",
+        &["opamp.second_pole_hz", "missing", "second pole in Hz"],
+    ),
+    (
+        "second-pole-single",
+        "load_ohm = 600",
+        "load_ohm = 600\n[opamp]\nsecond_pole_hz = 20e6",
+        &[
+            "opamp.second_pole_hz",
+            "single_pole",
+            "only model = \"two_pole\"",
+        ],
+    ),
+    (
+        "second-pole-ideal",
+        "load_ohm = 600",
+        "load_ohm = 600\n[opamp]\nmodel = \"ideal\"\nsecond_pole_hz = 20e6",
+        &["opamp.second_pole_hz", "ideal", "only model = \"two_pole\""],
+    ),
+    (
         "method",
         "load_ohm = 600",
         "load_ohm = 600\n[active]\nmethod = \"magic\"",
@@ -548,7 +588,7 @@ fn single_output_subcommands() {
 
 /// Spellings a programmer's `Debug` gives the library's enums; none may
 /// reach a person or a file.
-const DEBUG_SPELLINGS: [&str; 12] = [
+const DEBUG_SPELLINGS: [&str; 13] = [
     "Gic",
     "Fdnr",
     "FloatingInductor",
@@ -556,6 +596,7 @@ const DEBUG_SPELLINGS: [&str; 12] = [
     "MinCapacitor",
     "MinInductor",
     "SinglePole",
+    "TwoPole",
     "ZeroAtInfinity",
     "ReflectionAtDc",
     "Lowpass",

@@ -591,7 +591,7 @@ fn damped(
 fn verdict(netlist: &Netlist, model: &OpAmpModel) -> Result<Option<StabilityVerdict>, ActiveError> {
     match model {
         OpAmpModel::Ideal => Ok(None),
-        OpAmpModel::SinglePole { .. } => Ok(Some(is_stable(netlist)?)),
+        OpAmpModel::SinglePole { .. } | OpAmpModel::TwoPole { .. } => Ok(Some(is_stable(netlist)?)),
     }
 }
 

@@ -395,7 +395,8 @@ fn impedance_scaled(netlist: &Netlist, beta: f64) -> Netlist {
             Element::Resistor { ohm: v, .. } | Element::Inductor { henry: v, .. } => *v *= beta,
             Element::Capacitor { farad, .. } => *farad /= beta,
             Element::OpAmp {
-                model: OpAmpModel::SinglePole { output_ohm, .. },
+                model:
+                    OpAmpModel::SinglePole { output_ohm, .. } | OpAmpModel::TwoPole { output_ohm, .. },
                 ..
             } => *output_ohm *= beta,
             Element::OpAmp { .. } | Element::VoltageSource { .. } => {}

@@ -73,7 +73,7 @@ pub enum AnalysisError {
         name: String,
     },
     /// A tolerance rule names an element with nothing to vary.
-    #[error("tolerance for element {name:?}: a {kind} has nothing to vary; expected a resistor, capacitor, inductor or single-pole op-amp")]
+    #[error("tolerance for element {name:?}: a {kind} has nothing to vary; expected a resistor, capacitor, inductor, or single-pole or two-pole op-amp")]
     NotVariable {
         /// The element.
         name: String,

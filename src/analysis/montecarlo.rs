@@ -42,11 +42,11 @@ pub enum Scope {
     Capacitors,
     /// Every inductor.
     Inductors,
-    /// The gain-bandwidth of every single-pole op-amp (ideal op-amps have
-    /// none and are left alone).
+    /// The gain-bandwidth of every single-pole or two-pole op-amp (ideal
+    /// op-amps have none and are left alone).
     OpAmpGbw,
     /// One element by name (ignoring case): the value of an R, C or L, or
-    /// the gain-bandwidth of a single-pole op-amp.
+    /// the gain-bandwidth of a single-pole or two-pole op-amp.
     Element(String),
 }
 
@@ -148,8 +148,10 @@ pub struct MonteCarloResult {
 enum Setter {
     /// `set_value` (R, C, L).
     Value,
-    /// A single-pole model with this gain-bandwidth and the rest kept.
-    Gbw { dc_gain: f64, output_ohm: f64 },
+    /// This op-amp model at the gain-bandwidth drawn
+    /// ([`OpAmpModel::with_gbw`]: a second pole moves with it, so the
+    /// phase margin stays; see there why).
+    Gbw(OpAmpModel),
 }
 
 /// A varied quantity ready to refill.
@@ -166,17 +168,7 @@ impl Knob {
     fn set(&self, system: &mut AcSystem, value: f64) -> Result<(), CircuitError> {
         match self.setter {
             Setter::Value => system.set_value(self.element, value),
-            Setter::Gbw {
-                dc_gain,
-                output_ohm,
-            } => system.set_opamp_model(
-                self.element,
-                OpAmpModel::SinglePole {
-                    dc_gain,
-                    gbw_hz: value,
-                    output_ohm,
-                },
-            ),
+            Setter::Gbw(model) => system.set_opamp_model(self.element, model.with_gbw(value)),
         }
     }
 }
@@ -189,10 +181,7 @@ fn applies(scope: &Scope, element: &Element) -> bool {
         Scope::Inductors => element.kind() == ElementKind::Inductor,
         Scope::OpAmpGbw => matches!(
             element,
-            Element::OpAmp {
-                model: OpAmpModel::SinglePole { .. },
-                ..
-            }
+            Element::OpAmp { model, .. } if model.gbw_hz().is_some()
         ),
         Scope::Element(name) => element.name().eq_ignore_ascii_case(name),
     }
@@ -201,35 +190,19 @@ fn applies(scope: &Scope, element: &Element) -> bool {
 /// The quantity of an element that can vary, or the error for a rule
 /// naming one that has none.
 fn knob_of(index: usize, element: &Element, tolerance: Tolerance) -> Result<Knob, AnalysisError> {
+    let not_variable = |kind| AnalysisError::NotVariable {
+        name: element.name().to_string(),
+        kind,
+    };
     let (setter, nominal) = match *element {
         Element::Resistor { ohm: v, .. }
         | Element::Capacitor { farad: v, .. }
         | Element::Inductor { henry: v, .. } => (Setter::Value, v),
-        Element::OpAmp {
-            model:
-                OpAmpModel::SinglePole {
-                    dc_gain,
-                    gbw_hz,
-                    output_ohm,
-                },
-            ..
-        } => (
-            Setter::Gbw {
-                dc_gain,
-                output_ohm,
-            },
-            gbw_hz,
-        ),
-        Element::OpAmp { .. } | Element::VoltageSource { .. } => {
-            let kind = match element.kind() {
-                ElementKind::OpAmp => "ideal op-amp",
-                kind => kind.word(),
-            };
-            return Err(AnalysisError::NotVariable {
-                name: element.name().to_string(),
-                kind,
-            });
-        }
+        Element::OpAmp { model, .. } => match model.gbw_hz() {
+            Some(gbw_hz) => (Setter::Gbw(model), gbw_hz),
+            None => return Err(not_variable("ideal op-amp")),
+        },
+        Element::VoltageSource { .. } => return Err(not_variable(element.kind().word())),
     };
     Ok(Knob {
         element: index,
@@ -435,7 +408,7 @@ fn varied(system: &AcSystem, knob: &Knob) -> Varied {
         name: system.netlist().elements[knob.element].name().to_string(),
         parameter: match knob.setter {
             Setter::Value => Parameter::Value,
-            Setter::Gbw { .. } => Parameter::GainBandwidth,
+            Setter::Gbw(_) => Parameter::GainBandwidth,
         },
         nominal: knob.nominal,
         tolerance: knob.tolerance,

@@ -17,9 +17,13 @@
 //! | capacitor C    | farad     | every C entry, +-C          | +entry         |
 //! | inductor L     | henry     | its C entry, -L             | +entry         |
 //! | single-pole op-amp | gbw_hz | its C entry, 1/(2 pi gbw)  | -entry         |
+//! | two-pole op-amp | gbw_hz    | its C entries, 1/(2 pi gbw) and 1/w2 | -entry |
 //!
-//! (the other entries of an inductor or op-amp are constants). Ideal
-//! op-amps and sources have no parameter here.
+//! (the other entries of an inductor or op-amp are constants). A two-pole
+//! op-amp's GBW moves its second pole in proportion, as the Monte Carlo
+//! spread draws it (see `circuit::OpAmpModel::with_gbw`), so both its C
+//! entries scale as 1/gbw. Ideal op-amps and sources have no parameter
+//! here.
 //!
 //! The relative sensitivity S = d ln H / d ln p is complex: its real part
 //! is d ln|H| / d ln p, so a 1 % change of p moves |H| by
@@ -43,7 +47,8 @@ const DB_PER_PERCENT: f64 = 20.0 / LN_10 * 0.01;
 pub enum Parameter {
     /// Its value: ohm, farad or henry.
     Value,
-    /// The gain-bandwidth product of a single-pole op-amp.
+    /// The gain-bandwidth product of a single-pole or two-pole op-amp
+    /// (a second pole moving with it).
     GainBandwidth,
 }
 
@@ -84,7 +89,7 @@ pub(crate) fn derivatives(system: &AcSystem) -> Result<Vec<Derivative>, CircuitE
             Element::Resistor { .. } => (Parameter::Value, true, -1.0),
             Element::Capacitor { .. } | Element::Inductor { .. } => (Parameter::Value, false, 1.0),
             Element::OpAmp {
-                model: OpAmpModel::SinglePole { .. },
+                model: OpAmpModel::SinglePole { .. } | OpAmpModel::TwoPole { .. },
                 ..
             } => (Parameter::GainBandwidth, false, -1.0),
             Element::OpAmp { .. } | Element::VoltageSource { .. } => continue,
@@ -142,8 +147,8 @@ pub struct SensitivityTable {
     pub rows: Vec<Sensitivity>,
 }
 
-/// Sensitivities of H = V(out)/V(inp) to every R, C, L and single-pole
-/// op-amp gain-bandwidth at each frequency: one factorization, one solve
+/// Sensitivities of H = V(out)/V(inp) to every R, C, L and op-amp
+/// gain-bandwidth at each frequency: one factorization, one solve
 /// and one transposed solve per frequency. V(out) must be non-zero at
 /// every frequency: the relative sensitivity grows without bound near a
 /// transmission zero, and an exact zero is an error.

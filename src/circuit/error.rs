@@ -3,6 +3,8 @@
 //! Every variant carries the offending values (element or node by name
 //! where one exists) and its message says what would have been accepted.
 
+use super::OpAmpKind;
+
 /// What went wrong while building, validating or solving a circuit.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 #[non_exhaustive]
@@ -123,17 +125,21 @@ pub enum CircuitError {
         /// The element.
         name: String,
     },
-    /// A model change that would add or remove the op-amp's internal
-    /// output node (output resistance zero versus non-zero), which needs a
-    /// new system.
-    #[error("op-amp {name:?}: output_ohm may not change between zero and non-zero ({old} -> {new}) in a built system; build a new one")]
+    /// A model change that would add or remove one of the op-amp's
+    /// internal unknowns (output resistance zero versus non-zero, a second
+    /// pole or none), which needs a new system.
+    #[error("op-amp {name:?}: a {old} model with output {old_ohm} ohm cannot become a {new} model with output {new_ohm} ohm in a built system (a change of output resistance between zero and non-zero, or to or from a two-pole model, changes the unknowns); build a new one")]
     OpAmpStructure {
         /// The op-amp.
         name: String,
-        /// Its output resistance now.
-        old: f64,
-        /// The output resistance asked for.
-        new: f64,
+        /// Its model now.
+        old: OpAmpKind,
+        /// Its output resistance now, ohm.
+        old_ohm: f64,
+        /// The model asked for.
+        new: OpAmpKind,
+        /// The output resistance asked for, ohm.
+        new_ohm: f64,
     },
     /// A frequency that is negative or not finite.
     #[error("frequency {freq_hz} Hz: must be finite and >= 0")]

@@ -3,9 +3,11 @@
 //! Shared by the fast solver and the reference solver, so both number the
 //! unknowns alike: node `i >= 1` is unknown `i - 1` (ground has none), then
 //! each element in netlist order adds what it needs: an inductor or a
-//! voltage source its branch current; an op-amp its output current and,
+//! voltage source its branch current; an op-amp its output current, then,
 //! with a non-zero output resistance, the internal node between its
-//! controlled source and the resistor.
+//! controlled source and the resistor, then, for a two-pole model, the
+//! output of its first pole (the MNA is linear in s, so a second pole
+//! needs an unknown of its own).
 
 use super::{Element, Netlist, OpAmpModel};
 
@@ -16,6 +18,9 @@ pub(crate) struct Extras {
     pub current: Option<usize>,
     /// Internal output node of an op-amp with output resistance.
     pub internal: Option<usize>,
+    /// Output of the first pole of a two-pole op-amp; its row is the
+    /// second pole's law.
+    pub pole: Option<usize>,
 }
 
 /// Numbering of every unknown.
@@ -29,9 +34,24 @@ pub(crate) struct Layout {
     pub extras: Vec<Extras>,
 }
 
-/// Whether an op-amp model puts a resistor after its controlled source.
-pub(crate) fn has_output_resistor(model: &OpAmpModel) -> bool {
-    matches!(model, OpAmpModel::SinglePole { output_ohm, .. } if *output_ohm > 0.0)
+/// The unknowns an op-amp model adds beside its output current: what a
+/// model change must keep for the system to be refilled, not rebuilt.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) struct OpAmpUnknowns {
+    /// A resistor after the controlled source (output_ohm > 0).
+    pub internal: bool,
+    /// A second pole.
+    pub pole: bool,
+}
+
+impl OpAmpUnknowns {
+    /// The unknowns `model` adds.
+    pub fn of(model: &OpAmpModel) -> OpAmpUnknowns {
+        OpAmpUnknowns {
+            internal: model.output_ohm() > 0.0,
+            pole: matches!(model, OpAmpModel::TwoPole { .. }),
+        }
+    }
 }
 
 impl Layout {
@@ -50,16 +70,16 @@ impl Layout {
                 Element::Resistor { .. } | Element::Capacitor { .. } => Extras::default(),
                 Element::Inductor { .. } | Element::VoltageSource { .. } => Extras {
                     current: next(),
-                    internal: None,
+                    ..Extras::default()
                 },
-                Element::OpAmp { model, .. } => Extras {
-                    current: next(),
-                    internal: if has_output_resistor(model) {
-                        next()
-                    } else {
-                        None
-                    },
-                },
+                Element::OpAmp { model, .. } => {
+                    let adds = OpAmpUnknowns::of(model);
+                    Extras {
+                        current: next(),
+                        internal: if adds.internal { next() } else { None },
+                        pole: if adds.pole { next() } else { None },
+                    }
+                }
             })
             .collect();
         Layout {

@@ -11,6 +11,10 @@
 //!   by A0:  -(v+ - v-) + (1/A0) v_o' + s (1/(2 pi gbw)) v_o' = 0.
 //!   The ideal op-amp (nullor) is the same row with both coefficients 0,
 //!   so both models share one pattern and a model change is a refill.
+//!   A two-pole op-amp, A(s) = A0 / ((1 + s/w1)(1 + s/w2)), has the same
+//!   row on the output p of its first pole (an unknown of its own), and
+//!   p's row is the second pole, a unity-gain lag onto the output:
+//!   -p + v_o' + s (1/w2) v_o' = 0.
 //!
 //! Invariant: each matrix entry ("slot") equals the sum, in element order,
 //! of the contributions ("terms") of the elements that touch it; an
@@ -26,7 +30,7 @@ use std::ops::Range;
 use nalgebra::{DMatrix, DVector};
 use num_complex::Complex64;
 
-use super::layout::{has_output_resistor, Extras, Layout};
+use super::layout::{Extras, Layout, OpAmpUnknowns};
 use super::lu::Lu;
 use super::netlist::check_model;
 use super::{CircuitError, Element, Netlist, OpAmpModel, Response};
@@ -90,16 +94,25 @@ fn branch(emit: &mut dyn FnMut(Target, f64), k: usize, a: Option<usize>, b: Opti
     }
 }
 
-/// The two coefficients of an op-amp's output in its (scaled) row:
-/// 1/A0 into G and 1/(2 pi gbw) into C; both 0 for the nullor.
+/// The coefficients of an op-amp's (scaled) rows: 1/A0 into G and
+/// 1/(2 pi gbw) into C of its gain row, all 0 for the nullor, and 1/w2
+/// into C of the second pole's row (0 without one).
 fn opamp_coefficients(model: &OpAmpModel) -> (f64, f64, f64) {
     match *model {
         OpAmpModel::Ideal => (0.0, 0.0, 0.0),
         OpAmpModel::SinglePole {
+            dc_gain, gbw_hz, ..
+        } => (1.0 / dc_gain, 1.0 / (TAU * gbw_hz), 0.0),
+        OpAmpModel::TwoPole {
             dc_gain,
             gbw_hz,
-            output_ohm,
-        } => (1.0 / dc_gain, 1.0 / (TAU * gbw_hz), output_ohm),
+            second_pole_hz,
+            ..
+        } => (
+            1.0 / dc_gain,
+            1.0 / (TAU * gbw_hz),
+            1.0 / (TAU * second_pole_hz),
+        ),
     }
 }
 
@@ -133,20 +146,37 @@ fn stamps(element: &Element, extras: Extras, layout: &Layout, emit: &mut dyn FnM
             ref model,
             ..
         } => {
-            let (g_out, c_out, r_out) = opamp_coefficients(model);
+            let (g_gain, c_gain, c_second) = opamp_coefficients(model);
             let driven = extras.internal.or(node(out));
             if let Some(o) = driven {
                 emit(Target::G(o, k), 1.0);
-                emit(Target::G(k, o), g_out);
-                emit(Target::C(k, o), c_out);
+            }
+            // The gain row acts on the first pole's output where there is
+            // a second pole, else straight on the driven node.
+            if let Some(p) = extras.pole.or(driven) {
+                emit(Target::G(k, p), g_gain);
+                emit(Target::C(k, p), c_gain);
             }
             for (input, sign) in [(plus, -1.0), (minus, 1.0)] {
                 if let Some(n) = node(input) {
                     emit(Target::G(k, n), sign);
                 }
             }
+            if let Some(p) = extras.pole {
+                emit(Target::G(p, p), -1.0);
+                if let Some(o) = driven {
+                    emit(Target::G(p, o), 1.0);
+                    emit(Target::C(p, o), c_second);
+                }
+            }
             if extras.internal.is_some() {
-                admittance(emit, Matrix::G, extras.internal, node(out), 1.0 / r_out);
+                admittance(
+                    emit,
+                    Matrix::G,
+                    extras.internal,
+                    node(out),
+                    1.0 / model.output_ohm(),
+                );
             }
         }
     }
@@ -282,8 +312,9 @@ impl AcSystem {
     }
 
     /// Changes the model of op-amp `index` and refills only its stamps.
-    /// Ideal and single-pole models share one pattern; only a change of
-    /// the output resistance between zero and non-zero needs a new system.
+    /// Ideal and single-pole models share one pattern; a change that adds
+    /// or removes an unknown (output resistance between zero and non-zero,
+    /// a second pole or none) needs a new system.
     pub fn set_opamp_model(&mut self, index: usize, new: OpAmpModel) -> Result<(), CircuitError> {
         let element = self.netlist.element_mut(index)?;
         let Element::OpAmp { name, model, .. } = element else {
@@ -292,11 +323,13 @@ impl AcSystem {
             });
         };
         check_model(name, &new)?;
-        if has_output_resistor(model) != has_output_resistor(&new) {
+        if OpAmpUnknowns::of(model) != OpAmpUnknowns::of(&new) {
             return Err(CircuitError::OpAmpStructure {
                 name: name.clone(),
-                old: opamp_coefficients(model).2,
-                new: opamp_coefficients(&new).2,
+                old: model.kind(),
+                old_ohm: model.output_ohm(),
+                new: new.kind(),
+                new_ohm: new.output_ohm(),
             });
         }
         *model = new;

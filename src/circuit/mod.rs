@@ -41,6 +41,8 @@ pub use reference::reference_transfer;
 pub use response::{band_grid, log_grid};
 pub use sparse::{SparseAc, SparseError, SparseStats};
 
+use std::f64::consts::TAU;
+
 /// Model of an operational amplifier.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize, serde::Deserialize)]
 #[serde(tag = "model", rename_all = "snake_case")]
@@ -54,6 +56,19 @@ pub enum OpAmpModel {
         dc_gain: f64,
         /// Gain-bandwidth product, Hz.
         gbw_hz: f64,
+        /// Output resistance, ohm (0 for none).
+        output_ohm: f64,
+    },
+    /// A(s) = A0 / ((1 + s/w1)(1 + s/w2)), w1 = 2 pi gbw_hz / A0 (the
+    /// dominant pole), w2 = 2 pi second_pole_hz (the next one, which sets
+    /// the phase margin), with an optional series output resistance.
+    TwoPole {
+        /// DC open-loop gain A0 (V/V, not dB).
+        dc_gain: f64,
+        /// Gain-bandwidth product of the dominant pole, Hz.
+        gbw_hz: f64,
+        /// The second pole, Hz.
+        second_pole_hz: f64,
         /// Output resistance, ohm (0 for none).
         output_ohm: f64,
     },
@@ -73,6 +88,8 @@ pub fn response(netlist: &Netlist, freqs_hz: &[f64]) -> Result<Response, Circuit
 pub enum OpAmpKind {
     /// [`OpAmpModel::SinglePole`].
     SinglePole,
+    /// [`OpAmpModel::TwoPole`].
+    TwoPole,
     /// [`OpAmpModel::Ideal`].
     Ideal,
 }
@@ -81,6 +98,7 @@ impl std::fmt::Display for OpAmpKind {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
         f.write_str(match self {
             OpAmpKind::SinglePole => "single-pole",
+            OpAmpKind::TwoPole => "two-pole",
             OpAmpKind::Ideal => "ideal",
         })
     }
@@ -88,19 +106,28 @@ impl std::fmt::Display for OpAmpKind {
 
 impl OpAmpModel {
     /// The model of `kind` with the figures a data sheet gives: the
-    /// gain-bandwidth product (Hz), the open-loop DC gain (dB) and the
-    /// output resistance (ohm); an ideal op-amp ignores them.
+    /// gain-bandwidth product (Hz), the open-loop DC gain (dB), the second
+    /// pole (Hz, read by the two-pole model only) and the output
+    /// resistance (ohm); an ideal op-amp ignores them all.
     pub fn from_data_sheet(
         kind: OpAmpKind,
         gbw_hz: f64,
         dc_gain_db: f64,
+        second_pole_hz: f64,
         output_ohm: f64,
     ) -> OpAmpModel {
+        let dc_gain = 10f64.powf(dc_gain_db / 20.0);
         match kind {
             OpAmpKind::Ideal => OpAmpModel::Ideal,
             OpAmpKind::SinglePole => OpAmpModel::SinglePole {
-                dc_gain: 10f64.powf(dc_gain_db / 20.0),
+                dc_gain,
                 gbw_hz,
+                output_ohm,
+            },
+            OpAmpKind::TwoPole => OpAmpModel::TwoPole {
+                dc_gain,
+                gbw_hz,
+                second_pole_hz,
                 output_ohm,
             },
         }
@@ -111,7 +138,101 @@ impl OpAmpModel {
         match self {
             OpAmpModel::Ideal => OpAmpKind::Ideal,
             OpAmpModel::SinglePole { .. } => OpAmpKind::SinglePole,
+            OpAmpModel::TwoPole { .. } => OpAmpKind::TwoPole,
         }
+    }
+
+    /// The gain-bandwidth product, Hz; `None` for the nullor.
+    pub fn gbw_hz(&self) -> Option<f64> {
+        match *self {
+            OpAmpModel::Ideal => None,
+            OpAmpModel::SinglePole { gbw_hz, .. } | OpAmpModel::TwoPole { gbw_hz, .. } => {
+                Some(gbw_hz)
+            }
+        }
+    }
+
+    /// The output resistance, ohm (0 for none, and for the nullor).
+    pub fn output_ohm(&self) -> f64 {
+        match *self {
+            OpAmpModel::Ideal => 0.0,
+            OpAmpModel::SinglePole { output_ohm, .. } | OpAmpModel::TwoPole { output_ohm, .. } => {
+                output_ohm
+            }
+        }
+    }
+
+    /// The same op-amp made faster or slower: its gain-bandwidth set to
+    /// `gbw_hz` and a second pole moved by the same factor, so that both
+    /// poles scale alike, A(s) becomes A(s/k) and the phase margin stays.
+    /// This is what a spread of the GBW stands for here: the compensation
+    /// that sets the phase margin is part of the op-amp's design, while
+    /// what varies from part to part is the speed of the transistors
+    /// behind both poles (common practice: a data sheet quotes one typical
+    /// phase margin beside a GBW that varies by tens of percent). The
+    /// nullor is returned unchanged.
+    pub fn with_gbw(&self, gbw_hz: f64) -> OpAmpModel {
+        match *self {
+            OpAmpModel::Ideal => OpAmpModel::Ideal,
+            OpAmpModel::SinglePole {
+                dc_gain,
+                output_ohm,
+                ..
+            } => OpAmpModel::SinglePole {
+                dc_gain,
+                gbw_hz,
+                output_ohm,
+            },
+            OpAmpModel::TwoPole {
+                dc_gain,
+                gbw_hz: old,
+                second_pole_hz,
+                output_ohm,
+            } => OpAmpModel::TwoPole {
+                dc_gain,
+                gbw_hz,
+                second_pole_hz: second_pole_hz * (gbw_hz / old),
+                output_ohm,
+            },
+        }
+    }
+
+    /// The phase margin at unity loop gain when the op-amp is a follower,
+    /// degrees: 180 + arg A(j wu) at |A(j wu)| = 1. `None` for the nullor
+    /// and for a DC gain of 1 or less (no crossover).
+    ///
+    /// For the two-pole model, x = wu^2 solves |A|^2 = 1, that is
+    /// (1 + x/w1^2)(1 + x/w2^2) = A0^2, a quadratic
+    /// x^2 / (w1 w2)^2 + x (1/w1^2 + 1/w2^2) - (A0^2 - 1) = 0 whose positive
+    /// root is taken in the form without cancellation,
+    /// 2c / (b + sqrt(b^2 + 4ac)); then the margin is
+    /// 90 deg - atan(wu/w1) + 90 deg - atan(wu/w2), close to
+    /// 90 deg - atan(GBW / f2) (common practice) when A0 is large and the
+    /// second pole well above the GBW (within 2.5 deg from f2 = 2 GBW up,
+    /// `phase_margin_is_read_at_the_unity_gain_crossover`); below that the
+    /// crossover falls under the GBW and the margin is larger than the
+    /// estimate. A single-pole model is the case w2 = infinity.
+    pub fn phase_margin_deg(&self) -> Option<f64> {
+        let (dc_gain, w1, w2) = match *self {
+            OpAmpModel::Ideal => return None,
+            OpAmpModel::SinglePole {
+                dc_gain, gbw_hz, ..
+            } => (dc_gain, TAU * gbw_hz / dc_gain, f64::INFINITY),
+            OpAmpModel::TwoPole {
+                dc_gain,
+                gbw_hz,
+                second_pole_hz,
+                ..
+            } => (dc_gain, TAU * gbw_hz / dc_gain, TAU * second_pole_hz),
+        };
+        if dc_gain <= 1.0 {
+            return None;
+        }
+        let a = (w1 * w2).powi(-2);
+        let b = w1.powi(-2) + w2.powi(-2);
+        let c = (dc_gain - 1.0) * (dc_gain + 1.0);
+        let wu = (2.0 * c / (b + (b * b + 4.0 * a * c).sqrt())).sqrt();
+        Some(180.0 - (wu / w1).atan().to_degrees() - (wu / w2).atan().to_degrees())
     }
 }
 

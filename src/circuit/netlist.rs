@@ -201,9 +201,18 @@ pub(crate) fn check_model(name: &str, model: &OpAmpModel) -> Result<(), CircuitE
             dc_gain,
             gbw_hz,
             output_ohm,
+        }
+        | OpAmpModel::TwoPole {
+            dc_gain,
+            gbw_hz,
+            output_ohm,
+            ..
         } => {
             positive(name, "dc_gain", dc_gain)?;
             positive(name, "gbw_hz", gbw_hz)?;
+            if let OpAmpModel::TwoPole { second_pole_hz, .. } = *model {
+                positive(name, "second_pole_hz", second_pole_hz)?;
+            }
             if output_ohm.is_finite() && output_ohm >= 0.0 {
                 Ok(())
             } else {

@@ -4,9 +4,11 @@
 //! It assembles a fresh dense complex matrix straight from the netlist at
 //! one s = j 2 pi f, writing each element's textbook equation unscaled
 //! (the op-amp row as (1 + s/wp) v_o' - A0 (v+ - v-) = 0, the nullor as
-//! v+ - v- = 0), and solves with nalgebra's fully pivoted LU. It shares
-//! only the numbering of unknowns with the fast path, nothing of its
-//! stamping, scaling or elimination.
+//! v+ - v- = 0; a two-pole op-amp as two lags in cascade,
+//! (1 + s/w1) p - A0 (v+ - v-) = 0 and (1 + s/w2) v_o' - p = 0), and
+//! solves with nalgebra's fully pivoted LU. It shares only the numbering
+//! of unknowns with the fast path, nothing of its stamping, scaling or
+//! elimination.
 
 use std::f64::consts::TAU;
 
@@ -89,23 +91,27 @@ fn assemble(
                 if let Some(o) = o {
                     m[(o, k)] += 1.0;
                 }
-                // (gain on v+ - v-, coefficient of v_o') of the row.
+                if extras.internal.is_some() {
+                    add_admittance(
+                        &mut m,
+                        extras.internal,
+                        node(out),
+                        Complex64::new(1.0 / model.output_ohm(), 0.0),
+                    );
+                }
+                // The unknown the gain row drives: the first pole's output
+                // where a second pole follows, else the output itself.
+                let driven = extras.pole.or(o);
+                // (gain on v+ - v-, coefficient of the driven unknown).
                 let (gain, own) = match model {
                     OpAmpModel::Ideal => (Complex64::new(1.0, 0.0), Complex64::new(0.0, 0.0)),
                     OpAmpModel::SinglePole {
-                        dc_gain,
-                        gbw_hz,
-                        output_ohm,
+                        dc_gain, gbw_hz, ..
+                    }
+                    | OpAmpModel::TwoPole {
+                        dc_gain, gbw_hz, ..
                     } => {
                         let wp = TAU * gbw_hz / dc_gain;
-                        if extras.internal.is_some() {
-                            add_admittance(
-                                &mut m,
-                                extras.internal,
-                                node(out),
-                                Complex64::new(1.0 / output_ohm, 0.0),
-                            );
-                        }
                         (Complex64::new(-dc_gain, 0.0), 1.0 + s / wp)
                     }
                 };
@@ -115,8 +121,15 @@ fn assemble(
                 if let Some(q) = node(minus) {
                     m[(k, q)] -= gain;
                 }
-                if let Some(o) = o {
-                    m[(k, o)] += own;
+                if let Some(d) = driven {
+                    m[(k, d)] += own;
+                }
+                if let (Some(p), OpAmpModel::TwoPole { second_pole_hz, .. }) = (extras.pole, model)
+                {
+                    m[(p, p)] -= 1.0;
+                    if let Some(o) = o {
+                        m[(p, o)] += 1.0 + s / (TAU * second_pole_hz);
+                    }
                 }
             }
         }

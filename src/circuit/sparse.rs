@@ -5,7 +5,7 @@
 //! pass), with no search and no allocation.
 //!
 //! - Pattern: the union of the nonzeros of G and C, plus every op-amp's
-//!   output coefficients (zero for a nullor, nonzero for a single-pole
+//!   gain-row coefficients (zero for a nullor, nonzero for a single-pole
 //!   model, so a model change stays a refill).
 //! - Order: Markowitz with threshold pivoting on the values at check
 //!   frequencies spread over the caller's band (see `ordering`).
@@ -35,7 +35,7 @@ use num_complex::Complex64;
 
 use super::delay::DenseDelay;
 use super::lanes::LANES;
-use super::layout::{has_output_resistor, Layout};
+use super::layout::{Layout, OpAmpUnknowns};
 use super::ordering::{markowitz, Sample};
 use super::plan::{row_size, Plan, GUARD_THRESHOLD};
 use super::{AcSystem, CircuitError, Element, ElementKind, Response};
@@ -99,9 +99,9 @@ pub enum SparseError {
         /// Elements of the system given.
         got: usize,
     },
-    /// A refill from a system whose element changed kind, nodes, or
-    /// between zero and non-zero output resistance.
-    #[error("refill: element {index} ({name:?}) differs in kind, nodes or output resistor from the circuit the solver was built for; only values may change")]
+    /// A refill from a system whose element changed kind, nodes, between
+    /// zero and non-zero output resistance, or to or from a two-pole model.
+    #[error("refill: element {index} ({name:?}) differs in kind, nodes, output resistor or second pole from the circuit the solver was built for; only values may change")]
     ElementChanged {
         /// The element index.
         index: usize,
@@ -115,27 +115,28 @@ pub enum SparseError {
 struct Shape {
     kind: ElementKind,
     nodes: [usize; 3],
-    output_resistor: bool,
+    /// An op-amp's own unknowns (none for other elements).
+    opamp: Option<OpAmpUnknowns>,
 }
 
 fn shape(element: &Element) -> Shape {
-    let (nodes, output_resistor) = match *element {
+    let (nodes, opamp) = match *element {
         Element::Resistor { a, b, .. }
         | Element::Capacitor { a, b, .. }
-        | Element::Inductor { a, b, .. } => ([a, b, 0], false),
-        Element::VoltageSource { pos, neg, .. } => ([pos, neg, 0], false),
+        | Element::Inductor { a, b, .. } => ([a, b, 0], None),
+        Element::VoltageSource { pos, neg, .. } => ([pos, neg, 0], None),
         Element::OpAmp {
             plus,
             minus,
             out,
             ref model,
             ..
-        } => ([plus, minus, out], has_output_resistor(model)),
+        } => ([plus, minus, out], Some(OpAmpUnknowns::of(model))),
     };
     Shape {
         kind: element.kind(),
         nodes,
-        output_resistor,
+        opamp,
     }
 }
 
@@ -149,7 +150,8 @@ fn pattern(system: &AcSystem, layout: &Layout) -> Vec<bool> {
         .collect();
     for (element, extras) in system.netlist().elements.iter().zip(&layout.extras) {
         if let (Element::OpAmp { out, .. }, Some(k)) = (element, extras.current) {
-            if let Some(o) = extras.internal.or(layout.node(*out)) {
+            // The unknown the gain row acts on (see `mna::stamps`).
+            if let Some(o) = extras.pole.or(extras.internal).or(layout.node(*out)) {
                 p[k * n + o] = true;
             }
         }
@@ -289,8 +291,8 @@ impl SparseAc {
     }
 
     /// Loads the values of `system`, which must be the circuit this solver
-    /// was built for with only values (or op-amp models of the same
-    /// output-resistor structure) changed: a copy per pattern entry and
+    /// was built for with only values (or op-amp models with the same
+    /// unknowns) changed: a copy per pattern entry and
     /// order.
     pub fn refill(&mut self, system: &AcSystem) -> Result<(), SparseError> {
         self.check_shapes(system)?;

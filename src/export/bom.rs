@@ -26,7 +26,7 @@ pub const HEADER: [&str; 10] = [
 ];
 
 use crate::active::Stage;
-use crate::circuit::{Element, ElementKind, Netlist, OpAmpModel};
+use crate::circuit::{Element, ElementKind, Netlist};
 use crate::design::{Build, Report};
 use crate::realize::{trimmer_designator, TRIMMER_SERIES};
 
@@ -348,13 +348,13 @@ pub fn design_rows(
                 tolerance: Some(p.capacitor_tolerance),
                 ..row(built, e.name(), "capacitor", *farad, "F")
             },
-            (
-                Element::OpAmp {
-                    model: OpAmpModel::SinglePole { gbw_hz, .. },
-                    ..
-                },
-                None,
-            ) => row(built, e.name(), "op-amp", *gbw_hz, "Hz GBW"),
+            // An op-amp of a finite-bandwidth model is bought by its GBW
+            // (the report states the rest of the model); the nullor names
+            // no part.
+            (Element::OpAmp { model, .. }, None) => match model.gbw_hz() {
+                Some(gbw_hz) => row(built, e.name(), "op-amp", gbw_hz, "Hz GBW"),
+                None => continue,
+            },
             _ => continue,
         };
         part.stage = stage;

@@ -14,7 +14,7 @@ use crate::design::{Build, Documents};
 pub const CAUTIONS: [&str; 3] = [
     "These results are a design aid: a prototype built from real parts must be measured against the specification before the design is released.",
     "Mains-powered or safety-related equipment follows local codes and licensed practice; nothing here replaces them.",
-    "The op-amp model is single-pole; slew rate, noise, output current and input bias are not simulated.",
+    "Op-amps are simulated with the small-signal model the summary names (ideal, single-pole or two-pole); slew rate, noise, output current and input bias are not simulated.",
 ];
 
 /// The report page, with the charts as SVG `figures` and the bill of

@@ -276,26 +276,44 @@ impl Display for OrderChoice {
     }
 }
 
-/// The op-amp model in words: "single-pole op-amps, GBW 10 MHz, A0 100 dB".
+/// The op-amp model in words: "single-pole op-amps, GBW 10 MHz, A0 100
+/// dB"; a two-pole model adds its second pole and the phase margin it
+/// leaves a follower ([`OpAmpModel::phase_margin_deg`], to a tenth of a
+/// degree, the precision a phase margin is quoted to).
 pub fn opamp_model(model: &OpAmpModel) -> String {
-    match *model {
+    let (mut s, dc_gain, output_ohm) = match *model {
+        OpAmpModel::Ideal => return "ideal op-amps".to_string(),
         OpAmpModel::SinglePole {
             dc_gain,
             gbw_hz,
             output_ohm,
+        } => (
+            format!("single-pole op-amps, GBW {}", eng(gbw_hz, "Hz")),
+            dc_gain,
+            output_ohm,
+        ),
+        OpAmpModel::TwoPole {
+            dc_gain,
+            gbw_hz,
+            second_pole_hz,
+            output_ohm,
         } => {
             let mut s = format!(
-                "single-pole op-amps, GBW {}, A0 {} dB",
+                "two-pole op-amps, GBW {}, second pole {}",
                 eng(gbw_hz, "Hz"),
-                factor(20.0 * dc_gain.log10())
+                eng(second_pole_hz, "Hz")
             );
-            if output_ohm > 0.0 {
-                s += &format!(", output {}", eng(output_ohm, "ohm"));
+            if let Some(margin) = model.phase_margin_deg() {
+                s += &format!(" (phase margin {margin:.1} deg at unity gain)");
             }
-            s
+            (s, dc_gain, output_ohm)
         }
-        OpAmpModel::Ideal => "ideal op-amps".to_string(),
+    };
+    s += &format!(", A0 {} dB", factor(20.0 * dc_gain.log10()));
+    if output_ohm > 0.0 {
+        s += &format!(", output {}", eng(output_ohm, "ohm"));
     }
+    s
 }
 
 #[cfg(test)]
@@ -318,5 +336,34 @@ mod tests {
         assert_eq!(factor(1.25), "1.25");
         assert_eq!(factor(0.99871234), "0.99871");
         assert_eq!(factor(100.0), "100");
+    }
+
+    /// The two-pole model names its second pole and the phase margin it
+    /// leaves. By hand (common practice): with GBW 10 MHz, f2 = 20 MHz and
+    /// a large A0 the crossover x = fu / GBW solves x^2 (1 + x^2 / 4) = 1,
+    /// x^2 = 2 (sqrt 2 - 1), x = 0.9102, so the margin is
+    /// 90 - atan(x / 2) = 65.53 deg (the last 1/A0 moves it by 6e-4 deg).
+    #[test]
+    fn opamp_models_in_words() {
+        let two_pole = OpAmpModel::TwoPole {
+            dc_gain: 1e5,
+            gbw_hz: 10e6,
+            second_pole_hz: 20e6,
+            output_ohm: 50.0,
+        };
+        assert_eq!(
+            opamp_model(&two_pole),
+            "two-pole op-amps, GBW 10 MHz, second pole 20 MHz (phase margin 65.5 deg at unity gain), A0 100 dB, output 50 ohm"
+        );
+        let single_pole = OpAmpModel::SinglePole {
+            dc_gain: 1e5,
+            gbw_hz: 10e6,
+            output_ohm: 0.0,
+        };
+        assert_eq!(
+            opamp_model(&single_pole),
+            "single-pole op-amps, GBW 10 MHz, A0 100 dB"
+        );
+        assert_eq!(opamp_model(&OpAmpModel::Ideal), "ideal op-amps");
     }
 }

@@ -116,6 +116,7 @@ fn opamp_models(netlist: &Netlist) -> Vec<(OpAmpModel, String)> {
                 let name = match model {
                     OpAmpModel::Ideal => "opamp_ideal".to_string(),
                     OpAmpModel::SinglePole { .. } => format!("opamp_pole{}", models.len() + 1),
+                    OpAmpModel::TwoPole { .. } => format!("opamp_two_pole{}", models.len() + 1),
                 };
                 models.push((*model, name));
             }
@@ -194,24 +195,70 @@ fn subcircuit(model: &OpAmpModel, name: &str) -> String {
             gbw_hz,
             output_ohm,
         } => {
-            // E1 (gain A0) into R1 = 1 ohm and C1 = 1/wp: the pole
-            // 1 / (1 + s/wp), wp = 2 pi gbw / A0; E2 buffers it.
-            let c = dc_gain / (std::f64::consts::TAU * gbw_hz);
-            let (buffer, resistor) = if output_ohm > 0.0 {
-                ("c", format!("RO c o {}\n", value(output_ohm)))
-            } else {
-                ("o", String::new())
-            };
-            format!(
-                "* single-pole op-amp: A0 = {}, GBW = {} Hz, output {} ohm\n.subckt {name} p m o\nE1 a 0 p m {}\nR1 a b 1\nC1 b 0 {}\nE2 {buffer} 0 b 0 1\n{resistor}.ends {name}\n",
+            let header = format!(
+                "* single-pole op-amp: A0 = {}, GBW = {} Hz, output {} ohm",
                 value(dc_gain),
                 value(gbw_hz),
-                value(output_ohm),
+                value(output_ohm)
+            );
+            pole_chain(&header, name, dc_gain, &[gbw_hz / dc_gain], output_ohm)
+        }
+        OpAmpModel::TwoPole {
+            dc_gain,
+            gbw_hz,
+            second_pole_hz,
+            output_ohm,
+        } => {
+            let header = format!(
+                "* two-pole op-amp: A0 = {}, GBW = {} Hz, second pole = {} Hz, output {} ohm",
                 value(dc_gain),
-                value(c)
+                value(gbw_hz),
+                value(second_pole_hz),
+                value(output_ohm)
+            );
+            pole_chain(
+                &header,
+                name,
+                dc_gain,
+                &[gbw_hz / dc_gain, second_pole_hz],
+                output_ohm,
             )
         }
     }
+}
+
+/// An op-amp subcircuit of lags in cascade: E1 (gain A0) into R1 = 1 ohm
+/// and C1 = 1/w1, the pole 1 / (1 + s/w1); each further pole buffered by
+/// a unit VCVS into its own 1 ohm and 1/w; a last unit VCVS drives the
+/// output, through RO where there is an output resistance. Nodes are
+/// lettered in order (a, b for the first pole, c, d for the second, ...),
+/// so ngspice sees A(s) = A0 / prod(1 + s/w_k).
+fn pole_chain(header: &str, name: &str, dc_gain: f64, poles_hz: &[f64], output_ohm: f64) -> String {
+    let letter = |i: usize| char::from(b'a' + i as u8);
+    let mut body = format!("E1 a 0 p m {}\n", value(dc_gain));
+    for (k, &pole_hz) in poles_hz.iter().enumerate() {
+        let (from, to) = (letter(2 * k), letter(2 * k + 1));
+        if k > 0 {
+            body += &format!("E{} {from} 0 {} 0 1\n", k + 1, letter(2 * k - 1));
+        }
+        body += &format!(
+            "R{n} {from} {to} 1\nC{n} {to} 0 {}\n",
+            value(1.0 / (std::f64::consts::TAU * pole_hz)),
+            n = k + 1
+        );
+    }
+    let last = letter(2 * poles_hz.len() - 1);
+    let buffer = letter(2 * poles_hz.len());
+    let driven = if output_ohm > 0.0 {
+        buffer.to_string()
+    } else {
+        "o".to_string()
+    };
+    body += &format!("E{} {driven} 0 {last} 0 1\n", poles_hz.len() + 1);
+    if output_ohm > 0.0 {
+        body += &format!("RO {buffer} o {}\n", value(output_ohm));
+    }
+    format!("{header}\n.subckt {name} p m o\n{body}.ends {name}\n")
 }
 
 /// The transient waveform of a source: none for AC, else a pulse from 0

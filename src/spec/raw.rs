@@ -72,6 +72,8 @@ struct RawOpAmp {
     #[serde(default, deserialize_with = "number")]
     dc_gain_db: Option<f64>,
     #[serde(default, deserialize_with = "number")]
+    second_pole_hz: Option<f64>,
+    #[serde(default, deserialize_with = "number")]
     output_ohm: Option<f64>,
     #[serde(default, deserialize_with = "number")]
     swing_v: Option<f64>,
@@ -367,6 +369,12 @@ fn opamp(c: &Checker, raw: &RawOpAmp) -> Result<OpAmpSpec, SpecError> {
             dc_gain,
             gbw_hz,
             output_ohm,
+        }
+        | OpAmpModel::TwoPole {
+            dc_gain,
+            gbw_hz,
+            output_ohm,
+            ..
         } => (gbw_hz, 20.0 * dc_gain.log10(), output_ohm),
         OpAmpModel::Ideal => (f64::INFINITY, f64::INFINITY, 0.0),
     };
@@ -403,8 +411,25 @@ fn opamp(c: &Checker, raw: &RawOpAmp) -> Result<OpAmpSpec, SpecError> {
         Some(v) => c.positive("opamp.swing_v", v, "an output swing in V peak")?,
     };
     let kind = raw.model.unwrap_or(d.model.kind());
+    // Only the two-pole model has a second pole, and it has no default:
+    // where it sits decides the phase margin. The other models read none
+    // (a single-pole model is one with its second pole at infinity).
+    let second_pole_hz = match (kind, raw.second_pole_hz) {
+        (OpAmpKind::TwoPole, v) => c.required("opamp.second_pole_hz", v, "a second pole in Hz")?,
+        (_, None) => f64::INFINITY,
+        (_, Some(v)) => {
+            return Err(c.invalid(
+                "opamp.second_pole_hz",
+                v,
+                format!(
+                "expected no second pole with model = \"{}\"; only model = \"two_pole\" has one",
+                as_written(&kind)
+            ),
+            ))
+        }
+    };
     Ok(OpAmpSpec {
-        model: OpAmpModel::from_data_sheet(kind, gbw_hz, dc_gain_db, output_ohm),
+        model: OpAmpModel::from_data_sheet(kind, gbw_hz, dc_gain_db, second_pole_hz, output_ohm),
         swing_v,
     })
 }
