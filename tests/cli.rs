@@ -331,10 +331,22 @@ const BAD_EDITS: &[(&str, &str, &str, &[&str])] = &[
     (
         "cap-range-unmet",
         "load_ohm = 600",
-        // Simulated inductors keep the ladder's own capacitors (0.4 uF here),
-        // which no converter level moves.
+        // Simulated inductors keep the ladder's own capacitors (0.3 uF here),
+        // which no converter moves; only the terminations' level does, and
+        // the one that fits (tens of megohms) is named.
         "load_ohm = 600\n[active]\nmethod = \"gic\"\n[parts]\ncapacitor_range = [1e-12, 1e-11]",
-        &["parts.capacitor_range", "widen the range"],
+        &[
+            "parts.capacitor_range",
+            "level = \"free\"",
+            "beyond the resistor range",
+            "widen the range",
+        ],
+    ),
+    (
+        "level",
+        "load_ohm = 600",
+        "load_ohm = 600\nlevel = \"sometimes\"",
+        &["level", "fixed", "free"],
     ),
     (
         "trials",
@@ -830,4 +842,96 @@ fn missing_prototype_table_names_the_key() {
         &text,
         &["filter.prototype", "no-such-table.toml", "cannot be read"],
     );
+}
+
+/// A design file at `dir/spec.toml` holding `text`, designed into
+/// `dir/out`: the summary and report.json.
+fn design_text(dir: &Path, text: &str) -> (String, serde_json::Value) {
+    let spec = dir.join("spec.toml");
+    std::fs::write(&spec, text).unwrap();
+    let out = dir.join("out");
+    let stdout = succeeds(&design_into(&spec, &out));
+    let json = std::fs::read_to_string(out.join("report.json")).unwrap();
+    (stdout, serde_json::from_str(&json).unwrap())
+}
+
+/// The free level is stated in the summary (terminations before and
+/// after, the factor) and carried in report.json, whose terminations are
+/// the passive ideal's; impedance scaling by k multiplies both
+/// terminations by k (common practice).
+#[test]
+fn the_free_level_is_stated_in_the_summary_and_report() {
+    let dir = scratch("level-free");
+    let text = crate::level::level_text("highpass-80hz.toml", "free", "");
+    let (stdout, report) = design_text(&dir, &text);
+    let level = &report["level"];
+    let k = level["factor"].as_f64().unwrap();
+    assert_eq!(level["asked"], "free");
+    assert_eq!(level["given_source_ohm"].as_f64(), Some(600.0));
+    assert!(k > 1.0, "{level}");
+    for key in ["source_ohm", "load_ohm"] {
+        assert_eq!(report[key].as_f64(), Some(600.0 * k), "{key}");
+        assert_eq!(level[key].as_f64(), Some(600.0 * k), "{key}");
+    }
+    assert_eq!(level["outside_default_range"], serde_json::json!([]));
+    assert!(
+        stdout.contains("impedance level free: terminations x")
+            && stdout.contains("from source 600 ohm, load 600 ohm to source ")
+            && stdout.contains("the ladder's capacitors "),
+        "{stdout}"
+    );
+    assert!(!stdout.contains("WARNING"), "{stdout}");
+}
+
+/// At the fixed level with the default capacitor range, the 50 Hz
+/// bandstop builds (exit 0) with its terminations as written; the summary
+/// warns of each ladder capacitor outside the range and names the level
+/// that fits, and report.json carries both.
+#[test]
+fn the_fixed_level_warns_in_the_summary_and_report() {
+    let dir = scratch("level-fixed");
+    let text = crate::level::level_text("notch-50hz.toml", "fixed", "");
+    let (stdout, report) = design_text(&dir, &text);
+    let level = &report["level"];
+    assert_eq!(level["asked"], "fixed");
+    assert_eq!(level["factor"].as_f64(), Some(1.0));
+    assert_eq!(report["source_ohm"].as_f64(), Some(1000.0));
+    let outside = level["outside_default_range"].as_array().unwrap();
+    assert!(!outside.is_empty(), "{level}");
+    let k = level["fitting_factor"].as_f64().unwrap();
+    assert!(k > 1.0, "{level}");
+    for part in outside {
+        let designator = part["designator"].as_str().unwrap();
+        assert!(
+            stdout.contains(&format!("WARNING: {designator} = ")),
+            "{designator} in:\n{stdout}"
+        );
+    }
+    assert!(
+        stdout.contains("WARNING: terminations of source ") && stdout.contains("level = \"free\""),
+        "{stdout}"
+    );
+}
+
+/// With `parts.capacitor_range` written in the file, the same designs at
+/// the fixed level are bad input (exit 2), and the message names the
+/// terminations that fit.
+#[test]
+fn a_given_range_refuses_the_fixed_level_naming_the_terminations() {
+    for name in crate::level::LEVEL_DESIGNS {
+        let text = crate::level::level_text(
+            name,
+            "fixed",
+            "\n[parts]\ncapacitor_range = [100e-12, 1e-6]\n",
+        );
+        rejects(
+            &format!("level-{name}"),
+            &text,
+            &[
+                "parts.capacitor_range",
+                "[terminations] level = \"free\" scales them to source ",
+                "load ",
+            ],
+        );
+    }
 }

@@ -505,13 +505,19 @@ fn trims_are_bought_as_a_fixed_part_and_a_potentiometer() {
     }
 }
 
-/// A capacitor of the ladder itself outside the range: no impedance level
-/// moves it, since the terminations fix it. The bandstop demo's second
-/// shunt capacitor is 4.8 uF.
+/// A capacitor of the ladder itself outside a range the design file sets:
+/// no converter moves it, since the terminations set it. The bandstop
+/// demo's second shunt capacitor is 4.8 uF. Outside the default range it
+/// is no error: it stays on its nearest E12 value, 4.7 uF (IEC 60063),
+/// and the design stage has warned of it.
 #[test]
 fn a_ladder_capacitor_outside_the_range_is_an_error_naming_it() {
     let d = Demo::load("mains-notch.toml", "");
-    let err = d.snap(&PartsChoice::default()).unwrap_err();
+    let given = PartsChoice {
+        capacitor_range_given: true,
+        ..PartsChoice::default()
+    };
+    let err = d.snap(&given).unwrap_err();
     let text = err.to_string();
     assert!(
         matches!(err, PartsSnapError::OutOfRange { ref element, .. } if element == "C2"),
@@ -521,9 +527,12 @@ fn a_ladder_capacitor_outside_the_range_is_an_error_naming_it() {
         text.contains("parts.capacitor_range") && text.contains("C2"),
         "{text}"
     );
+    assert!(err.is_bad_input(), "{err:?}");
+    let default = d.snap(&PartsChoice::default()).unwrap();
+    assert_eq!(value(&default.netlist, "C2"), 4.7e-6);
     let wide = PartsChoice {
         capacitor_range_f: (100e-12, 10e-6),
-        ..PartsChoice::default()
+        ..given
     };
     d.snap(&wide).unwrap();
 }

@@ -11,6 +11,7 @@ mod design;
 mod export;
 mod fast;
 mod layering;
+mod level;
 mod parts;
 mod scipy_cases;
 mod snap;

@@ -612,6 +612,75 @@ fn method_of(plan: &Plan) -> Method {
     }
 }
 
+/// Both methods' orientations of one passive netlist, and the method a
+/// build of it uses.
+struct Candidates {
+    /// Oriented for simulated inductors, and the notes of its swaps.
+    gic: (Passive, Vec<Note>),
+    /// Oriented for the FDNR image, and the notes of its swaps.
+    fdnr: (Passive, Vec<Note>),
+    /// The FDNR image's terminations, or what keeps the ladder from one.
+    terminations: Result<(usize, usize), String>,
+    /// Op-amps of the simulated-inductor build and of the FDNR image.
+    opamps: (usize, usize),
+    /// Whether the FDNR image is built.
+    use_fdnr: bool,
+}
+
+impl Candidates {
+    /// Orients `base` for both methods and decides which one serves
+    /// `asked`; an FDNR image asked for a ladder that has none is an error.
+    fn new(base: &Passive, asked: Method) -> Result<Candidates, ActiveError> {
+        let mut gic = base.clone();
+        let gic_notes = gic.ground_series_arms(ElementKind::Inductor);
+        let mut fdnr = base.clone();
+        let fdnr_notes = fdnr.ground_series_arms(ElementKind::Capacitor);
+        let terminations = bruton_terminations(&fdnr);
+        let opamps = (gic_opamps(&gic), fdnr_opamps(&fdnr));
+        let use_fdnr = match (asked, &terminations) {
+            (Method::Gic, _) => false,
+            (Method::Fdnr, Ok(_)) => true,
+            (Method::Fdnr, Err(offender)) => {
+                return Err(ActiveError::NotApplicable {
+                    method: Method::Fdnr,
+                    needs: build::FDNR_NEEDS,
+                    offender: offender.clone(),
+                })
+            }
+            (Method::Auto, Ok(_)) => opamps.1 < opamps.0,
+            (Method::Auto, Err(_)) => false,
+        };
+        Ok(Candidates {
+            gic: (gic, gic_notes),
+            fdnr: (fdnr, fdnr_notes),
+            terminations,
+            opamps,
+            use_fdnr,
+        })
+    }
+}
+
+/// The elements of `passive` (by index) that its build for `asked` keeps
+/// as parts at the ladder's own impedance level, the one its terminations
+/// set: every resistor and capacitor of a simulated-inductor build, which
+/// replaces the inductors alone; none of the FDNR image, whose every
+/// element is an image scaled by tau, and tau follows the terminations
+/// (see `choose`), so the image does not change with their level. Fails
+/// as [`realize`] does when `asked` cannot serve the ladder.
+pub fn kept_elements(passive: &Netlist, asked: Method) -> Result<Vec<usize>, ActiveError> {
+    if Candidates::new(&Passive::read(passive)?, asked)?.use_fdnr {
+        return Ok(Vec::new());
+    }
+    Ok((0..passive.elements.len())
+        .filter(|&i| {
+            matches!(
+                passive.elements[i].kind(),
+                ElementKind::Resistor | ElementKind::Capacitor
+            )
+        })
+        .collect())
+}
+
 /// The plan of the method asked for (or chosen), why, and the notes of
 /// its series swaps.
 fn choose(
@@ -619,33 +688,21 @@ fn choose(
     opts: &Options,
     balanced: &Tuning,
 ) -> Result<(Plan, Why, Vec<Note>), ActiveError> {
-    let mut gic = base.clone();
-    let gic_notes = gic.ground_series_arms(ElementKind::Inductor);
-    let mut fdnr = base.clone();
-    let fdnr_notes = fdnr.ground_series_arms(ElementKind::Capacitor);
-    let terminations = bruton_terminations(&fdnr);
-    let counts = (gic_opamps(&gic), fdnr_opamps(&fdnr));
-    let use_fdnr = match (opts.method, &terminations) {
-        (Method::Gic, _) => false,
-        (Method::Fdnr, Ok(_)) => true,
-        (Method::Fdnr, Err(offender)) => {
-            return Err(ActiveError::NotApplicable {
-                method: Method::Fdnr,
-                needs: build::FDNR_NEEDS,
-                offender: offender.clone(),
-            })
-        }
-        (Method::Auto, Ok(_)) => counts.1 < counts.0,
-        (Method::Auto, Err(_)) => false,
-    };
+    let Candidates {
+        gic: (gic, gic_notes),
+        fdnr: (fdnr, fdnr_notes),
+        terminations,
+        opamps,
+        use_fdnr,
+    } = Candidates::new(base, opts.method)?;
     let (grounded_inductors, floating_inductors) = count_inductors(&gic);
     let why = Why {
         asked: opts.method,
         used: if use_fdnr { Method::Fdnr } else { Method::Gic },
-        gic_opamps: counts.0,
+        gic_opamps: opamps.0,
         grounded_inductors,
         floating_inductors,
-        fdnr_opamps: terminations.is_ok().then_some(counts.1),
+        fdnr_opamps: terminations.is_ok().then_some(opamps.1),
         fdnr_obstacle: terminations.as_ref().err().cloned(),
     };
     match (use_fdnr, terminations) {

@@ -2,8 +2,9 @@
 //! plain data out.
 //!
 //! - [`design()`]: spec -> order and even-order variant -> approximation
-//!   (or a prototype table) -> ladder -> transformed, scaled netlist: the
-//!   passive ideal ([`Design`]).
+//!   (or a prototype table) -> ladder -> transformed, scaled netlist ->
+//!   the impedance level of the ladder's own parts: the passive ideal
+//!   ([`Design`]).
 //! - [`Design::active`] (in `builds`): the active exact build (every
 //!   inductor replaced) and the active on parts build (preferred values,
 //!   trimmed), each compared with the passive ideal ([`ActiveDesign`]).
@@ -15,11 +16,11 @@
 //!
 //! Neither the command line nor any stage needs to know the whole chain.
 
-use crate::active::ActiveError;
+use crate::active::{self, ActiveError};
 use crate::analysis::{passband_level_db, AnalysisError, Limit};
 use crate::approx::{self, ApproxError, Family, Params, Prototype};
 use crate::circuit::{CircuitError, Netlist};
-use crate::realize::PartsSnapError;
+use crate::realize::{ladder_level, LadderLevel, PartsSnapError};
 use crate::spec::table::PrototypeTable;
 use crate::spec::{PrototypeSource, Spec, SpecError};
 use crate::synth::{self, Form, Ladder, SynthError};
@@ -136,7 +137,10 @@ pub struct Design {
     pub mask: MaskCheck,
     /// The normalized ladder (1 ohm source, 1 rad/s edge).
     pub ladder: Ladder,
-    /// The passive ideal, scaled.
+    /// The impedance level of the passive ideal: the terminations used
+    /// and what they do to the parts the build keeps from the ladder.
+    pub level: LadderLevel,
+    /// The passive ideal, scaled to the terminations of `level`.
     pub passive: Netlist,
 }
 
@@ -299,19 +303,45 @@ pub fn design(spec: &Spec) -> Result<Design, DesignError> {
     };
     let mask = mask_check(&origin, ws, stopband_attenuation(spec));
     let title = format!("nocoil passive ideal: {}", spec.file.display());
-    let passive =
-        passive_netlist(&ladder, spec.band, spec.source_ohm, &title).map_err(|cause| {
+    let scaled = |source_ohm: f64| {
+        passive_netlist(&ladder, spec.band, source_ohm, &title).map_err(|cause| {
             DesignError::Circuit {
                 file: file(),
                 cause,
             }
+        })
+    };
+    let given = scaled(spec.source_ohm)?;
+    // The level is chosen for the parts the build will keep from the
+    // ladder, so the build's method is decided here already.
+    let kept =
+        active::kept_elements(&given, spec.active.method).map_err(|cause| DesignError::Active {
+            file: file(),
+            cause,
         })?;
+    let level = ladder_level(
+        &given,
+        &kept,
+        (spec.source_ohm, spec.load_ohm),
+        &spec.parts,
+        spec.level,
+    )
+    .map_err(|cause| DesignError::Parts {
+        file: file(),
+        cause,
+    })?;
+    let passive = if level.factor == 1.0 {
+        given
+    } else {
+        scaled(level.source_ohm)?
+    };
     Ok(Design {
         spec: spec.clone(),
         origin,
         order_choice,
         mask,
         ladder,
+        level,
         passive,
     })
 }

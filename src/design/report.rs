@@ -9,7 +9,7 @@ use crate::analysis::{Limit, MaskVerdict};
 use crate::approx::{Family, Variant};
 use crate::circuit::{Element, Netlist, OpAmpModel};
 use crate::parts::PartsChoice;
-use crate::realize::{ErrorSteps, Rescale, Trim};
+use crate::realize::{ErrorSteps, LadderLevel, Rescale, Trim};
 use crate::synth::{Arm, Form, Reactance};
 use crate::transform::{Band, Kind};
 
@@ -119,10 +119,14 @@ pub struct Report {
     pub mask: MaskCheck,
     /// The passband level of the terminations' divider, dB.
     pub passband_level_db: f64,
-    /// Source resistance, ohm.
+    /// Source resistance of the passive ideal, ohm.
     pub source_ohm: f64,
-    /// Load resistance, ohm.
+    /// Load resistance of the passive ideal, ohm.
     pub load_ohm: f64,
+    /// How the terminations' impedance level was set: the design file's
+    /// terminations, the factor on them, the ladder's capacitors before
+    /// and after, and the ladder parts outside a default range.
+    pub level: LadderLevel,
     /// The normalized ladder (1 ohm source, 1 rad/s).
     pub normalized_elements: Vec<NormalizedElement>,
     /// Normalized load resistance, ohm.
@@ -228,8 +232,9 @@ impl Design {
                 .map(|w| self.spec.band.frequencies_hz(w)),
             mask: self.mask.clone(),
             passband_level_db: self.passband_level_db(),
-            source_ohm: self.spec.source_ohm,
-            load_ohm: self.spec.load_ohm,
+            source_ohm: self.level.source_ohm,
+            load_ohm: self.level.load_ohm,
+            level: self.level.clone(),
             normalized_elements: self
                 .ladder
                 .elements

@@ -5,7 +5,7 @@
 use super::bom::{tally, BomRow};
 use super::eng::format_trimmed as eng;
 use super::html::{html_report, Figure, ReportDoc, Table};
-use super::prose::{db, factor, opamp_model, signed};
+use super::prose::{db, factor, level_warnings, opamp_model, signed};
 use super::summary::{edges, verdict_line, yield_line};
 use crate::analysis::Parameter;
 use crate::design::{Build, Documents};
@@ -57,9 +57,10 @@ pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> Strin
             "terminations".to_string(),
             format!("{} / {}", eng(r.source_ohm, "ohm"), eng(r.load_ohm, "ohm")),
         ),
+        ("impedance level".to_string(), r.level.to_string()),
     ];
     let mut tables = Vec::new();
-    let mut notes = Vec::new();
+    let mut notes = level_warnings(&r.level);
     if let Some(act) = &r.active {
         summary.push((
             Build::ActiveExact.to_string(),

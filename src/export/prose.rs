@@ -8,7 +8,8 @@ use super::eng::{format_trimmed as eng, HUMAN_DIGITS};
 use crate::active::{Method, Note, Why};
 use crate::circuit::OpAmpModel;
 use crate::design::{Margin, OrderChoice};
-use crate::realize::{Moved, Rescale};
+use crate::parts::ImpedanceLevel;
+use crate::realize::{LadderLevel, Moved, Rescale};
 use std::fmt::{self, Display, Formatter};
 
 /// A dB figure as a designer writes it: at most four decimals, no
@@ -239,6 +240,87 @@ impl Display for Rescale {
             }
         }
     }
+}
+
+/// "1.5 uF to 3.3 uF" for the smallest and largest ladder capacitor.
+fn capacitor_span([low, high]: [f64; 2]) -> String {
+    format!("{} to {}", eng(low, "F"), eng(high, "F"))
+}
+
+impl Display for LadderLevel {
+    /// One sentence: the level asked for, and with a free level the
+    /// terminations before and after, the factor and the ladder's
+    /// capacitors before and after.
+    fn fmt(&self, f: &mut Formatter<'_>) -> fmt::Result {
+        let terminations = |source: f64, load: f64| {
+            format!("source {}, load {}", eng(source, "ohm"), eng(load, "ohm"))
+        };
+        match self.asked {
+            ImpedanceLevel::Fixed => {
+                f.write_str("impedance level fixed: the design file's terminations")
+            }
+            ImpedanceLevel::Free if self.ladder_parts == 0 => f.write_str(
+                "impedance level free, but the build keeps no part of the ladder at its level: the design file's terminations",
+            ),
+            ImpedanceLevel::Free => {
+                write!(
+                    f,
+                    "impedance level free: terminations x{} from {} to {}",
+                    factor(self.factor),
+                    terminations(self.given_source_ohm, self.given_load_ohm),
+                    terminations(self.source_ohm, self.load_ohm)
+                )?;
+                if let (Some(before), Some(after)) = (self.given_capacitors_f, self.capacitors_f) {
+                    write!(
+                        f,
+                        "; the ladder's capacitors {} become {}",
+                        capacitor_span(before),
+                        capacitor_span(after)
+                    )?;
+                }
+                Ok(())
+            }
+        }
+    }
+}
+
+/// Why some ladder part stays outside its range at every level.
+const NO_LEVEL: &str = "no impedance level puts every ladder part in its range (the terminations scale the ladder's capacitors all alike, and themselves the other way)";
+
+/// The warnings of a level: one line per ladder part outside a default
+/// range, then what would fit them (empty when every part fits).
+pub fn level_warnings(level: &LadderLevel) -> Vec<String> {
+    if level.outside_default_range.is_empty() {
+        return Vec::new();
+    }
+    let mut lines: Vec<String> = level
+        .outside_default_range
+        .iter()
+        .map(|p| {
+            let range = match p.unit {
+                "ohm" => "the resistor range preferred for terminations",
+                _ => "the default parts.capacitor_range",
+            };
+            format!(
+                "WARNING: {} = {} lies outside {range}, {} to {}",
+                p.designator,
+                eng(p.value, p.unit),
+                eng(p.low, p.unit),
+                eng(p.high, p.unit)
+            )
+        })
+        .collect();
+    lines.push(match (level.asked, level.fitting_factor) {
+        (ImpedanceLevel::Fixed, Some(k)) => format!(
+            "WARNING: terminations of source {}, load {} (x{}) put every ladder part in its range: set [terminations] level = \"free\" to have them chosen, or parts.capacitor_range to buy these parts",
+            eng(level.given_source_ohm * k, "ohm"),
+            eng(level.given_load_ohm * k, "ohm"),
+            factor(k)
+        ),
+        (ImpedanceLevel::Fixed, None) => format!("WARNING: {NO_LEVEL}: set parts.capacitor_range to buy these parts"),
+        (ImpedanceLevel::Free, _) => format!("WARNING: {NO_LEVEL}; the level chosen misses the ranges least"),
+    });
+    lines
 }
 
 impl Display for Margin {

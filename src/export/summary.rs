@@ -3,7 +3,7 @@
 //! builds, each figure labelled with the build it belongs to.
 
 use super::eng::format_trimmed as eng;
-use super::prose::{db, opamp_model, percent};
+use super::prose::{db, level_warnings, opamp_model, percent};
 use crate::analysis::{MaskVerdict, EDGE_WINDOW};
 use crate::design::{Build, BuildFigures, Documents, Report};
 use std::fmt::Write as _;
@@ -179,6 +179,10 @@ fn passive(s: &mut String, r: &Report) {
         eng(r.source_ohm, "ohm"),
         eng(r.load_ohm, "ohm")
     );
+    let _ = writeln!(s, "  {}", r.level);
+    for w in level_warnings(&r.level) {
+        let _ = writeln!(s, "  {w}");
+    }
     let _ = writeln!(
         s,
         "normalized prototype (1 ohm source, 1 rad/s edge), load {} ohm:",

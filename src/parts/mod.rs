@@ -5,8 +5,9 @@
 //!   snapping of any positive value to the series across decades.
 //! - [`Tolerance`] (in `tolerance`): a relative tolerance with a uniform
 //!   or truncated-Gaussian spread, drawn from a caller's seeded generator.
-//! - [`PartsChoice`] (in `choice`): the series, tolerances and capacitor
-//!   range a build is bought from.
+//! - [`PartsChoice`] (in `choice`): the series, tolerances and ranges a
+//!   build is bought from, and [`ImpedanceLevel`], whether the ladder's
+//!   own parts keep the design file's impedance level.
 //!
 //! Invariants: a [`Series`] value is always one of its table's mantissas
 //! times a power of ten; a [`Tolerance`] always lies in
@@ -18,7 +19,7 @@ mod error;
 mod series;
 mod tolerance;
 
-pub use choice::PartsChoice;
+pub use choice::{ImpedanceLevel, PartsChoice};
 pub use error::PartsError;
 pub use series::Series;
 pub use tolerance::{Distribution, Tolerance, MAX_TOLERANCE};

@@ -39,8 +39,9 @@ pub enum PartsSnapError {
         /// Upper end, farad.
         high_f: f64,
     },
-    /// A capacitor outside the range that no impedance level can move.
-    #[error("{stage}: {element} = {farad:e} F lies outside parts.capacitor_range = [{low_f:e}, {high_f:e}], and no impedance level moves it: {why}")]
+    /// A capacitor outside a range the design file sets that no
+    /// converter's level or image level moves.
+    #[error("{stage}: {element} = {farad:e} F lies outside parts.capacitor_range = [{low_f:e}, {high_f:e}], and no converter moves it: {why}")]
     OutOfRange {
         /// The stage it belongs to (or "ladder" for a capacitor of the
         /// passive ladder kept in the build).
@@ -55,6 +56,36 @@ pub enum PartsSnapError {
         high_f: f64,
         /// Why nothing moves it, and what would help.
         why: &'static str,
+    },
+    /// A ladder capacitor outside a range the design file sets, at the
+    /// design file's impedance level; another level would fit.
+    #[error("{element} = {farad:e} F of the ladder lies outside parts.capacitor_range = [{low_f:e}, {high_f:e}] at the terminations' impedance level (source {} ohm, load {} ohm): [terminations] level = \"free\" scales them to source {:.4e} ohm, load {:.4e} ohm{}, which puts every ladder capacitor inside the range; or widen the range", given_ohm[0], given_ohm[1], fitting_ohm[0], fitting_ohm[1], if *beyond_resistor_range { " (beyond the resistor range preferred for terminations)" } else { "" })]
+    LevelOutOfRange {
+        /// The capacitor.
+        element: String,
+        /// Its value at the design file's level, farad.
+        farad: f64,
+        /// Lower end of the range, farad.
+        low_f: f64,
+        /// Upper end of the range, farad.
+        high_f: f64,
+        /// The design file's terminations (source, load), ohm.
+        given_ohm: [f64; 2],
+        /// Terminations that put every ladder capacitor in range, ohm.
+        fitting_ohm: [f64; 2],
+        /// Whether those lie outside [`crate::parts::PartsChoice::resistor_range_ohm`].
+        beyond_resistor_range: bool,
+    },
+    /// The ladder's capacitors spread wider than a range the design file
+    /// sets: the terminations scale them all alike, so no level fits.
+    #[error("the ladder's capacitors spread over a ratio of {spread:.4}, wider than parts.capacitor_range = [{low_f:e}, {high_f:e}]: the terminations' impedance level scales them all alike, so no level puts them all inside it; widen the range")]
+    NoLevelFits {
+        /// Largest over smallest ladder capacitor.
+        spread: f64,
+        /// Lower end of the range, farad.
+        low_f: f64,
+        /// Upper end of the range, farad.
+        high_f: f64,
     },
     /// The termination capacitors of an FDNR image keep the ratio of the
     /// terminations, and it is wider than the range.
@@ -109,6 +140,8 @@ impl PartsSnapError {
                 | PartsSnapError::BadRange { .. }
                 | PartsSnapError::NoSeriesValue { .. }
                 | PartsSnapError::OutOfRange { .. }
+                | PartsSnapError::LevelOutOfRange { .. }
+                | PartsSnapError::NoLevelFits { .. }
                 | PartsSnapError::TerminationsSpread { .. }
         )
     }

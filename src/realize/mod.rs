@@ -10,9 +10,12 @@
 //!    range. Scaling every impedance by one factor leaves every voltage
 //!    ratio unchanged, so the image still realizes the ladder. A
 //!    simulated-inductor build keeps the ladder's own resistors and
-//!    capacitors, whose level the terminations fix: such a capacitor
-//!    outside the range is an error ([`PartsSnapError::OutOfRange`]), as
-//!    no impedance level can meet the range there.
+//!    capacitors, whose level the terminations set: the design stage
+//!    chooses it ([`ladder_level`], in `level`) before the build is made.
+//!    Such a capacitor outside a range the design file sets is an error
+//!    ([`PartsSnapError::OutOfRange`]); outside the default range it
+//!    stays where it is, on its nearest series value, and the level
+//!    choice has warned of it.
 //! 2. Each converter's capacitors are put on the capacitor-series value
 //!    in range nearest to them by the converter's own freedoms (its
 //!    impedance level, and for an FDNR's Z1 its balance point; see
@@ -37,14 +40,17 @@
 //! Invariants of a [`SnappedBuild`]: its netlist has the build's
 //! elements, names and nodes; every resistor but the trims is a
 //! resistor-series value, every capacitor a capacitor-series value inside
-//! the range; every converter realizes, with ideal op-amps, the value it
+//! the range (but a ladder capacitor outside a default range, on its
+//! nearest series value); every converter realizes, with ideal op-amps, the value it
 //! realized in the build (an FDNR's D divided by the image level of step
 //! 1, which multiplied every impedance of the image).
 
 mod error;
+mod level;
 mod trim;
 
 pub use error::PartsSnapError;
+pub use level::{ladder_level, LadderLevel, LadderPart};
 pub use trim::{Trim, TRIMMER_SERIES};
 
 use crate::active::chain::{self, is_capacitor, scale_impedance, value, Chain, Moves};
@@ -62,6 +68,7 @@ trait Buying {
     fn check(&self) -> Result<(), PartsSnapError>;
     fn contains(&self, farad: f64) -> bool;
     fn in_range(&self, farad: f64) -> Result<f64, PartsSnapError>;
+    fn snap_capacitor(&self, farad: f64) -> Result<f64, PartsSnapError>;
     fn tolerance_of(&self, netlist: &Netlist, index: usize) -> f64;
 }
 
@@ -117,6 +124,21 @@ impl Buying for PartsChoice {
                 high_f,
             })
         }
+    }
+
+    /// The capacitor-series value for `farad`: in range when the range is
+    /// a limit or `farad` lies in it; the nearest one otherwise (a ladder
+    /// capacitor outside a default range, warned of by the level choice).
+    fn snap_capacitor(&self, farad: f64) -> Result<f64, PartsSnapError> {
+        if self.capacitor_range_given || self.contains(farad) {
+            return self.in_range(farad);
+        }
+        self.capacitor_series
+            .nearest(farad)
+            .map_err(|cause| PartsSnapError::Snap {
+                element: "parts.capacitor_range".to_string(),
+                cause,
+            })
     }
 
     /// The tolerance of element `index` by its kind (0 for what is
@@ -415,8 +437,8 @@ fn image_level(
     })
 }
 
-/// Every capacitor that belongs to no converter must already lie in the
-/// range: nothing can rescale it alone.
+/// Every capacitor that belongs to no converter must already lie in a
+/// range the design file sets: nothing here can rescale it alone.
 fn check_plain_capacitors(
     netlist: &Netlist,
     stages: &[Stage],
@@ -430,7 +452,11 @@ fn check_plain_capacitors(
     };
     for (i, e) in netlist.elements.iter().enumerate() {
         let farad = value(netlist, i);
-        if !is_capacitor(netlist, i) || in_converter(i) || choice.contains(farad) {
+        if !choice.capacitor_range_given
+            || !is_capacitor(netlist, i)
+            || in_converter(i)
+            || choice.contains(farad)
+        {
             continue;
         }
         let stage = stages
@@ -444,14 +470,14 @@ fn check_plain_capacitors(
             farad,
             low_f: choice.capacitor_range_f.0,
             high_f: choice.capacitor_range_f.1,
-            why: "it belongs to no converter, and the terminations fix the ladder's impedance level; widen the range",
+            why: "it belongs to no converter, and the terminations set the ladder's impedance level; widen the range, or scale the terminations ([terminations] level = \"free\" chooses them)",
         });
     }
     Ok(())
 }
 
 /// Step 3: every resistor to its nearest series value, every capacitor to
-/// the nearest series value in range.
+/// the nearest series value in range (see `Buying::snap_capacitor`).
 fn snap_all(netlist: &mut Netlist, choice: &PartsChoice) -> Result<(), PartsSnapError> {
     for index in 0..netlist.elements.len() {
         let v = value(netlist, index);
@@ -465,7 +491,7 @@ fn snap_all(netlist: &mut Netlist, choice: &PartsChoice) -> Result<(), PartsSnap
                         cause,
                     })?
             }
-            ElementKind::Capacitor => choice.in_range(v)?,
+            ElementKind::Capacitor => choice.snap_capacitor(v)?,
             _ => continue,
         };
         netlist.set_value(index, snapped)?;

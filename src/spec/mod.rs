@@ -6,8 +6,9 @@
 //! checks every value and their relations and builds the plain [`Spec`].
 //! Nothing here computes a filter: the file's words are read straight into
 //! the types of the stages that use them ([`Band`], [`Family`], [`Form`],
-//! [`Method`], [`OpAmpModel`], [`PartsChoice`]), which each have one
-//! spelling for people ([`std::fmt::Display`]) and one for files (serde).
+//! [`Method`], [`OpAmpModel`], [`PartsChoice`], [`ImpedanceLevel`]),
+//! which each have one spelling for people ([`std::fmt::Display`]) and
+//! one for files (serde).
 
 mod raw;
 
@@ -16,7 +17,7 @@ pub use raw::{as_written, HALF_POWER_DB};
 use crate::active::Method;
 use crate::approx::Family;
 use crate::circuit::OpAmpModel;
-use crate::parts::PartsChoice;
+use crate::parts::{ImpedanceLevel, PartsChoice};
 use crate::synth::Form;
 use crate::transform::Band;
 use std::path::{Path, PathBuf};
@@ -133,6 +134,9 @@ pub struct Spec {
     pub source_ohm: f64,
     /// Load resistance, ohm.
     pub load_ohm: f64,
+    /// Whether the terminations stay as written or are scaled for the
+    /// ladder's parts (default fixed).
+    pub level: ImpedanceLevel,
     /// How to remove the inductors.
     pub active: ActiveSpec,
     /// The op-amp model the active build is simulated with.

@@ -5,7 +5,7 @@ use super::{ActiveSpec, MonteCarloSpec, OpAmpSpec, PrototypeSource, Spec, SpecEr
 use crate::active::Method;
 use crate::approx::Family;
 use crate::circuit::{OpAmpKind, OpAmpModel};
-use crate::parts::{Distribution, PartsChoice, Series, MAX_TOLERANCE};
+use crate::parts::{Distribution, ImpedanceLevel, PartsChoice, Series, MAX_TOLERANCE};
 use crate::synth::{self, Form};
 use crate::transform::{check_levels, Band, Kind, MaskField, MaskProblem};
 use serde::Deserialize;
@@ -102,6 +102,7 @@ struct RawTerminations {
     source_ohm: Option<f64>,
     #[serde(default, deserialize_with = "number")]
     load_ohm: Option<f64>,
+    level: Option<ImpedanceLevel>,
 }
 
 /// Accepts a TOML integer or float where a real number is meant, so that
@@ -256,6 +257,7 @@ pub(super) fn parse(file: &Path, text: &str) -> Result<Spec, SpecError> {
         form: f.form,
         source_ohm,
         load_ohm,
+        level: raw.terminations.level.unwrap_or_default(),
         active: ActiveSpec {
             method: raw.active.method.unwrap_or(Method::Auto),
             optimize: raw.active.optimize.unwrap_or(false),
@@ -322,6 +324,8 @@ fn parts(c: &Checker, raw: &RawParts) -> Result<PartsChoice, SpecError> {
             d.capacitor_tolerance,
         )?,
         capacitor_range_f: range,
+        capacitor_range_given: raw.capacitor_range.is_some(),
+        resistor_range_ohm: d.resistor_range_ohm,
         distribution: raw.distribution.unwrap_or(d.distribution),
     })
 }
