@@ -699,7 +699,7 @@ fn two_pole(second_pole_hz: f64) -> OpAmpModel {
 /// A follower loaded by 10 kohm whose feedback passes an RC lag of
 /// `tau_s` (R = 1 kohm from `out` to `f`, C from `f` to ground, the
 /// inverting input at `f`); `tau_s = 0` feeds `out` straight back.
-fn lagged_follower(model: OpAmpModel, tau_s: f64) -> Netlist {
+pub(crate) fn lagged_follower(model: OpAmpModel, tau_s: f64) -> Netlist {
     let mut n = Netlist::new("lagged follower");
     let (inp, out) = (n.node("in"), n.node("out"));
     let minus = if tau_s > 0.0 { n.node("f") } else { out };
@@ -762,7 +762,7 @@ fn two_pole_verdicts_match_the_hand_analysis() {
         let (a, b, c) = (1.0 / (w1 * w2), 1.0 / w1 + 1.0 / w2, 1.0 + a0);
         let root = (-b + Complex64::new(b * b - 4.0 * a * c, 0.0).sqrt()) / (2.0 * a);
         let verdict = is_stable(&lagged_follower(two_pole(f2), 0.0)).unwrap();
-        let got = verdict.rightmost.unwrap();
+        let got = verdict.least_damped.unwrap().root();
         let want = if got.im >= 0.0 { root } else { root.conj() };
         assert!(
             verdict.stable && (got - want).norm() <= VERDICT_ROOT_REL_TOL * want.norm(),
@@ -799,8 +799,8 @@ fn two_pole_verdicts_match_the_hand_analysis() {
         assert_eq!(routh, stable, "{model:?}: the hand analysis");
         let verdict = is_stable(&lagged_follower(model, tau)).unwrap();
         assert_eq!(verdict.stable, routh, "{model:?}: {verdict:?}");
-        // The rightmost root is a root of P.
-        let s = verdict.rightmost.unwrap();
+        // The least-damped root is a root of P.
+        let s = verdict.least_damped.unwrap().root();
         let loop_part = (1.0 + s * inv_w1) * (1.0 + s * inv_w2) * (1.0 + s * tau);
         let residual = (loop_part + a0).norm() / (loop_part.norm() + a0);
         assert!(

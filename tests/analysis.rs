@@ -792,6 +792,7 @@ fn fdnr_run(
         trials,
         seed,
         worst: 5,
+        stability: None,
     };
     monte_carlo(&system(&n), &setup, progress).unwrap()
 }
@@ -942,6 +943,7 @@ fn rc_yield_converges_to_its_closed_form() {
             trials,
             seed: 7,
             worst: 0,
+            stability: None,
         };
         let got = monte_carlo(&system(&n), &setup, None)
             .unwrap()
@@ -952,6 +954,85 @@ fn rc_yield_converges_to_its_closed_form() {
             "{trials} trials: yield {got}, exact {exact}, standard error {se}"
         );
     }
+}
+
+#[test]
+fn unstable_trials_fail_in_the_proportion_routh_hurwitz_predicts() {
+    // A follower whose feedback passes a 30 ns RC lag, on a two-pole
+    // op-amp (A0 1e5, GBW 10 MHz, second pole 5 MHz, which the spread
+    // moves with the GBW): P(s) = (1 + s/w1)(1 + s/w2)(1 + s tau) + A0 is
+    // stable exactly when a2 a1 > a3 a0 (Routh-Hurwitz, common practice),
+    // which fails above a critical GBW found here by bisection. With the
+    // GBW uniform within +-30 %, the fraction of trials the verdict calls
+    // unstable must match the probability of drawing above it within 4
+    // binomial standard errors, and every unstable trial fails.
+    let (a0, r2, tau) = (1e5, 0.5, 30e-9);
+    let routh_stable = |gbw: f64| {
+        let (iw1, iw2) = (a0 / (TAU * gbw), 1.0 / (TAU * r2 * gbw));
+        let (a3, a2, a1) = (
+            tau * iw1 * iw2,
+            iw1 * iw2 + tau * (iw1 + iw2),
+            iw1 + iw2 + tau,
+        );
+        a2 * a1 > a3 * (1.0 + a0)
+    };
+    let (mut lo, mut hi) = (7e6, 13e6);
+    assert!(
+        routh_stable(lo) && !routh_stable(hi),
+        "the critical GBW is inside the spread"
+    );
+    for _ in 0..100 {
+        let mid = 0.5 * (lo + hi);
+        if routh_stable(mid) {
+            lo = mid
+        } else {
+            hi = mid
+        }
+    }
+    let (nominal, t) = (10e6, 0.3);
+    let exact = (nominal * (1.0 + t) - lo) / (2.0 * t * nominal);
+    let model = OpAmpModel::TwoPole {
+        dc_gain: a0,
+        gbw_hz: nominal,
+        second_pole_hz: r2 * nominal,
+        output_ohm: 0.0,
+    };
+    let n = crate::active::lagged_follower(model, tau);
+    let (out, inp) = ports(&n);
+    let mask = Mask::new(vec![Limit {
+        from_hz: 1e3,
+        to_hz: 1e3,
+        min_db: -1.0,
+        max_db: 1.0,
+    }])
+    .unwrap();
+    let judge = |n: &Netlist| nocoil::active::is_stable(n).is_ok_and(|v| v.stable);
+    let rules = [rule(Scope::OpAmpGbw, uniform(t))];
+    let trials = 2000;
+    let setup = MonteCarlo {
+        out,
+        inp,
+        freqs_hz: &[1e3],
+        rules: &rules,
+        mask: &mask,
+        trials,
+        seed: 3,
+        worst: 0,
+        stability: Some(&judge),
+    };
+    let r = monte_carlo(&system(&n), &setup, None).unwrap();
+    let got = r.unstable as f64 / trials as f64;
+    let se = (exact * (1.0 - exact) / trials as f64).sqrt();
+    assert!(
+        (got - exact).abs() <= YIELD_STANDARD_ERRORS * se,
+        "unstable fraction {got}, Routh-Hurwitz {exact} (critical GBW {lo:e} Hz), standard error {se}"
+    );
+    assert!(r.per_trial.iter().all(|t| t.stable || !t.passed));
+    assert_eq!(
+        r.passed + r.unstable,
+        trials,
+        "every stable trial keeps the loose mask"
+    );
 }
 
 #[test]
@@ -995,6 +1076,7 @@ fn monte_carlo_refuses_bad_setups_naming_the_offender() {
         trials: 4,
         seed: 0,
         worst: 1,
+        stability: None,
     };
     let err = |setup: MonteCarlo| monte_carlo(&sys, &setup, None).unwrap_err();
     assert_eq!(

@@ -130,17 +130,14 @@ pub struct CornerVerdict {
 
 /// The op-amp models at the corners of the spread of `model`: the
 /// gain-bandwidth times (1 - spread) and (1 + spread), each with the
-/// output resistance times [`OUTPUT_OHM_FACTORS`] (once when it is 0).
+/// output resistance times [`OUTPUT_OHM_FACTORS`] (once when it is 0);
+/// a second pole moves with the gain-bandwidth, as in the Monte Carlo.
 /// Empty for the nullor, which has no dynamics to spread.
 pub fn corner_models(model: &OpAmpModel, gbw_spread: f64) -> Vec<OpAmpModel> {
-    let OpAmpModel::SinglePole {
-        dc_gain,
-        gbw_hz,
-        output_ohm,
-    } = *model
-    else {
+    let Some(gbw_hz) = model.gbw_hz() else {
         return Vec::new();
     };
+    let output_ohm = model.output_ohm();
     let outputs: Vec<f64> = match output_ohm > 0.0 {
         true => OUTPUT_OHM_FACTORS.iter().map(|f| f * output_ohm).collect(),
         false => vec![0.0],
@@ -148,11 +145,7 @@ pub fn corner_models(model: &OpAmpModel, gbw_spread: f64) -> Vec<OpAmpModel> {
     let mut corners = Vec::new();
     for gbw in [gbw_hz * (1.0 - gbw_spread), gbw_hz * (1.0 + gbw_spread)] {
         for &ohm in &outputs {
-            let corner = OpAmpModel::SinglePole {
-                dc_gain,
-                gbw_hz: gbw,
-                output_ohm: ohm,
-            };
+            let corner = model.with_gbw(gbw).with_output_ohm(ohm);
             if corner != *model && !corners.contains(&corner) {
                 corners.push(corner);
             }

@@ -32,7 +32,8 @@ pub use error::AnalysisError;
 pub use levels::{level_traces, opamp_levels, OpAmpLevel, LEVEL_POINTS};
 pub use mask::{Limit, Mask, MaskVerdict};
 pub use montecarlo::{
-    monte_carlo, Envelope, MonteCarlo, MonteCarloResult, Scope, ToleranceRule, TrialSummary, Varied,
+    monte_carlo, Envelope, MonteCarlo, MonteCarloResult, Scope, StabilityJudge, ToleranceRule,
+    TrialSummary, Varied,
 };
 pub use sensitivity::{
     sensitivities, summarize, Extreme, Parameter, Sensitivity, SensitivitySummary,

@@ -30,7 +30,7 @@ use rayon::prelude::*;
 
 use super::mask::{margin_db, Check, Mask};
 use super::{AnalysisError, Parameter};
-use crate::circuit::{AcSystem, CircuitError, Element, ElementKind, OpAmpModel, SparseAc};
+use crate::circuit::{AcSystem, CircuitError, Element, ElementKind, Netlist, OpAmpModel, SparseAc};
 use crate::parts::Tolerance;
 
 /// Which parts a tolerance rule applies to.
@@ -61,8 +61,12 @@ pub struct ToleranceRule {
     pub tolerance: Tolerance,
 }
 
+/// Whether a drawn board is stable: true when it is. The analysis stage
+/// sees only circuits, so the stage that owns the verdict passes it in.
+pub type StabilityJudge<'a> = &'a (dyn Fn(&Netlist) -> bool + Sync);
+
 /// A Monte Carlo run: what to sweep, what to vary, what must hold.
-#[derive(Debug, Clone, Copy)]
+#[derive(Clone, Copy)]
 pub struct MonteCarlo<'a> {
     /// Output node of H = V(out)/V(inp).
     pub out: usize,
@@ -80,6 +84,10 @@ pub struct MonteCarlo<'a> {
     pub seed: u64,
     /// How many of the worst trials to report.
     pub worst: usize,
+    /// Judges every trial's stability, when given; an unstable trial
+    /// fails whatever its response (a sweep of an unstable circuit is the
+    /// steady state it never reaches).
+    pub stability: Option<StabilityJudge<'a>>,
 }
 
 /// One varied quantity, as resolved from the rules.
@@ -102,8 +110,10 @@ pub struct Varied {
 pub struct TrialSummary {
     /// Trial index (0-based).
     pub trial: usize,
-    /// Whether it kept every limit of the mask.
+    /// Whether it kept every limit of the mask and was stable.
     pub passed: bool,
+    /// Whether it was stable (true when no judge was given).
+    pub stable: bool,
     /// The smallest distance to a limit, dB (negative: broken by that
     /// much).
     pub margin_db: f64,
@@ -131,8 +141,10 @@ pub struct MonteCarloResult {
     pub nominal_db: Vec<f64>,
     /// What was varied, in element order.
     pub varied: Vec<Varied>,
-    /// Trials that kept the mask.
+    /// Trials that kept the mask and were stable.
     pub passed: usize,
+    /// Trials judged unstable (each also counted as failed).
+    pub unstable: usize,
     /// passed / trials.
     pub yield_fraction: f64,
     /// The envelope of the trials.
@@ -277,6 +289,10 @@ impl Run<'_> {
             *slot = db(h);
         }
         let margin_db = margin_db(self.checks, row);
+        let stable = self
+            .setup
+            .stability
+            .is_none_or(|judge| judge(worker.system.netlist()));
         let max_deviation_db = row
             .iter()
             .zip(self.nominal_db)
@@ -284,7 +300,8 @@ impl Run<'_> {
             .fold(0.0, f64::max);
         Ok(TrialSummary {
             trial,
-            passed: margin_db >= 0.0,
+            passed: margin_db >= 0.0 && stable,
+            stable,
             margin_db,
             max_deviation_db,
         })
@@ -389,12 +406,14 @@ pub fn monte_carlo(
         .map(|(trial, o)| o.map_err(|source| AnalysisError::Trial { trial, source }))
         .collect::<Result<Vec<_>, _>>()?;
     let passed = per_trial.iter().filter(|t| t.passed).count();
+    let unstable = per_trial.iter().filter(|t| !t.stable).count();
     Ok(MonteCarloResult {
         freq_hz: setup.freqs_hz.to_vec(),
         envelope: envelope(&table, setup.trials, n),
         nominal_db,
         varied: knobs.iter().map(|k| varied(system, k)).collect(),
         passed,
+        unstable,
         yield_fraction: passed as f64 / setup.trials as f64,
         worst: worst(&per_trial, setup.worst),
         per_trial,

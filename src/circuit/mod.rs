@@ -162,6 +162,19 @@ impl OpAmpModel {
         }
     }
 
+    /// The same model with its output resistance replaced (the nullor
+    /// has none).
+    pub fn with_output_ohm(&self, ohm: f64) -> OpAmpModel {
+        let mut changed = *self;
+        match &mut changed {
+            OpAmpModel::Ideal => {}
+            OpAmpModel::SinglePole { output_ohm, .. } | OpAmpModel::TwoPole { output_ohm, .. } => {
+                *output_ohm = ohm
+            }
+        }
+        changed
+    }
+
     /// The same op-amp made faster or slower: its gain-bandwidth set to
     /// `gbw_hz` and a second pole moved by the same factor, so that both
     /// poles scale alike, A(s) becomes A(s/k) and the phase margin stays.

@@ -3,9 +3,10 @@
 //! Monte Carlo yield of the active on parts build.
 
 use super::{ActiveDesign, Design, DesignError};
+use crate::active;
 use crate::analysis::{
     level_traces, monte_carlo, summarize, trace, AnalysisError, Mask, MaskVerdict, MonteCarlo,
-    MonteCarloResult, Scope, SensitivitySummary, SummaryPoints, ToleranceRule,
+    MonteCarloResult, Scope, SensitivitySummary, StabilityJudge, SummaryPoints, ToleranceRule,
 };
 use crate::circuit::{band_grid, log_grid, AcSystem, Netlist};
 use crate::parts::Tolerance;
@@ -193,7 +194,15 @@ impl Design {
         let freqs = self.monte_carlo_grid()?;
         let rules = self.tolerance_rules()?;
         let system = AcSystem::new(netlist).map_err(circuit)?;
+        // Only a network with finite-bandwidth op-amps has a verdict (see
+        // active::ActiveBuild::stability); a verdict that cannot be
+        // computed counts as unstable, the cautious side.
+        let judge = |n: &Netlist| active::is_stable(n).is_ok_and(|v| v.stable);
+        let dynamic = netlist.elements.iter().any(|e| {
+            matches!(e, crate::circuit::Element::OpAmp { model, .. } if model.gbw_hz().is_some())
+        });
         let setup = MonteCarlo {
+            stability: dynamic.then_some(&judge as StabilityJudge),
             out: netlist.require_node("out").map_err(circuit)?,
             inp: netlist.require_node("in").map_err(circuit)?,
             freqs_hz: &freqs,

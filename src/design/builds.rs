@@ -54,6 +54,7 @@ impl Design {
             balance_hz: self.spec.band.balance_hz(),
             optimize: self.spec.active.optimize,
             passband_hz: self.passbands_hz(),
+            gbw_spread: self.spec.montecarlo.gbw_spread,
             ..Options::new(1.0)
         }
     }

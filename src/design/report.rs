@@ -154,6 +154,8 @@ pub struct Outcome {
     pub boards: usize,
     /// Boards that meet the specification.
     pub boards_meeting: usize,
+    /// Boards whose network is unstable (counted as not meeting it).
+    pub boards_unstable: usize,
     /// The seed of the draws.
     pub seed: u64,
 }
@@ -292,6 +294,7 @@ impl Design {
             yield_fraction: mc.yield_fraction,
             boards: mc.per_trial.len(),
             boards_meeting: mc.passed,
+            boards_unstable: mc.unstable,
             seed: self.spec.montecarlo.seed,
         };
         Documents {

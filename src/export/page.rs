@@ -71,11 +71,7 @@ pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> Strin
                 act.capacitors,
                 factor(act.capacitor_spread),
                 opamp_model(&act.opamp),
-                match act.stable {
-                    Some(true) => "stable",
-                    Some(false) => "UNSTABLE",
-                    None => "stability not judged with ideal op-amps",
-                }
+                super::prose::stability(act)
             ),
         ));
         summary.push(("why".to_string(), act.why.to_string()));

@@ -5,9 +5,9 @@
 //! ([`crate::export::eng`]).
 
 use super::eng::{format_trimmed as eng, HUMAN_DIGITS};
-use crate::active::{Method, Note, Why};
+use crate::active::{CornerVerdict, Method, NaturalFrequency, Note, Why};
 use crate::circuit::OpAmpModel;
-use crate::design::{Margin, OrderChoice};
+use crate::design::{ActiveReport, Margin, OrderChoice};
 use crate::parts::ImpedanceLevel;
 use crate::realize::{LadderLevel, Moved, Rescale};
 use std::fmt::{self, Display, Formatter};
@@ -356,6 +356,68 @@ impl Display for OrderChoice {
             ),
         }
     }
+}
+
+/// "1 kHz, damping ratio 5.000e-7": a natural frequency as read.
+fn natural(root: &NaturalFrequency) -> String {
+    format!(
+        "{}, damping ratio {}",
+        eng(root.frequency_hz, "Hz"),
+        damping(root.damping_ratio)
+    )
+}
+
+/// The op-amp corner a verdict belongs to: "GBW 7 MHz" (and the output
+/// resistance when it has one).
+fn corner_words(c: &CornerVerdict) -> String {
+    let gbw = c
+        .opamp
+        .gbw_hz()
+        .map_or(String::new(), |g| format!("GBW {}", eng(g, "Hz")));
+    match c.opamp.output_ohm() {
+        ohm if ohm > 0.0 => format!("{gbw}, output {}", eng(ohm, "ohm")),
+        _ => gbw,
+    }
+}
+
+/// The active exact build's stability in words: the verdict with the
+/// nominal op-amps and their least-damped natural frequency, then the
+/// corners of the op-amp spread (the unstable ones named).
+pub fn stability(act: &ActiveReport) -> String {
+    let Some(stable) = act.stable else {
+        return "stability not judged with ideal op-amps".to_string();
+    };
+    let mut s = match stable {
+        true => "stable".to_string(),
+        false => "UNSTABLE".to_string(),
+    };
+    if let Some(root) = &act.least_damped_natural_frequency {
+        s += &format!(" (least-damped natural frequency {})", natural(root));
+    }
+    let unstable: Vec<&CornerVerdict> = act
+        .stability_corners
+        .iter()
+        .filter(|c| !c.verdict.stable)
+        .collect();
+    match (act.stability_corners.len(), unstable.first()) {
+        (0, _) => {}
+        (n, None) => s += &format!("; stable at all {n} corners of the op-amp spread"),
+        (n, Some(_)) => {
+            let named: Vec<String> = unstable
+                .iter()
+                .map(|c| match &c.verdict.least_damped {
+                    Some(root) => format!("{}: {}", corner_words(c), natural(root)),
+                    None => corner_words(c),
+                })
+                .collect();
+            s += &format!(
+                "; UNSTABLE at {} of {n} corners of the op-amp spread ({})",
+                unstable.len(),
+                named.join("; ")
+            );
+        }
+    }
+    s
 }
 
 /// The op-amp model in words: "single-pole op-amps, GBW 10 MHz, A0 100

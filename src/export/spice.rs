@@ -227,20 +227,37 @@ fn subcircuit(model: &OpAmpModel, name: &str) -> String {
     }
 }
 
-/// An op-amp subcircuit of lags in cascade: E1 (gain A0) into R1 = 1 ohm
-/// and C1 = 1/w1, the pole 1 / (1 + s/w1); each further pole buffered by
-/// a unit VCVS into its own 1 ohm and 1/w; a last unit VCVS drives the
+/// The capacitor of an op-amp subcircuit's first pole, farad. With the
+/// integrator below, node voltages stay at signal level; the earlier form
+/// (a VCVS of gain A0 into 1 ohm and 1/w1) put A0 times the input
+/// difference on a node, and ngspice's transient stopped on it ("timestep
+/// too small") with near-ideal op-amps (GBW 10 THz, A0 200 dB) on a
+/// 3rd-order elliptic bandstop, while this form ran to the end (measured).
+const FIRST_POLE_F: f64 = 1e-9;
+
+/// An op-amp subcircuit of lags in cascade: G1, a transconductance
+/// gm = 2 pi GBW C into C1 = [`FIRST_POLE_F`] with R1 = A0 / gm across
+/// it, the first pole A0 / (1 + s/w1); each further pole buffered by a
+/// unit VCVS into its own 1 ohm and 1/w; a last unit VCVS drives the
 /// output, through RO where there is an output resistance. Nodes are
-/// lettered in order (a, b for the first pole, c, d for the second, ...),
+/// lettered in order (b for the first pole, c, d for the second, ...),
 /// so ngspice sees A(s) = A0 / prod(1 + s/w_k).
 fn pole_chain(header: &str, name: &str, dc_gain: f64, poles_hz: &[f64], output_ohm: f64) -> String {
     let letter = |i: usize| char::from(b'a' + i as u8);
-    let mut body = format!("E1 a 0 p m {}\n", value(dc_gain));
+    let mut body = String::new();
     for (k, &pole_hz) in poles_hz.iter().enumerate() {
         let (from, to) = (letter(2 * k), letter(2 * k + 1));
-        if k > 0 {
-            body += &format!("E{} {from} 0 {} 0 1\n", k + 1, letter(2 * k - 1));
+        if k == 0 {
+            let gm = std::f64::consts::TAU * pole_hz * dc_gain * FIRST_POLE_F;
+            body += &format!(
+                "G1 0 {to} p m {}\nR1 {to} 0 {}\nC1 {to} 0 {}\n",
+                value(gm),
+                value(dc_gain / gm),
+                value(FIRST_POLE_F)
+            );
+            continue;
         }
+        body += &format!("E{} {from} 0 {} 0 1\n", k + 1, letter(2 * k - 1));
         body += &format!(
             "R{n} {from} {to} 1\nC{n} {to} 0 {}\n",
             value(1.0 / (std::f64::consts::TAU * pole_hz)),

@@ -50,11 +50,12 @@ pub fn verdict_line(build: Build, v: &MaskVerdict, level_db: f64) -> String {
 pub fn yield_line(d: &Documents) -> String {
     let mc = &d.analyses.montecarlo;
     format!(
-        "{}: yield {:.2} % ({} of {} boards meet the specification with the parts' tolerances and the op-amps' GBW spread; Monte Carlo seed {})",
+        "{}: yield {:.2} % ({} of {} boards meet the specification with the parts' tolerances and the op-amps' GBW spread{}; Monte Carlo seed {})",
         Build::ActiveOnParts,
         100.0 * mc.yield_fraction,
         mc.passed,
         mc.per_trial.len(),
+        super::tables::unstable_words(mc),
         d.seed
     )
 }
@@ -235,11 +236,7 @@ pub fn summary(d: &Documents) -> String {
     let Some(act) = &r.active else {
         return s;
     };
-    let stability = match act.stable {
-        Some(true) => "stable",
-        Some(false) => "UNSTABLE",
-        None => "stability not judged with ideal op-amps",
-    };
+    let stability = super::prose::stability(act);
     let _ = writeln!(
         s,
         "{}: {}, {} op-amps, {} capacitors (spread {}), {}: {stability}",

@@ -75,9 +75,10 @@ pub fn envelope_csv(r: &MonteCarloResult) -> String {
 pub fn yield_summary(r: &MonteCarloResult, seed: u64) -> String {
     let trials = r.per_trial.len();
     let mut s = format!(
-        "Monte Carlo: {trials} trials, seed {seed}: yield {:.2} % ({} passed): boards of the {} build meeting the specification\n",
+        "Monte Carlo: {trials} trials, seed {seed}: yield {:.2} % ({} passed{}): boards of the {} build meeting the specification\n",
         100.0 * r.yield_fraction,
         r.passed,
+        unstable_words(r),
         Build::ActiveOnParts,
     );
     for t in &r.worst {
@@ -87,10 +88,23 @@ pub fn yield_summary(r: &MonteCarloResult, seed: u64) -> String {
             t.trial,
             db(t.margin_db),
             db(t.max_deviation_db),
-            if t.passed { "" } else { "  FAILS" }
+            match (t.passed, t.stable) {
+                (true, _) => "",
+                (false, true) => "  FAILS",
+                (false, false) => "  FAILS: UNSTABLE",
+            }
         );
     }
     s
+}
+
+/// "; 12 unstable, counted as failed" when some trials were unstable,
+/// else nothing.
+pub fn unstable_words(r: &MonteCarloResult) -> String {
+    match r.unstable {
+        0 => String::new(),
+        n => format!("; {n} unstable, counted as failed"),
+    }
 }
 
 /// The minimum orders of a mask, one family a line.
