@@ -414,3 +414,121 @@ fn trace_refuses_bad_grids_and_takes_empty_ones() {
     other.node("a");
     assert!(trace(&other, &[1.0], false).is_err());
 }
+
+/// A resistive divider with an L-C pair in series hung from `out` back to
+/// `out` through node `x`: at 1/(2 pi sqrt(LC)) a current can circulate
+/// in the pair with every node voltage unchanged, so the circuit
+/// equations are singular there, while V(out)/V(in) is 1/2 at every
+/// frequency (closed form) and its delay 0.
+fn divider_with_a_resonant_loop(henry: f64, farad: f64) -> Netlist {
+    let mut n = rc_highpass(1e3, 1e-6);
+    n.elements.clear();
+    let (inp, out, x) = (n.node("in"), n.node("out"), n.node("x"));
+    for e in [
+        Element::VoltageSource {
+            name: "V1".into(),
+            pos: inp,
+            neg: 0,
+            ac_volt: 1.0,
+        },
+        Element::Resistor {
+            name: "R1".into(),
+            a: inp,
+            b: out,
+            ohm: 1e3,
+        },
+        Element::Resistor {
+            name: "R2".into(),
+            a: out,
+            b: 0,
+            ohm: 1e3,
+        },
+        Element::Inductor {
+            name: "L1".into(),
+            a: out,
+            b: x,
+            henry,
+        },
+        Element::Capacitor {
+            name: "C1".into(),
+            a: x,
+            b: out,
+            farad,
+        },
+    ] {
+        n.add(e).unwrap();
+    }
+    n
+}
+
+#[test]
+fn a_grid_point_on_a_lossless_resonance_gets_the_transfer_there() {
+    // The resonance of the loop is a grid point (L = 1 H, C = 1/(2 pi
+    // 50)^2 F, so f0 = 50 Hz up to rounding). The dense path, the sparse
+    // trace and the dense delay all give H = 1/2 (closed form) and delay 0
+    // there, to 1e-9 and 1e-12 s; before, each failed with "singular".
+    let netlist = divider_with_a_resonant_loop(1.0, 1.0 / (TAU * 50.0).powi(2));
+    let freqs = [10.0, 50.0, 200.0];
+    let (out, inp) = (
+        netlist.node_index("out").unwrap(),
+        netlist.node_index("in").unwrap(),
+    );
+    let mut system = AcSystem::new(&netlist).unwrap();
+    let mut dense_delay = DenseDelay::new(&system);
+    for &f in &freqs {
+        let h = system.transfer(f, out, inp).unwrap();
+        let (hd, delay) = dense_delay.transfer_delay(&system, f, out, inp).unwrap();
+        assert!(
+            (h - 0.5).norm() < 1e-9 && (hd - 0.5).norm() < 1e-9 && delay.abs() < 1e-12,
+            "{f} Hz: {h}, {hd}, delay {delay}"
+        );
+    }
+    let t = trace(&netlist, &freqs, true).unwrap();
+    for (k, f) in freqs.iter().enumerate() {
+        let delay = t.group_delay_s.as_ref().unwrap()[k];
+        assert!(
+            (t.gain_db[k] + 20.0 * 2f64.log10()).abs() < 1e-8 && delay.abs() < 1e-12,
+            "trace at {f} Hz: {} dB, delay {delay}",
+            t.gain_db[k]
+        );
+    }
+}
+
+#[test]
+fn the_mains_notch_swept_through_its_exact_centre() {
+    // The shipped example's default grid holds the notch centre
+    // sqrt(40 * 60) = 48.98979485566357 Hz, where the passive ideal's
+    // lossless tanks resonate: the sweep command must exit 0 with every
+    // value finite. There a Butterworth bandstop's transfer is exactly
+    // zero (scipy.signal's butter(..., btype='bandstop', analog=True)
+    // has the numerator (s^2 + w0^2)^n: common practice); nocoil gives
+    // the mean of the two sides at 1e-5 relative, which must lie below
+    // -200 dB, while 0.1 % away the passive ideal is back at its smooth
+    // value (the same trace moved there agrees to 1e-6 dB).
+    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples/mains-notch.toml");
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_nocoil"))
+        .args(["sweep", path.to_str().unwrap()])
+        .output()
+        .unwrap();
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(
+        out.status.success() && !text.contains("inf") && !text.contains("NaN"),
+        "status {:?}: {}",
+        out.status,
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let f0 = (40.0f64 * 60.0).sqrt();
+    assert!(text.lines().any(|l| l.starts_with("48.98979485566357,")));
+    let d = design(&Spec::load(&path).unwrap()).unwrap();
+    let t = trace(&d.passive, &[f0 * 0.999, f0, f0 * 1.001], true).unwrap();
+    assert!(t.gain_db[1] < -200.0, "centre: {} dB", t.gain_db[1]);
+    let apart = trace(&d.passive, &[f0 * 0.999, f0 * 1.001], true).unwrap();
+    for (k, j) in [(0, 0), (2, 1)] {
+        assert!(
+            (t.gain_db[k] - apart.gain_db[j]).abs() < 1e-6,
+            "{} vs {}",
+            t.gain_db[k],
+            apart.gain_db[j]
+        );
+    }
+}

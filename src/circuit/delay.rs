@@ -27,6 +27,17 @@ use super::{AcSystem, CircuitError};
 
 const ZERO: Complex64 = Complex64::new(0.0, 0.0);
 
+/// Relative step to either side of a frequency where the circuit
+/// equations are singular although the transfer exists: a lossless
+/// resonance whose circulating current the output does not see (the
+/// passive ideal of a notch at its exact centre, 48.98979485566357 Hz in
+/// the mains-notch example). The transfer and the delay are smooth there,
+/// so the mean of the two sides is their value to O(step^2), 1e-10
+/// relative; the solves on either side are nearly singular only along
+/// the circulating current, which the output does not see. Checked by
+/// tests/sweep.rs against the same grid moved off the resonance.
+pub const RESONANCE_STEP: f64 = 1e-5;
+
 /// Why a dense point has no transfer or delay; the caller adds the
 /// frequency and nodes.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -37,6 +48,15 @@ pub(crate) enum PointFailure {
     ZeroInput,
     /// V(out) vanishes identically: no delay.
     ZeroOutput,
+}
+
+/// The error of a point failure at `freq_hz` with nodes [out, in].
+pub(crate) fn point_error(f: PointFailure, freq_hz: f64, [out, inp]: [usize; 2]) -> CircuitError {
+    match f {
+        PointFailure::Singular => CircuitError::Singular { freq_hz },
+        PointFailure::ZeroInput => CircuitError::ZeroVoltage { node: inp, freq_hz },
+        PointFailure::ZeroOutput => CircuitError::ZeroVoltage { node: out, freq_hz },
+    }
 }
 
 /// The dense transfer and exact group delay of one circuit, with buffers
@@ -102,20 +122,54 @@ impl DenseDelay {
         }
         let unknowns = [system.unknown_of_node(out), system.unknown_of_node(inp)];
         let omega = std::f64::consts::TAU * freq_hz;
-        let fail = |f: PointFailure| match f {
-            PointFailure::Singular => CircuitError::Singular { freq_hz },
-            PointFailure::ZeroInput => CircuitError::ZeroVoltage { node: inp, freq_hz },
-            PointFailure::ZeroOutput => CircuitError::ZeroVoltage { node: out, freq_hz },
+        self.point(
+            system.g(),
+            system.c(),
+            system.b(),
+            omega,
+            unknowns,
+            Some(false),
+        )
+        .map_err(|f| point_error(f, freq_hz, [out, inp]))
+    }
+
+    /// V(out)/V(in) and, when `delay` is given (its `at_zero` as for
+    /// [`DenseDelay::delay`]), the group delay at omega (0 without),
+    /// `unknowns` = [out, in], across a lossless resonance where the
+    /// equations are singular (see [`RESONANCE_STEP`]).
+    pub(crate) fn point(
+        &mut self,
+        g: &DMatrix<f64>,
+        c: &DMatrix<f64>,
+        b: &DVector<f64>,
+        omega: f64,
+        unknowns: [Option<usize>; 2],
+        delay: Option<bool>,
+    ) -> Result<(Complex64, f64), PointFailure> {
+        let mut at = |omega: f64| -> Result<(Complex64, f64), PointFailure> {
+            if !self.solve(g, c, b, omega) {
+                return Err(PointFailure::Singular);
+            }
+            let [vout, vin] = unknowns.map(|u| self.voltage(u));
+            if vin == ZERO {
+                return Err(PointFailure::ZeroInput);
+            }
+            let tau = match delay {
+                Some(at_zero) => self.delay(c, unknowns, at_zero)?,
+                None => 0.0,
+            };
+            Ok((vout / vin, tau))
         };
-        if !self.solve(system.g(), system.c(), system.b(), omega) {
-            return Err(fail(PointFailure::Singular));
+        match at(omega) {
+            Err(PointFailure::Singular) if omega > 0.0 => {
+                let (below, above) = (
+                    at(omega * (1.0 - RESONANCE_STEP))?,
+                    at(omega * (1.0 + RESONANCE_STEP))?,
+                );
+                Ok(((below.0 + above.0) / 2.0, (below.1 + above.1) / 2.0))
+            }
+            other => other,
         }
-        let [vout, vin] = unknowns.map(|u| self.voltage(u));
-        if vin == ZERO {
-            return Err(fail(PointFailure::ZeroInput));
-        }
-        let delay = self.delay(system.c(), unknowns, false).map_err(fail)?;
-        Ok((vout / vin, delay))
     }
 
     /// Factors G + j omega C and solves for a_0; `false` if singular.

@@ -33,7 +33,7 @@ use num_complex::Complex64;
 use super::layout::{Extras, Layout, OpAmpUnknowns};
 use super::lu::Lu;
 use super::netlist::check_model;
-use super::{CircuitError, Element, Netlist, OpAmpModel, Response};
+use super::{CircuitError, Element, Netlist, OpAmpModel, Response, RESONANCE_STEP};
 
 /// One entry of G, C or b, by unknown index (see
 /// [`AcSystem::unknown_of_node`]).
@@ -453,8 +453,16 @@ impl AcSystem {
         out: usize,
         inp: usize,
     ) -> Result<Complex64, CircuitError> {
-        let (vout, vin) = self.pair(freq_hz, out, inp)?;
-        Ok(vout / vin)
+        let mut at = |f: f64| self.pair(f, out, inp).map(|(vout, vin)| vout / vin);
+        match at(freq_hz) {
+            // Across a lossless resonance, as DenseDelay::point does.
+            Err(CircuitError::Singular { .. }) if freq_hz > 0.0 => Ok((at(
+                freq_hz * (1.0 - RESONANCE_STEP)
+            )? + at(
+                freq_hz * (1.0 + RESONANCE_STEP)
+            )?) / 2.0),
+            other => other,
+        }
     }
 
     /// V(out)/V(inp) at one frequency with the full solution and its

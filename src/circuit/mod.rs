@@ -33,7 +33,7 @@ mod reference;
 mod response;
 mod sparse;
 
-pub use delay::DenseDelay;
+pub use delay::{DenseDelay, RESONANCE_STEP};
 pub use error::CircuitError;
 pub use mna::{AcSystem, Adjoint, Target};
 pub use netlist::{ElementKind, Terminal};

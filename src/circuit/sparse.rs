@@ -33,7 +33,7 @@ use std::f64::consts::TAU;
 use nalgebra::{DMatrix, DVector};
 use num_complex::Complex64;
 
-use super::delay::DenseDelay;
+use super::delay::{point_error, DenseDelay, PointFailure};
 use super::lanes::LANES;
 use super::layout::{Layout, OpAmpUnknowns};
 use super::ordering::{markowitz, Sample};
@@ -338,12 +338,17 @@ impl SparseAc {
         }
     }
 
-    /// The dense, partially pivoted solve of the loaded values (read
-    /// with `dense.solver.voltage`); `false` if singular.
-    fn dense_solve(&mut self, omega: f64) -> bool {
+    /// The dense, partially pivoted transfer (and delay, when asked
+    /// for) of the loaded values at one point ([`DenseDelay::point`]).
+    fn dense_point(
+        &mut self,
+        omega: f64,
+        unknowns: [Option<usize>; 2],
+        delay: Option<bool>,
+    ) -> Result<(Complex64, f64), PointFailure> {
         let d = &mut self.dense;
         self.plan.unload(&mut d.g, &mut d.c, &mut d.b);
-        d.solver.solve(&d.g, &d.c, &d.b, omega)
+        d.solver.point(&d.g, &d.c, &d.b, omega, unknowns, delay)
     }
 
     fn check_node(&self, node: usize, context: &str) -> Result<(), CircuitError> {
@@ -379,10 +384,11 @@ impl SparseAc {
                 sparse
             } else {
                 self.fallbacks += 1;
-                if !self.dense_solve(omega[k]) {
-                    return Err(CircuitError::Singular { freq_hz });
-                }
-                unknowns.map(|u| self.dense.solver.voltage(u))
+                *h = self
+                    .dense_point(omega[k], unknowns, None)
+                    .map_err(|f| point_error(f, freq_hz, [out, inp]))?
+                    .0;
+                continue;
             };
             if vin == Complex64::new(0.0, 0.0) {
                 return Err(CircuitError::ZeroVoltage { node: inp, freq_hz });
@@ -428,22 +434,12 @@ impl SparseAc {
             if !sparse_ok {
                 self.fallbacks += 1;
             }
-            if !self.dense_solve(omega[k]) {
-                return Err(CircuitError::Singular { freq_hz });
-            }
-            let d = &mut self.dense;
-            let [vout, vin] = unknowns.map(|u| d.solver.voltage(u));
-            if vin == ZERO {
-                return Err(CircuitError::ZeroVoltage { node: inp, freq_hz });
-            }
             // Where the sparse solve passed and found V(out) = 0, the
             // dense one must not see rounding residue as a value.
             let at_zero = sparse_ok && vout == ZERO;
-            h[k] = vout / vin;
-            delay_s[k] = d
-                .solver
-                .delay(&d.c, unknowns, at_zero)
-                .map_err(|_| CircuitError::ZeroVoltage { node: out, freq_hz })?;
+            (h[k], delay_s[k]) = self
+                .dense_point(omega[k], unknowns, Some(at_zero))
+                .map_err(|f| point_error(f, freq_hz, [out, inp]))?;
         }
         Ok(())
     }
