@@ -499,12 +499,14 @@ fn the_mains_notch_swept_through_its_exact_centre() {
     // The shipped example's default grid holds the notch centre
     // sqrt(40 * 60) = 48.98979485566357 Hz, where the passive ideal's
     // lossless tanks resonate: the sweep command must exit 0 with every
-    // value finite. There a Butterworth bandstop's transfer is exactly
-    // zero (scipy.signal's butter(..., btype='bandstop', analog=True)
-    // has the numerator (s^2 + w0^2)^n: common practice); nocoil gives
-    // the mean of the two sides at 1e-5 relative, which must lie below
-    // -200 dB, while 0.1 % away the passive ideal is back at its smooth
-    // value (the same trace moved there agrees to 1e-6 dB).
+    // value finite. There the transfer of this 3rd-order elliptic
+    // bandstop is exactly zero: the prototype's transmission zero at
+    // infinity (odd order) maps to the centre (scipy.signal's lp2bs gives
+    // the numerator its surplus degree as factors s^2 + w0^2: common
+    // practice). nocoil gives the mean of the two sides at 1e-5
+    // relative, which must lie below -200 dB, while 0.1 % away the
+    // passive ideal is at its smooth value (the same points solved
+    // without the centre in the grid agree to 1e-6 dB).
     let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples/mains-notch.toml");
     let out = std::process::Command::new(env!("CARGO_BIN_EXE_nocoil"))
         .args(["sweep", path.to_str().unwrap()])
