@@ -459,3 +459,35 @@ fn failures_are_blamed_from_the_innermost_error() {
         assert_eq!(error.blame(), blame, "{error}");
     }
 }
+
+#[test]
+fn highpass_passband_is_checked_to_the_top_of_the_opamp_range() {
+    // A 2 kHz highpass on 10 MHz op-amps: its passband is open above, so
+    // it is checked, plotted and reported up to GBW / 10 = 1 MHz, and the
+    // loss stated there is the active exact build's gain against the
+    // passive ideal's at 1 MHz, which ngspice (an independent simulator)
+    // reproduces on the exported deck within the project's 0.01 dB.
+    let text = "[filter]\nkind = \"highpass\"\nfamily = \"chebyshev\"\norder = 5\npassband_edge_hz = 2000.0\npassband_ripple_db = 0.5\n[terminations]\nsource_ohm = 1000.0\nload_ohm = 1000.0\n[opamp]\ngbw_hz = 10e6\ndc_gain_db = 100.0\n";
+    let d = design(&Spec::from_toml(Path::new("hp.toml"), text).unwrap()).unwrap();
+    assert_eq!(d.top_of_range_hz(), Some(1e6));
+    assert_eq!(d.view_hz().1, 1e6);
+    assert_eq!(d.passbands_hz().last().unwrap()[1], 1e6);
+    let a = d.active().unwrap();
+    let top = a.exact_figures.top_of_range.unwrap();
+    let at = |n| response(n, &[1e6]).unwrap().h[0];
+    let ours = 20.0 * (at(&a.build.netlist) / at(&d.passive)).norm().log10();
+    assert_eq!(top.freq_hz, 1e6);
+    assert!((top.deviation_db - ours).abs() < 1e-12, "{top:?} vs {ours}");
+    let sweep = AcSweep {
+        points_per_decade: 1,
+        start_hz: 1e6,
+        stop_hz: 1e7,
+    };
+    let spice = |n| ngspice_ac(&deck(n, &sweep).unwrap())[0].1;
+    let theirs = 20.0 * (spice(&a.build.netlist) / spice(&d.passive)).norm().log10();
+    assert!(
+        (top.deviation_db - theirs).abs() < 0.01 && top.deviation_db < -0.1,
+        "nocoil {} dB, ngspice {theirs} dB",
+        top.deviation_db
+    );
+}

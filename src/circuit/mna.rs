@@ -455,12 +455,15 @@ impl AcSystem {
     ) -> Result<Complex64, CircuitError> {
         let mut at = |f: f64| self.pair(f, out, inp).map(|(vout, vin)| vout / vin);
         match at(freq_hz) {
-            // Across a lossless resonance, as DenseDelay::point does.
-            Err(CircuitError::Singular { .. }) if freq_hz > 0.0 => Ok((at(
-                freq_hz * (1.0 - RESONANCE_STEP)
-            )? + at(
-                freq_hz * (1.0 + RESONANCE_STEP)
-            )?) / 2.0),
+            // Across a lossless resonance, as DenseDelay::point does; if
+            // a side is singular too, the point's own error stands.
+            Err(e @ CircuitError::Singular { .. }) if freq_hz > 0.0 => {
+                let sides = [1.0 - RESONANCE_STEP, 1.0 + RESONANCE_STEP].map(|k| at(freq_hz * k));
+                match sides {
+                    [Ok(below), Ok(above)] => Ok((below + above) / 2.0),
+                    _ => Err(e),
+                }
+            }
             other => other,
         }
     }

@@ -6,7 +6,7 @@
 use super::{Design, DesignError};
 use crate::active::{self, ActiveBuild, Options};
 use crate::analysis::{compare, opamp_levels, ComparePoints, Comparison, OpAmpLevel, LEVEL_POINTS};
-use crate::circuit::{band_grid, log_grid, AcSystem, Netlist};
+use crate::circuit::{band_grid, log_grid, response, AcSystem, Netlist};
 use crate::realize::{snap_build, SnappedBuild};
 
 /// How one build compares with the passive ideal, and its op-amp levels.
@@ -18,6 +18,19 @@ pub struct BuildFigures {
     /// Peak gain from the input to every op-amp output, and the input
     /// level the design file's swing allows.
     pub levels: Vec<OpAmpLevel>,
+    /// Where a highpass or bandstop passband stops being checked
+    /// ([`Design::top_of_range_hz`]), and the build's deviation there.
+    pub top_of_range: Option<TopOfRange>,
+}
+
+/// A build at the top of the op-amp range.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct TopOfRange {
+    /// The frequency, Hz.
+    pub freq_hz: f64,
+    /// The build's gain there against the passive ideal's, dB (negative:
+    /// a loss).
+    pub deviation_db: f64,
 }
 
 impl BuildFigures {
@@ -101,10 +114,26 @@ impl Design {
     ) -> Result<BuildFigures, DesignError> {
         let (lo, hi) = self.view_hz();
         let grid = log_grid(lo, hi, LEVEL_POINTS).map_err(|cause| self.circuit_error(cause))?;
+        let top_of_range = match self.top_of_range_hz() {
+            Some(freq_hz) => {
+                let at = |n: &Netlist| {
+                    response(n, &[freq_hz])
+                        .map(|r| r.h[0])
+                        .map_err(|cause| self.circuit_error(cause))
+                };
+                let ratio = at(netlist)? / at(&self.passive)?;
+                Some(TopOfRange {
+                    freq_hz,
+                    deviation_db: 20.0 * ratio.norm().log10(),
+                })
+            }
+            None => None,
+        };
         Ok(BuildFigures {
             comparison: compare(&self.passive, netlist, points)
                 .map_err(|cause| self.analysis_error(cause))?,
             levels: self.levels(netlist, &grid)?,
+            top_of_range,
         })
     }
 

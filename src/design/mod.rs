@@ -35,7 +35,7 @@ mod report;
 pub use analyses::{
     Analyses, BuildTrace, ChartTraces, MONTE_CARLO_POINTS, SENSITIVITY_POINTS, WORST_TRIALS,
 };
-pub use builds::{ActiveDesign, BuildFigures};
+pub use builds::{ActiveDesign, BuildFigures, TopOfRange};
 pub use order::{order_table, OrderRow, OrderTable, FAMILIES};
 pub use report::{ActiveReport, Documents, NormalizedElement, Outcome, Report, ScaledElement};
 
@@ -445,6 +445,16 @@ fn choose_prototype(
     ))
 }
 
+/// The top of the op-amp range as a fraction of the gain-bandwidth: a
+/// highpass or bandstop passband is open above, and its active builds
+/// depart from the passive ideal as the converters' value error, about
+/// 4 w / wt for a balanced Antoniou converter (a first-order analysis,
+/// 4e-3 measured at GBW / f = 1000 in src/active/refine.rs), grows to
+/// 40 % at GBW / 10; no build holds a passband beyond it, so that is
+/// where nocoil stops checking and says what is left there (a choice of
+/// the project).
+pub const TOP_OF_RANGE: f64 = 0.1;
+
 /// Allowed shortfall of the attenuation at the stopband edge, and slack
 /// of every mask limit, dB: the standard approximation at its minimum
 /// order meets the mask exactly up to rounding of the order formula's
@@ -495,12 +505,36 @@ fn stopband_attenuation(spec: &Spec) -> Option<f64> {
 impl Design {
     /// The frequency range worth looking at, Hz (see [`Band::view_hz`]).
     pub fn view_hz(&self) -> (f64, f64) {
-        self.spec.band.view_hz()
+        let (lo, hi) = self.spec.band.view_hz();
+        (lo, hi.max(self.top_of_range_hz().unwrap_or(hi)))
     }
 
-    /// The passbands within the view, Hz.
+    /// How far up a highpass or bandstop passband is checked, plotted and
+    /// reported: [`TOP_OF_RANGE`] times the op-amps' gain-bandwidth, when
+    /// that lies above the band's own view; `None` for the other kinds,
+    /// for ideal op-amps, or when the view already reaches it.
+    pub fn top_of_range_hz(&self) -> Option<f64> {
+        let open_above = matches!(
+            self.spec.band,
+            Band::Highpass { .. } | Band::Bandstop { .. }
+        );
+        let top = TOP_OF_RANGE * self.spec.opamp.model.gbw_hz()?;
+        (open_above && top > self.spec.band.view_hz().1).then_some(top)
+    }
+
+    /// The passbands within the view, Hz; a passband reaching the top of
+    /// the op-amp range is split at the band's own view, so the decade
+    /// next to the edge keeps its own grid of points.
     pub fn passbands_hz(&self) -> Vec<[f64; 2]> {
-        self.spec.band.passbands_hz(self.view_hz())
+        let (lo, hi) = self.spec.band.view_hz();
+        let mut bands = self.spec.band.passbands_hz((lo, hi));
+        if let Some(top) = self.top_of_range_hz() {
+            // From its own grid's first step above the view's top, so no
+            // frequency is listed twice.
+            let step = (top / hi).powf(1.0 / active::PASSBAND_POINTS as f64);
+            bands.push([hi * step, top]);
+        }
+        bands
     }
 
     /// The passband level: the terminations' divider, dB.

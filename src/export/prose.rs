@@ -7,7 +7,7 @@
 use super::eng::{format_trimmed as eng, HUMAN_DIGITS};
 use crate::active::{CornerVerdict, Method, NaturalFrequency, Note, Why};
 use crate::circuit::OpAmpModel;
-use crate::design::{ActiveReport, Margin, OrderChoice};
+use crate::design::{ActiveReport, Margin, OrderChoice, TopOfRange, TOP_OF_RANGE};
 use crate::parts::ImpedanceLevel;
 use crate::realize::{LadderLevel, Moved, Rescale};
 use std::fmt::{self, Display, Formatter};
@@ -356,6 +356,17 @@ impl Display for OrderChoice {
             ),
         }
     }
+}
+
+/// "passband checked up to 1 MHz (GBW / 10), where it is -0.5 dB from
+/// the passive ideal".
+pub fn top_of_range(top: &TopOfRange) -> String {
+    format!(
+        "passband checked up to {} (GBW x {}, the top of the op-amp range), where it is {} dB from the passive ideal",
+        eng(top.freq_hz, "Hz"),
+        TOP_OF_RANGE,
+        db(top.deviation_db)
+    )
 }
 
 /// "1 kHz, damping ratio 5.000e-7": a natural frequency as read.

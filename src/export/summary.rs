@@ -68,6 +68,9 @@ fn figures(s: &mut String, build: Build, f: &BuildFigures) {
         "  {build}: largest passband deviation from the passive ideal {} dB",
         db(c.passband_deviation_db)
     );
+    if let Some(top) = &f.top_of_range {
+        let _ = writeln!(s, "  {build}: {}", super::prose::top_of_range(top));
+    }
     for ((e, a), p) in c
         .passband_edge_hz
         .iter()
