@@ -11,7 +11,7 @@
 use clap::{Parser, Subcommand};
 use nocoil::design::{self, ActiveDesign, Blame, Build, Design, DesignError};
 use nocoil::export::files::{
-    design_files, document_files, prepare_out_dir, write_set, OutDirError,
+    design_files, document_files, passive_files, prepare_out_dir, write_set, OutDirError,
 };
 use nocoil::export::sweep::{write_sweep_csv, SweepError};
 use nocoil::export::{bom, summary, tables};
@@ -380,7 +380,17 @@ fn run(request: Request) -> anyhow::Result<()> {
     match request {
         Request::Design { spec, out } => {
             prepare_out_dir(&out)?;
-            let (d, active) = load_active(&spec)?;
+            let d = load(&spec)?;
+            let active = match d.active() {
+                Ok(active) => active,
+                // A refused active build still leaves the passive ideal.
+                Err(refusal) if refusal.blame() == Blame::Input => {
+                    emit(&summary::passive_summary(&d.report(), &refusal.to_string()))?;
+                    write_files(&out, &passive_files(&d)?)?;
+                    return Err(refusal.into());
+                }
+                Err(fault) => return Err(fault.into()),
+            };
             let docs = d.documents(&active, d.analyses(&active)?);
             let files = design_files(&docs)?;
             emit(&summary::summary(&docs))?;

@@ -935,3 +935,34 @@ fn a_given_range_refuses_the_fixed_level_naming_the_terminations() {
         );
     }
 }
+
+#[test]
+fn a_refused_active_build_still_writes_the_passive_ideal() {
+    // Two-pole op-amps whose second pole (5 MHz) sits below their GBW
+    // (10 MHz) leave the simulated inductors' loops unstable (about
+    // 5.9 MHz, measured; tests/active.rs checks such verdicts against
+    // Routh-Hurwitz): the active build is refused, exit 2 with the reason
+    // and what to try, and the passive ideal's deck and report are
+    // written, with the summary saying so first.
+    let dir = scratch("refused-active");
+    let spec = dir.join("spec.toml");
+    let text = format!(
+        "{GOOD}[active]\nmethod = \"gic\"\n[opamp]\nmodel = \"two_pole\"\ngbw_hz = 10e6\nsecond_pole_hz = 5e6\n"
+    );
+    std::fs::write(&spec, text).unwrap();
+    let out = dir.join("out");
+    let run = design_into(&spec, &out);
+    let stdout = String::from_utf8_lossy(&run.stdout);
+    let stderr = String::from_utf8_lossy(&run.stderr);
+    assert_eq!(run.status.code(), Some(2), "{stderr}");
+    assert!(stderr.contains("not stable") && stderr.contains("try a faster op-amp"));
+    assert!(stdout.starts_with("active exact: none: "), "{stdout}");
+    let mut names: Vec<String> = std::fs::read_dir(&out)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    names.sort();
+    assert_eq!(names, ["passive.cir", "report.json"]);
+    let report = std::fs::read_to_string(out.join("report.json")).unwrap();
+    assert!(report.contains("\"active\": null"), "{report}");
+}

@@ -63,7 +63,7 @@ pub enum ActiveError {
     },
     /// The active network has a natural frequency in the closed right half
     /// plane with the chosen op-amp model.
-    #[error("the {method} realization is not stable with {opamp:?}: its least-damped natural frequency, {:.6} Hz, has damping ratio {:.3e} (more than {margin:e} is needed); try a faster op-amp, the other method, or `optimize = true`", root.frequency_hz, root.damping_ratio)]
+    #[error("the {method} realization is not stable with {}: its least-damped natural frequency, {:.6} Hz, has damping ratio {:.3e} (more than {margin:e} is needed); try a faster op-amp, the other method, or `optimize = true`", opamp_words(opamp), root.frequency_hz, root.damping_ratio)]
     Unstable {
         /// The method used.
         method: Method,
@@ -78,4 +78,13 @@ pub enum ActiveError {
     /// Building or solving a circuit failed.
     #[error("circuit: {0}")]
     Circuit(#[from] CircuitError),
+}
+
+/// "single-pole op-amps of GBW 7e6 Hz": the model a verdict was found
+/// with, in a message.
+fn opamp_words(model: &OpAmpModel) -> String {
+    match model.gbw_hz() {
+        Some(gbw) => format!("{} op-amps of GBW {gbw:e} Hz", model.kind()),
+        None => "ideal op-amps".to_string(),
+    }
 }

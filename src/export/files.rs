@@ -10,7 +10,7 @@ use super::page::design_page;
 use super::plot::{self, PlotError, PngOutput};
 use super::spice::{deck, AcSweep, SpiceError};
 use super::tables::{envelope_csv, sensitivity_csv};
-use crate::design::{Build, Documents};
+use crate::design::{Build, Design, Documents};
 use crate::realize::{soldered, PartsSnapError};
 use std::io::Write as _;
 use std::path::{Path, PathBuf};
@@ -126,6 +126,25 @@ pub fn design_files(d: &Documents) -> Result<Vec<OutputFile>, ExportError> {
     ];
     files.extend(document_files(d)?);
     Ok(files)
+}
+
+/// The files of a design whose active build was refused: the passive
+/// ideal's deck and the report of the passive ideal alone, so a designer
+/// still gets the ladder to simulate or build.
+pub fn passive_files(d: &Design) -> Result<Vec<OutputFile>, ExportError> {
+    let (start_hz, stop_hz) = d.view_hz();
+    let sweep = AcSweep {
+        points_per_decade: DECK_POINTS_PER_DECADE,
+        start_hz,
+        stop_hz,
+    };
+    Ok(vec![
+        file("passive.cir", deck(&d.passive, &sweep)?.into_bytes()),
+        file(
+            "report.json",
+            serde_json::to_string_pretty(&d.report())?.into_bytes(),
+        ),
+    ])
 }
 
 fn file(name: &str, bytes: Vec<u8>) -> OutputFile {

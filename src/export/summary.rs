@@ -219,6 +219,19 @@ fn passive(s: &mut String, r: &Report) {
 }
 
 /// The whole summary of a designed filter.
+/// The summary of a design whose active build was refused (`why`, the
+/// refusal in words): that first, then the passive ideal.
+pub fn passive_summary(r: &Report, why: &str) -> String {
+    let mut s = format!(
+        "{}: none: {why}\nthe {} alone is written (passive.cir, report.json)\n",
+        Build::ActiveExact,
+        Build::PassiveIdeal
+    );
+    passive(&mut s, r);
+    s
+}
+
+/// The summary of a design with its active builds.
 pub fn summary(d: &Documents) -> String {
     let r = &d.report;
     let a = &d.analyses;
