@@ -66,18 +66,20 @@ pub(crate) fn compensate(
 }
 
 /// The value the converter of `stage` in `netlist` realizes at
-/// `freq_hz` with op-amps of `model`, over the value it realizes with
-/// ideal op-amps (1 for a stage that is no converter).
-pub fn realized_ratio(
+/// `freq_hz` with op-amps of `model` (henry, or farad second for an
+/// FDNR; see the module documentation); `None` for a stage that is no
+/// converter.
+pub fn realized_value(
     netlist: &Netlist,
     stage: &Stage,
     model: OpAmpModel,
     freq_hz: f64,
-) -> Result<f64, ActiveError> {
-    match &stage.handles {
-        Handles::Converter(chains) => value_ratio(netlist, chains, model, TAU * freq_hz),
-        _ => Ok(1.0),
-    }
+) -> Result<Option<f64>, ActiveError> {
+    let Handles::Converter(chains) = &stage.handles else {
+        return Ok(None);
+    };
+    let ratio = value_ratio(netlist, chains, model, TAU * freq_hz)?;
+    Ok(Some(chains[0].realized(netlist) * ratio))
 }
 
 /// +1 when the realized value goes as Zin (an inductor, whose Z1 is a

@@ -55,7 +55,7 @@ mod stability;
 
 use std::f64::consts::TAU;
 
-pub use compensate::realized_ratio;
+pub use compensate::realized_value;
 pub use damping::DampingResistor;
 pub use error::ActiveError;
 pub use refine::{deviation_db, PASSBAND_POINTS};
@@ -498,7 +498,11 @@ pub fn realize(passive: &Netlist, opts: &Options) -> Result<ActiveBuild, ActiveE
         true => None,
         false => Some(meter.deviation(&plan.assemble(&balanced, opts.opamp)?.0)?),
     };
-    let refine = match (opts.optimize, balanced_deviation_db, opts.passband_ripple_db) {
+    let refine = match (
+        opts.optimize,
+        balanced_deviation_db,
+        opts.passband_ripple_db,
+    ) {
         (Refine::Always, ..) => true,
         (Refine::Auto, Some(d), Some(ripple)) => {
             opts.opamp.gbw_hz().is_some() && d > REFINE_FRACTION * ripple
