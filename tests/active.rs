@@ -11,7 +11,7 @@ use crate::scipy_cases::{fixture, Case, REFERENCE_FLOOR_DB};
 use crate::util::{assert_close_response, ngspice_ac, ngspice_tran};
 use nocoil::active::gic::{place_gic, Impedance, Placed};
 use nocoil::active::{
-    deviation_db, is_stable, realize, ActiveBuild, ActiveError, Method, Options, StageKind,
+    deviation_db, is_stable, realize, ActiveBuild, ActiveError, Method, Options, Refine, StageKind,
 };
 use nocoil::circuit::{log_grid, AcSystem, CircuitError, Element, Netlist, OpAmpModel};
 use nocoil::design::{design, Design};
@@ -951,7 +951,7 @@ fn refinement_never_loses_to_the_balanced_values() {
         for gbw in [1e6, 10e6] {
             let balanced = build(case, &d, Method::Auto, single_pole(gbw));
             let mut opts = case.options(Method::Auto, single_pole(gbw));
-            opts.optimize = true;
+            opts.optimize = Refine::Always;
             let refined = realize(&d.passive, &opts).unwrap();
             let (before, after) = (
                 balanced.passband_deviation_db.unwrap(),
@@ -1046,7 +1046,7 @@ fn bad_input_is_a_typed_error_naming_the_offender() {
     ));
     let mut opts = highpass.options(Method::Gic, OpAmpModel::Ideal);
     opts.passband_hz.clear();
-    opts.optimize = true;
+    opts.optimize = Refine::Always;
     assert_eq!(
         realize(&d.passive, &opts).unwrap_err(),
         ActiveError::NoPassband

@@ -6,6 +6,7 @@ mod analysis;
 mod approx;
 mod circuit;
 mod cli;
+mod compensation;
 mod damping;
 mod design;
 mod export;

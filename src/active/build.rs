@@ -33,6 +33,7 @@
 use crate::circuit::{AcSystem, Element, ElementKind, Netlist, OpAmpModel};
 
 use super::chain::Chain;
+use super::compensate::compensate;
 use super::error::ActiveError;
 use super::gic::{
     add_fresh, fdnr_chain, fresh_node, inductor_chain, place_floating, place_grounded, Placed,
@@ -424,15 +425,20 @@ pub(crate) fn dc_path_resistors(
 }
 
 impl Plan {
-    /// The network and its stages for these free values and op-amps.
+    /// The network and its stages for these free values and op-amps,
+    /// each converter compensated when the tuning asks for it.
     pub fn assemble(
         &self,
         tuning: &Tuning,
         model: OpAmpModel,
     ) -> Result<(Netlist, Vec<Stage>), ActiveError> {
-        match self {
+        let (mut netlist, stages) = match self {
             Plan::Gic(p) => assemble_gic(p, tuning, model),
             Plan::Fdnr(p, b) => assemble_fdnr(p, b, tuning, model),
+        }?;
+        if tuning.compensate {
+            compensate(&mut netlist, &stages, model, tuning.balance_rad_s)?;
         }
+        Ok((netlist, stages))
     }
 }

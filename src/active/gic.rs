@@ -212,6 +212,10 @@ pub(crate) struct Tuning {
     /// Factor on the trim element's ideal value (1 = exact with ideal
     /// op-amps), to pre-distort against op-amp errors.
     pub correction: f64,
+    /// Whether each converter's Z1 is then scaled so its value is exact
+    /// at the balance frequency with the op-amp model (see
+    /// `compensate.rs`).
+    pub compensate: bool,
 }
 
 /// Z1..Z5 of the balanced grounded inductor of `henry` (capacitor in

@@ -66,6 +66,7 @@ impl Design {
             opamp: self.spec.opamp.model,
             balance_hz: self.spec.band.balance_hz(),
             optimize: self.spec.active.optimize,
+            passband_ripple_db: Some(self.passband_ripple_db()),
             passband_hz: self.passbands_hz(),
             gbw_spread: self.spec.montecarlo.gbw_spread,
             ..Options::new(1.0)

@@ -123,15 +123,42 @@ impl Display for Note {
                 balance_hz,
                 correction,
                 balanced_deviation_db,
+                compensated_deviation_db,
                 refined_deviation_db,
             } => write!(
                 f,
-                "refined: balance at {}, trim correction {}; largest passband deviation {} dB balanced, {} dB refined",
+                "compensated and refined: each converter's value made exact with the op-amp model at the balance frequency, then balance at {}, trim correction {}; largest passband deviation {} dB balanced, {} dB compensated, {} dB refined",
                 eng(*balance_hz, "Hz"),
                 factor(*correction),
                 db(*balanced_deviation_db),
+                db(*compensated_deviation_db),
                 db(*refined_deviation_db)
             ),
+            Note::BeyondRipple {
+                deviation_db,
+                ripple_db,
+                gbw_hz,
+                required_gbw_hz,
+            } => {
+                write!(
+                    f,
+                    "the op-amps' gain-bandwidth, {}, moves the passband by {} dB from the passive ideal, more than the {} dB ripple; ",
+                    eng(*gbw_hz, "Hz"),
+                    db(*deviation_db),
+                    db(*ripple_db)
+                )?;
+                match required_gbw_hz {
+                    Some(required) => write!(
+                        f,
+                        "op-amps of {} gain-bandwidth would hold it within the ripple (checked by a rebuild)",
+                        eng(*required, "Hz")
+                    ),
+                    None => write!(
+                        f,
+                        "no gain-bandwidth the search reached held it within the ripple"
+                    ),
+                }
+            }
             Note::RefinedUnstable { root } => write!(
                 f,
                 "the refined values left a natural frequency at {} with damping ratio {}, so the balanced values are kept",

@@ -14,7 +14,7 @@ mod raw;
 
 pub use raw::{as_written, HALF_POWER_DB};
 
-use crate::active::Method;
+use crate::active::{Method, Refine};
 use crate::approx::Family;
 use crate::circuit::OpAmpModel;
 use crate::parts::{ImpedanceLevel, PartsChoice};
@@ -27,10 +27,12 @@ use std::path::{Path, PathBuf};
 pub struct ActiveSpec {
     /// The realization asked for (default `auto`).
     pub method: Method,
-    /// Whether to choose the converters' free values numerically, for the
-    /// least passband error with the op-amp model (default false: the
-    /// balanced-converter rule).
-    pub optimize: bool,
+    /// When to compensate the converters and choose their free values
+    /// numerically, for the least passband error with the op-amp model:
+    /// `optimize` left out is [`Refine::Auto`] (when the balanced build
+    /// spends more than [`crate::active::REFINE_FRACTION`] of the ripple),
+    /// `true` [`Refine::Always`], `false` [`Refine::Never`].
+    pub optimize: Refine,
 }
 
 /// The `[opamp]` table.

@@ -2,7 +2,7 @@
 //! then the checks that turn them into a [`Spec`].
 
 use super::{ActiveSpec, MonteCarloSpec, OpAmpSpec, PrototypeSource, Spec, SpecError, MAX_TRIALS};
-use crate::active::Method;
+use crate::active::{Method, Refine};
 use crate::approx::Family;
 use crate::circuit::{OpAmpKind, OpAmpModel};
 use crate::parts::{Distribution, ImpedanceLevel, PartsChoice, Series, MAX_TOLERANCE};
@@ -260,7 +260,11 @@ pub(super) fn parse(file: &Path, text: &str) -> Result<Spec, SpecError> {
         level: raw.terminations.level.unwrap_or_default(),
         active: ActiveSpec {
             method: raw.active.method.unwrap_or(Method::Auto),
-            optimize: raw.active.optimize.unwrap_or(false),
+            optimize: match raw.active.optimize {
+                None => Refine::Auto,
+                Some(true) => Refine::Always,
+                Some(false) => Refine::Never,
+            },
         },
         opamp,
         parts,
