@@ -112,8 +112,14 @@ fn free_level_builds_each_design_in_range_with_the_same_response() {
     let (r_low, r_high) = choice.resistor_range_ohm;
     let mut report = Vec::new();
     for name in LEVEL_DESIGNS {
-        let fixed = designed(name, "fixed", "").unwrap();
-        let free = designed(name, "free", "").unwrap();
+        // Without the automatic refinement: it moves the converters'
+        // balance point, and with it their resistors, by what the op-amps
+        // need (the 50 Hz notch: balanced 3.2 dB off, refined 0.035 dB
+        // with the balance at 616 Hz and a 1.8 Mohm chain resistor); the
+        // level chooses the ladder's own parts, which this checks.
+        let unrefined = "[active]\noptimize = false\n";
+        let fixed = designed(name, "fixed", unrefined).unwrap();
+        let free = designed(name, "free", unrefined).unwrap();
         let level = &free.level;
         assert_eq!(level.asked, ImpedanceLevel::Free, "{name}");
         assert!(level.outside_default_range.is_empty(), "{name}: {level:?}");
