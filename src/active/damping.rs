@@ -38,7 +38,8 @@ use crate::circuit::{Element, ElementKind, Netlist};
 
 use super::error::ActiveError;
 use super::gic::{add_fresh, fresh_node};
-use super::passive::Passive;
+use super::passive::{ends, Passive};
+use super::stability::Groups;
 
 /// Two resonances closer than this fraction count as one (the transform
 /// gives every resonator of a loop or cutset w0 to rounding, about
@@ -73,16 +74,6 @@ pub(crate) struct Resonator {
     pub ends: (usize, usize),
     /// Its resonance, rad/s.
     pub w_rad_s: f64,
-}
-
-/// The two ends of a two-terminal element.
-fn ends(element: &Element) -> Option<(usize, usize)> {
-    match *element {
-        Element::Resistor { a, b, .. }
-        | Element::Capacitor { a, b, .. }
-        | Element::Inductor { a, b, .. } => Some((a, b)),
-        _ => None,
-    }
 }
 
 /// The other end of a two-terminal element from `node`.
@@ -160,30 +151,6 @@ fn resonators(passive: &Passive) -> Vec<Resonator> {
     found
 }
 
-/// Union-find over nodes.
-struct Joined(Vec<usize>);
-
-impl Joined {
-    fn new(nodes: usize) -> Joined {
-        Joined((0..nodes).collect())
-    }
-
-    fn root(&self, mut n: usize) -> usize {
-        while self.0[n] != n {
-            n = self.0[n];
-        }
-        n
-    }
-
-    /// Joins the sets of `a` and `b`; false when they were one already
-    /// (the edge closes a loop).
-    fn join(&mut self, a: usize, b: usize) -> bool {
-        let (ra, rb) = (self.root(a), self.root(b));
-        self.0[ra.max(rb)] = ra.min(rb);
-        ra != rb
-    }
-}
-
 /// The series pairs of `group` (one resonance) that lie on a loop made
 /// of such pairs alone.
 fn on_loops(nodes: usize, group: &[Resonator]) -> Vec<Resonator> {
@@ -191,7 +158,7 @@ fn on_loops(nodes: usize, group: &[Resonator]) -> Vec<Resonator> {
         .iter()
         .filter(|r| matches!(r.joint, Joint::Series { .. }))
         .collect();
-    let mut joined = Joined::new(nodes);
+    let mut joined = Groups::new(nodes);
     let closing: Vec<usize> = pairs
         .iter()
         .filter(|r| !joined.join(r.ends.0, r.ends.1))
@@ -216,7 +183,7 @@ fn on_cutsets(passive: &Passive, group: &[Resonator]) -> Vec<Resonator> {
         .filter(|r| r.joint == Joint::Parallel)
         .collect();
     let in_tank = |i: usize| tanks.iter().any(|t| t.inductor == i || t.capacitor == i);
-    let mut joined = Joined::new(netlist.nodes.len());
+    let mut joined = Groups::new(netlist.nodes.len());
     for (index, element) in netlist.elements.iter().enumerate() {
         match (*element).clone() {
             Element::VoltageSource { pos, neg, .. } => {

@@ -34,7 +34,7 @@ fn contract(problem: String) -> ActiveError {
 }
 
 /// The two ends of an R, C or L; `None` for a source or an op-amp.
-fn ends(element: &Element) -> Option<(usize, usize)> {
+pub(crate) fn ends(element: &Element) -> Option<(usize, usize)> {
     match *element {
         Element::Resistor { a, b, .. }
         | Element::Capacitor { a, b, .. }

@@ -321,23 +321,26 @@ fn eigenvalues(n: DMatrix<f64>) -> Option<Vec<Complex64>> {
 
 /// Nodes merged into groups; each group is named by its lowest node, so
 /// ground (node 0) always names its own.
-struct Groups(Vec<usize>);
+pub(crate) struct Groups(Vec<usize>);
 
 impl Groups {
-    fn new(nodes: usize) -> Groups {
+    pub(crate) fn new(nodes: usize) -> Groups {
         Groups((0..nodes).collect())
     }
 
-    fn root(&self, mut n: usize) -> usize {
+    pub(crate) fn root(&self, mut n: usize) -> usize {
         while self.0[n] != n {
             n = self.0[n];
         }
         n
     }
 
-    fn join(&mut self, a: usize, b: usize) {
+    /// Joins the groups of `a` and `b`; false when they were one already
+    /// (the edge closes a loop).
+    pub(crate) fn join(&mut self, a: usize, b: usize) -> bool {
         let (ra, rb) = (self.root(a), self.root(b));
         self.0[ra.max(rb)] = ra.min(rb);
+        ra != rb
     }
 }
 
@@ -347,11 +350,14 @@ impl Groups {
 fn charge_modes(netlist: &Netlist) -> usize {
     let mut groups = Groups::new(netlist.nodes.len());
     for element in &netlist.elements {
-        match *element {
-            Element::Resistor { a, b, .. } | Element::Inductor { a, b, .. } => groups.join(a, b),
-            Element::VoltageSource { pos, neg, .. } => groups.join(pos, neg),
-            Element::OpAmp { out, .. } => groups.join(out, 0),
-            Element::Capacitor { .. } => {}
+        let joined = match *element {
+            Element::Resistor { a, b, .. } | Element::Inductor { a, b, .. } => Some((a, b)),
+            Element::VoltageSource { pos, neg, .. } => Some((pos, neg)),
+            Element::OpAmp { out, .. } => Some((out, 0)),
+            Element::Capacitor { .. } => None,
+        };
+        if let Some((a, b)) = joined {
+            groups.join(a, b);
         }
     }
     let mut capacitive = vec![false; netlist.nodes.len()];

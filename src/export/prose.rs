@@ -170,10 +170,7 @@ impl Display for Note {
                 q,
                 resistors,
             } => {
-                let list: Vec<String> = resistors
-                    .iter()
-                    .map(|r| format!("{} = {}", r.designator, eng(r.ohm, "ohm")))
-                    .collect();
+                let list = resistor_list(resistors.iter().map(|r| (&r.designator, r.ohm)));
                 write!(
                     f,
                     "the ladder has loops of series L-C pairs or cutsets of L-C tanks all resonant at {} (the bandstop image of the prototype's capacitor loops or inductor cutsets): an undamped natural frequency the output never sees and the op-amps can push into growth; damping resistors ({}) give each of those resonators Q = {} and the mode a damping ratio of {} with ideal op-amps",
@@ -188,10 +185,7 @@ impl Display for Note {
                 ladder_dc_gain_db,
                 resistors,
             } => {
-                let list: Vec<String> = resistors
-                    .iter()
-                    .map(|r| format!("{} = {}", r.designator, eng(r.ohm, "ohm")))
-                    .collect();
+                let list = resistor_list(resistors.iter().map(|r| (&r.designator, r.ohm)));
                 write!(
                     f,
                     "DC gain {} dB against the ladder's {} dB: the termination capacitors would leave the FDNR inputs without a DC path, so {} across them hold the ladder's DC gain",
@@ -394,6 +388,13 @@ pub fn top_of_range(top: &TopOfRange) -> String {
         TOP_OF_RANGE,
         db(top.deviation_db)
     )
+}
+
+/// "R1 = 1 kohm", one per resistor given as (designator, ohm).
+fn resistor_list<'a>(resistors: impl Iterator<Item = (&'a String, f64)>) -> Vec<String> {
+    resistors
+        .map(|(designator, ohm)| format!("{designator} = {}", eng(ohm, "ohm")))
+        .collect()
 }
 
 /// "1 kHz, damping ratio 5.000e-7": a natural frequency as read.
