@@ -63,7 +63,7 @@ pub enum ActiveError {
     },
     /// The active network has a natural frequency in the closed right half
     /// plane with the chosen op-amp model.
-    #[error("the {method} realization is not stable with {}: its least-damped natural frequency, {:.6} Hz, has damping ratio {:.3e} (more than {margin:e} is needed); try a faster op-amp, the other method, or `optimize = true`", opamp_words(opamp), root.frequency_hz, root.damping_ratio)]
+    #[error("the {method} realization is not stable with {}: its least-damped natural frequency, {:.5e} Hz, has damping ratio {:.3e} (more than {margin:e} is needed); try a faster op-amp, the other method, or `optimize = true`", opamp_words(opamp), root.frequency_hz, root.damping_ratio)]
     Unstable {
         /// The method used.
         method: Method,
