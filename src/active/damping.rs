@@ -92,24 +92,9 @@ fn resonance(netlist: &Netlist, inductor: usize, capacitor: usize) -> Option<f64
 /// Every series L-C pair and every parallel L-C tank of the netlist.
 fn resonators(passive: &Passive) -> Vec<Resonator> {
     let netlist = &passive.netlist;
-    let mut touching = vec![Vec::new(); netlist.nodes.len()];
-    for (index, element) in netlist.elements.iter().enumerate() {
-        for (node, _) in element.terminals() {
-            touching[node].push(index);
-        }
-    }
     let kind = |i: usize| netlist.elements[i].kind();
     let mut found = Vec::new();
-    for (m, list) in touching.iter().enumerate().skip(1) {
-        if m == passive.input || m == passive.output {
-            continue;
-        }
-        let [i, j] = list[..] else { continue };
-        let (inductor, capacitor) = match (kind(i), kind(j)) {
-            (ElementKind::Inductor, ElementKind::Capacitor) => (i, j),
-            (ElementKind::Capacitor, ElementKind::Inductor) => (j, i),
-            _ => continue,
-        };
+    for (m, inductor, capacitor) in passive.series_pairs() {
         let (Some(a), Some(b), Some(w_rad_s)) = (
             other_end(&netlist.elements[inductor], m),
             other_end(&netlist.elements[capacitor], m),

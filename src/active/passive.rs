@@ -119,32 +119,38 @@ impl Passive {
         touching
     }
 
-    /// Swaps every L-C pair in series from a node to ground whose grounded
-    /// element is not of kind `grounded`, and returns one note per swap.
-    pub fn ground_series_arms(&mut self, grounded: ElementKind) -> Vec<Note> {
-        let touching = self.touching();
-        let mut notes = Vec::new();
-        for (m, list) in touching.iter().enumerate().skip(1) {
+    /// Every inductor and capacitor in series through a node that
+    /// nothing else touches (nor `in` or `out`), as (that node, the
+    /// inductor's index, the capacitor's index).
+    pub(crate) fn series_pairs(&self) -> Vec<(usize, usize, usize)> {
+        let mut pairs = Vec::new();
+        for (m, list) in self.touching().iter().enumerate().skip(1) {
             if m == self.input || m == self.output {
                 continue;
             }
             let [i, j] = list[..] else { continue };
-            let kinds = (
-                self.netlist.elements[i].kind(),
-                self.netlist.elements[j].kind(),
-            );
-            let lc = matches!(
-                kinds,
-                (ElementKind::Inductor, ElementKind::Capacitor)
-                    | (ElementKind::Capacitor, ElementKind::Inductor)
-            );
+            let kind = |k: usize| self.netlist.elements[k].kind();
+            match (kind(i), kind(j)) {
+                (ElementKind::Inductor, ElementKind::Capacitor) => pairs.push((m, i, j)),
+                (ElementKind::Capacitor, ElementKind::Inductor) => pairs.push((m, j, i)),
+                _ => {}
+            }
+        }
+        pairs
+    }
+
+    /// Swaps every L-C pair in series from a node to ground whose grounded
+    /// element is not of kind `grounded`, and returns one note per swap.
+    pub fn ground_series_arms(&mut self, grounded: ElementKind) -> Vec<Note> {
+        let mut notes = Vec::new();
+        for (m, i, j) in self.series_pairs() {
             let to_ground = |k: usize| grounded_at(&self.netlist.elements[k]) == Some(m);
             let (g, x) = match (to_ground(i), to_ground(j)) {
                 (true, false) => (i, j),
                 (false, true) => (j, i),
                 _ => continue,
             };
-            if !lc || self.netlist.elements[g].kind() == grounded {
+            if self.netlist.elements[g].kind() == grounded {
                 continue;
             }
             let Some((xa, xb)) = ends(&self.netlist.elements[x]) else {
