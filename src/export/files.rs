@@ -1,7 +1,7 @@
 //! The files of an output set, made in memory first, and written so that
-//! a folder never holds half of a set: every file goes to a temporary
-//! name in the folder, and only when all are written are they renamed
-//! into place.
+//! a folder never holds half of a set: every file goes into a staging
+//! folder inside the output folder, and only when all are written are
+//! they moved into place.
 
 use super::bom::{bom_csv, design_rows, BomError};
 use super::charts::design_charts;
@@ -154,9 +154,9 @@ fn file(name: &str, bytes: Vec<u8>) -> OutputFile {
     }
 }
 
-/// Why an output folder cannot take an output set.
+/// Why an output folder cannot take an output set (bad input: exit 2).
 #[derive(Debug, thiserror::Error)]
-#[error("--out {}: cannot write there ({}); give a folder you may create and write", dir.display(), cause.kind())]
+#[error("--out {}: cannot write there ({}); give a folder you may create and write", dir.display(), cause)]
 pub struct OutDirError {
     /// The folder.
     pub dir: PathBuf,
@@ -164,20 +164,38 @@ pub struct OutDirError {
     pub cause: std::io::Error,
 }
 
+/// Name prefix of the staging folder inside the output folder that a set
+/// is written into before its files are moved into place.
+pub const STAGING_PREFIX: &str = ".nocoil-staging-";
+
 /// Checks, before anything is computed and without leaving anything
 /// behind, that `dir` can take an output set: it is a folder a file can be
 /// written in, or it does not exist yet and its nearest existing parent
-/// is such a folder (where it will be created).
+/// is such a folder (where it will be created). A link that leads nowhere
+/// is refused: creating the folder through it would fail only after the
+/// computing.
 pub fn prepare_out_dir(dir: &Path) -> Result<(), OutDirError> {
     let fail = |cause| OutDirError {
         dir: dir.to_path_buf(),
         cause,
     };
     let absolute = std::path::absolute(dir).map_err(fail)?;
-    let existing = absolute
-        .ancestors()
-        .find(|p| p.exists())
-        .unwrap_or(Path::new("/"));
+    let mut existing = Path::new("/");
+    for p in absolute.ancestors() {
+        match (std::fs::symlink_metadata(p), p.exists()) {
+            (Ok(_), true) => {
+                existing = p;
+                break;
+            }
+            (Ok(_), false) => {
+                return Err(fail(std::io::Error::new(
+                    std::io::ErrorKind::NotFound,
+                    format!("{} is a link to nothing", p.display()),
+                )))
+            }
+            (Err(_), _) => {}
+        }
+    }
     if !existing.is_dir() {
         return Err(fail(std::io::Error::new(
             std::io::ErrorKind::NotADirectory,
@@ -189,29 +207,88 @@ pub fn prepare_out_dir(dir: &Path) -> Result<(), OutDirError> {
     Ok(())
 }
 
-/// Writes the set `files` into `dir`: all to temporary files first, then
-/// each renamed into place, so a failure while writing leaves none of the
-/// set behind.
-pub fn write_set(dir: &Path, files: &[OutputFile]) -> std::io::Result<()> {
-    std::fs::create_dir_all(dir)?;
-    let mut staged = Vec::with_capacity(files.len());
-    for f in files {
-        let mut tmp = tempfile::NamedTempFile::new_in(dir)?;
-        tmp.write_all(&f.bytes)?;
-        // The temporary file is created private (0600); an output is an
-        // ordinary file, readable by others as one written directly would
-        // be.
-        #[cfg(unix)]
-        {
-            use std::os::unix::fs::PermissionsExt;
-            tmp.as_file()
-                .set_permissions(std::fs::Permissions::from_mode(0o644))?;
-        }
-        tmp.as_file().sync_all()?;
-        staged.push((tmp, dir.join(&f.name)));
+/// Why an output set could not be written; nothing of it was moved into
+/// place.
+#[derive(Debug, thiserror::Error)]
+pub enum SetError {
+    /// A name of the set is taken by something that is not a file (a
+    /// folder, say): the user's to move (bad input).
+    #[error("--out {}: {name} is there and is not a file; move it away or give another folder (nothing of the set was written)", dir.display())]
+    NameTaken {
+        /// The output folder.
+        dir: PathBuf,
+        /// The file name of the set.
+        name: String,
+    },
+    /// Writing failed (a full disk, a folder made read-only meanwhile):
+    /// the machine's, not the input's.
+    #[error("--out {}: writing the output set failed ({cause}); nothing of the set was written", dir.display())]
+    Io {
+        /// The output folder.
+        dir: PathBuf,
+        /// Why.
+        cause: std::io::Error,
+    },
+}
+
+impl SetError {
+    /// Whether the input is at fault (exit status 2) rather than the
+    /// machine (1).
+    pub fn is_bad_input(&self) -> bool {
+        matches!(self, SetError::NameTaken { .. })
     }
-    for (tmp, path) in staged {
-        tmp.persist(path).map_err(|e| e.error)?;
+}
+
+/// Writes the set `files` into `dir` whole or not at all: every file into
+/// a staging folder inside `dir` first, and only when all are written and
+/// synced are they moved (renamed, within one file system) into place. A
+/// staging folder left by a run that was killed is removed first. A name
+/// of the set taken by a folder is found before anything is written.
+pub fn write_set(dir: &Path, files: &[OutputFile]) -> Result<(), SetError> {
+    let io = |cause| SetError::Io {
+        dir: dir.to_path_buf(),
+        cause,
+    };
+    std::fs::create_dir_all(dir).map_err(io)?;
+    remove_stale_staging(dir).map_err(io)?;
+    for f in files {
+        let taken = std::fs::symlink_metadata(dir.join(&f.name)).is_ok_and(|m| !m.is_file());
+        if taken {
+            return Err(SetError::NameTaken {
+                dir: dir.to_path_buf(),
+                name: f.name.clone(),
+            });
+        }
+    }
+    let staging = tempfile::Builder::new()
+        .prefix(STAGING_PREFIX)
+        .tempdir_in(dir)
+        .map_err(io)?;
+    for f in files {
+        let path = staging.path().join(&f.name);
+        let mut file = std::fs::File::create(&path).map_err(io)?;
+        file.write_all(&f.bytes).map_err(io)?;
+        file.sync_all().map_err(io)?;
+    }
+    for f in files {
+        std::fs::rename(staging.path().join(&f.name), dir.join(&f.name)).map_err(io)?;
+    }
+    // The staging folder, empty now, is removed when dropped.
+    Ok(())
+}
+
+/// Removes staging folders of earlier runs that did not finish.
+fn remove_stale_staging(dir: &Path) -> std::io::Result<()> {
+    for entry in std::fs::read_dir(dir)? {
+        let entry = entry?;
+        let stale = entry
+            .file_name()
+            .to_string_lossy()
+            .starts_with(STAGING_PREFIX)
+            && entry.file_type()?.is_dir();
+        if stale {
+            std::fs::remove_dir_all(entry.path())?;
+        }
     }
     Ok(())
 }
