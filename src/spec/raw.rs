@@ -7,7 +7,7 @@ use crate::approx::Family;
 use crate::circuit::{OpAmpKind, OpAmpModel};
 use crate::parts::{Distribution, ImpedanceLevel, PartsChoice, Series, MAX_TOLERANCE};
 use crate::synth::{self, Form};
-use crate::transform::{check_levels, Band, Kind, MaskField, MaskProblem};
+use crate::transform::{check_levels, Band, Kind, MaskField, MaskProblem, TERMINATION_RANGE_OHM};
 use serde::Deserialize;
 use std::path::Path;
 
@@ -150,6 +150,21 @@ impl Checker<'_> {
         self.positive(key, v, what)
     }
 
+    /// A termination, in [`TERMINATION_RANGE_OHM`].
+    fn termination(&self, key: &'static str, v: Option<f64>) -> Result<f64, SpecError> {
+        let v = self.required(key, v, "a resistance in ohm")?;
+        let (lo, hi) = TERMINATION_RANGE_OHM;
+        if (lo..=hi).contains(&v) {
+            Ok(v)
+        } else {
+            Err(self.invalid(
+                key,
+                v,
+                format!("expected a resistance in ohm from {lo:e} to {hi:e}"),
+            ))
+        }
+    }
+
     /// Edges as written: one number, or an array of numbers; their shape
     /// is checked against the kind by [`Band::new`].
     fn edges(&self, key: &'static str, v: &toml::Value) -> Result<Vec<f64>, SpecError> {
@@ -222,16 +237,8 @@ pub(super) fn parse(file: &Path, text: &str) -> Result<Spec, SpecError> {
     };
     let band = Band::new(f.kind, &passband, stopband.as_deref()).map_err(|p| c.problem(p))?;
     let prototype = prototype_source(&c, &f, stopband.is_some())?;
-    let source_ohm = c.required(
-        "terminations.source_ohm",
-        raw.terminations.source_ohm,
-        "a resistance in ohm",
-    )?;
-    let load_ohm = c.required(
-        "terminations.load_ohm",
-        raw.terminations.load_ohm,
-        "a resistance in ohm",
-    )?;
+    let source_ohm = c.termination("terminations.source_ohm", raw.terminations.source_ohm)?;
+    let load_ohm = c.termination("terminations.load_ohm", raw.terminations.load_ohm)?;
     let opamp = opamp(&c, &raw.opamp)?;
     let parts = parts(&c, &raw.parts)?;
     let montecarlo = montecarlo(&c, &raw.montecarlo)?;

@@ -23,7 +23,7 @@
 
 use super::raw::{number, syntax_error};
 use super::SpecError;
-use crate::approx::Family;
+use crate::approx::{Family, MAX_ORDER};
 use crate::synth::ArmValues;
 use serde::Deserialize;
 use std::path::{Path, PathBuf};
@@ -112,6 +112,14 @@ impl PrototypeTable {
         }
         // Every arm adds one pole; a resonator's second element adds a
         // transmission zero, not a pole, so the order is the arm count.
+        // Tables stop where the families do.
+        if !(1..=MAX_ORDER).contains(&arms.len()) {
+            return Err(invalid(
+                "arm",
+                format!("{} arms", arms.len()),
+                &format!("expected 1 to {MAX_ORDER} arms, the orders the families reach"),
+            ));
+        }
         if arms.len() != raw.order {
             return Err(invalid(
                 "order",

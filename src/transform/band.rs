@@ -122,11 +122,24 @@ fn show(edges: &[f64]) -> String {
     }
 }
 
+/// The edge frequencies a design may name, Hz: from 1 mHz (the slowest
+/// sensor-conditioning filters) to 100 MHz (far above any op-amp
+/// filter). Outside it the scaled element values, 1 / (2 pi f R) farads
+/// and R / (2 pi f) henries, run towards what a double cannot hold (an
+/// edge of 5e-324 Hz gave an infinite capacitor); inside it, with
+/// terminations in [`TERMINATION_RANGE_OHM`], they stay within about
+/// 1e-20 to 1e20 (a choice of the project).
+pub const FREQUENCY_RANGE_HZ: (f64, f64) = (1e-3, 1e8);
+
+/// The terminations a design may name, ohm (see [`FREQUENCY_RANGE_HZ`]).
+pub const TERMINATION_RANGE_OHM: (f64, f64) = (1e-3, 1e9);
+
 /// The edges as given when their shape fits `kind` (one frequency for
 /// lowpass and highpass, an ascending pair for a band kind), every
-/// frequency finite and positive.
+/// frequency within [`FREQUENCY_RANGE_HZ`].
 fn edges(field: MaskField, kind: Kind, given: &[f64]) -> Result<Vec<f64>, MaskProblem> {
-    let ok = |f: f64| f.is_finite() && f > 0.0;
+    let (lo, hi) = FREQUENCY_RANGE_HZ;
+    let ok = |f: f64| (lo..=hi).contains(&f);
     let fits = match (kind.is_band(), given) {
         (false, &[f]) => ok(f),
         (true, &[lo, hi]) => ok(lo) && ok(hi) && lo < hi,
@@ -139,11 +152,12 @@ fn edges(field: MaskField, kind: Kind, given: &[f64]) -> Result<Vec<f64>, MaskPr
         field,
         got: show(given),
         expected: if kind.is_band() {
-            "expected [low, high] in Hz with 0 < low < high, for a band kind"
+            format!(
+                "expected [low, high] in Hz with {lo:e} <= low < high <= {hi:e}, for a band kind"
+            )
         } else {
-            "expected one frequency in Hz greater than 0, for a lowpass or highpass"
-        }
-        .to_string(),
+            format!("expected one frequency in Hz from {lo:e} to {hi:e}, for a lowpass or highpass")
+        },
     })
 }
 

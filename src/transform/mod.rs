@@ -22,7 +22,9 @@
 
 mod band;
 
-pub use band::{check_levels, Band, Kind, MaskField, MaskProblem};
+pub use band::{
+    check_levels, Band, Kind, MaskField, MaskProblem, FREQUENCY_RANGE_HZ, TERMINATION_RANGE_OHM,
+};
 
 use crate::circuit::{CircuitError, Element, Netlist};
 use crate::synth::{Ladder, Reactance};
