@@ -361,7 +361,7 @@ fn built_decks_match_the_active_on_parts_build_in_ngspice() {
         }
         let d = design(&Spec::load(&path).unwrap()).unwrap();
         let active = d.active().unwrap();
-        let docs = d.documents(&active, d.analyses(&active).unwrap());
+        let docs = d.documents(&active, d.analyses(&active, None).unwrap());
         let files = nocoil::export::files::design_files(&docs).unwrap();
         let built = files.iter().find(|f| f.name == "built.cir").unwrap();
         let text = String::from_utf8(built.bytes.clone()).unwrap();

@@ -998,7 +998,7 @@ fn demo_report_renders_in_headless_chromium() {
     .unwrap();
     let d = nocoil::design::design(&spec).unwrap();
     let active = d.active().unwrap();
-    let docs = d.documents(&active, d.analyses(&active).unwrap());
+    let docs = d.documents(&active, d.analyses(&active, None).unwrap());
     let files = nocoil::export::files::document_files(&docs).unwrap();
     let html = &files
         .iter()

@@ -225,14 +225,19 @@ impl Design {
     }
 
     /// Every analysis the documents need, on the active on parts build
-    /// (what is soldered), with the design file's Monte Carlo run.
-    pub fn analyses(&self, active: &ActiveDesign) -> Result<Analyses, DesignError> {
+    /// (what is soldered), with the design file's Monte Carlo run;
+    /// `progress` is told how many of its trials are done.
+    pub fn analyses(
+        &self,
+        active: &ActiveDesign,
+        progress: Option<&(dyn Fn(usize) + Sync)>,
+    ) -> Result<Analyses, DesignError> {
         let mc = &self.spec.montecarlo;
         let parts = &active.on_parts.netlist;
         Ok(Analyses {
             traces: self.chart_traces(active)?,
             sensitivity: self.sensitivity(parts)?,
-            montecarlo: self.monte_carlo(parts, mc.trials, mc.seed, None)?,
+            montecarlo: self.monte_carlo(parts, mc.trials, mc.seed, progress)?,
             active_exact_verdict: self.verdict(&active.build.netlist)?,
             active_on_parts_verdict: self.verdict(parts)?,
         })

@@ -183,4 +183,9 @@ pub fn design_charts(d: &Documents) -> Vec<NamedChart> {
             },
         },
     ]
+    .into_iter()
+    // A chart with nothing to draw is left out: a build without op-amps
+    // (a first-order passive section) has no output levels.
+    .filter(|c| !c.chart.traces.is_empty() || c.chart.band.is_some())
+    .collect()
 }
