@@ -11,12 +11,12 @@
 use clap::{Parser, Subcommand};
 use nocoil::design::{self, ActiveDesign, Blame, Build, Design, DesignError};
 use nocoil::export::files::{
-    design_files, document_files, passive_files, prepare_out_dir, write_set, OutDirError,
+    design_files, document_files, passive_files, prepare_out_dir, write_set, OutDirError, SetError,
 };
 use nocoil::export::sweep::{write_sweep_csv, SweepError};
 use nocoil::export::{bom, summary, tables};
 use nocoil::spec::{Spec, MAX_TRIALS};
-use nocoil::transform::{Band, Kind, MaskField};
+use nocoil::transform::{Band, Kind, MaskField, FREQUENCY_RANGE_HZ};
 use std::io::Write as _;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
@@ -299,15 +299,22 @@ fn resolve(cli: Cli) -> Result<Request, FlagError> {
                         MaskField::Ripple => "--ripple",
                         MaskField::Attenuation => "--attenuation",
                     };
-                    let edges =
-                        |v: &[f64]| v.iter().map(f64::to_string).collect::<Vec<_>>().join(",");
+                    // Debug form: the shortest digits, 1e308 rather than
+                    // 309 of them.
+                    let edges = |v: &[f64]| {
+                        v.iter()
+                            .map(|f| format!("{f:?}"))
+                            .collect::<Vec<_>>()
+                            .join(",")
+                    };
+                    let (lo, hi) = FREQUENCY_RANGE_HZ;
                     let shape = match kind.is_band() {
-                        true => {
-                            format!("expected low,high in Hz with 0 < low < high, for a {kind}")
-                        }
-                        false => {
-                            format!("expected one frequency in Hz greater than 0, for a {kind}")
-                        }
+                        true => format!(
+                            "expected low,high in Hz with {lo:e} <= low < high <= {hi:e}, for a {kind}"
+                        ),
+                        false => format!(
+                            "expected one frequency in Hz from {lo:e} to {hi:e}, for a {kind}"
+                        ),
                     };
                     match p.field {
                         MaskField::Passband => flag_error(flag, edges(&passband), shape),
@@ -329,9 +336,26 @@ fn resolve(cli: Cli) -> Result<Request, FlagError> {
 }
 
 fn main() -> ExitCode {
-    let result = resolve(Cli::parse())
-        .map_err(anyhow::Error::from)
-        .and_then(run);
+    let cli = match Cli::try_parse() {
+        Ok(cli) => cli,
+        // --help and --version print and succeed.
+        Err(e) if !e.use_stderr() => {
+            let _ = e.print();
+            return ExitCode::SUCCESS;
+        }
+        // A malformed command line is bad input, told in one line like
+        // every other (clap's own message, without its usage block).
+        Err(e) => {
+            let text = e.render().to_string();
+            let first = text.lines().next().unwrap_or_default();
+            eprintln!(
+                "nocoil: {}; nocoil --help lists the commands and flags",
+                first.trim_start_matches("error: ")
+            );
+            return ExitCode::from(2);
+        }
+    };
+    let result = resolve(cli).map_err(anyhow::Error::from).and_then(run);
     match result {
         Ok(()) => ExitCode::SUCCESS,
         // A closed pipe (`nocoil sweep ... | head`) ends the program
@@ -349,6 +373,8 @@ fn main() -> ExitCode {
 fn is_bad_input(e: &anyhow::Error) -> bool {
     e.downcast_ref::<FlagError>().is_some()
         || e.downcast_ref::<OutDirError>().is_some()
+        || e.downcast_ref::<SetError>()
+            .is_some_and(SetError::is_bad_input)
         || e.downcast_ref::<DesignError>()
             .is_some_and(|d| d.blame() == Blame::Input)
 }
@@ -380,27 +406,35 @@ fn run(request: Request) -> anyhow::Result<()> {
     match request {
         Request::Design { spec, out } => {
             prepare_out_dir(&out)?;
+            let progress = Progress::new();
+            progress.stage("building the active builds");
             let d = load(&spec)?;
             let active = match d.active() {
                 Ok(active) => active,
                 // A refused active build still leaves the passive ideal.
                 Err(refusal) if refusal.blame() == Blame::Input => {
+                    progress.done();
+                    let written = write_files(&out, &passive_files(&d)?)?;
                     emit(&summary::passive_summary(&d.report(), &refusal.to_string()))?;
-                    write_files(&out, &passive_files(&d)?)?;
+                    emit(&written)?;
                     return Err(refusal.into());
                 }
                 Err(fault) => return Err(fault.into()),
             };
-            let docs = d.documents(&active, d.analyses(&active)?);
-            let files = design_files(&docs)?;
+            let docs = d.documents(&active, progress.analyses(&d, &active)?);
+            // The set is written before anything is printed, so a reader
+            // that closes standard output early still gets it whole.
+            let written = write_files(&out, &design_files(&docs)?)?;
             emit(&summary::summary(&docs))?;
-            write_files(&out, &files)
+            emit(&written)
         }
         Request::Report { spec, out } => {
             prepare_out_dir(&out)?;
+            let progress = Progress::new();
+            progress.stage("building the active builds");
             let (d, active) = load_active(&spec)?;
-            let docs = d.documents(&active, d.analyses(&active)?);
-            write_files(&out, &document_files(&docs)?)
+            let docs = d.documents(&active, progress.analyses(&d, &active)?);
+            emit(&write_files(&out, &document_files(&docs)?)?)
         }
         Request::Sweep {
             spec,
@@ -438,6 +472,8 @@ fn run(request: Request) -> anyhow::Result<()> {
             if let Some(dir) = &out {
                 prepare_out_dir(dir)?;
             }
+            let progress = Progress::new();
+            progress.stage("building the active builds");
             let (d, active) = load_active(&spec)?;
             let trials = trials.unwrap_or(d.spec.montecarlo.trials);
             let seed = seed.unwrap_or(d.spec.montecarlo.seed);
@@ -446,37 +482,29 @@ fn run(request: Request) -> anyhow::Result<()> {
                 pool = pool.num_threads(n);
             }
             let pool = pool.build()?;
-            // Progress and timing go to standard error, and only on a
-            // terminal, so that standard output is the same for one seed
-            // on any thread count.
-            let bar = indicatif::ProgressBar::with_draw_target(
-                Some(trials as u64),
-                indicatif::ProgressDrawTarget::stderr(),
-            );
-            if !std::io::IsTerminal::is_terminal(&std::io::stderr()) {
-                bar.set_draw_target(indicatif::ProgressDrawTarget::hidden());
-            }
-            let tick = |_done: usize| bar.inc(1);
+            progress.trials(trials);
+            let tick = |_done: usize| progress.tick();
             let started = std::time::Instant::now();
             let result = pool
                 .install(|| d.monte_carlo(&active.on_parts.netlist, trials, seed, Some(&tick)))?;
-            bar.finish_and_clear();
+            progress.done();
             eprintln!(
                 "nocoil: {trials} trials in {:.3} s on {} threads",
                 started.elapsed().as_secs_f64(),
                 pool.current_num_threads()
             );
-            emit(&tables::yield_summary(&result, seed))?;
-            match out {
+            let written = match out {
                 Some(dir) => write_files(
                     &dir,
                     &[nocoil::export::files::OutputFile {
                         name: "montecarlo.csv".to_string(),
                         bytes: tables::envelope_csv(&result).into_bytes(),
                     }],
-                ),
-                None => Ok(()),
-            }
+                )?,
+                None => String::new(),
+            };
+            emit(&tables::yield_summary(&result, seed))?;
+            emit(&written)
         }
         Request::Table { spec, table } => {
             let (d, active) = load_active(&spec)?;
@@ -508,14 +536,72 @@ fn run(request: Request) -> anyhow::Result<()> {
     }
 }
 
-/// Writes an output set and says where.
-fn write_files(out: &Path, files: &[nocoil::export::files::OutputFile]) -> anyhow::Result<()> {
-    write_set(out, files).map_err(|cause| OutDirError {
-        dir: out.to_path_buf(),
-        cause,
-    })?;
+/// Progress on standard error, drawn only on a terminal, so that standard
+/// output (and a log of standard error) is the same for one seed on any
+/// machine: a spinner naming the stage, then the Monte Carlo's trials
+/// with the time left.
+struct Progress(indicatif::ProgressBar);
+
+impl Progress {
+    fn new() -> Progress {
+        let bar = indicatif::ProgressBar::new_spinner();
+        if !std::io::IsTerminal::is_terminal(&std::io::stderr()) {
+            bar.set_draw_target(indicatif::ProgressDrawTarget::hidden());
+        }
+        Progress(bar)
+    }
+
+    /// Names the stage being computed.
+    fn stage(&self, what: &'static str) {
+        self.0.set_message(what);
+        self.0
+            .enable_steady_tick(std::time::Duration::from_millis(120));
+    }
+
+    /// Counts `trials` Monte Carlo trials from here on.
+    fn trials(&self, trials: usize) {
+        if let Ok(style) = indicatif::ProgressStyle::with_template(
+            "{msg} [{elapsed_precise}] {wide_bar} {pos}/{len} trials, {eta} left",
+        ) {
+            self.0.set_style(style);
+        }
+        self.0.set_message("Monte Carlo");
+        self.0.set_length(trials as u64);
+        self.0.set_position(0);
+    }
+
+    /// One more trial done.
+    fn tick(&self) {
+        self.0.inc(1);
+    }
+
+    /// The analyses of a design, the Monte Carlo's trials counted.
+    fn analyses(&self, d: &Design, active: &ActiveDesign) -> Result<design::Analyses, DesignError> {
+        self.trials(d.spec.montecarlo.trials);
+        let tick = |_done: usize| self.tick();
+        let analyses = d.analyses(active, Some(&tick));
+        self.done();
+        analyses
+    }
+
+    /// Clears the display.
+    fn done(&self) {
+        self.0.finish_and_clear();
+    }
+}
+
+impl Drop for Progress {
+    /// An error ends the program with the display cleared, not frozen.
+    fn drop(&mut self) {
+        self.0.finish_and_clear();
+    }
+}
+
+/// Writes an output set whole; returns the line that says where.
+fn write_files(out: &Path, files: &[nocoil::export::files::OutputFile]) -> anyhow::Result<String> {
+    write_set(out, files)?;
     let names: Vec<&str> = files.iter().map(|f| f.name.as_str()).collect();
-    emit(&format!(
+    Ok(format!(
         "wrote into {}: {}\n",
         out.display(),
         names.join(", ")
