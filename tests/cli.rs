@@ -1,22 +1,7 @@
 //! Tests of the `nocoil` binary: bad input, and the outputs of a good run.
 
-use std::path::{Path, PathBuf};
-use std::process::Command;
-
-fn nocoil(args: &[&str]) -> std::process::Output {
-    Command::new(env!("CARGO_BIN_EXE_nocoil"))
-        .args(args)
-        .output()
-        .expect("the nocoil binary runs")
-}
-
-/// A fresh scratch folder under the target directory.
-fn scratch(name: &str) -> PathBuf {
-    let dir = Path::new(env!("CARGO_TARGET_TMPDIR")).join(name);
-    let _ = std::fs::remove_dir_all(&dir);
-    std::fs::create_dir_all(&dir).unwrap();
-    dir
-}
+use crate::util::{nocoil, scratch};
+use std::path::Path;
 
 const GOOD: &str = r#"
 [filter]

@@ -11,6 +11,8 @@ mod damping;
 mod design;
 mod export;
 mod fast;
+mod fuzz;
+mod hardening;
 mod layering;
 mod level;
 mod parts;

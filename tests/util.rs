@@ -243,3 +243,19 @@ pub fn assert_close_rel(expected: &[Complex64], got: &[Complex64], tol: f64, con
         panic!("{context}: worst relative error {err:.3e} at index {worst} (tol {tol:e})\n--- expected\n{expected:?}\n--- got\n{got:?}");
     }
 }
+
+/// Runs the `nocoil` binary with `args`.
+pub fn nocoil(args: &[&str]) -> std::process::Output {
+    Command::new(env!("CARGO_BIN_EXE_nocoil"))
+        .args(args)
+        .output()
+        .expect("the nocoil binary runs")
+}
+
+/// A fresh scratch folder under the target directory.
+pub fn scratch(name: &str) -> std::path::PathBuf {
+    let dir = Path::new(env!("CARGO_TARGET_TMPDIR")).join(name);
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(&dir).unwrap();
+    dir
+}
