@@ -456,6 +456,11 @@ fn run(request: Request) -> anyhow::Result<()> {
             if !std::io::IsTerminal::is_terminal(&std::io::stderr()) {
                 bar.set_draw_target(indicatif::ProgressDrawTarget::hidden());
             }
+            // Time so far, trials done of all, and the time left at the
+            // rate so far.
+            bar.set_style(indicatif::ProgressStyle::with_template(
+                "{elapsed_precise} {wide_bar} {pos}/{len} trials, {eta} left",
+            )?);
             let tick = |_done: usize| bar.inc(1);
             let started = std::time::Instant::now();
             let result = pool
