@@ -10,7 +10,7 @@ use std::sync::atomic::{AtomicUsize, Ordering};
 use nocoil::analysis::{
     monte_carlo, opamp_levels, sensitivities, summarize, AnalysisError, Limit, Mask, MonteCarlo,
     MonteCarloResult, Parameter, Scope, Sensitivity, SensitivityTable, SummaryPoints,
-    ToleranceRule,
+    ToleranceRule, BLOCK_TRIALS, MEDIAN_BINS,
 };
 use nocoil::circuit::{log_grid, AcSystem, Element, Netlist, OpAmpModel, Target};
 use nocoil::parts::{Distribution, Tolerance};
@@ -770,11 +770,13 @@ fn fdnr() -> Netlist {
 }
 
 /// A Monte Carlo run of [`fdnr`] on `points` frequencies from 100 Hz to
-/// 3 kHz against `fdnr_mask(0.05)`, reporting the 5 worst trials, on the
+/// 3 kHz against `fdnr_mask(0.05)`, reporting the `worst` worst trials
+/// (every trial's summary when `worst` is the trial count), on the
 /// current rayon pool.
 fn fdnr_run(
     rules: &[ToleranceRule],
     trials: usize,
+    worst: usize,
     seed: u64,
     points: usize,
     progress: Option<&(dyn Fn(usize) + Sync)>,
@@ -791,19 +793,19 @@ fn fdnr_run(
         mask: &mask,
         trials,
         seed,
-        worst: 5,
+        worst,
         stability: None,
     };
     monte_carlo(&system(&n), &setup, progress).unwrap()
 }
 
-/// Every float of a result as bits, so equality is bit for bit.
+/// Every float of a result as bits, so equality is bit for bit (every
+/// trial's summary when the run kept them all as its worst).
 fn bits(r: &MonteCarloResult) -> Vec<u64> {
     let e = &r.envelope;
     let trials = r
-        .per_trial
+        .worst
         .iter()
-        .chain(&r.worst)
         .flat_map(|t| [t.margin_db, t.max_deviation_db, t.trial as f64]);
     [&e.min_db, &e.median_db, &e.max_db, &r.nominal_db]
         .into_iter()
@@ -823,16 +825,19 @@ fn monte_carlo_is_bit_for_bit_the_same_on_1_and_2_threads() {
         rule(Scope::OpAmpGbw, uniform(0.3)),
         rule(Scope::Element("cs".into()), uniform(0.05)),
     ];
-    let on = |threads: usize| {
+    // Every trial kept as a worst one, so every trial's summary is
+    // compared.
+    let on = |threads: usize, worst: usize| {
         let pool = rayon::ThreadPoolBuilder::new()
             .num_threads(threads)
             .build()
             .unwrap();
-        pool.install(|| fdnr_run(&rules, 200, 42, 40, None))
+        pool.install(|| fdnr_run(&rules, 200, worst, 42, 40, None))
     };
-    let (one, two) = (on(1), on(2));
+    let (one, two) = (on(1, 200), on(2, 200));
     assert_eq!(bits(&one), bits(&two));
     assert_eq!(one, two);
+    assert_eq!(one.trials, 200);
     // A test of partial yield: some trials pass and some fail.
     assert!(
         one.passed > 0 && one.passed < 200,
@@ -848,27 +853,22 @@ fn monte_carlo_is_bit_for_bit_the_same_on_1_and_2_threads() {
         .filter(|e| !e.name().starts_with('V'))
         .count();
     assert_eq!(one.varied.len(), varied);
-    // The worst trials are the smallest margins, and a trial passes
-    // exactly when its margin is not negative.
-    let least = one
-        .per_trial
-        .iter()
-        .map(|t| t.margin_db)
-        .fold(f64::INFINITY, f64::min);
-    assert_eq!(one.worst.len(), 5);
-    assert_eq!(one.worst[0].margin_db, least);
-    assert!(one
-        .worst
-        .windows(2)
-        .all(|w| w[0].margin_db <= w[1].margin_db));
-    assert!(one
-        .per_trial
-        .iter()
-        .all(|t| t.passed == (t.margin_db >= 0.0)));
-    assert_eq!(
-        one.passed,
-        one.per_trial.iter().filter(|t| t.passed).count()
-    );
+    // Kept all, the worst trials are every trial once, smallest margin
+    // first, ties by index; the 5 worst of the same run are their first
+    // five. A trial passes exactly when its margin is not negative, and
+    // the count of passing trials is `passed`.
+    let mut indices: Vec<usize> = one.worst.iter().map(|t| t.trial).collect();
+    indices.sort_unstable();
+    assert_eq!(indices, (0..200).collect::<Vec<_>>());
+    assert!(one.worst.windows(2).all(|w| w[0]
+        .margin_db
+        .total_cmp(&w[1].margin_db)
+        .then(w[0].trial.cmp(&w[1].trial))
+        .is_lt()));
+    let five = on(2, 5);
+    assert_eq!(five.worst, one.worst[..5]);
+    assert!(one.worst.iter().all(|t| t.passed == (t.margin_db >= 0.0)));
+    assert_eq!(one.passed, one.worst.iter().filter(|t| t.passed).count());
 }
 
 #[test]
@@ -878,7 +878,7 @@ fn zero_tolerances_give_full_yield_and_a_zero_width_envelope() {
         rule(Scope::Capacitors, gaussian(0.0)),
         rule(Scope::OpAmpGbw, uniform(0.0)),
     ];
-    let r = fdnr_run(&rules, 50, 1, 40, None);
+    let r = fdnr_run(&rules, 50, 50, 1, 40, None);
     assert_eq!(r.yield_fraction, 1.0);
     assert_eq!(r.passed, 50);
     let e = &r.envelope;
@@ -889,7 +889,8 @@ fn zero_tolerances_give_full_yield_and_a_zero_width_envelope() {
             .all(|(a, b)| a.to_bits() == b.to_bits());
         assert!(same, "envelope {field:?} vs nominal {:?}", r.nominal_db);
     }
-    assert!(r.per_trial.iter().all(|t| t.max_deviation_db == 0.0));
+    assert_eq!(r.worst.len(), 50, "every trial kept as a worst one");
+    assert!(r.worst.iter().all(|t| t.max_deviation_db == 0.0));
 }
 
 /// P(a b <= q) for a, b independent and uniform on [1 - t, 1 + t]: the
@@ -956,6 +957,124 @@ fn rc_yield_converges_to_its_closed_form() {
     }
 }
 
+/// Rounding of the histogram's bin edges beyond the stated bound of one
+/// bin width, in units of the larger of |lo| and |hi| (the first block's
+/// extremes): the edges lo + k w and the interpolation in them are a few
+/// roundings of numbers of that size (see `Envelope::median_db`).
+const BIN_EDGE_ROUNDING: f64 = 8.0 * f64::EPSILON;
+
+/// A Monte Carlo run of the RC lowpass of 1 kohm and 100 nF, both spread
+/// 5 % (uniform, so its corner moves), on five frequencies around its
+/// corner f0 against one limit at f0 of 0 dB or more: with no upper bound
+/// a trial's margin is its gain at f0 minus 0, that is the gain itself,
+/// bit for bit. Keeping every trial as a worst one (`worst` = `trials`)
+/// thus stores the run's every gain at f0: the column the envelope's f0
+/// entry summarizes. Returns the result and the index of f0.
+fn rc_stored_run(trials: usize, worst: usize) -> (MonteCarloResult, usize) {
+    let (r, c) = (1e3, 100e-9);
+    let f0 = 1.0 / (TAU * r * c);
+    let n = rc_lowpass(r, c);
+    let (out, inp) = ports(&n);
+    let freqs = [f0 / 4.0, f0 / 2.0, f0, 2.0 * f0, 4.0 * f0];
+    let mask = Mask::new(vec![Limit {
+        from_hz: f0,
+        to_hz: f0,
+        min_db: 0.0,
+        max_db: f64::INFINITY,
+    }])
+    .unwrap();
+    let rules = [
+        rule(Scope::Resistors, uniform(0.05)),
+        rule(Scope::Capacitors, uniform(0.05)),
+    ];
+    let setup = MonteCarlo {
+        out,
+        inp,
+        freqs_hz: &freqs,
+        rules: &rules,
+        mask: &mask,
+        trials,
+        seed: 17,
+        worst,
+        stability: None,
+    };
+    (monte_carlo(&system(&n), &setup, None).unwrap(), 2)
+}
+
+/// The median of the stored gains, by a sort: the middle value, or the
+/// mean of the two middle values for an even count.
+fn sorted_median(values: &mut [f64]) -> f64 {
+    values.sort_by(f64::total_cmp);
+    let m = values.len() / 2;
+    if values.len() % 2 == 0 {
+        (values[m - 1] + values[m]) / 2.0
+    } else {
+        values[m]
+    }
+}
+
+#[test]
+fn streamed_median_is_within_one_bin_of_the_exact_median_of_a_stored_run() {
+    // A run of one block has the exact median and extremes: those of the
+    // stored column, bit for bit. Its extremes are the first block's, the
+    // range of every longer run's histogram (trial t draws the same
+    // values in any run).
+    let (first, f0) = rc_stored_run(BLOCK_TRIALS, BLOCK_TRIALS);
+    let mut column: Vec<f64> = first.worst.iter().map(|t| t.margin_db).collect();
+    assert_eq!(column.len(), BLOCK_TRIALS);
+    assert_eq!(first.envelope.median_db[f0], sorted_median(&mut column));
+    let (lo, hi) = (first.envelope.min_db[f0], first.envelope.max_db[f0]);
+    assert_eq!((lo, hi), (column[0], column[BLOCK_TRIALS - 1]));
+    let bound = (hi - lo) / MEDIAN_BINS as f64 + BIN_EDGE_ROUNDING * lo.abs().max(hi.abs());
+    // Longer runs, odd and even, the last block partial: the extremes
+    // stay exact and the median keeps its bound.
+    for trials in [3 * BLOCK_TRIALS + 1001, 3 * BLOCK_TRIALS + 1000] {
+        let (r, _) = rc_stored_run(trials, trials);
+        let mut column: Vec<f64> = r.worst.iter().map(|t| t.margin_db).collect();
+        assert_eq!(column.len(), trials);
+        let exact = sorted_median(&mut column);
+        let e = &r.envelope;
+        assert_eq!(
+            (e.min_db[f0], e.max_db[f0]),
+            (column[0], column[trials - 1])
+        );
+        let got = e.median_db[f0];
+        assert!(
+            (got - exact).abs() <= bound,
+            "{trials} trials: median {got} dB, exact {exact} dB, bound {bound:e} dB"
+        );
+        assert_eq!(r.trials, trials);
+    }
+}
+
+#[test]
+fn monte_carlo_over_several_blocks_is_bit_for_bit_the_same_on_1_and_2_threads() {
+    let trials = 2 * BLOCK_TRIALS + 77;
+    let on = |threads: usize, worst: usize| {
+        let pool = rayon::ThreadPoolBuilder::new()
+            .num_threads(threads)
+            .build()
+            .unwrap();
+        pool.install(|| rc_stored_run(trials, worst).0)
+    };
+    let (one, two) = (on(1, trials), on(2, trials));
+    assert_eq!(bits(&one), bits(&two));
+    assert_eq!(one, two);
+    let mut indices: Vec<usize> = one.worst.iter().map(|t| t.trial).collect();
+    indices.sort_unstable();
+    assert_eq!(indices, (0..trials).collect::<Vec<_>>());
+    // The worst trials kept by the bounded heap are the first ones of
+    // every trial sorted by margin, ties by index.
+    let mut sorted = one.worst.clone();
+    sorted.sort_by(|a, b| {
+        a.margin_db
+            .total_cmp(&b.margin_db)
+            .then(a.trial.cmp(&b.trial))
+    });
+    assert_eq!(sorted, one.worst);
+    assert_eq!(on(2, 5).worst, one.worst[..5]);
+}
+
 #[test]
 fn unstable_trials_fail_in_the_proportion_routh_hurwitz_predicts() {
     // A follower whose feedback passes a 30 ns RC lag, on a two-pole
@@ -1017,7 +1136,8 @@ fn unstable_trials_fail_in_the_proportion_routh_hurwitz_predicts() {
         mask: &mask,
         trials,
         seed: 3,
-        worst: 0,
+        // Every trial kept as a worst one, to read each one's verdict.
+        worst: trials,
         stability: Some(&judge),
     };
     let r = monte_carlo(&system(&n), &setup, None).unwrap();
@@ -1027,7 +1147,9 @@ fn unstable_trials_fail_in_the_proportion_routh_hurwitz_predicts() {
         (got - exact).abs() <= YIELD_STANDARD_ERRORS * se,
         "unstable fraction {got}, Routh-Hurwitz {exact} (critical GBW {lo:e} Hz), standard error {se}"
     );
-    assert!(r.per_trial.iter().all(|t| t.stable || !t.passed));
+    assert_eq!(r.worst.len(), trials);
+    assert!(r.worst.iter().all(|t| t.stable || !t.passed));
+    assert_eq!(r.unstable, r.worst.iter().filter(|t| !t.stable).count());
     assert_eq!(
         r.passed + r.unstable,
         trials,
@@ -1039,7 +1161,7 @@ fn unstable_trials_fail_in_the_proportion_routh_hurwitz_predicts() {
 fn the_seed_changes_the_draws_and_progress_counts_every_trial() {
     let rules = [rule(Scope::Capacitors, gaussian(0.05))];
     let run = |seed: u64, progress: Option<&(dyn Fn(usize) + Sync)>| {
-        fdnr_run(&rules, 64, seed, 10, progress)
+        fdnr_run(&rules, 64, 5, seed, 10, progress)
     };
     assert_ne!(run(1, None).envelope, run(2, None).envelope);
     assert_eq!(bits(&run(1, None)), bits(&run(1, None)));

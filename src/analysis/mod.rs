@@ -33,7 +33,7 @@ pub use levels::{level_traces, opamp_levels, OpAmpLevel, LEVEL_POINTS};
 pub use mask::{Limit, Mask, MaskVerdict};
 pub use montecarlo::{
     monte_carlo, Envelope, MonteCarlo, MonteCarloResult, Scope, StabilityJudge, ToleranceRule,
-    TrialSummary, Varied,
+    TrialSummary, Varied, BLOCK_TRIALS, MEDIAN_BINS,
 };
 pub use sensitivity::{
     sensitivities, summarize, Extreme, Parameter, Sensitivity, SensitivitySummary,

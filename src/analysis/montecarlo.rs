@@ -10,10 +10,10 @@
 //! what that thread solved before: the result is identical for any rayon
 //! thread count.
 //!
-//! Cost: each rayon job (a run of consecutive trials; a few per thread)
-//! clones the system once, not once per trial, and a trial allocates
-//! nothing: it refills values, solves into the system's
-//! own buffers and writes its dB row into one table allocated up front.
+//! Cost: each rayon job (a run of consecutive trials; a few per thread
+//! and block) clones the system once, not once per trial, and a trial
+//! allocates nothing: it refills values, solves into the system's own
+//! buffers and writes its dB row into one block table allocated up front.
 //! Each job also clones one [`SparseAc`] built from the nominal system over
 //! the analysis band (pivot order chosen once), refilled per trial from
 //! the job's system: a few hundred nanoseconds per point instead of the
@@ -21,7 +21,17 @@
 //! trial's values (the same order on every thread), so reproducibility
 //! holds; a grid the sparse solver cannot take (one reaching 0 Hz) is
 //! swept by AcSystem alone.
+//!
+//! Memory: the trials run in blocks of [`BLOCK_TRIALS`], each solved in
+//! parallel into the block table and then folded, in trial order, into
+//! the counts, the worst trials (a heap of at most `worst`) and the
+//! envelope, so a run holds one block table (BLOCK_TRIALS x points) and
+//! one histogram per frequency ([`MEDIAN_BINS`]) whatever its trial
+//! count. A run of at most one block has its exact median; a longer one a
+//! binned median within a stated bound (see [`Envelope::median_db`]).
 
+use std::cmp::Ordering as Order;
+use std::collections::BinaryHeap;
 use std::sync::atomic::{AtomicUsize, Ordering};
 
 use rand_chacha::rand_core::SeedableRng;
@@ -32,6 +42,29 @@ use super::mask::{margin_db, Check, Mask};
 use super::{AnalysisError, Parameter};
 use crate::circuit::{AcSystem, CircuitError, Element, ElementKind, Netlist, OpAmpModel, SparseAc};
 use crate::parts::Tolerance;
+
+/// Trials per block: the block's trials are solved in parallel into one
+/// table of BLOCK_TRIALS x points dB values (6.5 MB on a design's 200
+/// points), then folded in trial order, so a run's memory does not grow
+/// with its trial count. Large enough that a block keeps every thread busy
+/// for many trials (the clone per rayon job and the wait at the block's
+/// end are a small part of it), that the range of the median's histogram
+/// is set from thousands of trials, and that a run of the default 1000
+/// trials (and any up to this size) has its exact median.
+pub const BLOCK_TRIALS: usize = 4096;
+
+/// Bins of the histogram per frequency from which a run longer than one
+/// block estimates its median (see [`Envelope::median_db`]). The bound
+/// on the estimate's error is one bin width, the first block's spread
+/// over MEDIAN_BINS. For a response spread normally with standard
+/// deviation sigma, that spread is about 7.3 sigma (the expected range of
+/// 4096 normal draws, twice the expected largest, 3.63, by numerical
+/// integration), so the bound is about 8.9e-4 sigma: below the median's
+/// own sampling error, 1.2533 sigma / sqrt(trials) (common practice), up
+/// to 2 million trials, and 2.2 times it at 10 million (the most a design
+/// file may ask for); the interpolation within the bin usually does much
+/// better than the bound. Its counts take 64 KB per frequency.
+pub const MEDIAN_BINS: usize = 8192;
 
 /// Which parts a tolerance rule applies to.
 #[derive(Debug, Clone, PartialEq)]
@@ -124,11 +157,33 @@ pub struct TrialSummary {
 /// Min, median and max of 20 log10 |H| over the trials, per frequency.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Envelope {
-    /// Lowest, dB.
+    /// Lowest, dB (exact).
     pub min_db: Vec<f64>,
-    /// Median, dB (the mean of the two middle trials for an even count).
+    /// Median, dB: the middle trial, or the mean of the two middle trials
+    /// for an even count.
+    ///
+    /// Exact for a run of at most [`BLOCK_TRIALS`] trials. A longer run
+    /// counts each frequency's values in a histogram of [`MEDIAN_BINS`]
+    /// equal bins spanning the first block's lowest to highest finite value
+    /// (lo to hi), with one count below lo and one above hi, and takes
+    /// each middle trial of rank r (0-based) from the bin its rank falls
+    /// in, by linear interpolation of the rank within the bin: the bin's
+    /// lower edge plus (r - trials before the bin + 1/2) / (trials in the
+    /// bin) of its width. The binning is monotone in the value (a
+    /// subtraction and a multiplication by a positive constant, each
+    /// rounded monotonically), so the trial of rank r lies in that same
+    /// bin: the error is at most one bin width, (hi - lo) / MEDIAN_BINS
+    /// (plus the rounding of the bin edges, a few units in the last place
+    /// of lo and hi). Should a middle rank fall below lo or above hi (half
+    /// the trials beyond the first block's extremes, which trials drawn
+    /// alike practically never give), the same interpolation runs over
+    /// the interval from the exact minimum to lo (or hi to the exact
+    /// maximum), and the bound is that interval's width (when that
+    /// extreme is infinite, the estimate is the extreme). The estimate
+    /// depends only on the trials' values, so it too is the same for any
+    /// thread count.
     pub median_db: Vec<f64>,
-    /// Highest, dB.
+    /// Highest, dB (exact).
     pub max_db: Vec<f64>,
 }
 
@@ -151,8 +206,8 @@ pub struct MonteCarloResult {
     pub envelope: Envelope,
     /// The worst trials, smallest margin first (ties by trial index).
     pub worst: Vec<TrialSummary>,
-    /// Every trial, by index.
-    pub per_trial: Vec<TrialSummary>,
+    /// How many trials ran.
+    pub trials: usize,
 }
 
 /// How to write a drawn value back into the system.
@@ -343,9 +398,10 @@ impl Worker {
 }
 
 /// Runs a Monte Carlo analysis on the current values of `system` (left
-/// unchanged), in parallel on the current rayon pool. `progress`, if
-/// given, is called once per finished trial with the number finished so
-/// far; calls come from the worker threads, possibly out of order.
+/// unchanged), in parallel on the current rayon pool, in blocks of
+/// [`BLOCK_TRIALS`]. `progress`, if given, is called once per finished
+/// trial with the number finished so far; calls come from the worker
+/// threads, possibly out of order.
 pub fn monte_carlo(
     system: &AcSystem,
     setup: &MonteCarlo<'_>,
@@ -385,38 +441,55 @@ pub fn monte_carlo(
         nominal_db: &nominal_db,
     };
     let done = AtomicUsize::new(0);
-    let mut table = vec![0.0; setup.trials * n];
-    let outcomes: Vec<Result<TrialSummary, CircuitError>> = table
-        .par_chunks_mut(n)
-        .enumerate()
-        .map_init(
-            || worker.clone(),
-            |own, (trial, row)| {
-                let outcome = run.trial(own, trial, row);
-                if let Some(report) = progress {
-                    report(done.fetch_add(1, Ordering::Relaxed) + 1);
-                }
-                outcome
-            },
-        )
-        .collect();
-    let per_trial = outcomes
-        .into_iter()
-        .enumerate()
-        .map(|(trial, o)| o.map_err(|source| AnalysisError::Trial { trial, source }))
-        .collect::<Result<Vec<_>, _>>()?;
-    let passed = per_trial.iter().filter(|t| t.passed).count();
-    let unstable = per_trial.iter().filter(|t| !t.stable).count();
+    let block = setup.trials.min(BLOCK_TRIALS);
+    let mut table = vec![0.0; block * n];
+    let mut outcomes = Vec::with_capacity(block);
+    let mut tally = Tally::new(setup.worst);
+    let mut streamed: Option<StreamedEnvelope> = None;
+    for first in (0..setup.trials).step_by(BLOCK_TRIALS) {
+        let rows = &mut table[..(setup.trials - first).min(BLOCK_TRIALS) * n];
+        rows.par_chunks_mut(n)
+            .enumerate()
+            .map_init(
+                || worker.clone(),
+                |own, (i, row)| {
+                    let outcome = run.trial(own, first + i, row);
+                    if let Some(report) = progress {
+                        report(done.fetch_add(1, Ordering::Relaxed) + 1);
+                    }
+                    outcome
+                },
+            )
+            .collect_into_vec(&mut outcomes);
+        // In trial order: the first trial that failed is the lowest.
+        for (i, outcome) in outcomes.drain(..).enumerate() {
+            let summary = outcome.map_err(|source| AnalysisError::Trial {
+                trial: first + i,
+                source,
+            })?;
+            tally.add(summary);
+        }
+        if setup.trials > BLOCK_TRIALS {
+            streamed
+                .get_or_insert_with(|| StreamedEnvelope::new(rows, n))
+                .add(rows, n);
+        }
+    }
+    let envelope = match streamed {
+        Some(streamed) => streamed.envelope(setup.trials),
+        // A run of one block: the table holds every trial.
+        None => envelope(&table, setup.trials, n),
+    };
     Ok(MonteCarloResult {
         freq_hz: setup.freqs_hz.to_vec(),
-        envelope: envelope(&table, setup.trials, n),
+        envelope,
         nominal_db,
         varied: knobs.iter().map(|k| varied(system, k)).collect(),
-        passed,
-        unstable,
-        yield_fraction: passed as f64 / setup.trials as f64,
-        worst: worst(&per_trial, setup.worst),
-        per_trial,
+        passed: tally.passed,
+        unstable: tally.unstable,
+        yield_fraction: tally.passed as f64 / setup.trials as f64,
+        worst: tally.worst.into_sorted(),
+        trials: setup.trials,
     })
 }
 
@@ -434,16 +507,259 @@ fn varied(system: &AcSystem, knob: &Knob) -> Varied {
     }
 }
 
-/// The `count` trials with the smallest margin, ties by index.
-fn worst(per_trial: &[TrialSummary], count: usize) -> Vec<TrialSummary> {
-    let mut sorted = per_trial.to_vec();
-    sorted.sort_by(|a, b| {
-        a.margin_db
-            .total_cmp(&b.margin_db)
-            .then(a.trial.cmp(&b.trial))
-    });
-    sorted.truncate(count);
-    sorted
+/// The counts and the worst trials, folded one trial at a time.
+struct Tally {
+    passed: usize,
+    unstable: usize,
+    worst: Worst,
+}
+
+impl Tally {
+    fn new(worst: usize) -> Tally {
+        Tally {
+            passed: 0,
+            unstable: 0,
+            worst: Worst::new(worst),
+        }
+    }
+
+    fn add(&mut self, trial: TrialSummary) {
+        self.passed += usize::from(trial.passed);
+        self.unstable += usize::from(!trial.stable);
+        self.worst.add(trial);
+    }
+}
+
+/// A trial ordered by margin, then by index: the order of the worst list
+/// (a total order, as `f64::total_cmp` orders every margin).
+#[derive(Debug, Clone, Copy)]
+struct ByMargin(TrialSummary);
+
+impl Ord for ByMargin {
+    fn cmp(&self, other: &Self) -> Order {
+        self.0
+            .margin_db
+            .total_cmp(&other.0.margin_db)
+            .then(self.0.trial.cmp(&other.0.trial))
+    }
+}
+
+impl PartialOrd for ByMargin {
+    fn partial_cmp(&self, other: &Self) -> Option<Order> {
+        Some(self.cmp(other))
+    }
+}
+
+impl PartialEq for ByMargin {
+    fn eq(&self, other: &Self) -> bool {
+        self.cmp(other) == Order::Equal
+    }
+}
+
+impl Eq for ByMargin {}
+
+/// The `count` trials with the smallest margin (ties by index) among
+/// those added: a max-heap whose top is the best of them, the one a worse
+/// trial displaces. Its memory is `count` trials at most, whatever the
+/// run's length, and each trial costs O(log count).
+struct Worst {
+    count: usize,
+    heap: BinaryHeap<ByMargin>,
+}
+
+impl Worst {
+    fn new(count: usize) -> Worst {
+        Worst {
+            count,
+            heap: BinaryHeap::new(),
+        }
+    }
+
+    fn add(&mut self, trial: TrialSummary) {
+        let trial = ByMargin(trial);
+        if self.heap.len() < self.count {
+            self.heap.push(trial);
+        } else if let Some(mut top) = self.heap.peek_mut() {
+            if trial < *top {
+                *top = trial;
+            }
+        }
+    }
+
+    /// Smallest margin first, ties by index: what a sort of every trial
+    /// by (margin, index) would put first.
+    fn into_sorted(self) -> Vec<TrialSummary> {
+        self.heap
+            .into_sorted_vec()
+            .into_iter()
+            .map(|t| t.0)
+            .collect()
+    }
+}
+
+/// The envelope of a run longer than one block, folded block by block:
+/// per frequency the exact lowest and highest value and the histogram the
+/// median is estimated from (see [`Envelope::median_db`]).
+struct StreamedEnvelope {
+    columns: Vec<ColumnTally>,
+}
+
+impl StreamedEnvelope {
+    /// The histograms' ranges from the first block (a trials x n
+    /// row-major table), nothing counted yet.
+    fn new(first: &[f64], n: usize) -> StreamedEnvelope {
+        let columns = (0..n)
+            .into_par_iter()
+            .map(|j| {
+                let (lo, hi) = first
+                    .chunks_exact(n)
+                    .map(|row| row[j])
+                    .filter(|v| v.is_finite())
+                    .fold(None, |range: Option<(f64, f64)>, v| match range {
+                        None => Some((v, v)),
+                        Some((lo, hi)) => Some((lo.min(v), hi.max(v))),
+                    })
+                    // No finite value: every value counts below or above.
+                    .unwrap_or((0.0, 0.0));
+                ColumnTally::new(lo, hi)
+            })
+            .collect();
+        StreamedEnvelope { columns }
+    }
+
+    /// Folds a block (a trials x n row-major table), each frequency's
+    /// values in trial order, the frequencies in parallel (each one's
+    /// tally depends on its own values alone).
+    fn add(&mut self, block: &[f64], n: usize) {
+        self.columns
+            .par_iter_mut()
+            .enumerate()
+            .for_each(|(j, column)| {
+                for row in block.chunks_exact(n) {
+                    column.add(row[j]);
+                }
+            });
+    }
+
+    /// The envelope of the `trials` values folded per frequency.
+    fn envelope(&self, trials: usize) -> Envelope {
+        Envelope {
+            min_db: self.columns.iter().map(|c| c.min).collect(),
+            median_db: self.columns.iter().map(|c| c.median(trials).0).collect(),
+            max_db: self.columns.iter().map(|c| c.max).collect(),
+        }
+    }
+}
+
+/// One frequency's values of a long run: exact extremes and a histogram
+/// of [`MEDIAN_BINS`] equal bins from `lo` to `hi`, with the values below
+/// `lo` and above `hi` (and NaN) counted apart.
+struct ColumnTally {
+    min: f64,
+    max: f64,
+    lo: f64,
+    hi: f64,
+    /// Bins per dB: MEDIAN_BINS / (hi - lo), or 0 for an empty range
+    /// (every value in it goes to the first bin).
+    per_db: f64,
+    below: u64,
+    above: u64,
+    bins: Vec<u64>,
+}
+
+impl ColumnTally {
+    fn new(lo: f64, hi: f64) -> ColumnTally {
+        let per_db = if hi > lo {
+            MEDIAN_BINS as f64 / (hi - lo)
+        } else {
+            0.0
+        };
+        ColumnTally {
+            min: f64::INFINITY,
+            max: f64::NEG_INFINITY,
+            lo,
+            hi,
+            per_db,
+            below: 0,
+            above: 0,
+            bins: vec![0; MEDIAN_BINS],
+        }
+    }
+
+    /// The bin of a value in [lo, hi]: monotone in the value (hi itself
+    /// goes to the last bin).
+    fn bin(&self, value: f64) -> usize {
+        // `as` saturates, and an empty range's 0 x 0 is 0.
+        (((value - self.lo) * self.per_db) as usize).min(MEDIAN_BINS - 1)
+    }
+
+    fn add(&mut self, value: f64) {
+        // f64::min and max skip NaN, as the exact envelope's do.
+        self.min = self.min.min(value);
+        self.max = self.max.max(value);
+        if value < self.lo {
+            self.below += 1;
+        } else if value <= self.hi {
+            let bin = self.bin(value);
+            self.bins[bin] += 1;
+        } else {
+            self.above += 1;
+        }
+    }
+
+    /// The value of rank `rank` (0-based), interpolated within the bin it
+    /// falls in, and that bin's width (the bound on the error).
+    fn rank(&self, rank: u64) -> (f64, f64) {
+        // Within an interval [a, b] holding `count` values of which
+        // `before` rank lower: the rank's share of it, mid-value.
+        let within = |from: f64, width: f64, before: u64, count: u64| {
+            let share = ((rank - before) as f64 + 0.5) / count as f64;
+            (from + width * share, width)
+        };
+        if rank < self.below {
+            let below = within(self.min, self.lo - self.min, 0, self.below);
+            return end_interval(self.min, self.lo, below);
+        }
+        let width = if self.per_db > 0.0 {
+            (self.hi - self.lo) / MEDIAN_BINS as f64
+        } else {
+            0.0
+        };
+        let mut before = self.below;
+        for (k, &count) in self.bins.iter().enumerate() {
+            if rank < before + count {
+                return within(self.lo + k as f64 * width, width, before, count);
+            }
+            before += count;
+        }
+        let above = within(self.hi, self.max - self.hi, before, self.above);
+        end_interval(self.max, self.hi, above)
+    }
+
+    /// The median of the `trials` values folded (the mean of the two
+    /// middle ones for an even count), estimated, and the bound on its
+    /// error.
+    fn median(&self, trials: usize) -> (f64, f64) {
+        let middle = (trials / 2) as u64;
+        let (upper, upper_bound) = self.rank(middle);
+        if trials % 2 == 0 {
+            let (lower, lower_bound) = self.rank(middle - 1);
+            ((lower + upper) / 2.0, lower_bound.max(upper_bound))
+        } else {
+            (upper, upper_bound)
+        }
+    }
+}
+
+/// An estimate inside the interval between an exact extreme and the
+/// histogram's edge: when the extreme is infinite (or NaN), the extreme
+/// itself, with an unbounded error.
+fn end_interval(extreme: f64, edge: f64, estimate: (f64, f64)) -> (f64, f64) {
+    if extreme.is_finite() && edge.is_finite() {
+        estimate
+    } else {
+        (extreme, f64::INFINITY)
+    }
 }
 
 /// Min, median and max of each column of a trials x n row-major table,
@@ -487,7 +803,10 @@ fn column_stats(column: &mut [f64]) -> (f64, f64, f64) {
 
 #[cfg(test)]
 mod tests {
-    use super::column_stats;
+    use rand_chacha::rand_core::{Rng, SeedableRng};
+    use rand_chacha::ChaCha8Rng;
+
+    use super::{column_stats, StreamedEnvelope, TrialSummary, Worst, BLOCK_TRIALS, MEDIAN_BINS};
 
     /// The textbook median of a sorted copy: the middle value, or the
     /// mean of the two middle values for an even count.
@@ -515,6 +834,110 @@ mod tests {
                 (min, median, max),
                 (lowest, sorted_median(&values), highest)
             );
+        }
+    }
+
+    /// A uniform draw in [0, 1) from the top 53 bits.
+    fn unit(rng: &mut ChaCha8Rng) -> f64 {
+        (rng.next_u64() >> 11) as f64 / (1u64 << 53) as f64
+    }
+
+    /// Rounding of the bin edges beyond the bound of one bin width, in
+    /// units of the larger of |lo| and |hi| (see `Envelope::median_db`).
+    const BIN_EDGE_ROUNDING: f64 = 8.0 * f64::EPSILON;
+
+    #[test]
+    fn streamed_median_keeps_its_bound_against_the_exact_median() {
+        // Columns a run's blocks could give, stored whole so a sort gives
+        // the exact median: a skewed spread (cubes of uniform draws), a
+        // spread whose later blocks drift above the first block's range
+        // (so the middle falls in the count above hi and the bound is
+        // that interval's), one value repeated (no spread: exact), and a
+        // column with infinite gains below (a transmission zero hit).
+        let trials = 3 * BLOCK_TRIALS + 501;
+        let mut rng = ChaCha8Rng::seed_from_u64(5);
+        let skewed: Vec<f64> = (0..trials)
+            .map(|_| -20.0 * unit(&mut rng).powi(3))
+            .collect();
+        let drifting: Vec<f64> = (0..trials)
+            .map(|t| unit(&mut rng) + if t < BLOCK_TRIALS { 0.0 } else { 3.0 })
+            .collect();
+        let flat = vec![-6.02; trials];
+        let zeros: Vec<f64> = (0..trials)
+            .map(|t| {
+                if t % 7 == 0 {
+                    f64::NEG_INFINITY
+                } else {
+                    -40.0 - unit(&mut rng)
+                }
+            })
+            .collect();
+        let columns = [skewed, drifting, flat, zeros];
+        let n = columns.len();
+        for trials in [trials, trials - 1] {
+            let table: Vec<f64> = (0..trials)
+                .flat_map(|t| columns.iter().map(move |c| c[t]))
+                .collect();
+            let mut streamed = None;
+            for block in table.chunks(BLOCK_TRIALS * n) {
+                streamed
+                    .get_or_insert_with(|| StreamedEnvelope::new(block, n))
+                    .add(block, n);
+            }
+            let streamed = streamed.unwrap();
+            let envelope = streamed.envelope(trials);
+            for (j, column) in columns.iter().enumerate() {
+                let mut exact = column[..trials].to_vec();
+                let (min, median, max) = column_stats(&mut exact);
+                assert_eq!((envelope.min_db[j], envelope.max_db[j]), (min, max));
+                let c = &streamed.columns[j];
+                let (got, bound) = c.median(trials);
+                assert_eq!(got, envelope.median_db[j]);
+                let bin = (c.hi - c.lo) / MEDIAN_BINS as f64;
+                let slack = BIN_EDGE_ROUNDING * c.lo.abs().max(c.hi.abs()).max(c.max.abs());
+                match j {
+                    // The middle inside the histogram: one bin.
+                    0 | 3 => assert_eq!(bound, bin, "column {j}"),
+                    // Above the first block's range: from hi to the max.
+                    1 => assert_eq!(bound, c.max - c.hi),
+                    _ => assert_eq!(bound, 0.0),
+                }
+                assert!(
+                    (got - median).abs() <= bound + slack,
+                    "column {j}, {trials} trials: median {got}, exact {median}, bound {bound:e}"
+                );
+            }
+        }
+    }
+
+    #[test]
+    fn worst_heap_keeps_what_a_sort_of_every_trial_puts_first() {
+        // Margins on a coarse grid, so many tie and the index decides.
+        let mut rng = ChaCha8Rng::seed_from_u64(9);
+        let trials: Vec<TrialSummary> = (0..2000)
+            .map(|trial| {
+                let margin_db = (unit(&mut rng) * 40.0).floor() / 4.0 - 5.0;
+                TrialSummary {
+                    trial,
+                    passed: margin_db >= 0.0,
+                    stable: true,
+                    margin_db,
+                    max_deviation_db: 0.0,
+                }
+            })
+            .collect();
+        let mut sorted = trials.clone();
+        sorted.sort_by(|a, b| {
+            a.margin_db
+                .total_cmp(&b.margin_db)
+                .then(a.trial.cmp(&b.trial))
+        });
+        for count in [0, 1, 5, 137, 2000, 3000] {
+            let mut worst = Worst::new(count);
+            for &t in &trials {
+                worst.add(t);
+            }
+            assert_eq!(worst.into_sorted(), sorted[..count.min(2000)], "{count}");
         }
     }
 }

@@ -292,7 +292,7 @@ impl Design {
             active_on_parts: analyses.active_on_parts_verdict,
             active_exact: analyses.active_exact_verdict,
             yield_fraction: mc.yield_fraction,
-            boards: mc.per_trial.len(),
+            boards: mc.trials,
             boards_meeting: mc.passed,
             boards_unstable: mc.unstable,
             seed: self.spec.montecarlo.seed,

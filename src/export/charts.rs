@@ -171,7 +171,7 @@ pub fn design_charts(d: &Documents) -> Vec<NamedChart> {
                     dashed: true,
                 }],
                 band: Some(Band {
-                    label: format!("{} boards", mc.per_trial.len()),
+                    label: format!("{} boards", mc.trials),
                     freq_hz: mc.freq_hz.clone(),
                     min: mc.envelope.min_db.clone(),
                     median: mc.envelope.median_db.clone(),

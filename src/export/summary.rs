@@ -54,7 +54,7 @@ pub fn yield_line(d: &Documents) -> String {
         Build::ActiveOnParts,
         100.0 * mc.yield_fraction,
         mc.passed,
-        mc.per_trial.len(),
+        mc.trials,
         super::tables::unstable_words(mc),
         d.seed
     )

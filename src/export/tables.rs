@@ -73,7 +73,7 @@ pub fn envelope_csv(r: &MonteCarloResult) -> String {
 
 /// The run's account in words: yield and the worst trials.
 pub fn yield_summary(r: &MonteCarloResult, seed: u64) -> String {
-    let trials = r.per_trial.len();
+    let trials = r.trials;
     let mut s = format!(
         "Monte Carlo: {trials} trials, seed {seed}: yield {:.2} % ({} passed{}): boards of the {} build meeting the specification\n",
         100.0 * r.yield_fraction,
