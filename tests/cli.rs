@@ -1,6 +1,6 @@
 //! Tests of the `nocoil` binary: bad input, and the outputs of a good run.
 
-use crate::util::{nocoil, scratch};
+use crate::util::{design_into, nocoil, scratch};
 use std::path::Path;
 
 const GOOD: &str = r#"
@@ -61,16 +61,6 @@ fn rejects(case: &str, text: &str, needles: &[&str]) {
 }
 
 /// The standard output of a run that must succeed.
-/// `nocoil design SPEC --out OUT`.
-fn design_into(spec: &Path, out: &Path) -> std::process::Output {
-    nocoil(&[
-        "design",
-        spec.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-    ])
-}
-
 fn succeeds(run: &std::process::Output) -> String {
     let stderr = String::from_utf8_lossy(&run.stderr);
     assert!(run.status.success(), "{stderr}");

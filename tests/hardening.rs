@@ -3,7 +3,7 @@
 //! closed or full, designs without op-amps, values no solver can hold,
 //! limits on what a file or flag may ask.
 
-use crate::util::{nocoil, scratch};
+use crate::util::{design_into as design, nocoil, scratch};
 use std::path::{Path, PathBuf};
 use std::process::{Command, Stdio};
 use std::time::{Duration, Instant};
@@ -25,15 +25,6 @@ fn names(dir: &Path) -> Vec<String> {
         .unwrap_or_default();
     v.sort();
     v
-}
-
-fn design(spec: &Path, out: &Path) -> std::process::Output {
-    nocoil(&[
-        "design",
-        spec.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-    ])
 }
 
 /// Exit status and standard error of a run.

@@ -259,3 +259,13 @@ pub fn scratch(name: &str) -> std::path::PathBuf {
     std::fs::create_dir_all(&dir).unwrap();
     dir
 }
+
+/// `nocoil design SPEC --out OUT`.
+pub fn design_into(spec: &Path, out: &Path) -> std::process::Output {
+    nocoil(&[
+        "design",
+        spec.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+    ])
+}
