@@ -649,6 +649,8 @@ fn campaign(
     let started = Instant::now();
     let next = AtomicUsize::new(0);
     let failures = Mutex::new(Vec::new());
+    // The slowest case and its time: the margin under the hang bound.
+    let slowest = Mutex::new((Duration::ZERO, 0));
     let examples = examples();
     let threads = std::thread::available_parallelism().map_or(2, |n| n.get());
     std::thread::scope(|scope| {
@@ -666,7 +668,15 @@ fn campaign(
                     short,
                 }
                 .case();
-                if let Outcome::Broken(why) = run(&case) {
+                let began = Instant::now();
+                let outcome = run(&case);
+                let took = began.elapsed();
+                let mut slow = slowest.lock().expect("slowest");
+                if took > slow.0 {
+                    *slow = (took, index);
+                }
+                drop(slow);
+                if let Outcome::Broken(why) = outcome {
                     eprintln!("fuzz case {index}: {why}");
                     failures.lock().expect("failures").push((why, case));
                 }
@@ -674,6 +684,11 @@ fn campaign(
         }
     });
     let done = next.load(Ordering::Relaxed).min(cases);
+    let (took, index) = slowest.into_inner().expect("slowest");
+    eprintln!(
+        "fuzz: {done} cases; the slowest, case {index}, took {:.1} s of the {HANG_S} s bound",
+        took.as_secs_f64()
+    );
     let mut failures = failures.into_inner().expect("failures");
     failures.sort_by(|a, b| a.0.cmp(&b.0));
     // The first case of each way of breaking (up to SHRUNK of them) is
