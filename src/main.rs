@@ -396,7 +396,11 @@ fn load(spec: &Path) -> Result<Design, DesignError> {
     design::design(&Spec::load(spec)?)
 }
 
+/// The design and its active builds, with a spinner on a terminal while
+/// they are computed (a high-order band filter takes seconds).
 fn load_active(spec: &Path) -> Result<(Design, ActiveDesign), DesignError> {
+    let progress = Progress::new();
+    progress.stage("building the active builds");
     let d = load(spec)?;
     let active = d.active()?;
     Ok((d, active))
@@ -430,9 +434,8 @@ fn run(request: Request) -> anyhow::Result<()> {
         }
         Request::Report { spec, out } => {
             prepare_out_dir(&out)?;
-            let progress = Progress::new();
-            progress.stage("building the active builds");
             let (d, active) = load_active(&spec)?;
+            let progress = Progress::new();
             let docs = d.documents(&active, progress.analyses(&d, &active)?);
             emit(&write_files(&out, &document_files(&docs)?)?)
         }
@@ -472,9 +475,8 @@ fn run(request: Request) -> anyhow::Result<()> {
             if let Some(dir) = &out {
                 prepare_out_dir(dir)?;
             }
-            let progress = Progress::new();
-            progress.stage("building the active builds");
             let (d, active) = load_active(&spec)?;
+            let progress = Progress::new();
             let trials = trials.unwrap_or(d.spec.montecarlo.trials);
             let seed = seed.unwrap_or(d.spec.montecarlo.seed);
             let mut pool = rayon::ThreadPoolBuilder::new();

@@ -338,7 +338,10 @@ impl Gen {
                 }
                 3 if !lines.is_empty() => {
                     let cut = self.below(lines[i].len() + 1);
-                    let cut = lines[i].floor_char_boundary(cut);
+                    let cut = (0..=cut)
+                        .rev()
+                        .find(|&c| lines[i].is_char_boundary(c))
+                        .unwrap_or(0);
                     lines[i].truncate(cut);
                 }
                 4 => {

@@ -131,36 +131,40 @@ pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> Strin
                 })
                 .collect(),
         });
-        tables.push(Table {
-            caption: format!("Op-amp signal levels, {}", Build::ActiveOnParts),
-            header: [
-                "op-amp",
-                "peak gain (dB)",
-                "at",
-                "max input (V peak)",
-                "clips first",
-            ]
-            .map(String::from)
-            .to_vec(),
-            rows: act
-                .active_on_parts
-                .levels
-                .iter()
-                .map(|l| {
-                    vec![
-                        l.name.clone(),
-                        db(l.peak_gain_db),
-                        eng(l.peak_freq_hz, "Hz"),
-                        eng(l.max_input_v, "V"),
-                        if l.clips_first {
-                            "yes".into()
-                        } else {
-                            String::new()
-                        },
-                    ]
-                })
-                .collect(),
-        });
+        // A build without op-amps has no levels to tabulate (the summary
+        // says so).
+        if !act.active_on_parts.levels.is_empty() {
+            tables.push(Table {
+                caption: format!("Op-amp signal levels, {}", Build::ActiveOnParts),
+                header: [
+                    "op-amp",
+                    "peak gain (dB)",
+                    "at",
+                    "max input (V peak)",
+                    "clips first",
+                ]
+                .map(String::from)
+                .to_vec(),
+                rows: act
+                    .active_on_parts
+                    .levels
+                    .iter()
+                    .map(|l| {
+                        vec![
+                            l.name.clone(),
+                            db(l.peak_gain_db),
+                            eng(l.peak_freq_hz, "Hz"),
+                            eng(l.max_input_v, "V"),
+                            if l.clips_first {
+                                "yes".into()
+                            } else {
+                                String::new()
+                            },
+                        ]
+                    })
+                    .collect(),
+            });
+        }
         notes.extend(
             act.notes
                 .iter()

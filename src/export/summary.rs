@@ -114,6 +114,11 @@ fn figures(s: &mut String, build: Build, f: &BuildFigures) {
             top.name,
             eng(top.max_input_v, "V")
         );
+    } else {
+        let _ = writeln!(
+            s,
+            "  {build}: no op-amps (the ladder has no inductor to replace), so no op-amp levels and no levels chart"
+        );
     }
 }
 
