@@ -207,13 +207,20 @@ fn count(flag: &'static str, n: u64, lowest: u64, highest: u64) -> Result<usize,
     }
 }
 
-/// A frequency flag, finite and above 0.
+/// The frequencies a sweep may reach, Hz: three decades beyond the edges
+/// a design may name on either side (`FREQUENCY_RANGE_HZ`), more than any
+/// view needs; far beyond, the network's equations no longer hold in a
+/// double (the generative test found a singular system at 1e55 Hz).
+const SWEEP_RANGE_HZ: (f64, f64) = (1e-6, 1e11);
+
+/// A frequency flag within [`SWEEP_RANGE_HZ`].
 fn frequency(flag: &'static str, f: Option<f64>) -> Result<Option<f64>, FlagError> {
+    let (lo, hi) = SWEEP_RANGE_HZ;
     match f {
-        Some(f) if !(f.is_finite() && f > 0.0) => Err(flag_error(
+        Some(f) if !(lo..=hi).contains(&f) => Err(flag_error(
             flag,
-            f,
-            "expected a frequency in Hz greater than 0",
+            format!("{f:?}"),
+            format!("expected a frequency in Hz greater than 0, from {lo:e} to {hi:e}"),
         )),
         f => Ok(f),
     }

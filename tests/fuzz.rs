@@ -15,7 +15,9 @@
 //! `fuzz_command_line` runs [`CI_CASES`] cases in every test run;
 //! `cargo test --release -- --ignored fuzz_long` runs on: the environment
 //! variables `NOCOIL_FUZZ_CASES` (default 200,000), `NOCOIL_FUZZ_SECONDS`
-//! (default 3,600) and `NOCOIL_FUZZ_SEED` (default 1) bound and seed it.
+//! (default 3,600) and `NOCOIL_FUZZ_SEED` (default 1) bound and seed it;
+//! `NOCOIL_FUZZ_FIRST` starts at another case index (each case is drawn
+//! from its own stream, so one index always gives the same case).
 
 use rand_chacha::rand_core::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
@@ -645,7 +647,7 @@ fn shrink(case: &Case, broken: &str) -> Case {
 /// input).
 fn campaign(
     seed: u64,
-    cases: usize,
+    (first, cases): (usize, usize),
     budget: Duration,
     short: bool,
 ) -> (usize, Vec<(String, Case)>) {
@@ -663,6 +665,7 @@ fn campaign(
                 if index >= cases || started.elapsed() > budget {
                     break;
                 }
+                let index = first + index;
                 let mut rng = ChaCha8Rng::seed_from_u64(seed);
                 rng.set_stream(index as u64);
                 let case = Gen {
@@ -737,7 +740,7 @@ fn env_number(name: &str, default: u64) -> u64 {
 
 #[test]
 fn fuzz_command_line() {
-    let (done, failures) = campaign(1, CI_CASES, Duration::from_secs(u64::MAX / 4), true);
+    let (done, failures) = campaign(1, (0, CI_CASES), Duration::from_secs(u64::MAX / 4), true);
     assert_eq!(done, CI_CASES);
     assert!(
         failures.is_empty(),
@@ -753,7 +756,10 @@ fn fuzz_long() {
     let cases = env_number("NOCOIL_FUZZ_CASES", 200_000) as usize;
     let budget = Duration::from_secs(env_number("NOCOIL_FUZZ_SECONDS", 3_600));
     let seed = env_number("NOCOIL_FUZZ_SEED", 1);
-    let (done, failures) = campaign(seed, cases, budget, false);
+    // A failing case is found again by its index: NOCOIL_FUZZ_FIRST=i
+    // NOCOIL_FUZZ_CASES=1.
+    let first = env_number("NOCOIL_FUZZ_FIRST", 0) as usize;
+    let (done, failures) = campaign(seed, (first, cases), budget, false);
     eprintln!(
         "fuzz_long: {done} cases, {} broke the contract",
         failures.len()

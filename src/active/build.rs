@@ -414,10 +414,9 @@ pub(crate) fn dc_path_resistors(
     let (v1, v2) = (v[ladder_in].re, v[passive.output].re);
     let ra = ra_open - (v1 - v2) * rb / v2;
     if !(ra > 0.0 && ra.is_finite()) {
-        return Err(ActiveError::BadOption {
-            option: "dc_path_factor",
-            accepted: "large enough that the source-side DC-path resistor comes out positive",
-            value: k,
+        return Err(ActiveError::DcPath {
+            source_ohm: rs,
+            load_ohm: rl,
         });
     }
     bruton.dc_path_ohm[0] = ra;
@@ -437,7 +436,11 @@ impl Plan {
             Plan::Fdnr(p, b) => assemble_fdnr(p, b, tuning, model),
         }?;
         if tuning.compensate {
-            compensate(&mut netlist, &stages, model, tuning.balance_rad_s)?;
+            let method = match self {
+                Plan::Gic(_) => super::Method::Gic,
+                Plan::Fdnr(..) => super::Method::Fdnr,
+            };
+            compensate(&mut netlist, &stages, model, tuning.balance_rad_s, method)?;
         }
         Ok((netlist, stages))
     }

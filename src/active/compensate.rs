@@ -40,12 +40,15 @@ use crate::circuit::{AcSystem, Element, Netlist, OpAmpModel};
 
 /// Scales Z1 of every converter of `netlist` so that, with op-amps of
 /// `model`, it realizes its value exactly at `w_rad_s` (see the module
-/// documentation). Nothing changes with ideal op-amps.
+/// documentation). Nothing changes with ideal op-amps. A converter that
+/// realizes an element of the wrong sign there (op-amps far too slow) is
+/// [`ActiveError::TooSlow`], named with `method`.
 pub(crate) fn compensate(
     netlist: &mut Netlist,
     stages: &[Stage],
     model: OpAmpModel,
     w_rad_s: f64,
+    method: super::Method,
 ) -> Result<(), ActiveError> {
     if model == OpAmpModel::Ideal {
         return Ok(());
@@ -58,6 +61,14 @@ pub(crate) fn compensate(
         // The value goes as Zin^sigma and Zin as Z1: Z1's impedance times
         // ratio^-sigma brings the value to the target.
         let factor = ratio.powi(-sigma(netlist, &chains[0]));
+        if !(factor > 0.0 && factor.is_finite()) {
+            return Err(ActiveError::TooSlow {
+                method,
+                replaces: stage.replaces.clone().unwrap_or_default(),
+                freq_hz: w_rad_s / TAU,
+                opamp: model,
+            });
+        }
         for chain in chains {
             scale_impedance(netlist, chain.z[0], factor)?;
         }

@@ -75,6 +75,30 @@ pub enum ActiveError {
         /// The relative margin it failed (see [`super::STABILITY_MARGIN`]).
         margin: f64,
     },
+    /// A converter cannot be compensated: with these op-amps it realizes
+    /// an element of the wrong sign at the balance frequency, so its Z1
+    /// would have to be negative (op-amps far too slow for the band).
+    #[error("the {method} converter for {replaces} cannot be compensated at {freq_hz:.6e} Hz with {}: its Z1 would come out negative (the op-amps are too slow for this band); give op-amps whose opamp.gbw_hz is 100 times that frequency or more, or `optimize = false`", opamp_words(opamp))]
+    TooSlow {
+        /// The method used.
+        method: Method,
+        /// The passive element the converter replaces.
+        replaces: String,
+        /// The balance frequency, Hz.
+        freq_hz: f64,
+        /// The op-amp model.
+        opamp: OpAmpModel,
+    },
+    /// The FDNR image's source-side DC-path resistor would come out
+    /// negative: the terminations are too far from equal for the image
+    /// to hold the ladder's DC gain.
+    #[error("terminations.source_ohm: the FDNR image cannot hold the ladder's DC gain with source {source_ohm:e} ohm and load {load_ohm:e} ohm (its source-side DC-path resistor would come out negative); give terminations closer to equal, or set active.method = \"gic\"")]
+    DcPath {
+        /// The source termination, ohm.
+        source_ohm: f64,
+        /// The load termination, ohm.
+        load_ohm: f64,
+    },
     /// Building or solving a circuit failed.
     #[error("circuit: {0}")]
     Circuit(#[from] CircuitError),

@@ -227,7 +227,10 @@ impl DesignError {
             DesignError::Circuit { .. } | DesignError::Analysis { .. } => false,
             DesignError::Active { cause, .. } => matches!(
                 cause,
-                ActiveError::NotApplicable { .. } | ActiveError::Unstable { .. }
+                ActiveError::NotApplicable { .. }
+                    | ActiveError::Unstable { .. }
+                    | ActiveError::TooSlow { .. }
+                    | ActiveError::DcPath { .. }
             ),
             DesignError::Parts { cause, .. } => cause.is_bad_input(),
         };

@@ -297,28 +297,37 @@ fn fraction(
     }
 }
 
+/// The capacitor range a design file may set, farad: from 1 fF (below
+/// any part's own stray capacitance) to 1 F; a range of 5e-324 F could
+/// not be snapped to any preferred value.
+const CAPACITOR_RANGE_LIMITS_F: (f64, f64) = (1e-15, 1.0);
+
+/// The fastest op-amp a design file may describe, Hz: 1e14 (the
+/// near-ideal 10 THz models of the tests, ten times over); beyond it the
+/// top of the op-amp range (GBW / 10) left what the solver holds (the
+/// generative test found a singular system at 8e16 Hz).
+const MAX_GBW_HZ: f64 = 1e14;
+
 fn parts(c: &Checker, raw: &RawParts) -> Result<PartsChoice, SpecError> {
     let d = PartsChoice::default();
-    let range =
-        match &raw.capacitor_range {
-            None => d.capacitor_range_f,
-            Some(v) => {
-                let pair = match v {
-                    toml::Value::Array(a) if a.len() == 2 => a[0].as_float().zip(a[1].as_float()),
-                    _ => None,
-                };
-                match pair {
-                    Some((lo, hi)) if lo.is_finite() && lo > 0.0 && hi.is_finite() && lo < hi => {
-                        (lo, hi)
-                    }
+    let range = match &raw.capacitor_range {
+        None => d.capacitor_range_f,
+        Some(v) => {
+            let pair = match v {
+                toml::Value::Array(a) if a.len() == 2 => a[0].as_float().zip(a[1].as_float()),
+                _ => None,
+            };
+            let (min, max) = CAPACITOR_RANGE_LIMITS_F;
+            match pair {
+                    Some((lo, hi)) if min <= lo && lo < hi && hi <= max => (lo, hi),
                     _ => return Err(c.invalid(
                         "parts.capacitor_range",
                         v,
-                        "expected [low, high] in farad with 0 < low < high, e.g. [100e-12, 1e-6]",
+                        format!("expected [low, high] in farad with {min:e} <= low < high <= {max:e}, e.g. [100e-12, 1e-6]"),
                     )),
                 }
-            }
-        };
+        }
+    };
     Ok(PartsChoice {
         resistor_series: raw.resistor_series.unwrap_or(d.resistor_series),
         resistor_tolerance: fraction(
@@ -395,29 +404,41 @@ fn opamp(c: &Checker, raw: &RawOpAmp) -> Result<OpAmpSpec, SpecError> {
     };
     let gbw_hz = match raw.gbw_hz {
         None => default_gbw_hz,
+        Some(v) if v > MAX_GBW_HZ => {
+            return Err(c.invalid(
+                "opamp.gbw_hz",
+                v,
+                format!(
+                "expected a gain-bandwidth product in Hz greater than 0 and at most {MAX_GBW_HZ:e}"
+            ),
+            ))
+        }
         Some(v) => c.positive("opamp.gbw_hz", v, "a gain-bandwidth product in Hz")?,
     };
     let dc_gain_db = match raw.dc_gain_db {
         None => default_dc_gain_db,
-        Some(v) if v.is_finite() && v > 0.0 && v <= MAX_DC_GAIN_DB => v,
+        Some(v) if (MIN_DC_GAIN_DB..=MAX_DC_GAIN_DB).contains(&v) => v,
         Some(v) => {
             return Err(c.invalid(
                 "opamp.dc_gain_db",
                 v,
                 format!(
-                "expected an open-loop DC gain in dB, greater than 0 and at most {MAX_DC_GAIN_DB}"
+                "expected an open-loop DC gain in dB, greater than 0: from {MIN_DC_GAIN_DB} to {MAX_DC_GAIN_DB}"
             ),
             ))
         }
     };
     let output_ohm = match raw.output_ohm {
         None => default_output_ohm,
-        Some(v) if v.is_finite() && v >= 0.0 => v,
+        Some(v) if v == 0.0 || (OUTPUT_OHM_RANGE.0..=OUTPUT_OHM_RANGE.1).contains(&v) => v,
         Some(v) => {
             return Err(c.invalid(
                 "opamp.output_ohm",
                 v,
-                "expected an output resistance in ohm, 0 or more",
+                format!(
+                    "expected an output resistance in ohm: 0, or from {:e} to {:e}",
+                    OUTPUT_OHM_RANGE.0, OUTPUT_OHM_RANGE.1
+                ),
             ))
         }
     };
@@ -452,6 +473,17 @@ fn opamp(c: &Checker, raw: &RawOpAmp) -> Result<OpAmpSpec, SpecError> {
 /// Open-loop gains beyond this (1e10) are indistinguishable from an ideal
 /// op-amp in double precision and usually a typing slip.
 const MAX_DC_GAIN_DB: f64 = 200.0;
+
+/// Least open-loop DC gain, dB: an op-amp of gain 10 no longer makes a
+/// converter (a gain of 5e-324 dB, which is 1, made the network
+/// singular, found by the generative test).
+const MIN_DC_GAIN_DB: f64 = 20.0;
+
+/// Output resistances other than 0 a design file may give, ohm: a
+/// resistance of 1e-300 ohm is a conductance no double solves beside the
+/// others (the generative test found the system singular), and a real
+/// op-amp lies between these.
+const OUTPUT_OHM_RANGE: (f64, f64) = (1e-3, 1e6);
 
 fn prototype_source(
     c: &Checker,

@@ -78,6 +78,9 @@ struct RawArm {
     shunt_resonator: Option<[f64; 2]>,
 }
 
+/// The normalized element values and load a table may hold.
+const TABLE_VALUE_RANGE: (f64, f64) = (1e-6, 1e6);
+
 impl PrototypeTable {
     /// Reads and checks a table file.
     pub fn load(file: &Path) -> Result<PrototypeTable, SpecError> {
@@ -92,7 +95,10 @@ impl PrototypeTable {
             got,
             expected: expected.to_string(),
         };
-        let positive = |v: f64| v.is_finite() && v > 0.0;
+        // Normalized element values (1 ohm, 1 rad/s) of any realizable
+        // prototype lie far inside this; beyond it a scaled element
+        // rounds to 0 or to infinity (an arm of 5e-324 H did).
+        let positive = |v: f64| (TABLE_VALUE_RANGE.0..=TABLE_VALUE_RANGE.1).contains(&v);
         let mut arms = Vec::with_capacity(raw.arm.len());
         for (i, a) in raw.arm.iter().enumerate() {
             let arm = match (a.series_l, a.shunt_c, a.series_tank, a.shunt_resonator) {
@@ -137,6 +143,15 @@ impl PrototypeTable {
                     "expected a ripple in dB greater than 0",
                 )
             })?;
+        // The levels as a design file's are checked: a ripple of 1e308 dB
+        // put the mask at minus infinity.
+        crate::transform::check_levels(ripple, raw.stopband_attenuation_db).map_err(|p| {
+            let key = match p.field {
+                crate::transform::MaskField::Attenuation => "stopband_attenuation_db",
+                _ => "passband_ripple_db",
+            };
+            invalid(key, p.got, &p.expected)
+        })?;
         let load = raw.load_ohm.filter(|r| positive(*r)).ok_or_else(|| {
             invalid(
                 "load_ohm",
