@@ -213,13 +213,24 @@ fn count(flag: &'static str, n: u64, lowest: u64, highest: u64) -> Result<usize,
 /// double (the generative test found a singular system at 1e55 Hz).
 const SWEEP_RANGE_HZ: (f64, f64) = (1e-6, 1e11);
 
+/// A number as typed, in the shorter of its plain and exponent forms:
+/// 1000 rather than 1000.0, 1e308 rather than its 309 digits.
+fn shortest(v: f64) -> String {
+    let (plain, exponent) = (v.to_string(), format!("{v:?}"));
+    if exponent.len() < plain.len() {
+        exponent
+    } else {
+        plain
+    }
+}
+
 /// A frequency flag within [`SWEEP_RANGE_HZ`].
 fn frequency(flag: &'static str, f: Option<f64>) -> Result<Option<f64>, FlagError> {
     let (lo, hi) = SWEEP_RANGE_HZ;
     match f {
         Some(f) if !(lo..=hi).contains(&f) => Err(flag_error(
             flag,
-            format!("{f:?}"),
+            shortest(f),
             format!("expected a frequency in Hz greater than 0, from {lo:e} to {hi:e}"),
         )),
         f => Ok(f),
@@ -306,14 +317,8 @@ fn resolve(cli: Cli) -> Result<Request, FlagError> {
                         MaskField::Ripple => "--ripple",
                         MaskField::Attenuation => "--attenuation",
                     };
-                    // Debug form: the shortest digits, 1e308 rather than
-                    // 309 of them.
-                    let edges = |v: &[f64]| {
-                        v.iter()
-                            .map(|f| format!("{f:?}"))
-                            .collect::<Vec<_>>()
-                            .join(",")
-                    };
+                    let edges =
+                        |v: &[f64]| v.iter().map(|f| shortest(*f)).collect::<Vec<_>>().join(",");
                     let (lo, hi) = FREQUENCY_RANGE_HZ;
                     let shape = match kind.is_band() {
                         true => format!(

@@ -168,13 +168,13 @@ const BAD_EDITS: &[(&str, &str, &str, &[&str])] = &[
         "negative",
         "1000.0",
         "-1000.0",
-        &["filter.passband_edge_hz", "-1000", "greater than 0"],
+        &["filter.passband_edge_hz", "-1000", "from 1e-3 to 1e8"],
     ),
     (
         "zero",
         "1000.0",
         "0",
-        &["filter.passband_edge_hz", "greater than 0"],
+        &["filter.passband_edge_hz", "from 1e-3 to 1e8"],
     ),
     (
         "wrong-side",
