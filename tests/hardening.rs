@@ -338,3 +338,22 @@ fn a_sweep_on_a_notch_prints_finite_numbers() {
         }
     }
 }
+
+/// A highpass on two-pole op-amps whose second pole (47 MHz) lies far
+/// below their GBW (1e12 Hz) is checked up to a tenth of the second pole,
+/// not of the GBW: the view to 1e11 Hz reached frequencies where the
+/// network's equations are singular in a double (exit 1, found by the
+/// generative run).
+#[test]
+fn a_low_second_pole_bounds_the_top_of_the_op_amp_range() {
+    let dir = scratch("low-second-pole");
+    let spec = dir.join("spec.toml");
+    std::fs::write(
+        &spec,
+        "[filter]\nkind = \"highpass\"\nfamily = \"elliptic\"\npassband_edge_hz = 0.137\nstopband_edge_hz = 0.109\npassband_ripple_db = 0.0325\nstopband_attenuation_db = 39.0\n[terminations]\nsource_ohm = 1351.0\nload_ohm = 9344.0\n[opamp]\nmodel = \"two_pole\"\ngbw_hz = 1e12\nsecond_pole_hz = 4.7135e7\n",
+    )
+    .unwrap();
+    let run = nocoil(&["levels", spec.to_str().unwrap()]);
+    let (code, stderr) = status(&run);
+    assert_eq!(code, Some(0), "{stderr}");
+}

@@ -19,7 +19,7 @@
 use crate::active::{self, ActiveError};
 use crate::analysis::{passband_level_db, AnalysisError, Limit};
 use crate::approx::{self, ApproxError, Family, Params, Prototype};
-use crate::circuit::{CircuitError, Netlist};
+use crate::circuit::{CircuitError, Netlist, OpAmpModel};
 use crate::realize::{ladder_level, LadderLevel, PartsSnapError};
 use crate::spec::table::PrototypeTable;
 use crate::spec::{PrototypeSource, Spec, SpecError};
@@ -513,15 +513,28 @@ impl Design {
     }
 
     /// How far up a highpass or bandstop passband is checked, plotted and
-    /// reported: [`TOP_OF_RANGE`] times the op-amps' gain-bandwidth, when
-    /// that lies above the band's own view; `None` for the other kinds,
-    /// for ideal op-amps, or when the view already reaches it.
+    /// reported: [`TOP_OF_RANGE`] times the op-amps' gain-bandwidth (or
+    /// their second pole, when that lies below it: the gain falls twice as
+    /// fast above it, and a view to a tenth of a 1e12 Hz GBW over a 47 MHz
+    /// second pole reached frequencies where the network's equations are
+    /// singular in a double, found by the generative test), when that lies
+    /// above the band's own view; `None` for the other kinds, for ideal
+    /// op-amps, or when the view already reaches it.
     pub fn top_of_range_hz(&self) -> Option<f64> {
         let open_above = matches!(
             self.spec.band,
             Band::Highpass { .. } | Band::Bandstop { .. }
         );
-        let top = TOP_OF_RANGE * self.spec.opamp.model.gbw_hz()?;
+        let model = self.spec.opamp.model;
+        let corner_hz = match model {
+            OpAmpModel::TwoPole {
+                gbw_hz,
+                second_pole_hz,
+                ..
+            } => gbw_hz.min(second_pole_hz),
+            _ => model.gbw_hz()?,
+        };
+        let top = TOP_OF_RANGE * corner_hz;
         (open_above && top > self.spec.band.view_hz().1).then_some(top)
     }
 

@@ -383,7 +383,7 @@ impl Display for OrderChoice {
 /// the passive ideal".
 pub fn top_of_range(top: &TopOfRange) -> String {
     format!(
-        "passband checked up to {} (GBW x {}, the top of the op-amp range), where it is {} dB from the passive ideal",
+        "passband checked up to {} ({} x the op-amps' GBW, or their second pole if lower: the top of the op-amp range), where it is {} dB from the passive ideal",
         eng(top.freq_hz, "Hz"),
         TOP_OF_RANGE,
         db(top.deviation_db)
