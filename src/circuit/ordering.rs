@@ -79,28 +79,70 @@ impl Candidate {
     }
 }
 
-/// Elimination state shared by every sample.
+/// Elimination state shared by every sample. The filled pattern is also
+/// kept as lists per row and per column, so every scan walks the
+/// nonzeros of the remaining submatrix, not its n^2 entries: on the
+/// floating-GIC build of an 11th-order bandstop (n = 167, 40 check
+/// frequencies) the dense scans took 0.3 s per ordering and most of a
+/// 3.5 s `bom` run.
 struct State<'a> {
     n: usize,
     samples: &'a mut [Sample],
     filled: Vec<bool>,
+    /// Filled columns of each row, ascending (so ties between candidates
+    /// are broken by (row, column), as a dense scan would).
+    row_cols: Vec<Vec<usize>>,
+    /// Filled rows of each column, in no particular order.
+    col_rows: Vec<Vec<usize>>,
     row_done: Vec<bool>,
     col_done: Vec<bool>,
 }
 
 impl State<'_> {
+    fn new<'a>(n: usize, pattern: &[bool], samples: &'a mut [Sample]) -> State<'a> {
+        let mut row_cols = vec![Vec::new(); n];
+        let mut col_rows = vec![Vec::new(); n];
+        for i in 0..n {
+            for j in (0..n).filter(|&j| pattern[i * n + j]) {
+                row_cols[i].push(j);
+                col_rows[j].push(i);
+            }
+        }
+        State {
+            n,
+            samples,
+            filled: pattern.to_vec(),
+            row_cols,
+            col_rows,
+            row_done: vec![false; n],
+            col_done: vec![false; n],
+        }
+    }
+
+    /// The filled entries (row, column) of the remaining submatrix, row
+    /// by row, columns ascending.
+    fn remaining(&self) -> impl Iterator<Item = (usize, usize)> + '_ {
+        (0..self.n)
+            .filter(|&i| !self.row_done[i])
+            .flat_map(move |i| {
+                self.row_cols[i]
+                    .iter()
+                    .filter(|&&j| !self.col_done[j])
+                    .map(move |&j| (i, j))
+            })
+    }
+
     /// The largest scaled |entry| of each remaining column, per sample.
+    /// Entries outside the filled pattern are exactly zero.
     fn column_peaks(&self) -> Vec<Vec<f64>> {
         let n = self.n;
         self.samples
             .iter()
             .map(|s| {
                 let mut peak = vec![0.0_f64; n];
-                for i in (0..n).filter(|&i| !self.row_done[i]) {
-                    for j in (0..n).filter(|&j| !self.col_done[j]) {
-                        let v = size(s.values[i * n + j]) / s.row_size[i];
-                        peak[j] = peak[j].max(v);
-                    }
+                for (i, j) in self.remaining() {
+                    let v = size(s.values[i * n + j]) / s.row_size[i];
+                    peak[j] = peak[j].max(v);
                 }
                 peak
             })
@@ -110,13 +152,10 @@ impl State<'_> {
     /// Nonzeros of each remaining row and column within the remaining
     /// submatrix.
     fn counts(&self) -> (Vec<usize>, Vec<usize>) {
-        let n = self.n;
-        let (mut r, mut c) = (vec![0; n], vec![0; n]);
-        for i in (0..n).filter(|&i| !self.row_done[i]) {
-            for j in (0..n).filter(|&j| !self.col_done[j] && self.filled[i * n + j]) {
-                r[i] += 1;
-                c[j] += 1;
-            }
+        let (mut r, mut c) = (vec![0; self.n], vec![0; self.n]);
+        for (i, j) in self.remaining() {
+            r[i] += 1;
+            c[j] += 1;
         }
         (r, c)
     }
@@ -128,32 +167,30 @@ impl State<'_> {
         let peaks = self.column_peaks();
         let (r, c) = self.counts();
         let mut best: Option<Candidate> = None;
-        for i in (0..n).filter(|&i| !self.row_done[i]) {
-            for j in (0..n).filter(|&j| !self.col_done[j] && self.filled[i * n + j]) {
-                // A pivot that is zero at any sample is no pivot at all
-                // (and would make the ratio 0/0 in an all-zero column).
-                if self
-                    .samples
-                    .iter()
-                    .any(|s| size(s.values[i * n + j]) == 0.0)
-                {
-                    continue;
-                }
-                let ratio = self
-                    .samples
-                    .iter()
-                    .zip(&peaks)
-                    .map(|(s, peak)| size(s.values[i * n + j]) / s.row_size[i] / peak[j])
-                    .fold(f64::INFINITY, f64::min);
-                let cand = Candidate {
-                    row: i,
-                    col: j,
-                    cost: (r[i] - 1) * (c[j] - 1),
-                    ratio,
-                };
-                if best.is_none_or(|b| cand.beats(&b)) {
-                    best = Some(cand);
-                }
+        for (i, j) in self.remaining() {
+            // A pivot that is zero at any sample is no pivot at all
+            // (and would make the ratio 0/0 in an all-zero column).
+            if self
+                .samples
+                .iter()
+                .any(|s| size(s.values[i * n + j]) == 0.0)
+            {
+                continue;
+            }
+            let ratio = self
+                .samples
+                .iter()
+                .zip(&peaks)
+                .map(|(s, peak)| size(s.values[i * n + j]) / s.row_size[i] / peak[j])
+                .fold(f64::INFINITY, f64::min);
+            let cand = Candidate {
+                row: i,
+                col: j,
+                cost: (r[i] - 1) * (c[j] - 1),
+                ratio,
+            };
+            if best.is_none_or(|b| cand.beats(&b)) {
+                best = Some(cand);
             }
         }
         best
@@ -165,15 +202,25 @@ impl State<'_> {
         let n = self.n;
         self.row_done[row] = true;
         self.col_done[col] = true;
-        let targets: Vec<usize> = (0..n)
-            .filter(|&i| !self.row_done[i] && self.filled[i * n + col])
+        let targets: Vec<usize> = self.col_rows[col]
+            .iter()
+            .copied()
+            .filter(|&i| !self.row_done[i])
             .collect();
-        let sources: Vec<usize> = (0..n)
-            .filter(|&j| !self.col_done[j] && self.filled[row * n + j])
+        let sources: Vec<usize> = self.row_cols[row]
+            .iter()
+            .copied()
+            .filter(|&j| !self.col_done[j])
             .collect();
         for &i in &targets {
             for &j in &sources {
-                self.filled[i * n + j] = true;
+                if !self.filled[i * n + j] {
+                    self.filled[i * n + j] = true;
+                    let cols = &mut self.row_cols[i];
+                    let at = cols.partition_point(|&k| k < j);
+                    cols.insert(at, j);
+                    self.col_rows[j].push(i);
+                }
             }
         }
         for s in self.samples.iter_mut() {
@@ -194,13 +241,7 @@ impl State<'_> {
 /// remaining entry is nonzero at every sample (the matrix is singular at
 /// one of them, or an entry cancels exactly there).
 pub(crate) fn markowitz(n: usize, pattern: &[bool], samples: &mut [Sample]) -> Option<Ordering> {
-    let mut state = State {
-        n,
-        samples,
-        filled: pattern.to_vec(),
-        row_done: vec![false; n],
-        col_done: vec![false; n],
-    };
+    let mut state = State::new(n, pattern, samples);
     let (mut rows, mut cols) = (Vec::with_capacity(n), Vec::with_capacity(n));
     for _ in 0..n {
         let pivot = state.best()?;
