@@ -701,3 +701,42 @@ fn a_circuit_singular_everywhere_is_refused() {
         }
     );
 }
+
+#[test]
+fn regional_orders_keep_a_wide_bandstop_on_the_sparse_path() {
+    // The floating-GIC build of an 11th-order bandstop from 1 Hz to
+    // 9.2 kHz (found by the long generative run, where its `bom` took 9 s):
+    // no one order passes the guard over both passbands; the best failed
+    // at 43 of the 180 passband points, all between 0.1 and 0.6 Hz, and
+    // the refinement's hundreds of sweeps took the dense path there.
+    // Regional orders chosen on that stretch solve every point sparse,
+    // within the bound against the extended-precision solve (every
+    // ninth point: the reference's fully pivoted LU calls 0.1 Hz
+    // singular, the condition there being near 1e13).
+    let text = "[filter]\nkind = \"bandstop\"\nfamily = \"butterworth\"\norder = 11\n\
+                passband_edge_hz = [1.0, 9225.2]\npassband_ripple_db = 0.0467\n\
+                [terminations]\nsource_ohm = 35809.0\nload_ohm = 88122.0\n\
+                [active]\nmethod = \"gic\"\n";
+    let spec =
+        nocoil::spec::Spec::from_toml(std::path::Path::new("wide-bandstop.toml"), text).unwrap();
+    let d = nocoil::design::design(&spec).unwrap();
+    let netlist = d.active().unwrap().build.netlist;
+    let grid =
+        nocoil::circuit::band_grid(&d.passbands_hz(), nocoil::active::PASSBAND_POINTS).unwrap();
+    let (lo, hi) = (grid[0], grid[grid.len() - 1]);
+    let system = AcSystem::new(&netlist).unwrap();
+    let mut sparse = SparseAc::new(&system, lo, hi).unwrap();
+    assert!(sparse.orders() > 1, "one order served the whole band");
+    let points: Vec<f64> = grid.iter().step_by(9).copied().collect();
+    let fallbacks = check_extended(&mut sparse, &system, &points, "wide bandstop");
+    assert_eq!(fallbacks, 0, "of {} points", points.len());
+    let (out, inp) = ends(&netlist);
+    let mut h = Vec::new();
+    sparse.sweep_into(&grid, out, inp, &mut h).unwrap();
+    assert_eq!(
+        sparse.fallbacks(),
+        0,
+        "of the {} passband points",
+        grid.len()
+    );
+}

@@ -17,7 +17,8 @@
 //! variables `NOCOIL_FUZZ_CASES` (default 200,000), `NOCOIL_FUZZ_SECONDS`
 //! (default 3,600) and `NOCOIL_FUZZ_SEED` (default 1) bound and seed it;
 //! `NOCOIL_FUZZ_FIRST` starts at another case index (each case is drawn
-//! from its own stream, so one index always gives the same case).
+//! from its own stream, so one index always gives the same case), and
+//! `NOCOIL_FUZZ_SHOW` prints each case before it runs.
 
 use rand_chacha::rand_core::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
@@ -674,6 +675,12 @@ fn campaign(
                     short,
                 }
                 .case();
+                if std::env::var_os("NOCOIL_FUZZ_SHOW").is_some() {
+                    eprintln!(
+                        "fuzz case {index}:\n{}",
+                        report(&[(String::new(), case.clone())])
+                    );
+                }
                 let began = Instant::now();
                 let outcome = run(&case);
                 let took = began.elapsed();

@@ -17,6 +17,12 @@
 //!   zero), a scan of the band at construction finds the weak
 //!   neighbourhood, and the order is chosen again with those frequencies
 //!   among the check points.
+//! - Regional orders: where no single order serves the whole band (on
+//!   the floating-GIC build of an 11th-order bandstop from 1 Hz to
+//!   9.2 kHz the best one failed the guard at 43 of the 180 passband
+//!   points, all between 0.1 and 0.6 Hz, and the dense path made a
+//!   `bom` run take 9 s), further orders are chosen on the failing
+//!   stretches alone; a point tries the orders in turn.
 //! - Guard: each point re-checks the threshold at run time (scaled
 //!   multipliers no larger than 1 / `GUARD_THRESHOLD`, pivots above a
 //!   floor of their row); a point that fails is solved by the dense
@@ -70,6 +76,16 @@ const MAX_REORDERS: usize = 3;
 /// Weak points added per run of consecutive weak scan points, at most
 /// (spread over the run).
 const WEAK_SAMPLES: usize = 4;
+
+/// Orders chosen for stretches of the band the first order fails, at
+/// most (see the module documentation).
+const MAX_REGIONAL: usize = 3;
+
+/// Check points of a regional order per run of failing scan points, at
+/// most (spread over the run): twice [`CHECKS_PER_DECADE`]'s density over
+/// the 0.1-0.6 Hz stretch of the bandstop in the module documentation,
+/// where its regional order then passes the guard at every scan point.
+const REGIONAL_SAMPLES: usize = 8;
 
 /// What went wrong while building or refilling a [`SparseAc`].
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -217,7 +233,9 @@ pub struct SparseAc {
     n: usize,
     node_count: usize,
     shapes: Vec<Shape>,
-    plan: Plan,
+    /// The order chosen over the whole band, then the regional orders;
+    /// all hold the same values.
+    plans: Vec<Plan>,
     dense: Dense,
     fallbacks: usize,
 }
@@ -275,11 +293,12 @@ impl SparseAc {
             }
             plan = next;
         }
+        let plans = regional_orders(plan, &scan, order_at);
         Ok(SparseAc {
             n,
             node_count: layout.node_count,
             shapes: netlist.elements.iter().map(shape).collect(),
-            plan,
+            plans,
             dense: Dense {
                 g: DMatrix::zeros(n, n),
                 c: DMatrix::zeros(n, n),
@@ -296,7 +315,9 @@ impl SparseAc {
     /// order.
     pub fn refill(&mut self, system: &AcSystem) -> Result<(), SparseError> {
         self.check_shapes(system)?;
-        self.plan.load(system.g(), system.c(), system.b());
+        for plan in &mut self.plans {
+            plan.load(system.g(), system.c(), system.b());
+        }
         Ok(())
     }
 
@@ -328,14 +349,22 @@ impl SparseAc {
         self.fallbacks
     }
 
-    /// Sizes of the pattern, the factors and the work per point.
+    /// Sizes of the pattern, the factors and the work per point, of the
+    /// order chosen over the whole band.
     pub fn stats(&self) -> SparseStats {
+        let plan = &self.plans[0];
         SparseStats {
             unknowns: self.n,
-            pattern: self.plan.pattern_len(),
-            filled: self.plan.filled_len(),
-            multiply_adds: self.plan.multiply_adds(),
+            pattern: plan.pattern_len(),
+            filled: plan.filled_len(),
+            multiply_adds: plan.multiply_adds(),
         }
+    }
+
+    /// How many orders the solver holds: one for the whole band, plus one
+    /// per stretch of it that order fails (see the module documentation).
+    pub fn orders(&self) -> usize {
+        self.plans.len()
     }
 
     /// The dense, partially pivoted transfer (and delay, when asked
@@ -347,7 +376,7 @@ impl SparseAc {
         delay: Option<bool>,
     ) -> Result<(Complex64, f64), PointFailure> {
         let d = &mut self.dense;
-        self.plan.unload(&mut d.g, &mut d.c, &mut d.b);
+        self.plans[0].unload(&mut d.g, &mut d.c, &mut d.b);
         d.solver.point(&d.g, &d.c, &d.b, omega, unknowns, delay)
     }
 
@@ -363,10 +392,36 @@ impl SparseAc {
         }
     }
 
+    /// Solves the lanes of `omega` by each order in turn until every
+    /// lane in `0..lanes` has passed the guard, reading each passing lane
+    /// once with `read(plan, lane)` (which says whether its numbers are
+    /// usable); `None` for a lane no order could solve.
+    fn solve_lanes<T: Copy>(
+        &mut self,
+        omega: &[f64; LANES],
+        lanes: usize,
+        solve: impl Fn(&mut Plan, &[f64; LANES]) -> [bool; LANES],
+        read: impl Fn(&Plan, usize) -> Option<T>,
+    ) -> [Option<T>; LANES] {
+        let mut got = [None; LANES];
+        for plan in &mut self.plans {
+            if got[..lanes].iter().all(Option::is_some) {
+                break;
+            }
+            let ok = solve(plan, omega);
+            for (k, got) in got[..lanes].iter_mut().enumerate() {
+                if ok[k] && got.is_none() {
+                    *got = read(plan, k);
+                }
+            }
+        }
+        got
+    }
+
     /// V(out) / V(inp) at up to [`LANES`] frequencies at once, into `h`
-    /// (as long as `freqs_hz`): one sparse pass, then the dense path for
-    /// any lane the guard rejected. The frequencies are checked by the
-    /// caller.
+    /// (as long as `freqs_hz`): sparse passes (one per order needed),
+    /// then the dense path for any lane every order's guard rejected. The
+    /// frequencies are checked by the caller.
     fn solve_chunk(
         &mut self,
         freqs_hz: &[f64],
@@ -376,12 +431,19 @@ impl SparseAc {
     ) -> Result<(), CircuitError> {
         let omega = lane_omegas(freqs_hz);
         let unknowns = [out.checked_sub(1), inp.checked_sub(1)];
-        let ok = self.plan.solve(&omega, GUARD_THRESHOLD, unknowns);
-        for ((k, &freq_hz), h) in freqs_hz.iter().enumerate().zip(h) {
-            let sparse =
-                unknowns.map(|u| u.map_or(Complex64::new(0.0, 0.0), |u| self.plan.unknown(u, k)));
-            let [vout, vin] = if ok[k] && sparse.iter().all(|z| z.is_finite()) {
-                sparse
+        let got = self.solve_lanes(
+            &omega,
+            freqs_hz.len(),
+            |plan, omega| plan.solve(omega, GUARD_THRESHOLD, unknowns),
+            |plan, k| {
+                let v =
+                    unknowns.map(|u| u.map_or(Complex64::new(0.0, 0.0), |u| plan.unknown(u, k)));
+                v.iter().all(|z| z.is_finite()).then_some(v)
+            },
+        );
+        for (((k, &freq_hz), h), got) in freqs_hz.iter().enumerate().zip(h).zip(got) {
+            let [vout, vin] = if let Some(v) = got {
+                v
             } else {
                 self.fallbacks += 1;
                 *h = self
@@ -413,14 +475,21 @@ impl SparseAc {
         const ZERO: Complex64 = Complex64::new(0.0, 0.0);
         let omega = lane_omegas(freqs_hz);
         let unknowns = [out.checked_sub(1), inp.checked_sub(1)];
-        let ok = self
-            .plan
-            .solve_with_derivative(&omega, GUARD_THRESHOLD, unknowns);
+        let got = self.solve_lanes(
+            &omega,
+            freqs_hz.len(),
+            |plan, omega| plan.solve_with_derivative(omega, GUARD_THRESHOLD, unknowns),
+            |plan, k| {
+                let at = |read: &dyn Fn(usize) -> Complex64| unknowns.map(|u| u.map_or(ZERO, read));
+                let [vout, vin] = at(&|u| plan.unknown(u, k));
+                let [dout, din] = at(&|u| plan.derivative(u, k));
+                let v = [vout, vin, dout, din];
+                v.iter().all(|z| z.is_finite()).then_some(v)
+            },
+        );
         for (k, &freq_hz) in freqs_hz.iter().enumerate() {
-            let at = |read: &dyn Fn(usize) -> Complex64| unknowns.map(|u| u.map_or(ZERO, read));
-            let [vout, vin] = at(&|u| self.plan.unknown(u, k));
-            let [dout, din] = at(&|u| self.plan.derivative(u, k));
-            let sparse_ok = ok[k] && [vout, vin, dout, din].iter().all(|z| z.is_finite());
+            let sparse_ok = got[k].is_some();
+            let [vout, vin, dout, din] = got[k].unwrap_or([ZERO; 4]);
             if sparse_ok && vin != ZERO {
                 let delay = -(dout / vout - din / vin).re;
                 if vout != ZERO && delay.is_finite() {
@@ -565,6 +634,46 @@ fn weak_points(plan: &mut Plan, scan: &[f64], guard: f64) -> Vec<usize> {
     weak
 }
 
+/// `first` (the order chosen over the whole band), then up to
+/// [`MAX_REGIONAL`] orders chosen by `order_at` on the stretches of the
+/// scan that the orders before them fail at the run-time guard, each
+/// kept only if it solves some of them.
+fn regional_orders(
+    first: Plan,
+    scan: &[f64],
+    order_at: impl Fn(&[f64]) -> Option<Plan>,
+) -> Vec<Plan> {
+    let mut plans = vec![first];
+    let mut failing: Vec<f64> = weak_points(&mut plans[0], scan, GUARD_THRESHOLD)
+        .into_iter()
+        .map(|k| scan[k])
+        .collect();
+    while !failing.is_empty() && plans.len() <= MAX_REGIONAL {
+        // Runs of the failing points, as indices into the scan.
+        let at: Vec<usize> = failing
+            .iter()
+            .map(|f| scan.partition_point(|s| s < f))
+            .collect();
+        let checks: Vec<f64> = runs(&at)
+            .flat_map(|r| {
+                let offset = at.partition_point(|&k| k < r.start);
+                spread(offset..offset + r.len(), REGIONAL_SAMPLES)
+            })
+            .map(|i| failing[i])
+            .collect();
+        let Some(mut regional) = order_at(&checks) else {
+            break;
+        };
+        let still = weak_points(&mut regional, &failing, GUARD_THRESHOLD);
+        if still.len() == failing.len() {
+            break;
+        }
+        failing = still.into_iter().map(|i| failing[i]).collect();
+        plans.push(regional);
+    }
+    plans
+}
+
 /// The runs of consecutive indices in an ascending list.
 fn runs(indices: &[usize]) -> impl Iterator<Item = std::ops::Range<usize>> + '_ {
     let mut rest = indices;
@@ -660,7 +769,7 @@ mod tests {
         let (netlist, f0) = series_resonance();
         let system = AcSystem::new(&netlist).unwrap();
         let mut sparse = SparseAc::new(&system, 1e6, 1e6).unwrap();
-        let first = &mut sparse.plan;
+        let first = &mut sparse.plans[0];
         let at_zero = first.solve(&[TAU * f0; LANES], 0.0, [None, None]);
         assert!(!at_zero[0], "pivot survived at w0");
         let checked = first.solve(&[TAU * 1e6; LANES], GUARD_THRESHOLD, [None, None]);
