@@ -58,7 +58,7 @@ use std::f64::consts::TAU;
 pub use compensate::realized_value;
 pub use damping::DampingResistor;
 pub use error::ActiveError;
-pub use refine::{deviation_db, PASSBAND_POINTS};
+pub use refine::{deviation_db, Meter, PASSBAND_POINTS};
 pub use stability::{
     corner_models, corner_verdicts, is_stable, with_model, CornerVerdict, NaturalFrequency,
     StabilityVerdict, OUTPUT_OHM_FACTORS, STABILITY_MARGIN,
@@ -69,7 +69,7 @@ use gic::Tuning;
 use passive::Passive;
 
 use crate::circuit::netlist::check_model;
-use crate::circuit::{log_grid, AcSystem, Element, ElementKind, Netlist, OpAmpModel, SparseAc};
+use crate::circuit::{log_grid, Element, ElementKind, Netlist, OpAmpModel};
 
 /// How the inductors are removed (`[active] method` of a design file).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
@@ -490,12 +490,8 @@ pub fn realize(passive: &Netlist, opts: &Options) -> Result<ActiveBuild, ActiveE
     let (plan, why, mut notes) = choose(&Passive::read(passive)?, opts, &balanced)?;
     let plan = damped(plan, opts, &balanced, &mut notes)?;
     let grid = refine::passband_grid(&opts.passband_hz)?;
-    let meter = Meter {
-        reference: refine::transfer(passive, &grid)?,
-        grid,
-        sparse: std::cell::RefCell::new(None),
-    };
-    let balanced_deviation_db = match meter.grid.is_empty() {
+    let meter = Meter::new(passive, grid)?;
+    let balanced_deviation_db = match meter.grid().is_empty() {
         true => None,
         false => Some(meter.deviation(&plan.assemble(&balanced, opts.opamp)?.0)?),
     };
@@ -524,7 +520,7 @@ pub fn realize(passive: &Netlist, opts: &Options) -> Result<ActiveBuild, ActiveE
         _ => (balanced, f64::NAN),
     };
     let (netlist, stages, stability) = stable_build(&plan, &tuning, &balanced, opts, &mut notes)?;
-    let passband_deviation_db = match meter.grid.is_empty() {
+    let passband_deviation_db = match meter.grid().is_empty() {
         true => None,
         false => Some(meter.deviation(&netlist)?),
     };
@@ -584,46 +580,6 @@ pub fn realize(passive: &Netlist, opts: &Options) -> Result<ActiveBuild, ActiveE
         passband_deviation_db,
         stability,
     })
-}
-
-/// The passive ideal's response on the passband grid, to measure builds
-/// against.
-///
-/// The refinement and the gain-bandwidth search measure hundreds of
-/// networks of one topology, so the meter keeps a sparse solver (pivot
-/// order worked out once, see [`SparseAc`]) and refills it with each
-/// network's values; a network it cannot take (another topology, or an
-/// order that fails over the grid) gets a new one, and the dense solver
-/// answers when none can be built. On a 36-op-amp bandpass at 1 MHz the
-/// dense sweeps made a refinement and its search take 9.6 s.
-struct Meter {
-    grid: Vec<f64>,
-    reference: Vec<num_complex::Complex64>,
-    sparse: std::cell::RefCell<Option<SparseAc>>,
-}
-
-impl Meter {
-    /// The largest passband deviation of `netlist`, dB.
-    fn deviation(&self, netlist: &Netlist) -> Result<f64, ActiveError> {
-        let (Some(&low_hz), Some(&high_hz)) = (
-            self.grid.iter().min_by(|a, b| a.total_cmp(b)),
-            self.grid.iter().max_by(|a, b| a.total_cmp(b)),
-        ) else {
-            return Ok(0.0);
-        };
-        let system = AcSystem::new(netlist)?;
-        let (out, inp) = (netlist.require_node("out")?, netlist.require_node("in")?);
-        let mut cached = self.sparse.borrow_mut();
-        let refilled = cached.as_mut().is_some_and(|s| s.refill(&system).is_ok());
-        if !refilled {
-            *cached = SparseAc::new(&system, low_hz, high_hz).ok();
-        }
-        let h = match cached.as_mut() {
-            Some(sparse) => sparse.sweep(&self.grid, out, inp)?.h,
-            None => refine::transfer(netlist, &self.grid)?,
-        };
-        Ok(refine::largest_db(&self.reference, &h))
-    }
 }
 
 /// The free values the simplex finds, starting from the balanced ones

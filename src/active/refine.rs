@@ -11,10 +11,12 @@
 //! function minimization") on their logarithms, which handles the
 //! non-smooth minimax cost without derivatives.
 
+use std::cell::RefCell;
+
 use num_complex::Complex64;
 
 use super::error::ActiveError;
-use crate::circuit::{band_grid, AcSystem, CircuitError, Netlist};
+use crate::circuit::{band_grid, AcSystem, CircuitError, Netlist, SparseAc};
 
 /// Frequencies per passband at which deviations are measured. The
 /// largest deviation sits at an edge or on a ripple peak; against 2000
@@ -70,10 +72,65 @@ pub fn deviation_db(
     active: &Netlist,
     freqs_hz: &[f64],
 ) -> Result<f64, ActiveError> {
-    Ok(largest_db(
-        &transfer(reference, freqs_hz)?,
-        &transfer(active, freqs_hz)?,
-    ))
+    Meter::new(reference, freqs_hz.to_vec())?.deviation(active)
+}
+
+/// A reference network's response on a grid, to measure networks
+/// against.
+///
+/// The refinement, the gain-bandwidth search and the parts stage measure
+/// many networks of one topology, so the meter keeps a sparse solver
+/// (pivot order worked out once, see [`SparseAc`]) and refills it with
+/// each network's values; a network it cannot take (another topology)
+/// gets a new one, and the dense solver answers when none can be built.
+/// On a 36-op-amp bandpass at 1 MHz the dense sweeps made a refinement
+/// and its search take 9.6 s; the four dense measurements of the parts
+/// stage took 0.8 s of a 3.6 s `bom` of a 12th-order elliptic bandstop
+/// (255 unknowns).
+#[derive(Debug)]
+pub struct Meter {
+    grid: Vec<f64>,
+    reference: Vec<Complex64>,
+    sparse: RefCell<Option<SparseAc>>,
+}
+
+impl Meter {
+    /// The meter of `reference` (nodes `in` and `out`) on `grid_hz`.
+    pub fn new(reference: &Netlist, grid_hz: Vec<f64>) -> Result<Meter, ActiveError> {
+        Ok(Meter {
+            reference: transfer(reference, &grid_hz)?,
+            grid: grid_hz,
+            sparse: RefCell::new(None),
+        })
+    }
+
+    /// The frequencies measured, Hz.
+    pub fn grid(&self) -> &[f64] {
+        &self.grid
+    }
+
+    /// The largest deviation of `netlist` from the reference over the
+    /// grid, |dB|.
+    pub fn deviation(&self, netlist: &Netlist) -> Result<f64, ActiveError> {
+        let (Some(&low_hz), Some(&high_hz)) = (
+            self.grid.iter().min_by(|a, b| a.total_cmp(b)),
+            self.grid.iter().max_by(|a, b| a.total_cmp(b)),
+        ) else {
+            return Ok(0.0);
+        };
+        let system = AcSystem::new(netlist)?;
+        let (out, inp) = (netlist.require_node("out")?, netlist.require_node("in")?);
+        let mut cached = self.sparse.borrow_mut();
+        let refilled = cached.as_mut().is_some_and(|s| s.refill(&system).is_ok());
+        if !refilled {
+            *cached = SparseAc::new(&system, low_hz, high_hz).ok();
+        }
+        let h = match cached.as_mut() {
+            Some(sparse) => sparse.sweep(&self.grid, out, inp)?.h,
+            None => transfer(netlist, &self.grid)?,
+        };
+        Ok(largest_db(&self.reference, &h))
+    }
 }
 
 /// [`PASSBAND_POINTS`] log-spaced frequencies in each band, after checking

@@ -54,7 +54,7 @@ pub use level::{ladder_level, LadderLevel, LadderPart};
 pub use trim::{Trim, TRIMMER_SERIES};
 
 use crate::active::chain::{self, is_capacitor, scale_impedance, value, Chain, Moves};
-use crate::active::{deviation_db, ActiveBuild, Handles, Stage, PASSBAND_POINTS};
+use crate::active::{ActiveBuild, Handles, Meter, Stage, PASSBAND_POINTS};
 use crate::circuit::{band_grid, CircuitError, Element, ElementKind, Netlist};
 use crate::parts::{Distribution, PartsChoice, Tolerance};
 
@@ -204,7 +204,8 @@ pub fn snap_build(
         },
         other => PartsSnapError::Circuit(other),
     })?;
-    let deviation = |n: &Netlist| deviation_db(passive, n, &grid);
+    let meter = Meter::new(passive, grid)?;
+    let deviation = |n: &Netlist| meter.deviation(n);
     let as_built = deviation(&build.netlist)?;
     let converters = converters(&build.stages);
     let (mut netlist, rescaled) = rescale(build, &converters, choice)?;
