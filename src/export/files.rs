@@ -242,7 +242,11 @@ impl SetError {
 /// Writes the set `files` into `dir` whole or not at all: every file into
 /// a staging folder inside `dir` first, and only when all are written and
 /// synced are they moved (renamed, within one file system) into place. A
-/// staging folder left by a run that was killed is removed first. A name
+/// staging folder left by a run that was killed is removed first. Runs
+/// into the same folder take turns, the last one's files winning: each
+/// holds an exclusive lock on the folder itself (flock, which Linux allows
+/// on a folder) from before it clears stale staging folders until its
+/// files are in place, so none removes another's staging folder. A name
 /// of the set taken by a folder is found before anything is written.
 pub fn write_set(dir: &Path, files: &[OutputFile]) -> Result<(), SetError> {
     let io = |cause| SetError::Io {
@@ -250,6 +254,9 @@ pub fn write_set(dir: &Path, files: &[OutputFile]) -> Result<(), SetError> {
         cause,
     };
     std::fs::create_dir_all(dir).map_err(io)?;
+    let lock = std::fs::File::open(dir).map_err(io)?;
+    // Released when `lock` is dropped (or the process ends, killed or not).
+    lock.lock().map_err(io)?;
     remove_stale_staging(dir).map_err(io)?;
     for f in files {
         let taken = std::fs::symlink_metadata(dir.join(&f.name)).is_ok_and(|m| !m.is_file());
@@ -277,7 +284,8 @@ pub fn write_set(dir: &Path, files: &[OutputFile]) -> Result<(), SetError> {
     Ok(())
 }
 
-/// Removes staging folders of earlier runs that did not finish.
+/// Removes staging folders of earlier runs that did not finish (under the
+/// lock, so none of them belongs to a live run).
 fn remove_stale_staging(dir: &Path) -> std::io::Result<()> {
     for entry in std::fs::read_dir(dir)? {
         let entry = entry?;
