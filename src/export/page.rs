@@ -131,9 +131,12 @@ pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> Strin
                 })
                 .collect(),
         });
-        // A build without op-amps has no levels to tabulate (the summary
-        // says so).
-        if !act.active_on_parts.levels.is_empty() {
+        if act.active_on_parts.levels.is_empty() {
+            summary.push((
+                format!("{}: op-amp levels", Build::ActiveOnParts),
+                super::prose::NO_OPAMPS.to_string(),
+            ));
+        } else {
             tables.push(Table {
                 caption: format!("Op-amp signal levels, {}", Build::ActiveOnParts),
                 header: [

@@ -379,6 +379,11 @@ impl Display for OrderChoice {
     }
 }
 
+/// Why a build shows no op-amp levels: the ladder has no inductor, so
+/// nothing was replaced by a converter.
+pub const NO_OPAMPS: &str =
+    "no op-amps (the ladder has no inductor to replace), so no op-amp levels and no levels chart";
+
 /// "passband checked up to 1 MHz (GBW / 10), where it is -0.5 dB from
 /// the passive ideal".
 pub fn top_of_range(top: &TopOfRange) -> String {

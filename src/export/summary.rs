@@ -49,8 +49,20 @@ pub fn verdict_line(build: Build, v: &MaskVerdict, level_db: f64) -> String {
 /// The yield line of the summary and the report.
 pub fn yield_line(d: &Documents) -> String {
     let mc = &d.analyses.montecarlo;
+    let shortened = d
+        .report
+        .outcome
+        .as_ref()
+        .and_then(|o| o.boards_shortened_for_opamps)
+        .map(|opamps| {
+            format!(
+                "; {} boards, the default for a build of {opamps} op-amps, whose every board's stability is judged: [montecarlo] trials sets more",
+                mc.trials
+            )
+        })
+        .unwrap_or_default();
     format!(
-        "{}: yield {:.2} % ({} of {} boards meet the specification with the parts' tolerances and the op-amps' GBW spread{}; Monte Carlo seed {})",
+        "{}: yield {:.2} % ({} of {} boards meet the specification with the parts' tolerances and the op-amps' GBW spread{}; Monte Carlo seed {}{shortened})",
         Build::ActiveOnParts,
         100.0 * mc.yield_fraction,
         mc.passed,
@@ -115,10 +127,7 @@ fn figures(s: &mut String, build: Build, f: &BuildFigures) {
             eng(top.max_input_v, "V")
         );
     } else {
-        let _ = writeln!(
-            s,
-            "  {build}: no op-amps (the ladder has no inductor to replace), so no op-amp levels and no levels chart"
-        );
+        let _ = writeln!(s, "  {build}: {}", super::prose::NO_OPAMPS);
     }
 }
 
