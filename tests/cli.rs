@@ -1,6 +1,6 @@
 //! Tests of the `nocoil` binary: bad input, and the outputs of a good run.
 
-use crate::util::{design_into, nocoil, scratch};
+use crate::util::{design_into, nocoil, scratch, spec_in};
 use std::path::Path;
 
 const GOOD: &str = r#"
@@ -21,15 +21,9 @@ load_ohm = 600
 /// file written in the output folder.
 fn rejects(case: &str, text: &str, needles: &[&str]) {
     let dir = scratch(&format!("bad-{case}"));
-    let spec = dir.join("spec.toml");
-    std::fs::write(&spec, text).unwrap();
+    let spec = spec_in(&dir, text);
     let out = dir.join("out");
-    let run = nocoil(&[
-        "design",
-        spec.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-    ]);
+    let run = design_into(&spec, &out);
     let stderr = String::from_utf8_lossy(&run.stderr);
     assert_eq!(
         run.status.code(),
@@ -121,15 +115,9 @@ const OUTPUTS: [&str; 20] = [
 #[test]
 fn good_spec_designs() {
     let dir = scratch("good");
-    let spec = dir.join("spec.toml");
-    std::fs::write(&spec, GOOD).unwrap();
+    let spec = spec_in(&dir, GOOD);
     let out = dir.join("out");
-    let run = nocoil(&[
-        "design",
-        spec.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-    ]);
+    let run = design_into(&spec, &out);
     assert!(
         run.status.success(),
         "stderr: {}",
@@ -413,8 +401,7 @@ fn order_command_rejects_bad_flags() {
 #[test]
 fn sweep_prints_csv() {
     let dir = scratch("sweep");
-    let spec = dir.join("spec.toml");
-    std::fs::write(&spec, GOOD).unwrap();
+    let spec = spec_in(&dir, GOOD);
     let run = nocoil(&[
         "sweep",
         spec.to_str().unwrap(),
@@ -822,8 +809,7 @@ fn missing_prototype_table_names_the_key() {
 /// A design file at `dir/spec.toml` holding `text`, designed into
 /// `dir/out`: the summary and report.json.
 fn design_text(dir: &Path, text: &str) -> (String, serde_json::Value) {
-    let spec = dir.join("spec.toml");
-    std::fs::write(&spec, text).unwrap();
+    let spec = spec_in(dir, text);
     let out = dir.join("out");
     let stdout = succeeds(&design_into(&spec, &out));
     let json = std::fs::read_to_string(out.join("report.json")).unwrap();

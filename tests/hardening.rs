@@ -3,7 +3,7 @@
 //! closed or full, designs without op-amps, values no solver can hold,
 //! limits on what a file or flag may ask.
 
-use crate::util::{design_into as design, nocoil, scratch};
+use crate::util::{design_into as design, nocoil, scratch, spec_in};
 use std::path::{Path, PathBuf};
 use std::process::{Command, Stdio};
 use std::time::{Duration, Instant};
@@ -136,6 +136,45 @@ fn a_stale_staging_folder_is_removed_by_the_next_run() {
     assert!(names(&out).iter().all(|n| !n.starts_with('.')));
 }
 
+/// Two runs writing sets into one folder at once take turns: neither
+/// removes the other's staging folder as stale (each used to, so one of
+/// them failed with exit 1 or lost its files), and the folder ends with
+/// one whole set, the last writer's.
+#[test]
+fn runs_into_one_folder_at_once_take_turns() {
+    use nocoil::export::files::{write_set, OutputFile};
+    let out = scratch("two-writers").join("out");
+    let set = |tag: u8| -> Vec<OutputFile> {
+        (0..8)
+            .map(|k| OutputFile {
+                name: format!("f{k}.txt"),
+                bytes: vec![tag; 256 * 1024],
+            })
+            .collect()
+    };
+    std::thread::scope(|scope| {
+        for tag in [b'a', b'b'] {
+            let (out, files) = (&out, set(tag));
+            scope.spawn(move || {
+                for round in 0..40 {
+                    write_set(out, &files)
+                        .unwrap_or_else(|e| panic!("writer {tag} round {round}: {e}"));
+                }
+            });
+        }
+    });
+    let names = names(&out);
+    assert_eq!(names.len(), 8, "{names:?}");
+    let first = std::fs::read(out.join("f0.txt")).unwrap();
+    for k in 0..8 {
+        assert_eq!(
+            std::fs::read(out.join(format!("f{k}.txt"))).unwrap(),
+            first,
+            "f{k}"
+        );
+    }
+}
+
 /// A reader that closes standard output early (`| head -c 10`) ends the
 /// program quietly, and the output set is still written whole: it is
 /// written before anything is printed.
@@ -181,16 +220,15 @@ fn a_full_standard_output_is_an_error_not_a_panic() {
 
 /// A first-order highpass is a capacitor and the terminations: no
 /// inductor, so no converter and no op-amp. Every output that makes sense
-/// is written; the op-amp levels chart, with nothing to draw, is left out.
+/// is written; the op-amp levels chart, with nothing to draw, is left out,
+/// and the summary and the report say why.
 #[test]
 fn a_design_without_op_amps_writes_every_output_that_makes_sense() {
     let dir = scratch("no-opamps");
-    let spec = dir.join("spec.toml");
-    std::fs::write(
-        &spec,
+    let spec = spec_in(
+        &dir,
         "[filter]\nkind = \"highpass\"\nfamily = \"butterworth\"\norder = 1\npassband_edge_hz = 100.0\n[terminations]\nsource_ohm = 1000.0\nload_ohm = 1000.0\n",
-    )
-    .unwrap();
+    );
     let out = dir.join("out");
     let run = design(&spec, &out);
     let (code, stderr) = status(&run);
@@ -209,6 +247,13 @@ fn a_design_without_op_amps_writes_every_output_that_makes_sense() {
         assert!(written.contains(&f.to_string()), "{f} in {written:?}");
     }
     assert!(!written.contains(&"levels.svg".to_string()), "{written:?}");
+    let why = "no op-amps (the ladder has no inductor to replace)";
+    let page = std::fs::read_to_string(out.join("report.html")).unwrap();
+    assert!(page.contains(why), "report.html does not say why");
+    assert!(
+        String::from_utf8_lossy(&run.stdout).contains(why),
+        "the summary does not say why"
+    );
     for sub in ["sweep", "levels", "sensitivity", "bom", "montecarlo"] {
         let (code, stderr) = status(&nocoil(&[sub, spec.to_str().unwrap()]));
         assert_eq!(code, Some(0), "{sub}: {stderr}");
@@ -228,8 +273,7 @@ fn values_beyond_the_solver_are_refused_naming_the_key() {
         ("100.0", "1.7976931348623157e308", "terminations.source_ohm"),
         ("100.0", "1e-300", "terminations.source_ohm"),
     ] {
-        let spec = dir.join("spec.toml");
-        std::fs::write(&spec, base.replace("EDGE", edge).replace("SOURCE", source)).unwrap();
+        let spec = spec_in(&dir, &base.replace("EDGE", edge).replace("SOURCE", source));
         for sub in ["sweep", "bom"] {
             let (code, stderr) = status(&nocoil(&[sub, spec.to_str().unwrap()]));
             assert_eq!(code, Some(2), "{edge} {source}: {stderr}");

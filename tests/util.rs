@@ -260,6 +260,13 @@ pub fn scratch(name: &str) -> std::path::PathBuf {
     dir
 }
 
+/// Writes `text` as the design file `dir/spec.toml` and returns its path.
+pub fn spec_in(dir: &Path, text: &str) -> std::path::PathBuf {
+    let spec = dir.join("spec.toml");
+    std::fs::write(&spec, text).unwrap();
+    spec
+}
+
 /// `nocoil design SPEC --out OUT`.
 pub fn design_into(spec: &Path, out: &Path) -> std::process::Output {
     nocoil(&[
