@@ -489,7 +489,7 @@ fn run(request: Request) -> anyhow::Result<()> {
             }
             let (d, active) = load_active(&spec)?;
             let progress = Progress::new();
-            let trials = trials.unwrap_or(d.spec.montecarlo.trials);
+            let trials = trials.unwrap_or(d.trials(&active));
             let seed = seed.unwrap_or(d.spec.montecarlo.seed);
             let mut pool = rayon::ThreadPoolBuilder::new();
             if let Some(n) = threads {
@@ -591,7 +591,7 @@ impl Progress {
 
     /// The analyses of a design, the Monte Carlo's trials counted.
     fn analyses(&self, d: &Design, active: &ActiveDesign) -> Result<design::Analyses, DesignError> {
-        self.trials(d.spec.montecarlo.trials);
+        self.trials(d.trials(active));
         let tick = |_done: usize| self.tick();
         let analyses = d.analyses(active, Some(&tick));
         self.done();

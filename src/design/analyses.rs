@@ -20,6 +20,45 @@ const CHART_POINTS: usize = 600;
 /// Points of the Monte Carlo frequency grid (the mask edges are added).
 pub const MONTE_CARLO_POINTS: usize = 200;
 
+/// Monte Carlo boards when the design file gives no count, for builds of
+/// up to [`DEFAULT_TRIALS_OPAMPS`] op-amps.
+pub const DEFAULT_TRIALS: usize = 1000;
+
+/// Op-amps up to which the default is [`DEFAULT_TRIALS`]. Judging a
+/// board's stability dominates its cost and grows as the op-amps^2.5
+/// (measured per board on one core: 9.6 ms at 34 op-amps, an 11th-order
+/// bandstop; 33 ms at 56, a 12th-order elliptic bandstop; 69 ms at 76, a
+/// 25th-order bandpass, whose 1,000 default boards took 35 s on two
+/// cores). Up to 24 op-amps the default run costs at most about 4 s of
+/// CPU; beyond, the default count shrinks to keep that cost, so a design
+/// run without a count stays within seconds.
+pub const DEFAULT_TRIALS_OPAMPS: usize = 24;
+
+/// The fewest boards a shortened default draws (the largest builds, about
+/// 100 op-amps, get 28 by the rule): a rough yield, its count stated
+/// beside it.
+pub const MIN_DEFAULT_TRIALS: usize = 20;
+
+/// Monte Carlo boards when the design file gives no count, for a build
+/// of `opamps` op-amps: [`DEFAULT_TRIALS`], shortened as
+/// (DEFAULT_TRIALS_OPAMPS / opamps)^2.5 for larger builds, so that a
+/// design run without a count stays within seconds; never below
+/// [`MIN_DEFAULT_TRIALS`].
+pub fn default_trials(opamps: usize) -> usize {
+    if opamps <= DEFAULT_TRIALS_OPAMPS {
+        return DEFAULT_TRIALS;
+    }
+    let scale = (DEFAULT_TRIALS_OPAMPS as f64 / opamps as f64).powf(2.5);
+    ((DEFAULT_TRIALS as f64 * scale) as usize).max(MIN_DEFAULT_TRIALS)
+}
+
+fn opamps(active: &ActiveDesign) -> usize {
+    active
+        .on_parts
+        .netlist
+        .count(crate::circuit::ElementKind::OpAmp)
+}
+
 /// How many of the worst trials a run reports.
 pub const WORST_TRIALS: usize = 5;
 
@@ -224,6 +263,22 @@ impl Design {
             .map_err(|cause| self.analysis_error(cause))
     }
 
+    /// The Monte Carlo boards of `active`: the design file's count, or
+    /// [`default_trials`] of its active on parts build.
+    pub fn trials(&self, active: &ActiveDesign) -> usize {
+        self.spec
+            .montecarlo
+            .trials
+            .unwrap_or_else(|| default_trials(opamps(active)))
+    }
+
+    /// The op-amp count of `active`'s build when the design file gives no
+    /// trial count and the default was shortened for it.
+    pub fn trials_shortened_for(&self, active: &ActiveDesign) -> Option<usize> {
+        let n = opamps(active);
+        (self.spec.montecarlo.trials.is_none() && default_trials(n) < DEFAULT_TRIALS).then_some(n)
+    }
+
     /// Every analysis the documents need, on the active on parts build
     /// (what is soldered), with the design file's Monte Carlo run;
     /// `progress` is told how many of its trials are done.
@@ -237,7 +292,7 @@ impl Design {
         Ok(Analyses {
             traces: self.chart_traces(active)?,
             sensitivity: self.sensitivity(parts)?,
-            montecarlo: self.monte_carlo(parts, mc.trials, mc.seed, progress)?,
+            montecarlo: self.monte_carlo(parts, self.trials(active), mc.seed, progress)?,
             active_exact_verdict: self.verdict(&active.build.netlist)?,
             active_on_parts_verdict: self.verdict(parts)?,
         })

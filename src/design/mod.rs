@@ -33,7 +33,8 @@ mod order;
 mod report;
 
 pub use analyses::{
-    Analyses, BuildTrace, ChartTraces, MONTE_CARLO_POINTS, SENSITIVITY_POINTS, WORST_TRIALS,
+    default_trials, Analyses, BuildTrace, ChartTraces, DEFAULT_TRIALS, DEFAULT_TRIALS_OPAMPS,
+    MIN_DEFAULT_TRIALS, MONTE_CARLO_POINTS, SENSITIVITY_POINTS, WORST_TRIALS,
 };
 pub use builds::{ActiveDesign, BuildFigures, TopOfRange};
 pub use order::{order_table, OrderRow, OrderTable, FAMILIES};

@@ -158,6 +158,10 @@ pub struct Outcome {
     pub boards_unstable: usize,
     /// The seed of the draws.
     pub seed: u64,
+    /// When the design file gave no trial count and the default was
+    /// shortened for a large build ([`super::default_trials`]): its
+    /// op-amps.
+    pub boards_shortened_for_opamps: Option<usize>,
 }
 
 /// Everything the documents of a design are rendered from: the report,
@@ -296,6 +300,7 @@ impl Design {
             boards_meeting: mc.passed,
             boards_unstable: mc.unstable,
             seed: self.spec.montecarlo.seed,
+            boards_shortened_for_opamps: self.trials_shortened_for(active),
         };
         Documents {
             report: Report {

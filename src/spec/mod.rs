@@ -63,8 +63,9 @@ impl Default for OpAmpSpec {
 /// The `[montecarlo]` table.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
 pub struct MonteCarloSpec {
-    /// Number of trials (default 1000).
-    pub trials: usize,
+    /// Number of trials; `None` when the design file gives none, for
+    /// [`crate::design::default_trials`] of the build.
+    pub trials: Option<usize>,
     /// Seed of the draws (default 1).
     pub seed: u64,
     /// Relative spread of every op-amp's gain-bandwidth (default 0.3: data
@@ -82,7 +83,7 @@ pub struct MonteCarloSpec {
 impl Default for MonteCarloSpec {
     fn default() -> MonteCarloSpec {
         MonteCarloSpec {
-            trials: 1000,
+            trials: None,
             seed: 1,
             gbw_spread: 0.3,
             passband_margin_db: 0.0,

@@ -354,7 +354,7 @@ fn montecarlo(c: &Checker, raw: &RawMonteCarlo) -> Result<MonteCarloSpec, SpecEr
     let d = MonteCarloSpec::default();
     let trials = match raw.trials {
         None => d.trials,
-        Some(n) if (1..=MAX_TRIALS as i64).contains(&n) => n as usize,
+        Some(n) if (1..=MAX_TRIALS as i64).contains(&n) => Some(n as usize),
         Some(n) => {
             return Err(c.invalid(
                 "montecarlo.trials",
