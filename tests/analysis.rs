@@ -1006,7 +1006,7 @@ fn rc_stored_run(trials: usize, worst: usize) -> (MonteCarloResult, usize) {
 fn sorted_median(values: &mut [f64]) -> f64 {
     values.sort_by(f64::total_cmp);
     let m = values.len() / 2;
-    if values.len() % 2 == 0 {
+    if values.len().is_multiple_of(2) {
         (values[m - 1] + values[m]) / 2.0
     } else {
         values[m]

@@ -421,7 +421,7 @@ fn all_pole_matrix(n: usize) -> Vec<AllPole> {
 /// negative, and an even order fixes the side of 1 the ratio lies on
 /// (series first: above; shunt first: below).
 fn realizable(approx: AllPole, r: f64, form: Form) -> bool {
-    let even = approx.order() % 2 == 0;
+    let even = approx.order().is_multiple_of(2);
     let side_ok = !even || r == 1.0 || (r > 1.0) == (form == Form::MinCapacitor);
     approx.level(r) >= 0.0 && side_ok
 }

@@ -742,7 +742,7 @@ impl ColumnTally {
     fn median(&self, trials: usize) -> (f64, f64) {
         let middle = (trials / 2) as u64;
         let (upper, upper_bound) = self.rank(middle);
-        if trials % 2 == 0 {
+        if trials.is_multiple_of(2) {
             let (lower, lower_bound) = self.rank(middle - 1);
             ((lower + upper) / 2.0, lower_bound.max(upper_bound))
         } else {
@@ -786,7 +786,7 @@ fn envelope(table: &[f64], trials: usize, n: usize) -> Envelope {
 
 /// (min, median, max) of a non-empty column, reordering it.
 fn column_stats(column: &mut [f64]) -> (f64, f64, f64) {
-    let even = column.len() % 2 == 0;
+    let even = column.len().is_multiple_of(2);
     let (lower, &mut upper_mid, upper) =
         column.select_nth_unstable_by(column.len() / 2, f64::total_cmp);
     let median = if even {
@@ -814,7 +814,7 @@ mod tests {
         let mut v = values.to_vec();
         v.sort_by(f64::total_cmp);
         let m = v.len() / 2;
-        if v.len() % 2 == 0 {
+        if v.len().is_multiple_of(2) {
             (v[m - 1] + v[m]) / 2.0
         } else {
             v[m]

@@ -139,7 +139,7 @@ fn oriented_reflection_zeros(
         return Ok(roots);
     }
     let n = roots.len();
-    if n % 2 == 0 {
+    if n.is_multiple_of(2) {
         let needs = match form {
             Form::MinCapacitor => "above",
             Form::MinInductor => "below",

@@ -50,7 +50,11 @@ pub(crate) fn ladder_arms(
 ) -> Result<Vec<ArmValues>, SynthError> {
     let source = End::new(e, f);
     // prod(s + f_i) = (-1)^n F^(-s): the mirrored zeros, still monic.
-    let sign = if e.degree() % 2 == 0 { 1.0 } else { -1.0 };
+    let sign = if e.degree().is_multiple_of(2) {
+        1.0
+    } else {
+        -1.0
+    };
     let load = End::new(e, &f.mirrored().scaled(dd(sign)));
     let usual = usual_order(zeros);
     let attempt = |order: &[f64]| join(&source, &load, order, load_ratio, form);
@@ -156,7 +160,7 @@ fn junction(from_source: &Extraction, from_load: &Extraction, n: usize) -> Optio
 /// The form of the ladder read from the load: series last arm reads as
 /// series first. Arm n-1 is series when n-1 is even in `MinCapacitor`.
 fn form_at_load_end(form: Form, n: usize) -> Form {
-    let last_series = ((n - 1) % 2 == 0) == (form == Form::MinCapacitor);
+    let last_series = (n - 1).is_multiple_of(2) == (form == Form::MinCapacitor);
     if last_series {
         Form::MinCapacitor
     } else {

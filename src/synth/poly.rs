@@ -135,7 +135,7 @@ impl Poly {
 
     /// `p(-s)`.
     pub(crate) fn mirrored(&self) -> Poly {
-        let sign = |k: usize| if k % 2 == 0 { 1.0 } else { -1.0 };
+        let sign = |k: usize| if k.is_multiple_of(2) { 1.0 } else { -1.0 };
         Poly::new(
             self.c
                 .iter()

@@ -32,7 +32,7 @@ impl Characteristic {
         check_ratio(load_ratio)?;
         let params = &proto.params;
         if params.family == Family::Elliptic
-            && params.order % 2 == 0
+            && params.order.is_multiple_of(2)
             && params.variant == Variant::Standard
         {
             return Err(SynthError::NotALadder {

@@ -27,8 +27,9 @@ pub(crate) const LEVEL_TOLERANCE: f64 = 1e-12;
 /// elliptic forms that keep the ripple loss at DC. This is the
 /// normalization documented in [`crate::approx`]: |H(0)|^2 = 1/(1 + e0).
 pub(crate) fn dc_reflection(family: Family, order: usize, variant: Variant, eps: f64) -> f64 {
-    let keeps_dc_ripple =
-        family != Family::Butterworth && order % 2 == 0 && variant != Variant::ReflectionAtDc;
+    let keeps_dc_ripple = family != Family::Butterworth
+        && order.is_multiple_of(2)
+        && variant != Variant::ReflectionAtDc;
     if keeps_dc_ripple {
         eps * eps
     } else {
