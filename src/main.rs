@@ -489,6 +489,10 @@ fn run(request: Request) -> anyhow::Result<()> {
             }
             let (d, active) = load_active(&spec)?;
             let progress = Progress::new();
+            let shortened_for = match trials {
+                Some(_) => None,
+                None => d.trials_shortened_for(&active),
+            };
             let trials = trials.unwrap_or(d.trials(&active));
             let seed = seed.unwrap_or(d.spec.montecarlo.seed);
             let mut pool = rayon::ThreadPoolBuilder::new();
@@ -517,7 +521,7 @@ fn run(request: Request) -> anyhow::Result<()> {
                 )?,
                 None => String::new(),
             };
-            emit(&tables::yield_summary(&result, seed))?;
+            emit(&tables::yield_summary(&result, seed, shortened_for))?;
             emit(&written)
         }
         Request::Table { spec, table } => {

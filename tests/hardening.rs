@@ -401,3 +401,37 @@ fn a_low_second_pole_bounds_the_top_of_the_op_amp_range() {
     let (code, stderr) = status(&run);
     assert_eq!(code, Some(0), "{stderr}");
 }
+
+/// A design file without a trial count gets 1,000 boards for ordinary
+/// builds; a 25th-order Butterworth bandpass (76 op-amps), whose 1,000
+/// default boards took 35 s (each board's stability judged), gets fewer,
+/// and the yield line says so and how to ask for more.
+#[test]
+fn the_default_board_count_shrinks_for_large_builds_and_says_so() {
+    use nocoil::design::{default_trials, DEFAULT_TRIALS};
+    assert_eq!(default_trials(10), DEFAULT_TRIALS);
+    let dir = scratch("shortened-default");
+    let spec = spec_in(
+        &dir,
+        "[filter]\nkind = \"bandpass\"\nfamily = \"butterworth\"\norder = 25\npassband_edge_hz = [2000.0, 8000.0]\n[terminations]\nsource_ohm = 2200.0\nload_ohm = 2200.0\n",
+    );
+    let run = nocoil(&["montecarlo", spec.to_str().unwrap()]);
+    let (code, stderr) = status(&run);
+    assert_eq!(code, Some(0), "{stderr}");
+    let stdout = String::from_utf8_lossy(&run.stdout);
+    let boards = default_trials(76);
+    assert!(boards < DEFAULT_TRIALS / 10, "{boards}");
+    let said = format!("{boards} boards, the default for a build of 76 op-amps");
+    let run = design(&spec, &dir.join("out"));
+    let summary = String::from_utf8_lossy(&run.stdout);
+    assert!(summary.contains(&said), "{summary}");
+    assert!(
+        summary.contains("[montecarlo] trials sets more"),
+        "{summary}"
+    );
+    assert!(
+        stdout.starts_with(&format!("Monte Carlo: {boards} trials")),
+        "{stdout}"
+    );
+    assert!(stdout.contains(&said), "{stdout}");
+}

@@ -379,6 +379,15 @@ impl Display for OrderChoice {
     }
 }
 
+/// Why a Monte Carlo drew fewer boards than [`crate::design::DEFAULT_TRIALS`]
+/// when nothing asked for a count: "56 boards, the default for a build of
+/// 76 op-amps, ...".
+pub fn shortened_default(boards: usize, opamps: usize) -> String {
+    format!(
+        "{boards} boards, the default for a build of {opamps} op-amps, whose every board's stability is judged: [montecarlo] trials sets more"
+    )
+}
+
 /// Why a build shows no op-amp levels: the ladder has no inductor, so
 /// nothing was replaced by a converter.
 pub const NO_OPAMPS: &str =

@@ -54,12 +54,7 @@ pub fn yield_line(d: &Documents) -> String {
         .outcome
         .as_ref()
         .and_then(|o| o.boards_shortened_for_opamps)
-        .map(|opamps| {
-            format!(
-                "; {} boards, the default for a build of {opamps} op-amps, whose every board's stability is judged: [montecarlo] trials sets more",
-                mc.trials
-            )
-        })
+        .map(|opamps| format!("; {}", super::prose::shortened_default(mc.trials, opamps)))
         .unwrap_or_default();
     format!(
         "{}: yield {:.2} % ({} of {} boards meet the specification with the parts' tolerances and the op-amps' GBW spread{}; Monte Carlo seed {}{shortened})",

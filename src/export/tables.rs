@@ -71,8 +71,10 @@ pub fn envelope_csv(r: &MonteCarloResult) -> String {
     s
 }
 
-/// The run's account in words: yield and the worst trials.
-pub fn yield_summary(r: &MonteCarloResult, seed: u64) -> String {
+/// The run's account in words: yield and the worst trials;
+/// `shortened_for` is the build's op-amp count when the default count was
+/// shortened for it (see [`crate::design::default_trials`]).
+pub fn yield_summary(r: &MonteCarloResult, seed: u64, shortened_for: Option<usize>) -> String {
     let trials = r.trials;
     let mut s = format!(
         "Monte Carlo: {trials} trials, seed {seed}: yield {:.2} % ({} passed{}): boards of the {} build meeting the specification\n",
@@ -81,6 +83,9 @@ pub fn yield_summary(r: &MonteCarloResult, seed: u64) -> String {
         unstable_words(r),
         Build::ActiveOnParts,
     );
+    if let Some(opamps) = shortened_for {
+        let _ = writeln!(s, "  {}", super::prose::shortened_default(trials, opamps));
+    }
     for t in &r.worst {
         let _ = writeln!(
             s,
