@@ -213,7 +213,7 @@ const BAD_EDITS: &[(&str, &str, &str, &[&str])] = &[
         "gbw",
         "load_ohm = 600",
         "load_ohm = 600\n[opamp]\ngbw_hz = 0",
-        &["opamp.gbw_hz", "greater than 0"],
+        &["opamp.gbw_hz", "from 1e0 to 1e14"],
     ),
     (
         "gain",
@@ -321,7 +321,7 @@ const BAD_EDITS: &[(&str, &str, &str, &[&str])] = &[
         "swing",
         "load_ohm = 600",
         "load_ohm = 600\n[opamp]\nswing_v = -3",
-        &["opamp.swing_v", "greater than 0"],
+        &["opamp.swing_v", "from 1e-3 to 1e4"],
     ),
 ];
 

@@ -435,3 +435,34 @@ fn the_default_board_count_shrinks_for_large_builds_and_says_so() {
     );
     assert!(stdout.contains(&said), "{stdout}");
 }
+
+/// Op-amp figures beyond any op-amp made, found by the long generative
+/// run (seed 2): a GBW or a second pole of 5e-324 Hz made the circuit
+/// equations singular (exit 1), a swing of 1.8e308 V an infinite largest
+/// input in the summary. Each is refused naming its key and the range.
+#[test]
+fn opamp_figures_beyond_any_opamp_are_refused_naming_the_key() {
+    let dir = scratch("opamp-figures");
+    let base = "[filter]\nkind = \"lowpass\"\nfamily = \"chebyshev\"\norder = 5\npassband_edge_hz = 1000.0\npassband_ripple_db = 0.5\n[terminations]\nsource_ohm = 1000.0\nload_ohm = 1000.0\n[opamp]\n";
+    for (opamp, key, range) in [
+        ("gbw_hz = 5e-324", "opamp.gbw_hz", "from 1e0 to 1e14"),
+        (
+            "model = \"two_pole\"\nsecond_pole_hz = 5e-324",
+            "opamp.second_pole_hz",
+            "from 1e0 to 1e14",
+        ),
+        (
+            "swing_v = 1.7976931348623157e308",
+            "opamp.swing_v",
+            "from 1e-3 to 1e4",
+        ),
+    ] {
+        let spec = spec_in(&dir, &format!("{base}{opamp}\n"));
+        let (code, stderr) = status(&design(&spec, &dir.join("out")));
+        assert_eq!(code, Some(2), "{opamp}: {stderr}");
+        assert!(
+            stderr.contains(key) && stderr.contains(range),
+            "{opamp}: {stderr}"
+        );
+    }
+}

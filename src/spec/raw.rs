@@ -145,6 +145,21 @@ impl Checker<'_> {
         }
     }
 
+    /// `v` within `(lo, hi)`, both included; the message names the range.
+    fn within(
+        &self,
+        key: &'static str,
+        v: f64,
+        (lo, hi): (f64, f64),
+        what: &str,
+    ) -> Result<f64, SpecError> {
+        if (lo..=hi).contains(&v) {
+            Ok(v)
+        } else {
+            Err(self.invalid(key, v, format!("expected {what} from {lo:e} to {hi:e}")))
+        }
+    }
+
     fn required(&self, key: &'static str, v: Option<f64>, what: &str) -> Result<f64, SpecError> {
         let v = v.ok_or_else(|| self.invalid(key, "(missing)", format!("expected {what}")))?;
         self.positive(key, v, what)
@@ -153,16 +168,7 @@ impl Checker<'_> {
     /// A termination, in [`TERMINATION_RANGE_OHM`].
     fn termination(&self, key: &'static str, v: Option<f64>) -> Result<f64, SpecError> {
         let v = self.required(key, v, "a resistance in ohm")?;
-        let (lo, hi) = TERMINATION_RANGE_OHM;
-        if (lo..=hi).contains(&v) {
-            Ok(v)
-        } else {
-            Err(self.invalid(
-                key,
-                v,
-                format!("expected a resistance in ohm from {lo:e} to {hi:e}"),
-            ))
-        }
+        self.within(key, v, TERMINATION_RANGE_OHM, "a resistance in ohm")
     }
 
     /// Edges as written: one number, or an array of numbers; their shape
@@ -302,11 +308,19 @@ fn fraction(
 /// not be snapped to any preferred value.
 const CAPACITOR_RANGE_LIMITS_F: (f64, f64) = (1e-15, 1.0);
 
-/// The fastest op-amp a design file may describe, Hz: 1e14 (the
-/// near-ideal 10 THz models of the tests, ten times over); beyond it the
-/// top of the op-amp range (GBW / 10) left what the solver holds (the
-/// generative test found a singular system at 8e16 Hz).
-const MAX_GBW_HZ: f64 = 1e14;
+/// The op-amp frequencies a design file may give (GBW and second pole),
+/// Hz. Up to 1e14 (the near-ideal 10 THz models of the tests, ten times
+/// over): beyond it the top of the op-amp range (GBW / 10) left what the
+/// solver holds (the generative test found a singular system at 8e16 Hz).
+/// From 1 Hz, below any op-amp made: a GBW or second pole of 5e-324 Hz
+/// made the circuit equations singular (generative test, seed 2, cases
+/// 54630 and 35052).
+const OPAMP_FREQUENCY_RANGE_HZ: (f64, f64) = (1.0, 1e14);
+
+/// The output swings a design file may give, V peak: a swing of 1.8e308
+/// V made the largest input infinite (generative test, seed 2, case
+/// 72397); real op-amps swing from millivolts to a few hundred volts.
+const SWING_RANGE_V: (f64, f64) = (1e-3, 1e4);
 
 fn parts(c: &Checker, raw: &RawParts) -> Result<PartsChoice, SpecError> {
     let d = PartsChoice::default();
@@ -404,16 +418,12 @@ fn opamp(c: &Checker, raw: &RawOpAmp) -> Result<OpAmpSpec, SpecError> {
     };
     let gbw_hz = match raw.gbw_hz {
         None => default_gbw_hz,
-        Some(v) if v > MAX_GBW_HZ => {
-            return Err(c.invalid(
-                "opamp.gbw_hz",
-                v,
-                format!(
-                "expected a gain-bandwidth product in Hz greater than 0 and at most {MAX_GBW_HZ:e}"
-            ),
-            ))
-        }
-        Some(v) => c.positive("opamp.gbw_hz", v, "a gain-bandwidth product in Hz")?,
+        Some(v) => c.within(
+            "opamp.gbw_hz",
+            v,
+            OPAMP_FREQUENCY_RANGE_HZ,
+            "a gain-bandwidth product in Hz",
+        )?,
     };
     let dc_gain_db = match raw.dc_gain_db {
         None => default_dc_gain_db,
@@ -444,14 +454,27 @@ fn opamp(c: &Checker, raw: &RawOpAmp) -> Result<OpAmpSpec, SpecError> {
     };
     let swing_v = match raw.swing_v {
         None => d.swing_v,
-        Some(v) => c.positive("opamp.swing_v", v, "an output swing in V peak")?,
+        Some(v) => c.within(
+            "opamp.swing_v",
+            v,
+            SWING_RANGE_V,
+            "an output swing in V peak",
+        )?,
     };
     let kind = raw.model.unwrap_or(d.model.kind());
     // Only the two-pole model has a second pole, and it has no default:
     // where it sits decides the phase margin. The other models read none
     // (a single-pole model is one with its second pole at infinity).
     let second_pole_hz = match (kind, raw.second_pole_hz) {
-        (OpAmpKind::TwoPole, v) => c.required("opamp.second_pole_hz", v, "a second pole in Hz")?,
+        (OpAmpKind::TwoPole, v) => {
+            let v = c.required("opamp.second_pole_hz", v, "a second pole in Hz")?;
+            c.within(
+                "opamp.second_pole_hz",
+                v,
+                OPAMP_FREQUENCY_RANGE_HZ,
+                "a second pole in Hz",
+            )?
+        }
         (_, None) => f64::INFINITY,
         (_, Some(v)) => {
             return Err(c.invalid(
