@@ -82,9 +82,11 @@ const WEAK_SAMPLES: usize = 4;
 const MAX_REGIONAL: usize = 3;
 
 /// Check points of a regional order per run of failing scan points, at
-/// most (spread over the run): twice [`CHECKS_PER_DECADE`]'s density over
-/// the 0.1-0.6 Hz stretch of the bandstop in the module documentation,
-/// where its regional order then passes the guard at every scan point.
+/// most (spread over the run): about 10 per decade over the 0.1-0.6 Hz
+/// stretch of the bandstop in the module documentation (against
+/// [`CHECKS_PER_DECADE`]'s 4), where its regional order then passes the
+/// guard at every passband point (tests/fast.rs,
+/// `regional_orders_keep_a_wide_bandstop_on_the_sparse_path`).
 const REGIONAL_SAMPLES: usize = 8;
 
 /// What went wrong while building or refilling a [`SparseAc`].
