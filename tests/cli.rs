@@ -486,10 +486,9 @@ fn montecarlo_is_reproducible_on_any_thread_count() {
 #[test]
 fn zero_tolerances_give_identical_trials_and_a_zero_width_envelope() {
     let dir = scratch("zero-tolerance");
-    let spec = dir.join("spec.toml");
     let text = GOOD.to_string()
         + "[parts]\nresistor_tolerance = 0\ncapacitor_tolerance = 0\n[montecarlo]\ngbw_spread = 0\n";
-    std::fs::write(&spec, text).unwrap();
+    let spec = spec_in(&dir, &text);
     let out = dir.join("out");
     let stdout = succeeds(&nocoil(&[
         "montecarlo",
@@ -764,12 +763,10 @@ fn unwritable_out_is_bad_input() {
 #[test]
 fn fdnr_on_a_highpass_names_the_key_and_the_alternatives() {
     let dir = scratch("fdnr-highpass");
-    let spec = dir.join("spec.toml");
-    std::fs::write(
-        &spec,
-        with("kind = \"lowpass\"", "kind = \"highpass\"") + "[active]\nmethod = \"fdnr\"\n",
-    )
-    .unwrap();
+    let spec = spec_in(
+        &dir,
+        &(with("kind = \"lowpass\"", "kind = \"highpass\"") + "[active]\nmethod = \"fdnr\"\n"),
+    );
     let out = dir.join("out");
     let run = design_into(&spec, &out);
     let stderr = String::from_utf8_lossy(&run.stderr);
@@ -906,11 +903,10 @@ fn a_refused_active_build_still_writes_the_passive_ideal() {
     // and what to try, and the passive ideal's deck and report are
     // written, with the summary saying so first.
     let dir = scratch("refused-active");
-    let spec = dir.join("spec.toml");
     let text = format!(
         "{GOOD}[active]\nmethod = \"gic\"\n[opamp]\nmodel = \"two_pole\"\ngbw_hz = 10e6\nsecond_pole_hz = 5e6\n"
     );
-    std::fs::write(&spec, text).unwrap();
+    let spec = spec_in(&dir, &text);
     let out = dir.join("out");
     let run = design_into(&spec, &out);
     let stdout = String::from_utf8_lossy(&run.stdout);

@@ -92,6 +92,13 @@ impl Gen {
     fn pick<'a>(&mut self, items: &[&'a str]) -> &'a str {
         items[self.below(items.len())]
     }
+    /// With `percent` % chance, the line `key = <number>` (see
+    /// [`Gen::number`]) into `s`.
+    fn maybe_key(&mut self, s: &mut String, percent: usize, key: &str, ordinary: (f64, f64)) {
+        if self.chance(percent) {
+            *s += &format!("{key} = {}\n", self.number(ordinary));
+        }
+    }
     /// A number as TOML writes it: mostly ordinary, sometimes extreme.
     fn number(&mut self, ordinary: (f64, f64)) -> String {
         const EXTREME: &[&str] = &[
@@ -188,12 +195,8 @@ impl Gen {
         if !given_order || self.chance(40) {
             s += &format!("stopband_edge_hz = {}\n", self.edge(band, f * 1.2, 4.0));
         }
-        if self.chance(70) {
-            s += &format!("passband_ripple_db = {}\n", self.number((0.01, 3.0)));
-        }
-        if self.chance(70) {
-            s += &format!("stopband_attenuation_db = {}\n", self.number((10.0, 90.0)));
-        }
+        self.maybe_key(&mut s, 70, "passband_ripple_db", (0.01, 3.0));
+        self.maybe_key(&mut s, 70, "stopband_attenuation_db", (10.0, 90.0));
         if self.chance(15) {
             s += &format!(
                 "form = \"{}\"\n",
@@ -226,21 +229,13 @@ impl Gen {
             s += "\n[opamp]\n";
             let model = self.pick(&["single_pole", "two_pole", "ideal", "three_pole"]);
             s += &format!("model = \"{model}\"\n");
-            if self.chance(70) {
-                s += &format!("gbw_hz = {}\n", self.number((1e5, 1e9)));
-            }
-            if self.chance(50) {
-                s += &format!("dc_gain_db = {}\n", self.number((40.0, 160.0)));
-            }
+            self.maybe_key(&mut s, 70, "gbw_hz", (1e5, 1e9));
+            self.maybe_key(&mut s, 50, "dc_gain_db", (40.0, 160.0));
             if model == "two_pole" || self.chance(10) {
                 s += &format!("second_pole_hz = {}\n", self.number((1e5, 1e9)));
             }
-            if self.chance(30) {
-                s += &format!("output_ohm = {}\n", self.number((1.0, 500.0)));
-            }
-            if self.chance(30) {
-                s += &format!("swing_v = {}\n", self.number((0.5, 20.0)));
-            }
+            self.maybe_key(&mut s, 30, "output_ohm", (1.0, 500.0));
+            self.maybe_key(&mut s, 30, "swing_v", (0.5, 20.0));
         }
         if self.chance(40) {
             s += "\n[parts]\n";
@@ -251,12 +246,8 @@ impl Gen {
             if self.chance(50) {
                 s += &format!("capacitor_series = \"{}\"\n", self.pick(&series));
             }
-            if self.chance(40) {
-                s += &format!("resistor_tolerance = {}\n", self.number((0.001, 0.2)));
-            }
-            if self.chance(40) {
-                s += &format!("capacitor_tolerance = {}\n", self.number((0.001, 0.2)));
-            }
+            self.maybe_key(&mut s, 40, "resistor_tolerance", (0.001, 0.2));
+            self.maybe_key(&mut s, 40, "capacitor_tolerance", (0.001, 0.2));
             if self.chance(40) {
                 let a = self.number((1e-12, 1e-8));
                 let b = self.number((1e-8, 1e-4));
@@ -276,15 +267,9 @@ impl Gen {
         if self.chance(30) {
             s += &format!("seed = {}\n", self.int((0, 1000)));
         }
-        if self.chance(30) {
-            s += &format!("gbw_spread = {}\n", self.number((0.01, 0.5)));
-        }
-        if self.chance(20) {
-            s += &format!("passband_margin_db = {}\n", self.number((0.001, 1.0)));
-        }
-        if self.chance(20) {
-            s += &format!("stopband_margin_db = {}\n", self.number((0.1, 10.0)));
-        }
+        self.maybe_key(&mut s, 30, "gbw_spread", (0.01, 0.5));
+        self.maybe_key(&mut s, 20, "passband_margin_db", (0.001, 1.0));
+        self.maybe_key(&mut s, 20, "stopband_margin_db", (0.1, 10.0));
         if self.chance(5) {
             s += "colour = \"blue\"\n";
         }

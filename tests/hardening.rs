@@ -299,12 +299,10 @@ fn a_table_beyond_the_families_orders_is_refused() {
         };
     }
     std::fs::write(dir.join("table.toml"), table).unwrap();
-    let spec = dir.join("spec.toml");
-    std::fs::write(
-        &spec,
+    let spec = spec_in(
+        &dir,
         "[filter]\nkind = \"lowpass\"\nprototype = \"table.toml\"\npassband_edge_hz = 1000.0\n[terminations]\nsource_ohm = 600.0\nload_ohm = 600.0\n",
-    )
-    .unwrap();
+    );
     let started = Instant::now();
     let (code, stderr) = status(&nocoil(&["bom", spec.to_str().unwrap()]));
     assert_eq!(code, Some(2), "{stderr}");
@@ -344,12 +342,10 @@ fn an_order_mask_beyond_the_frequency_range_is_refused() {
 #[test]
 fn a_sweep_on_a_notch_prints_finite_numbers() {
     let dir = scratch("sweep-notch");
-    let spec = dir.join("bandstop.toml");
-    std::fs::write(
-        &spec,
+    let spec = spec_in(
+        &dir,
         "[filter]\nkind = \"bandstop\"\nfamily = \"butterworth\"\norder = 3\npassband_edge_hz = [900.0, 1100.0]\n[terminations]\nsource_ohm = 1000.0\nload_ohm = 1000.0\n",
-    )
-    .unwrap();
+    );
     let centre = (900.0f64 * 1100.0).sqrt();
     let (from, to) = (
         format!("{:?}", centre / 10.0),
@@ -391,12 +387,10 @@ fn a_sweep_on_a_notch_prints_finite_numbers() {
 #[test]
 fn a_low_second_pole_bounds_the_top_of_the_op_amp_range() {
     let dir = scratch("low-second-pole");
-    let spec = dir.join("spec.toml");
-    std::fs::write(
-        &spec,
+    let spec = spec_in(
+        &dir,
         "[filter]\nkind = \"highpass\"\nfamily = \"elliptic\"\npassband_edge_hz = 0.137\nstopband_edge_hz = 0.109\npassband_ripple_db = 0.0325\nstopband_attenuation_db = 39.0\n[terminations]\nsource_ohm = 1351.0\nload_ohm = 9344.0\n[opamp]\nmodel = \"two_pole\"\ngbw_hz = 1e12\nsecond_pole_hz = 4.7135e7\n",
-    )
-    .unwrap();
+    );
     let run = nocoil(&["levels", spec.to_str().unwrap()]);
     let (code, stderr) = status(&run);
     assert_eq!(code, Some(0), "{stderr}");
