@@ -792,14 +792,14 @@ fn bad_params_are_refused_with_the_right_error() {
             "{attenuation}: {got:?}"
         );
     }
-    // The attenuation is ignored outside the elliptic family.
+    // The attenuation is ignored outside the families with finite zeros.
     assert!(p(c, 3, 1.0, 0.0, std).is_ok());
     assert_eq!(
         p(c, 4, 1.0, 0.0, Variant::ZeroAtInfinity),
         Err(ApproxError::VariantNotForFamily {
             variant: Variant::ZeroAtInfinity,
             family: c,
-            accepted: &[Family::Elliptic]
+            accepted: &[Family::Elliptic, Family::InverseChebyshev]
         })
     );
     assert_eq!(

@@ -136,7 +136,7 @@ fn chebyshev_roots(n: usize, eps: f64, level: f64) -> Vec<Complex64> {
 }
 
 /// The element values from source to load.
-fn values(ladder: &Ladder) -> Vec<f64> {
+pub(crate) fn values(ladder: &Ladder) -> Vec<f64> {
     ladder.elements.iter().map(|e| e.value).collect()
 }
 
@@ -683,7 +683,7 @@ fn prototype(family: Family, n: usize, ap_db: f64, as_db: f64, variant: Variant)
 
 /// Synthesizes a prototype, checks structure and response against its zpk,
 /// and returns the ladder.
-fn checked_prototype_ladder(proto: &Prototype, r: f64, form: Form) -> Ladder {
+pub(crate) fn checked_prototype_ladder(proto: &Prototype, r: f64, form: Form) -> Ladder {
     let what = format!("{:?}, r = {r}, {form:?}", proto.params);
     let ladder = synthesize(proto, r, form).unwrap_or_else(|e| panic!("{what}: {e}"));
     assert_structure(&ladder, form, proto.transmission_zeros.len());
@@ -822,7 +822,7 @@ fn prototype_entry_refuses_what_no_ladder_realizes() {
     let even_standard = prototype(Family::Elliptic, 4, 0.1, 40.0, Variant::Standard);
     let got = synthesize(&even_standard, 1.0, Form::MinCapacitor);
     assert!(
-        matches!(got, Err(SynthError::NotALadder { order: 4 })),
+        matches!(got, Err(SynthError::NotALadder { order: 4, .. })),
         "{got:?}"
     );
 

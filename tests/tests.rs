@@ -10,6 +10,7 @@ mod compensation;
 mod damping;
 mod design;
 mod export;
+mod families;
 mod fast;
 mod fuzz;
 mod hardening;

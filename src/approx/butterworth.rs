@@ -27,8 +27,8 @@ impl Standard for Butterworth {
     }
 
     /// F(s) = s^n: every reflection zero sits at DC.
-    fn reflection_zeros(&self) -> Vec<f64> {
-        vec![0.0; self.order]
+    fn reflection_zeros(&self) -> Vec<Complex64> {
+        vec![Complex64::ZERO; self.order]
     }
 
     fn transmission_zeros(&self) -> Vec<f64> {

@@ -5,9 +5,13 @@
 //! closed under conjugation, pairs adjacent, the real root (if any) first;
 //! jw-axis quantities are plain frequencies until they leave this module.
 
+use super::allpole::AllPole;
 use super::butterworth::Butterworth;
 use super::equiripple::Equiripple;
+use super::inverse::InverseChebyshev;
+use super::legendre::{self, LossPolynomial};
 use super::variant::FrequencyMap;
+use super::{bessel, decibel::ripple_factor};
 use super::{Family, Params, Variant};
 use num_complex::Complex64;
 
@@ -15,9 +19,12 @@ use num_complex::Complex64;
 pub(crate) trait Standard {
     /// The n left-half-plane roots of 1 + eps^2 R(-js)^2 = 0.
     fn roots(&self, eps: f64) -> Vec<Complex64>;
-    /// The zeros of R, w >= 0 ascending, with multiplicity: w > 0 stands for
-    /// the pair +-jw, each 0 for one root at DC.
-    fn reflection_zeros(&self) -> Vec<f64>;
+    /// The n zeros of R(-js) as s-plane points, with multiplicity: +-jw
+    /// pairs and DC for the families whose R vanishes only on the jw axis,
+    /// left-half-plane points where R has complex zeros (Bessel, Legendre;
+    /// any half plane gives a ladder, the left one the minimum-phase
+    /// reflection).
+    fn reflection_zeros(&self) -> Vec<Complex64>;
     /// The poles of R, w > 0 ascending, each for the pair +-jw.
     fn transmission_zeros(&self) -> Vec<f64>;
     /// Where the loss first reaches the stopband attenuation (elliptic).
@@ -43,11 +50,25 @@ pub(crate) fn with_conjugates(upper: impl Iterator<Item = Complex64>) -> Vec<Com
         .collect()
 }
 
+/// The +-jw pairs of jw-axis zero frequencies w >= 0 (a single point for
+/// each 0).
+pub(crate) fn on_axis(frequencies: impl Iterator<Item = f64>) -> Vec<Complex64> {
+    frequencies
+        .flat_map(|w| {
+            let mirror = (w != 0.0).then_some(-w);
+            std::iter::once(w).chain(mirror)
+        })
+        .map(|w| Complex64::new(0.0, w))
+        .collect()
+}
+
 /// One of the standard families.
 #[derive(Debug, Clone, PartialEq)]
 enum Shape {
     Butterworth(Butterworth),
     Equiripple(Equiripple),
+    Inverse(InverseChebyshev),
+    AllPole(AllPole),
 }
 
 /// A validated prototype's characteristic function.
@@ -71,6 +92,23 @@ impl Characteristic {
                 params.passband_ripple_db,
                 params.stopband_attenuation_db,
             )),
+            Family::InverseChebyshev => Shape::Inverse(InverseChebyshev::new(
+                params.order,
+                params.passband_ripple_db,
+                params.stopband_attenuation_db,
+            )),
+            Family::Bessel => {
+                Shape::AllPole(bessel::bessel(params.order, params.passband_ripple_db))
+            }
+            Family::Legendre => {
+                let eps = ripple_factor(params.passband_ripple_db);
+                let loss = LossPolynomial::new(params.order);
+                Shape::AllPole(AllPole {
+                    poles: legendre::poles(&loss, params.order, eps),
+                    eps,
+                    dc_order: if params.order.is_multiple_of(2) { 2 } else { 1 },
+                })
+            }
         };
         let mut characteristic = Characteristic { shape, map: None };
         if params.variant != Variant::Standard {
@@ -88,6 +126,8 @@ impl Characteristic {
         match &self.shape {
             Shape::Butterworth(b) => b,
             Shape::Equiripple(e) => e,
+            Shape::Inverse(i) => i,
+            Shape::AllPole(a) => a,
         }
     }
 
@@ -100,20 +140,17 @@ impl Characteristic {
         }
     }
 
-    /// The n zeros of R as s-plane points on the jw axis.
+    /// The n zeros of R as s-plane points (see [`Standard`]); a map moves
+    /// the jw-axis ones (the only kind the mapped families have).
     pub(crate) fn reflection_zeros(&self) -> Vec<Complex64> {
-        let signed = self
-            .standard()
-            .reflection_zeros()
-            .into_iter()
-            .flat_map(|w| {
-                let mirror = (w != 0.0).then_some(-w);
-                std::iter::once(w).chain(mirror)
-            });
-        signed
-            .map(|w| self.map.as_ref().map_or(w, |map| map.frequency(w)))
-            .map(|w| Complex64::new(0.0, w))
-            .collect()
+        let zeros = self.standard().reflection_zeros();
+        match &self.map {
+            None => zeros,
+            Some(map) => zeros
+                .into_iter()
+                .map(|z| Complex64::new(0.0, map.frequency(z.im)))
+                .collect(),
+        }
     }
 
     /// Finite transmission zeros w > 0, ascending (each for +-jw).

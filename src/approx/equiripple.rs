@@ -18,7 +18,7 @@
 //! reflection zeros and -sinh(mu) cos(theta) + j cosh(mu) sin(theta),
 //! mu = asinh(1/eps)/n, for the poles (scipy's `cheb1ap` formula).
 
-use super::characteristic::{ripple_grid, with_conjugates, Standard};
+use super::characteristic::{on_axis, ripple_grid, with_conjugates, Standard};
 use super::decibel::{power_ratio_m1, ripple_factor};
 use super::jacobi::{solve_degree, Landen, Modulus};
 use num_complex::Complex64;
@@ -63,6 +63,13 @@ impl Equiripple {
     }
 }
 
+impl Equiripple {
+    /// The zeros of R, w >= 0 ascending: w = sn(x K, k) on the ripple grid.
+    fn zero_frequencies(&self) -> impl Iterator<Item = f64> + '_ {
+        ripple_grid(self.order).map(|x| self.selectivity.sn(x))
+    }
+}
+
 /// The discrimination k1 = eps / eps_s. When As is within about 3 dB of
 /// Ap, k1' is the smaller member and comes directly from
 /// sqrt(10^(Ap/10) (10^((As-Ap)/10) - 1)) / eps_s; otherwise from k1 (the
@@ -88,10 +95,8 @@ impl Standard for Equiripple {
         }))
     }
 
-    fn reflection_zeros(&self) -> Vec<f64> {
-        ripple_grid(self.order)
-            .map(|x| self.selectivity.sn(x))
-            .collect()
+    fn reflection_zeros(&self) -> Vec<Complex64> {
+        on_axis(self.zero_frequencies())
     }
 
     /// Empty for Chebyshev (k = 0 puts them at infinity).
@@ -100,8 +105,7 @@ impl Standard for Equiripple {
             return Vec::new();
         }
         let mut zeros: Vec<f64> = self
-            .reflection_zeros()
-            .into_iter()
+            .zero_frequencies()
             .filter(|&w| w > 0.0)
             .map(|w| 1.0 / (self.k * w))
             .collect();

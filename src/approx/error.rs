@@ -62,6 +62,28 @@ pub enum ApproxError {
         /// The normalized stopband edge given.
         ws: f64,
     },
+    /// The iteration that finds a family's poles did not converge (a
+    /// program fault: every order and level in range converges).
+    #[error("the poles of the {family} approximation of order {order} were not found")]
+    RootsNotFound {
+        /// The family.
+        family: Family,
+        /// The order.
+        order: usize,
+    },
+    /// A family without an order formula misses the mask even at its
+    /// largest supported order.
+    #[error(
+        "the mask needs more than order {max} of the {family} approximation (the largest supported): order {max} reaches {reached_db:.2} dB at the stopband edge"
+    )]
+    MaskBeyondMaxOrder {
+        /// The family asked for.
+        family: Family,
+        /// The largest order the family supports.
+        max: usize,
+        /// The attenuation at the stopband edge at that order, dB.
+        reached_db: f64,
+    },
     /// The mask needs more than the family's largest supported order.
     #[error(
         "the mask needs order {} of the {family} approximation, above the largest supported order {max}", needed.ceil()

@@ -14,17 +14,23 @@
 
 use num_complex::Complex64;
 
+mod allpole;
+mod bessel;
 mod butterworth;
 mod characteristic;
 mod decibel;
 mod equiripple;
 mod error;
+mod inverse;
 mod jacobi;
+mod legendre;
 mod order;
 mod prototype;
+mod roots;
 mod scalar;
 mod variant;
 
+pub use bessel::BesselScale;
 pub use error::ApproxError;
 pub use order::{min_order, ORDER_TOLERANCE};
 
@@ -52,7 +58,7 @@ pub const MAX_LEVEL_DB: f64 = 300.0;
 
 /// The approximation family.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
-#[serde(rename_all = "lowercase")]
+#[serde(rename_all = "snake_case")]
 pub enum Family {
     /// Maximally flat magnitude.
     Butterworth,
@@ -60,12 +66,43 @@ pub enum Family {
     Chebyshev,
     /// Elliptic (Cauer): equiripple passband and stopband.
     Elliptic,
+    /// Bessel-Thomson: maximally flat group delay.
+    Bessel,
+    /// Inverse Chebyshev (Chebyshev type II): monotonic passband,
+    /// equiripple stopband.
+    InverseChebyshev,
+    /// Legendre (Papoulis' optimum monotonic): the steepest monotonic
+    /// passband edge of its order.
+    Legendre,
 }
+
+/// Every family, in the order a table lists them.
+pub const FAMILIES: [Family; 6] = [
+    Family::Butterworth,
+    Family::Chebyshev,
+    Family::Elliptic,
+    Family::Bessel,
+    Family::InverseChebyshev,
+    Family::Legendre,
+];
 
 impl Family {
     /// The largest order [`Prototype::new`] and [`min_order`] accept.
     pub fn max_order(self) -> usize {
         MAX_ORDER
+    }
+
+    /// Whether the passband ripples (Chebyshev, elliptic): an even order
+    /// then keeps the ripple loss at DC.
+    pub fn equiripple_passband(self) -> bool {
+        matches!(self, Family::Chebyshev | Family::Elliptic)
+    }
+
+    /// Whether the family has finite transmission zeros (elliptic, inverse
+    /// Chebyshev): it needs a stopband attenuation, and its standard even
+    /// orders keep a finite gain at infinity that no ladder realizes.
+    pub fn finite_zeros(self) -> bool {
+        matches!(self, Family::Elliptic | Family::InverseChebyshev)
     }
 }
 
@@ -76,8 +113,27 @@ impl std::fmt::Display for Family {
             Family::Butterworth => "Butterworth",
             Family::Chebyshev => "Chebyshev",
             Family::Elliptic => "elliptic",
+            Family::Bessel => "Bessel",
+            Family::InverseChebyshev => "inverse Chebyshev",
+            Family::Legendre => "Legendre",
         })
     }
+}
+
+/// The passband edge of a Bessel response of this order and edge loss,
+/// relative to what else may fix its frequency scale: edge (rad/s) times
+/// the DC group delay (s) for [`BesselScale::DcDelay`], edge over the
+/// asymptote frequency for [`BesselScale::Asymptote`].
+///
+/// Errors on an order or edge loss out of range.
+pub fn bessel_edge_ratio(
+    order: usize,
+    ripple_db: f64,
+    scale: BesselScale,
+) -> Result<f64, ApproxError> {
+    prototype::check_order(Family::Bessel, order)?;
+    error::check_ripple(ripple_db)?;
+    Ok(bessel::edge_ratio(order, ripple_db, scale))
 }
 
 /// Which form of the characteristic function an even order uses.
@@ -156,10 +212,11 @@ pub struct Params {
     pub family: Family,
     /// The order (number of poles), at least 1.
     pub order: usize,
-    /// Passband ripple (Chebyshev, elliptic) or attenuation at the passband
-    /// edge (Butterworth), dB, greater than 0.
+    /// Passband ripple (Chebyshev, elliptic) or loss at the passband edge
+    /// (the monotonic families), dB, greater than 0.
     pub passband_ripple_db: f64,
-    /// Minimum stopband attenuation, dB (elliptic only; ignored otherwise).
+    /// Minimum stopband attenuation, dB (the families with finite
+    /// transmission zeros only; ignored otherwise).
     pub stopband_attenuation_db: f64,
     /// The form; only even orders may use a modified one.
     pub variant: Variant,
@@ -178,8 +235,9 @@ pub struct Prototype {
     /// the pair +-jw. Empty for the all-pole families.
     pub transmission_zeros: Vec<f64>,
     /// Normalized frequency at which the stopband attenuation is first
-    /// reached (elliptic: 1/k, moved outwards by a modified variant), or
-    /// `None` for the all-pole families.
+    /// reached (elliptic: 1/k; inverse Chebyshev: cosh(acosh(eps_s/eps)/n);
+    /// moved outwards by a modified variant), or `None` for the all-pole
+    /// families.
     pub stopband_edge: Option<f64>,
     /// The characteristic function, kept for [`Prototype::reflection_roots`].
     #[serde(skip)]

@@ -10,7 +10,7 @@ use super::decibel::power_ratio_m1;
 use super::equiripple::discrimination;
 use super::error::{check_attenuation, ApproxError};
 use super::jacobi::{Landen, Modulus};
-use super::Family;
+use super::{Family, Params, Prototype, Variant};
 
 /// Relative slack when rounding the real-valued order up. The formulas are
 /// accurate to about 1e-14 relative (each step keeps full precision, see
@@ -23,7 +23,10 @@ pub const ORDER_TOLERANCE: f64 = 1e-9;
 /// - Butterworth: log10((10^(As/10)-1)/(10^(Ap/10)-1)) / (2 log10 ws);
 /// - Chebyshev: acosh(sqrt(that ratio)) / acosh(ws);
 /// - elliptic: the degree equation K(k) K'(k1) / (K'(k) K(k1)) with
-///   k = 1/ws and k1 = eps/eps_s (Daniels 1974, ch. 5, from memory).
+///   k = 1/ws and k1 = eps/eps_s (Daniels 1974, ch. 5, from memory);
+/// - inverse Chebyshev: the Chebyshev formula;
+/// - Bessel and Legendre (no closed form): the least order whose loss at
+///   `ws` reaches `as_db`, within [`ORDER_TOLERANCE`] relative.
 ///
 /// Errors when `ws` is not finite and above 1, on levels out of range (the
 /// attenuation must exceed the ripple), and when the order needed exceeds
@@ -38,8 +41,12 @@ pub fn min_order(family: Family, ws: f64, ap_db: f64, as_db: f64) -> Result<usiz
         // ln_1p: ws - 1 is exact for ws in (1, 2], so a narrow transition
         // keeps its digits.
         Family::Butterworth => ratio.ln() / (2.0 * (ws - 1.0).ln_1p()),
-        Family::Chebyshev => acosh(ratio.sqrt()) / acosh(ws),
+        // The inverse Chebyshev shares the formula: its R at the stopband
+        // edge is T_n(ws), as the Chebyshev's is (scipy's cheb2ord agrees,
+        // tests/approx.rs).
+        Family::Chebyshev | Family::InverseChebyshev => acosh(ratio.sqrt()) / acosh(ws),
         Family::Elliptic => elliptic_degree(ws, ap_db, as_db),
+        Family::Bessel | Family::Legendre => return searched_order(family, ws, ap_db, as_db),
     };
     let max = family.max_order();
     let order = (needed * (1.0 - ORDER_TOLERANCE)).ceil().max(1.0);
@@ -53,10 +60,36 @@ pub fn min_order(family: Family, ws: f64, ap_db: f64, as_db: f64) -> Result<usiz
     Ok(order as usize)
 }
 
+/// The least order of a family with a monotonic loss (Bessel, Legendre)
+/// whose loss at `ws` reaches `as_db`, by trying each order in turn: the
+/// loss at a fixed stopband edge grows with the order for both.
+fn searched_order(family: Family, ws: f64, ap_db: f64, as_db: f64) -> Result<usize, ApproxError> {
+    let max = family.max_order();
+    let mut reached_db = 0.0;
+    for order in 1..=max {
+        let proto = Prototype::new(Params {
+            family,
+            order,
+            passband_ripple_db: ap_db,
+            stopband_attenuation_db: as_db,
+            variant: Variant::Standard,
+        })?;
+        reached_db = proto.attenuation_db(ws);
+        if reached_db >= as_db * (1.0 - ORDER_TOLERANCE) {
+            return Ok(order);
+        }
+    }
+    Err(ApproxError::MaskBeyondMaxOrder {
+        family,
+        max,
+        reached_db,
+    })
+}
+
 /// acosh(x) for x >= 1 as ln(1 + (x - 1) + sqrt((x - 1)(x + 1))), which
 /// keeps full relative accuracy near x = 1, where ln(x + sqrt(x^2 - 1))
 /// loses it.
-fn acosh(x: f64) -> f64 {
+pub(crate) fn acosh(x: f64) -> f64 {
     let d = x - 1.0;
     (d + (d * (x + 1.0)).sqrt()).ln_1p()
 }

@@ -17,15 +17,18 @@ impl Prototype {
     ///
     /// Errors on an order of 0 or above [`Family::max_order`], a ripple
     /// outside [`super::MIN_RIPPLE_DB`]..=[`super::MAX_LEVEL_DB`], an
-    /// elliptic attenuation not above the ripple (or above `MAX_LEVEL_DB`),
-    /// a modified variant on an odd order or on Butterworth, and
-    /// [`Variant::ZeroAtInfinity`] on Chebyshev.
+    /// elliptic or inverse Chebyshev attenuation not above the ripple (or
+    /// above `MAX_LEVEL_DB`), a modified variant on an odd order or on a
+    /// family it does not modify ([`Variant::ZeroAtInfinity`]: elliptic and
+    /// inverse Chebyshev; [`Variant::ReflectionAtDc`]: Chebyshev and
+    /// elliptic).
     pub fn new(params: Params) -> Result<Prototype, ApproxError> {
         validate(&params)?;
         let eps = ripple_factor(params.passband_ripple_db);
         let characteristic = Characteristic::new(&params);
         let transmission_zeros = characteristic.transmission_zeros();
         let poles = characteristic.roots(eps);
+        check_poles(&params, &poles)?;
         // Exact by construction: sin(0) = 0, and the map sends Z to 0 exactly.
         let dc_reflection = characteristic.reflection_zeros().contains(&Complex64::ZERO);
         let gain = dc_gain(&poles, &transmission_zeros, eps, dc_reflection);
@@ -84,26 +87,46 @@ fn dc_gain(poles: &[Complex64], zeros: &[f64], eps: f64, dc_reflection: bool) ->
     }
 }
 
-fn validate(params: &Params) -> Result<(), ApproxError> {
-    let max = params.family.max_order();
-    if params.order == 0 || params.order > max {
-        return Err(ApproxError::OrderOutOfRange {
-            family: params.family,
-            order: params.order,
-            max,
-        });
+/// Accepts an order from 1 to the family's largest.
+pub(crate) fn check_order(family: Family, order: usize) -> Result<(), ApproxError> {
+    let max = family.max_order();
+    if order == 0 || order > max {
+        return Err(ApproxError::OrderOutOfRange { family, order, max });
     }
+    Ok(())
+}
+
+fn validate(params: &Params) -> Result<(), ApproxError> {
+    check_order(params.family, params.order)?;
     check_ripple(params.passband_ripple_db)?;
-    if params.family == Family::Elliptic {
+    if params.family.finite_zeros() {
         check_attenuation(params.passband_ripple_db, params.stopband_attenuation_db)?;
     }
     check_variant(params)
 }
 
+/// The n poles, finite and strictly in the left half plane: the families
+/// found by iteration (Bessel, Legendre) are checked to have converged
+/// (tests/approx.rs shows they do for every order and level in range, so
+/// this is a program fault, not an input error).
+fn check_poles(params: &Params, poles: &[Complex64]) -> Result<(), ApproxError> {
+    let stable = poles
+        .iter()
+        .all(|p| p.re < 0.0 && p.re.is_finite() && p.im.is_finite());
+    if poles.len() == params.order && stable {
+        Ok(())
+    } else {
+        Err(ApproxError::RootsNotFound {
+            family: params.family,
+            order: params.order,
+        })
+    }
+}
+
 fn check_variant(params: &Params) -> Result<(), ApproxError> {
     let accepted: &'static [Family] = match params.variant {
         Variant::Standard => return Ok(()),
-        Variant::ZeroAtInfinity => &[Family::Elliptic],
+        Variant::ZeroAtInfinity => &[Family::Elliptic, Family::InverseChebyshev],
         Variant::ReflectionAtDc => &[Family::Chebyshev, Family::Elliptic],
     };
     if !accepted.contains(&params.family) {

@@ -19,6 +19,7 @@
 //! map is increasing from x_old in (Z, P) onto x_new in (0, infinity), so
 //! ascending frequencies stay ascending.
 
+use super::roots::left_sqrt;
 use super::scalar::Scalar;
 use super::Variant;
 use num_complex::Complex64;
@@ -33,18 +34,25 @@ pub(crate) struct FrequencyMap {
 }
 
 impl FrequencyMap {
-    /// The map of `variant` for a standard function with these ascending
-    /// reflection zeros (w >= 0) and transmission zeros (w > 0).
+    /// The map of `variant` for a standard function with these jw-axis
+    /// reflection zeros (s-plane points) and ascending transmission zeros
+    /// (w > 0).
     pub(crate) fn new(
         variant: Variant,
-        reflection_zeros: &[f64],
+        reflection_zeros: &[Complex64],
         transmission_zeros: &[f64],
     ) -> FrequencyMap {
         let highest_zero = transmission_zeros.last().map(|w| w * w);
         let lowest_reflection = reflection_zeros
             .iter()
-            .find(|&&w| w > 0.0)
-            .map_or(0.0, |w| w * w);
+            .map(|z| z.im)
+            .filter(|&w| w > 0.0)
+            .fold(f64::INFINITY, f64::min);
+        let lowest_reflection = if lowest_reflection.is_finite() {
+            lowest_reflection * lowest_reflection
+        } else {
+            0.0
+        };
         match variant {
             Variant::Standard => FrequencyMap {
                 to_dc: 0.0,
@@ -91,26 +99,6 @@ impl FrequencyMap {
     }
 }
 
-/// The square root with non-positive real part, computed so that both
-/// parts keep full relative accuracy (the polar form loses the small real
-/// part of a root close to the jw axis).
-fn left_sqrt(z: Complex64) -> Complex64 {
-    let r = z.norm();
-    if r == 0.0 {
-        return z;
-    }
-    // Principal root a + jb, a >= 0: take the larger part from r, the
-    // smaller from im = 2ab.
-    let (a, b) = if z.re >= 0.0 {
-        let a = ((r + z.re) / 2.0).sqrt();
-        (a, z.im / (2.0 * a))
-    } else {
-        let b = ((r - z.re) / 2.0).sqrt().copysign(z.im);
-        (z.im / (2.0 * b), b)
-    };
-    Complex64::new(-a, -b)
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -134,23 +122,6 @@ mod tests {
         for x in [0.0, 0.3, 1.0, 2.5, 40.0] {
             assert!((type_c.apply(forward_c(x)) - x).abs() <= 1e-14 * (1.0 + x));
             assert!((type_b.apply(forward_b(x)) - x).abs() <= 1e-14 * (1.0 + x));
-        }
-    }
-
-    #[test]
-    fn left_sqrt_squares_back_near_the_axis() {
-        for z in [
-            Complex64::new(-4.0, 1e-9),
-            Complex64::new(-4.0, -1e-9),
-            Complex64::new(3.0, 2.0),
-        ] {
-            let r = left_sqrt(z);
-            assert!(r.re <= 0.0);
-            assert!(((r * r) - z).norm() <= 4.0 * f64::EPSILON * z.norm());
-            // the small real part is relatively exact: Re = -|im| / (2 |b|)
-            if z.re < 0.0 {
-                assert!((r.re + z.im.abs() / 4.0).abs() <= f64::EPSILON * z.im.abs());
-            }
         }
     }
 }

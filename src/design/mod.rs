@@ -37,7 +37,7 @@ pub use analyses::{
     MIN_DEFAULT_TRIALS, MONTE_CARLO_POINTS, SENSITIVITY_POINTS, WORST_TRIALS,
 };
 pub use builds::{ActiveDesign, BuildFigures, TopOfRange};
-pub use order::{order_table, OrderRow, OrderTable, FAMILIES};
+pub use order::{order_table, OrderRow, OrderTable};
 pub use report::{ActiveReport, Documents, NormalizedElement, Outcome, Report, ScaledElement};
 
 /// The three builds of a design, named so wherever a figure is shown.
@@ -207,6 +207,19 @@ pub enum DesignError {
         /// Why.
         cause: AnalysisError,
     },
+    /// The inverse Chebyshev of this order and floor has no ladder with
+    /// positive elements.
+    #[error("{}: no {family} ladder of order {order} with a {attenuation_db} dB stopband floor has positive elements (the first partial removal of a zero comes out negative in every order of removal); a deeper floor allows a higher order (measured: 20 dB up to order 4, 40 dB up to 6, 60 dB up to 10, 100 dB up to 14), a lower order a shallower one, and the elliptic family meets the same mask at a lower order", file.display())]
+    NoLadder {
+        /// The design file.
+        file: PathBuf,
+        /// The family.
+        family: Family,
+        /// The order.
+        order: usize,
+        /// The stopband floor, dB.
+        attenuation_db: f64,
+    },
     /// Synthesis could not hold its accuracy for this approximation.
     #[error("{}: the ladder synthesis could not hold its accuracy for this design ({cause}); a lower order, a wider transition band or terminations closer to equal will do", file.display())]
     Synth {
@@ -224,7 +237,10 @@ impl DesignError {
     /// between stages is the program's.
     pub fn blame(&self) -> Blame {
         let input = match self {
-            DesignError::Spec(_) | DesignError::Approx { .. } | DesignError::Synth { .. } => true,
+            DesignError::Spec(_)
+            | DesignError::Approx { .. }
+            | DesignError::Synth { .. }
+            | DesignError::NoLadder { .. } => true,
             DesignError::Circuit { .. } | DesignError::Analysis { .. } => false,
             DesignError::Active { cause, .. } => matches!(
                 cause,
@@ -375,9 +391,21 @@ fn check_synthesis_limit(spec: &Spec, proto: &Prototype) -> Result<(), DesignErr
 /// an even order whose terminations fit only the other orientation takes
 /// the other form; with one, that is the user's to change.
 fn ladder(spec: &Spec, proto: &Prototype, ratio: f64) -> Result<Ladder, DesignError> {
-    let synth_error = |cause| DesignError::Synth {
-        file: spec.file.clone(),
-        cause,
+    let synth_error = |cause| match cause {
+        // Measured in tests/families.rs: a property of the inverse
+        // Chebyshev's shallow floors, not of the synthesis' accuracy.
+        SynthError::NoZeroOrder { .. } if proto.params.family == Family::InverseChebyshev => {
+            DesignError::NoLadder {
+                file: spec.file.clone(),
+                family: proto.params.family,
+                order: proto.params.order,
+                attenuation_db: proto.params.stopband_attenuation_db,
+            }
+        }
+        cause => DesignError::Synth {
+            file: spec.file.clone(),
+            cause,
+        },
     };
     // The default: the capacitors sit in shunt arms that end at ground,
     // which is what the inductorless realizations want.
@@ -483,7 +511,7 @@ fn mask_check(origin: &Origin, ws: Option<f64>, attenuation_db: Option<f64>) -> 
     let margin = match (proto.map(|p| p.params.family), ws) {
         (_, None) => Margin::NoStopband,
         (None, Some(_)) => Margin::Table,
-        (Some(Family::Elliptic), Some(_)) => Margin::StopbandEdge,
+        (Some(family), Some(_)) if family.finite_zeros() => Margin::StopbandEdge,
         (Some(_), Some(_)) => Margin::Attenuation,
     };
     MaskCheck {

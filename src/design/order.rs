@@ -1,11 +1,8 @@
 //! The minimum order of every family for a mask (the `order` command).
 
-use crate::approx::{self, ApproxError, Family};
+use crate::approx::{self, ApproxError, Family, FAMILIES};
 use crate::synth;
 use crate::transform::Band;
-
-/// Every family, in the order a table lists them.
-pub const FAMILIES: [Family; 3] = [Family::Butterworth, Family::Chebyshev, Family::Elliptic];
 
 /// One family's minimum order for a mask.
 #[derive(Debug, Clone, PartialEq)]

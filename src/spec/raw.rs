@@ -530,7 +530,10 @@ fn prototype_source(
         c.invalid(
             "filter.family",
             "(missing)",
-            "expected butterworth, chebyshev or elliptic (or filter.prototype naming a table)",
+            format!(
+                "expected {} (or filter.prototype naming a table)",
+                family_names()
+            ),
         )
     })?;
     let max = synth::max_order(family);
@@ -540,11 +543,12 @@ fn prototype_source(
             return Err(c.invalid(
                 "filter.order",
                 n,
-                match family {
-                    Family::Elliptic => format!(
-                        "expected a whole number from 1 to {max} (at most {max} for an elliptic ladder: its synthesis holds its accuracy no further)"
-                    ),
-                    _ => format!("expected a whole number from 1 to {max}"),
+                if family.finite_zeros() {
+                    format!(
+                        "expected a whole number from 1 to {max} (at most {max} for an {family} ladder: its synthesis holds its accuracy no further)"
+                    )
+                } else {
+                    format!("expected a whole number from 1 to {max}")
                 },
             ))
         }
@@ -559,8 +563,10 @@ fn prototype_source(
             ))
         }
     };
-    let ripple = match (family, f.passband_ripple_db) {
-        (Family::Butterworth, None) => HALF_POWER_DB,
+    let ripple = match (family.equiripple_passband(), f.passband_ripple_db) {
+        // The monotonic passbands are normalized at the half-power point
+        // unless the file says otherwise.
+        (false, None) => HALF_POWER_DB,
         (_, None) => {
             return Err(c.invalid(
                 "filter.passband_ripple_db",
@@ -571,12 +577,12 @@ fn prototype_source(
         (_, Some(r)) => r,
     };
     check_levels(ripple, f.stopband_attenuation_db).map_err(|p| c.problem(p))?;
-    let needs_attenuation = family == Family::Elliptic || order.is_none();
+    let needs_attenuation = family.finite_zeros() || order.is_none();
     if needs_attenuation && f.stopband_attenuation_db.is_none() {
         return Err(c.invalid(
             "filter.stopband_attenuation_db",
             "(missing)",
-            "expected a minimum stopband attenuation in dB (an elliptic design or a computed order needs it)",
+            "expected a minimum stopband attenuation in dB (an elliptic or inverse Chebyshev design, or a computed order, needs it)",
         ));
     }
     Ok(PrototypeSource::Family {
@@ -585,6 +591,15 @@ fn prototype_source(
         passband_ripple_db: ripple,
         stopband_attenuation_db: f.stopband_attenuation_db,
     })
+}
+
+/// Every family as a design file names it: "butterworth, ... or legendre".
+fn family_names() -> String {
+    let names: Vec<String> = crate::approx::FAMILIES.iter().map(as_written).collect();
+    match names.split_last() {
+        Some((last, rest)) => format!("{} or {last}", rest.join(", ")),
+        None => String::new(),
+    }
 }
 
 /// A value as a design file writes it (its serde name): for messages that

@@ -56,13 +56,15 @@ pub enum SynthError {
         /// The side of 1 the ratio must lie on, "above" or "below".
         needs: &'static str,
     },
-    /// The standard even-order elliptic has a finite gain at infinity,
-    /// which a ladder of plain L and C cannot realize.
+    /// The standard even-order elliptic or inverse Chebyshev has a finite
+    /// gain at infinity, which a ladder of plain L and C cannot realize.
     #[error(
-        "the standard elliptic of even order {order} is not realizable as a ladder: \
-         use the ZeroAtInfinity or ReflectionAtDc variant"
+        "the standard {family} of even order {order} is not realizable as a ladder: \
+         use the ZeroAtInfinity variant (or, elliptic only, ReflectionAtDc)"
     )]
     NotALadder {
+        /// The family.
+        family: crate::approx::Family,
         /// The order.
         order: usize,
     },

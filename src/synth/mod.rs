@@ -44,9 +44,10 @@ pub const ELLIPTIC_SYNTHESIS_MAX_ORDER: usize = 16;
 /// Highest order the synthesis is asked for in `family`: the
 /// approximation's own limit ([`approx::MAX_ORDER`]; the all-pole ladders
 /// hold it, tests/synth.rs checks them to order 25 against closed forms),
-/// or [`ELLIPTIC_SYNTHESIS_MAX_ORDER`] for elliptic ladders.
+/// or [`ELLIPTIC_SYNTHESIS_MAX_ORDER`] for the families with finite
+/// transmission zeros.
 pub fn max_order(family: Family) -> usize {
-    if family == Family::Elliptic {
+    if family.finite_zeros() {
         ELLIPTIC_SYNTHESIS_MAX_ORDER
     } else {
         approx::MAX_ORDER

@@ -13,7 +13,7 @@ use super::terminations::{
     boundary_ratios, dc_gain, dc_reflection_of, flat_loss_level, LEVEL_TOLERANCE,
 };
 use super::{Form, Ladder, SynthError};
-use crate::approx::{Family, Prototype, Variant};
+use crate::approx::{Prototype, Variant};
 
 impl Characteristic {
     /// The characteristic of `proto` between a 1 ohm source and a load of
@@ -21,7 +21,8 @@ impl Characteristic {
     /// reflection roots at the flat-loss level the ratio forces.
     ///
     /// Errors when the ratio is not positive and finite, when the
-    /// prototype is the standard even-order elliptic (not a ladder), when
+    /// prototype is a standard even-order elliptic or inverse Chebyshev
+    /// (not a ladder), when
     /// the ratio needs more DC transmission than the prototype has
     /// (`InfeasibleRatio`, naming the ratios that work), and when the
     /// roots miss the reflection the normalization promises.
@@ -31,11 +32,12 @@ impl Characteristic {
     ) -> Result<Characteristic, SynthError> {
         check_ratio(load_ratio)?;
         let params = &proto.params;
-        if params.family == Family::Elliptic
+        if params.family.finite_zeros()
             && params.order.is_multiple_of(2)
             && params.variant == Variant::Standard
         {
             return Err(SynthError::NotALadder {
+                family: params.family,
                 order: params.order,
             });
         }

@@ -23,11 +23,11 @@ use crate::approx::{Family, Params, Variant};
 pub(crate) const LEVEL_TOLERANCE: f64 = 1e-12;
 
 /// `eps^2 R(0)^2`: zero when the prototype has unit DC gain (odd orders,
-/// Butterworth, `ReflectionAtDc`), `eps^2` for the even Chebyshev and
+/// the monotonic passbands, `ReflectionAtDc`), `eps^2` for the even Chebyshev and
 /// elliptic forms that keep the ripple loss at DC. This is the
 /// normalization documented in [`crate::approx`]: |H(0)|^2 = 1/(1 + e0).
 pub(crate) fn dc_reflection(family: Family, order: usize, variant: Variant, eps: f64) -> f64 {
-    let keeps_dc_ripple = family != Family::Butterworth
+    let keeps_dc_ripple = family.equiripple_passband()
         && order.is_multiple_of(2)
         && variant != Variant::ReflectionAtDc;
     if keeps_dc_ripple {
@@ -74,7 +74,9 @@ fn feasible(load_ratio: f64, e0: f64) -> bool {
 ///
 /// What the terminations force: |S21(0)|^2 = 4r/(1+r)^2 for
 /// `r = load_ratio` must equal `K_t |H(0)|^2` with `K_t <= 1`. So:
-/// `Standard` for odd orders and for Butterworth (|H(0)| = 1 there);
+/// `Standard` for odd orders and for the monotonic all-pole families
+/// (|H(0)| = 1 there); `ZeroAtInfinity` for the even inverse Chebyshev
+/// (|H(0)| = 1, but a finite gain at infinity);
 /// even Chebyshev: `Standard` when feasible (`r` outside the band around 1
 /// where `K_t > 1`), else `ReflectionAtDc`; even elliptic:
 /// `ZeroAtInfinity` when feasible, else `ReflectionAtDc` (the standard
@@ -84,8 +86,16 @@ fn feasible(load_ratio: f64, e0: f64) -> bool {
 /// for even orders; [`crate::synth::synthesize`] then rejects the ratio
 /// itself.
 pub fn variant_for(family: Family, order: usize, eps: f64, load_ratio: f64) -> Variant {
-    if family == Family::Butterworth || order % 2 == 1 {
+    if order % 2 == 1 {
         return Variant::Standard;
+    }
+    if !family.equiripple_passband() {
+        // Unit DC gain: only the finite zeros ask for a modified form.
+        return if family.finite_zeros() {
+            Variant::ZeroAtInfinity
+        } else {
+            Variant::Standard
+        };
     }
     let keeps_dc = match family {
         Family::Elliptic => Variant::ZeroAtInfinity,

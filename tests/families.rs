@@ -1,0 +1,558 @@
+//! The families added beside Butterworth, Chebyshev and elliptic:
+//! Bessel-Thomson, inverse Chebyshev and Legendre, from the approximation
+//! to the ladder.
+//!
+//! References, each named at its check: tests/fixtures/scipy_families.json
+//! (made by tests/fixtures/gen_scipy_families.py; scipy 1.17.1, numpy
+//! 2.4.6, mpmath 1.4.1, recorded in the file); published polynomials and
+//! ladder tables at their printed precision (from memory); and the
+//! defining properties of each family, computed here by routes of their
+//! own (quadrature of the Legendre integral, partial fractions of the
+//! step response).
+
+use nocoil::approx::{
+    bessel_edge_ratio, min_order, BesselScale, Family, Params, Prototype, Variant, MAX_ORDER,
+};
+use num_complex::Complex64;
+use serde::Deserialize;
+use std::sync::OnceLock;
+
+// ------------------------------------------------------------- fixtures
+
+#[derive(Deserialize)]
+struct Fixtures {
+    bessel: Vec<BesselCase>,
+    inverse_chebyshev: Vec<InverseCase>,
+    cheb2ord: Vec<MaskCase>,
+}
+
+#[derive(Deserialize)]
+struct BesselCase {
+    norm: String,
+    order: usize,
+    poles: Vec<[f64; 2]>,
+    /// Where scipy's filter of this norm loses 3.0103 dB.
+    edge_rad_s: f64,
+    /// Where it loses 1 dB.
+    edge_1db_rad_s: f64,
+}
+
+#[derive(Deserialize)]
+struct InverseCase {
+    order: usize,
+    attenuation_db: f64,
+    zeros: Vec<[f64; 2]>,
+    poles: Vec<[f64; 2]>,
+    gain: f64,
+    /// The normalized stopband edge (passband edge 1) for each ripple.
+    stopband_edge_for_ripple: std::collections::BTreeMap<String, f64>,
+}
+
+#[derive(Deserialize)]
+struct MaskCase {
+    ws: f64,
+    ripple_db: f64,
+    attenuation_db: f64,
+    order: usize,
+}
+
+fn fixtures() -> &'static Fixtures {
+    static CELL: OnceLock<Fixtures> = OnceLock::new();
+    CELL.get_or_init(|| {
+        let path = concat!(
+            env!("CARGO_MANIFEST_DIR"),
+            "/tests/fixtures/scipy_families.json"
+        );
+        let text = std::fs::read_to_string(path).expect("fixture file is committed");
+        serde_json::from_str(&text).expect("fixture file parses")
+    })
+}
+
+// -------------------------------------------------------------- helpers
+
+fn complex(pairs: &[[f64; 2]]) -> Vec<Complex64> {
+    pairs
+        .iter()
+        .map(|&[re, im]| Complex64::new(re, im))
+        .collect()
+}
+
+/// Largest |got - want| / |want| after pairing each wanted point with its
+/// nearest unused got point; infinite when the counts differ.
+fn set_mismatch(got: &[Complex64], want: &[Complex64]) -> f64 {
+    if got.len() != want.len() {
+        return f64::INFINITY;
+    }
+    let mut unused = got.to_vec();
+    want.iter().fold(0.0, |worst: f64, w| {
+        let (i, d) = unused.iter().map(|g| (g - w).norm()).enumerate().fold(
+            (0, f64::INFINITY),
+            |best, (i, d)| {
+                if d < best.1 {
+                    (i, d)
+                } else {
+                    best
+                }
+            },
+        );
+        unused.swap_remove(i);
+        worst.max(d / w.norm())
+    })
+}
+
+fn prototype(family: Family, order: usize, ap: f64, as_: f64, variant: Variant) -> Prototype {
+    let p = Params {
+        family,
+        order,
+        passband_ripple_db: ap,
+        stopband_attenuation_db: as_,
+        variant,
+    };
+    Prototype::new(p).unwrap_or_else(|e| panic!("{p:?} refused: {e}"))
+}
+
+/// Bessel poles and edges against scipy, relative. scipy's besselap poles
+/// agree with 50-digit mpmath roots of theta_n to 1.2e-15 (checked while
+/// writing this test); ours measured worst 1.5e-14 (poles) and 4.3e-14
+/// (edges, which add the bisection to the last bit and the fixture's own
+/// root-finding). 1e-13 keeps a margin of 2 to 7 and catches any
+/// normalization slip, which moves everything by 1e-9 or more.
+const BESSEL_TOL: f64 = 1e-13;
+
+/// Inverse Chebyshev against scipy, relative: both evaluate the same
+/// closed forms (Chebyshev poles inverted), so they differ by rounding;
+/// the stopband edge comes from cosh(acosh(x)/n), whose relative
+/// conditioning near ws = 1 (high orders, shallow floors) magnifies the
+/// rounding of x. Measured worst 9.1e-15 over 1,600 cases.
+const INVERSE_TOL: f64 = 1e-13;
+
+/// Legendre against the independent quadrature, relative to 1 + L, and
+/// the edge slope against its closed form. Measured worst 1.6e-14 to
+/// order 25 (the poles come from a Chebyshev series of L_n, whose
+/// coefficients are of order 1).
+const LEGENDRE_TOL: f64 = 1e-12;
+
+/// The Butterworth edge loss nocoil writes by default (3.0103 dB, as the
+/// fixture's edges are computed for).
+const EDGE_DB: f64 = 3.0103;
+
+// --------------------------------------------------------------- Bessel
+
+/// Bessel poles against scipy.signal.besselap, every order to 25 and each
+/// of its three normalizations: nocoil's prototype (loss 3.0103 dB at
+/// w = 1) times scipy's own 3.0103 dB edge of that normalization is
+/// scipy's filter. Also the edge ratios nocoil uses to turn a DC delay or
+/// an asymptote frequency into a passband edge ("delay" and "phase").
+#[test]
+fn bessel_poles_match_scipy_in_every_normalization() {
+    let mut worst: f64 = 0.0;
+    let mut worst_edge: f64 = 0.0;
+    for case in &fixtures().bessel {
+        let ours = prototype(Family::Bessel, case.order, EDGE_DB, 0.0, Variant::Standard);
+        let scaled: Vec<Complex64> = ours.zpk.poles.iter().map(|p| p * case.edge_rad_s).collect();
+        let err = set_mismatch(&scaled, &complex(&case.poles));
+        assert!(
+            err <= BESSEL_TOL,
+            "Bessel {} n={}: poles off by {err:e}",
+            case.norm,
+            case.order
+        );
+        worst = worst.max(err);
+        let scale = match case.norm.as_str() {
+            "delay" => Some(BesselScale::DcDelay),
+            "phase" => Some(BesselScale::Asymptote),
+            _ => None,
+        };
+        if let Some(scale) = scale {
+            for (db, want) in [(EDGE_DB, case.edge_rad_s), (1.0, case.edge_1db_rad_s)] {
+                let got = bessel_edge_ratio(case.order, db, scale).unwrap();
+                let err = (got / want - 1.0).abs();
+                worst_edge = worst_edge.max(err);
+                assert!(
+                    err <= BESSEL_TOL,
+                    "{} n={} {db} dB: edge {got} against {want}",
+                    case.norm,
+                    case.order
+                );
+            }
+        }
+    }
+    eprintln!(
+        "Bessel against besselap: worst relative pole error {worst:.2e}, edge {worst_edge:.2e}"
+    );
+}
+
+// ------------------------------------------------------ inverse Chebyshev
+
+/// Inverse Chebyshev poles, zeros and stopband edge against
+/// scipy.signal.cheb2ap (stopband edge at 1 rad/s there): nocoil's
+/// prototype of loss Ap at w = 1 divided by its stopband edge is scipy's,
+/// for every order to 25, four floors and four passband losses; the edge
+/// itself against the fixture's 30-digit cosh(acosh(eps_s/eps)/n).
+#[test]
+fn inverse_chebyshev_matches_cheb2ap() {
+    let mut worst: f64 = 0.0;
+    for case in &fixtures().inverse_chebyshev {
+        for (ap, edge) in &case.stopband_edge_for_ripple {
+            let ap: f64 = ap.parse().unwrap();
+            let ours = prototype(
+                Family::InverseChebyshev,
+                case.order,
+                ap,
+                case.attenuation_db,
+                Variant::Standard,
+            );
+            let what = format!("n={} Ap={ap} As={}", case.order, case.attenuation_db);
+            let ws = ours
+                .stopband_edge
+                .expect("an inverse Chebyshev has a stopband edge");
+            let edge_err = (ws / edge - 1.0).abs();
+            let scale = |v: &[Complex64]| v.iter().map(|z| z / ws).collect::<Vec<_>>();
+            let pole_err = set_mismatch(&scale(&ours.zpk.poles), &complex(&case.poles));
+            let zero_err = set_mismatch(&scale(&ours.zpk.zeros), &complex(&case.zeros));
+            // H(0) = 1 in both, so the gains differ by ws^(poles - zeros).
+            let excess = (case.poles.len() - case.zeros.len()) as i32;
+            let gain_err = (ours.zpk.gain / (case.gain * ws.powi(excess)) - 1.0).abs();
+            for (what_err, err) in [
+                ("edge", edge_err),
+                ("poles", pole_err),
+                ("zeros", zero_err),
+                ("gain", gain_err),
+            ] {
+                assert!(err <= INVERSE_TOL, "{what}: {what_err} off by {err:e}");
+                worst = worst.max(err);
+            }
+        }
+    }
+    eprintln!("inverse Chebyshev against cheb2ap: worst relative error {worst:.2e}");
+}
+
+/// Minimum orders against scipy.signal.cheb2ord (analog, wp = 1).
+#[test]
+fn inverse_chebyshev_orders_match_cheb2ord() {
+    for m in &fixtures().cheb2ord {
+        let got = min_order(
+            Family::InverseChebyshev,
+            m.ws,
+            m.ripple_db,
+            m.attenuation_db,
+        );
+        assert_eq!(
+            got.as_ref().ok(),
+            Some(&m.order),
+            "ws={} Ap={} As={}: {got:?}",
+            m.ws,
+            m.ripple_db,
+            m.attenuation_db
+        );
+    }
+}
+
+/// The defining levels, by evaluation of the prototype: loss Ap at
+/// w = 1, a monotonic passband, the loss at every stopband maximum of |H|
+/// (between the transmission zeros, and at infinity for odd orders) no
+/// less than As and equal to it at the edge; and the even orders' modified
+/// form keeps the edge loss, the floor and a zero at infinity.
+#[test]
+fn inverse_chebyshev_meets_its_levels_in_both_forms() {
+    for order in 1..=16 {
+        for (ap, as_) in [(1.0, 60.0), (0.1, 40.0), (EDGE_DB, 80.0)] {
+            let variant = if order % 2 == 0 {
+                Variant::ZeroAtInfinity
+            } else {
+                Variant::Standard
+            };
+            let p = prototype(Family::InverseChebyshev, order, ap, as_, variant);
+            let what = format!("n={order} Ap={ap} As={as_} {variant:?}");
+            assert!(
+                (p.attenuation_db(1.0) - ap).abs() <= 1e-9,
+                "{what}: edge loss {}",
+                p.attenuation_db(1.0)
+            );
+            let ws = p.stopband_edge.unwrap();
+            assert!(
+                (p.attenuation_db(ws) - as_).abs() <= 1e-7 * as_,
+                "{what}: loss at the stopband edge {}",
+                p.attenuation_db(ws)
+            );
+            let passband: Vec<f64> = (0..=400)
+                .map(|i| p.attenuation_db(i as f64 / 400.0))
+                .collect();
+            assert!(
+                passband.windows(2).all(|w| w[1] >= w[0] - 1e-12),
+                "{what}: passband not monotonic"
+            );
+            // Dense stopband scan from the edge to 50 times it.
+            let worst = (0..=20000)
+                .map(|i| ws * 50f64.powf(i as f64 / 20000.0))
+                .map(|w| p.attenuation_db(w))
+                .fold(f64::INFINITY, f64::min);
+            assert!(
+                worst >= as_ - 1e-7 * as_,
+                "{what}: stopband reaches only {worst} dB"
+            );
+            if variant == Variant::ZeroAtInfinity {
+                assert_eq!(p.transmission_zeros.len(), order / 2 - 1, "{what}");
+                assert!(
+                    p.attenuation_db(1e6 * ws) > as_ + 100.0,
+                    "{what}: no zero at infinity"
+                );
+            }
+        }
+    }
+}
+
+// ------------------------------------------------------------- Legendre
+
+/// The optimum monotonic polynomial L_n(w^2) computed independently of
+/// nocoil: Papoulis' integral C * integral from -1 to 2w^2 - 1 of
+/// w(y) v(y)^2 dy (v = sum of (2i + 1) P_i over i <= k, all i for odd n, i
+/// of k's parity with the weight 1 + y for even n), by composite 5-point
+/// Gauss-Legendre quadrature on 400 panels (exact to rounding for these
+/// degrees at this panel width), with P_i by Bonnet's recurrence.
+fn legendre_reference(order: usize, w: f64) -> f64 {
+    let k = (order - 1) / 2;
+    let even = order.is_multiple_of(2);
+    let integrand = |y: f64| {
+        let mut p = vec![1.0, y];
+        for i in 1..k {
+            p.push(((2 * i + 1) as f64 * y * p[i] - i as f64 * p[i - 1]) / (i + 1) as f64);
+        }
+        let v: f64 = (0..=k)
+            .filter(|i| !even || (k - i).is_multiple_of(2))
+            .map(|i| (2 * i + 1) as f64 * p[i])
+            .sum();
+        if even {
+            (1.0 + y) * v * v
+        } else {
+            v * v
+        }
+    };
+    const NODES: [(f64, f64); 5] = [
+        (0.0, 0.568_888_888_888_888_9),
+        (0.538_469_310_105_683_1, 0.478_628_670_499_366_5),
+        (-0.538_469_310_105_683_1, 0.478_628_670_499_366_5),
+        (0.906_179_845_938_664, 0.236_926_885_056_189_1),
+        (-0.906_179_845_938_664, 0.236_926_885_056_189_1),
+    ];
+    let integral = |to: f64| {
+        let panels = 400;
+        let h = (to + 1.0) / panels as f64;
+        (0..panels)
+            .map(|j| {
+                let mid = -1.0 + (j as f64 + 0.5) * h;
+                NODES
+                    .iter()
+                    .map(|(x, wt)| wt * integrand(mid + x * h / 2.0))
+                    .sum::<f64>()
+                    * h
+                    / 2.0
+            })
+            .sum::<f64>()
+    };
+    integral(2.0 * w * w - 1.0) / integral(1.0)
+}
+
+/// L_n(w^2) of a prototype from its poles: |E(jw)|^2 / E(0)^2 = 1 +
+/// eps^2 L_n.
+fn legendre_from_poles(p: &Prototype, w: f64) -> f64 {
+    let ratio: f64 = p
+        .zpk
+        .poles
+        .iter()
+        .map(|q| (Complex64::new(0.0, w) - q).norm_sqr() / q.norm_sqr())
+        .product();
+    (ratio - 1.0) / (p.eps * p.eps)
+}
+
+/// The published polynomials of the first orders (Papoulis 1958, from
+/// memory): L_1 = w^2, L_2 = w^4, L_3 = 3w^6 - 3w^4 + w^2,
+/// L_4 = 6w^8 - 8w^6 + 3w^4, L_5 = 20w^10 - 40w^8 + 28w^6 - 8w^4 + w^2,
+/// against the prototype's poles at two edge losses.
+#[test]
+fn legendre_matches_the_published_polynomials() {
+    let published: [fn(f64) -> f64; 5] = [
+        |t| t,
+        |t| t * t,
+        |t| 3.0 * t.powi(3) - 3.0 * t * t + t,
+        |t| 6.0 * t.powi(4) - 8.0 * t.powi(3) + 3.0 * t * t,
+        |t| 20.0 * t.powi(5) - 40.0 * t.powi(4) + 28.0 * t.powi(3) - 8.0 * t * t + t,
+    ];
+    for (i, l) in published.iter().enumerate() {
+        for ap in [EDGE_DB, 0.5] {
+            let p = prototype(Family::Legendre, i + 1, ap, 0.0, Variant::Standard);
+            for j in 0..=60 {
+                let w = j as f64 / 30.0;
+                let (got, want) = (legendre_from_poles(&p, w), l(w * w));
+                assert!(
+                    (got - want).abs() <= 1e-12 * (1.0 + want),
+                    "n={} Ap={ap} w={w}: {got} against {want}",
+                    i + 1
+                );
+            }
+        }
+    }
+}
+
+/// Every order to 25 against the independent quadrature of Papoulis'
+/// integral, and the defining properties: a monotonic loss, L_n(1) = 1
+/// (the edge loss), and the slope at the edge, which the kernel
+/// polynomials make 2(k+1)^2 for n = 2k + 1 and 2(k+1)(k+2) for n = 2k + 2
+/// (8 and 12 for the published L_3 and L_4), larger than Butterworth's 2n
+/// from order 3 on: the steepest monotonic edge of its order.
+#[test]
+fn legendre_meets_its_definition_at_every_order() {
+    let mut worst: f64 = 0.0;
+    for order in 1..=MAX_ORDER {
+        let p = prototype(Family::Legendre, order, EDGE_DB, 0.0, Variant::Standard);
+        for j in 0..=120 {
+            let w = j as f64 / 80.0;
+            let (got, want) = (legendre_from_poles(&p, w), legendre_reference(order, w));
+            let err = (got - want).abs() / (1.0 + want);
+            worst = worst.max(err);
+            assert!(err <= LEGENDRE_TOL, "n={order} w={w}: {got} against {want}");
+        }
+        let loss: Vec<f64> = (0..=2000)
+            .map(|j| p.attenuation_db(j as f64 / 500.0))
+            .collect();
+        assert!(
+            loss.windows(2).all(|w| w[1] >= w[0] - 1e-12),
+            "n={order}: loss not monotonic"
+        );
+        assert!(
+            (p.attenuation_db(1.0) - EDGE_DB).abs() <= 1e-10,
+            "n={order}"
+        );
+        // dL/dw at w = 1 from the poles: (1 + eps^2) / eps^2 * d ln|E|^2/dw.
+        let eps2 = p.eps * p.eps;
+        let dln: f64 = p
+            .zpk
+            .poles
+            .iter()
+            .map(|q| 2.0 * (1.0 - q.im) / (Complex64::new(0.0, 1.0) - q).norm_sqr())
+            .sum();
+        let slope = (1.0 + eps2) / eps2 * dln;
+        let k = ((order - 1) / 2) as f64;
+        let want = if order % 2 == 1 {
+            2.0 * (k + 1.0).powi(2)
+        } else {
+            2.0 * (k + 1.0) * (k + 2.0)
+        };
+        assert!(
+            (slope / want - 1.0).abs() <= LEGENDRE_TOL,
+            "n={order}: edge slope {slope} against {want}"
+        );
+        if order >= 3 {
+            assert!(
+                slope > 2.0 * order as f64,
+                "n={order}: not steeper than Butterworth"
+            );
+        }
+    }
+    eprintln!("Legendre against the quadrature: worst {worst:.2e}");
+}
+
+// --------------------------------------------------------------- ladders
+
+/// Every order each new family's synthesis promises
+/// ([`nocoil::synth::max_order`]), in both forms, with equal terminations
+/// and with a load of 2 or 1/2 (series-first above 1, shunt-first below,
+/// as an even order's orientation requires), in the variant the
+/// terminations force: the ladder's transfer matches the prototype's zpk
+/// within tests/synth.rs's tolerance, element by element structure
+/// checked there too.
+///
+/// The inverse Chebyshev's ladders exist only up to an order that grows
+/// with the stopband floor and does not depend on the edge loss (measured
+/// with Ap from 0.01 to 3.0103 dB, every order from 1 and the four
+/// termination cases here): floor 20 dB: order 4; 30 and 40 dB: 6; 50 dB:
+/// 8; 60 dB: 10; 80 dB: 12; 100 dB: 14. Above, the first partial removal
+/// of a pole at infinity comes out negative in every order of zero
+/// removal; [`inverse_chebyshev_without_a_ladder_is_refused_with_advice`]
+/// checks what the user is told.
+#[test]
+fn new_family_ladders_realize_their_prototypes() {
+    use nocoil::synth::{max_order, variant_for, Form};
+    let cases = [
+        (Family::Bessel, 60.0, max_order(Family::Bessel)),
+        (Family::Legendre, 60.0, max_order(Family::Legendre)),
+        (Family::InverseChebyshev, 20.0, 4),
+        (Family::InverseChebyshev, 60.0, 10),
+        (Family::InverseChebyshev, 100.0, 14),
+    ];
+    for (family, as_, highest) in cases {
+        let ap = 1.0;
+        for order in 1..=highest {
+            for (r, form) in [
+                (1.0, Form::MinCapacitor),
+                (1.0, Form::MinInductor),
+                (2.0, Form::MinCapacitor),
+                (0.5, Form::MinInductor),
+            ] {
+                let eps = (10f64.powf(ap / 10.0) - 1.0).sqrt();
+                let variant = variant_for(family, order, eps, r);
+                let proto = prototype(family, order, ap, as_, variant);
+                crate::synth::checked_prototype_ladder(&proto, r, form);
+            }
+        }
+    }
+}
+
+/// Bessel ladders of unit DC delay between 1 ohm terminations against the
+/// published element values (Matthaei, Young and Jones 1964, table of
+/// maximally flat time-delay prototypes, from memory; n = 2 checked by
+/// hand: C1 L2 = 2/3 and C1 + L2 = 2 give 1 +- 1/sqrt(3)), at their printed
+/// 4 decimals: the 3.0103 dB prototype's ladder divided by the edge ratio
+/// of the unit-delay filter.
+#[test]
+fn bessel_ladders_match_the_published_table() {
+    use nocoil::synth::{synthesize, Form};
+    let table: [&[f64]; 4] = [
+        &[1.5774, 0.4226],
+        &[1.2550, 0.5528, 0.1922],
+        &[1.0598, 0.5116, 0.3181, 0.1104],
+        &[0.9303, 0.4577, 0.3312, 0.2090, 0.0718],
+    ];
+    for g in table {
+        let order = g.len();
+        let proto = prototype(Family::Bessel, order, EDGE_DB, 0.0, Variant::Standard);
+        let edge = bessel_edge_ratio(order, EDGE_DB, BesselScale::DcDelay).unwrap();
+        let ladder = synthesize(&proto, 1.0, Form::MinInductor).unwrap();
+        let got: Vec<f64> = crate::synth::values(&ladder)
+            .iter()
+            .map(|v| v / edge)
+            .collect();
+        for (i, (got, want)) in got.iter().zip(g).enumerate() {
+            assert!(
+                (got - want).abs() <= 0.5e-4,
+                "n={order} g{}: {got:.5} against {want}",
+                i + 1
+            );
+        }
+    }
+}
+
+/// A design file asking for an inverse Chebyshev beyond its ladders: exit
+/// 2 (the input's fault), the message naming the family, order and floor
+/// and what to change.
+#[test]
+fn inverse_chebyshev_without_a_ladder_is_refused_with_advice() {
+    let dir = crate::util::scratch("families-no-ladder");
+    let spec = crate::util::spec_in(
+        &dir,
+        "[filter]\nkind = \"lowpass\"\nfamily = \"inverse_chebyshev\"\norder = 5\n\
+         passband_edge_hz = 1000\npassband_ripple_db = 1.0\nstopband_attenuation_db = 20\n\
+         [terminations]\nsource_ohm = 600\nload_ohm = 600\n",
+    );
+    let out = crate::util::nocoil(&["bom", spec.to_str().unwrap()]);
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{err}");
+    for needed in [
+        "inverse Chebyshev ladder of order 5",
+        "20 dB stopband floor",
+        "deeper floor",
+        "elliptic",
+    ] {
+        assert!(err.contains(needed), "{needed:?} missing from: {err}");
+    }
+}
