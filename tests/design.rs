@@ -55,7 +55,7 @@ const NGSPICE_TOL_DB: f64 = 0.01;
 /// in ngspice (live) and asserts V(out)/V(in) matches nocoil's solver
 /// within [`NGSPICE_TOL_DB`] where ngspice is above
 /// [`REFERENCE_FLOOR_DB`]; returns the worst difference.
-fn worst_against_ngspice(
+pub(crate) fn worst_against_ngspice(
     netlist: &nocoil::circuit::Netlist,
     band: (f64, f64),
     context: &str,

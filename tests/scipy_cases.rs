@@ -1,5 +1,6 @@
 //! The scipy.signal end-to-end cases shared by the pipeline and active
-//! tests (tests/fixtures/scipy_responses.json).
+//! tests (tests/fixtures/scipy_responses.json and the responses of
+//! tests/fixtures/scipy_families.json).
 
 use nocoil::design::{design, Design};
 use nocoil::spec::Spec;
@@ -101,10 +102,32 @@ impl Case {
     }
 }
 
-/// Reads the fixture.
+/// Reads the fixtures: tests/fixtures/scipy_responses.json (Butterworth,
+/// Chebyshev, elliptic) and the responses of
+/// tests/fixtures/scipy_families.json (Bessel, inverse Chebyshev), made by
+/// the same scipy, as one set of cases.
 pub fn fixture() -> Fixture {
-    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/scipy_responses.json");
-    let text = std::fs::read_to_string(&path)
-        .expect("tests/fixtures/scipy_responses.json (made by gen_scipy_responses.py)");
-    serde_json::from_str(&text).expect("fixture parses")
+    let read = |name: &str| {
+        let path = Path::new(env!("CARGO_MANIFEST_DIR"))
+            .join("tests/fixtures")
+            .join(name);
+        std::fs::read_to_string(&path).unwrap_or_else(|e| panic!("{}: {e}", path.display()))
+    };
+    let mut fx: Fixture =
+        serde_json::from_str(&read("scipy_responses.json")).expect("fixture parses");
+    let families: Families =
+        serde_json::from_str(&read("scipy_families.json")).expect("fixture parses");
+    assert_eq!(
+        families.scipy, fx.scipy,
+        "both fixtures come from one scipy"
+    );
+    fx.cases.extend(families.responses);
+    fx
+}
+
+/// The end-to-end part of tests/fixtures/scipy_families.json.
+#[derive(Deserialize)]
+struct Families {
+    scipy: String,
+    responses: Vec<Case>,
 }
