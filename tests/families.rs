@@ -587,3 +587,118 @@ fn legendre_decks_match_ngspice() {
         eprintln!("Legendre {kind} n={order}: ngspice vs nocoil, passive {passive:.2e} dB, active exact {active:.2e} dB");
     }
 }
+
+// ------------------------------------------- a Bessel lowpass's other scales
+
+/// The Bessel lowpass's frequency scale given as a DC group delay or as an
+/// asymptote frequency instead of a passband edge: the passive ideal's
+/// exact group delay near DC is the delay asked (a Bessel delay is flat
+/// there to order w^(2n), so at a thousandth of the edge it is the DC
+/// value to rounding), and the geometric mean of its natural frequencies
+/// is 2 pi times the asymptote frequency (the asymptote (w0/w)^n of an
+/// all-pole H with H(0) = 1 has w0^n = prod |p|); the summary says what
+/// fixed the edge.
+#[test]
+fn bessel_scale_from_a_delay_or_an_asymptote() {
+    use nocoil::circuit::AcSystem;
+    for (key, value, order) in [
+        ("dc_delay_s", 1e-3, 5),
+        ("dc_delay_s", 2.5e-6, 9),
+        ("asymptote_hz", 1000.0, 6),
+    ] {
+        let text = format!(
+            "[filter]\nkind = \"lowpass\"\nfamily = \"bessel\"\norder = {order}\n{key} = {value:e}\n\
+             [terminations]\nsource_ohm = 600\nload_ohm = 600\n"
+        );
+        let spec =
+            nocoil::spec::Spec::from_toml(std::path::Path::new("scale.toml"), &text).unwrap();
+        let d = nocoil::design::design(&spec).unwrap();
+        let mut system = AcSystem::new(&d.passive).unwrap();
+        let what = format!("{key} = {value}, order {order}");
+        if key == "dc_delay_s" {
+            let edge = d.spec.band.passband_edges_hz()[0];
+            let node = |name| d.passive.node_index(name).unwrap();
+            let (out, inp) = (node("out"), node("in"));
+            let tau = system.group_delay(edge / 1000.0, out, inp).unwrap();
+            assert!((tau / value - 1.0).abs() <= 1e-9, "{what}: delay {tau} s");
+        } else {
+            let poles = system.natural_frequencies().unwrap();
+            assert_eq!(poles.len(), order, "{what}");
+            let mean = (poles.iter().map(|p| p.norm().ln()).sum::<f64>() / order as f64).exp();
+            assert!(
+                (mean / (std::f64::consts::TAU * value) - 1.0).abs() <= 1e-9,
+                "{what}: {mean} rad/s"
+            );
+        }
+        assert_eq!(d.report().frequency_scale, spec.frequency_scale, "{what}");
+    }
+    // What the user reads: the summary names what fixed the edge.
+    let dir = crate::util::scratch("families-bessel-scale");
+    let spec = crate::util::spec_in(
+        &dir,
+        "[filter]\nkind = \"lowpass\"\nfamily = \"bessel\"\norder = 5\ndc_delay_s = 1e-3\n\
+         [terminations]\nsource_ohm = 600\nload_ohm = 600\n[montecarlo]\ntrials = 20\n",
+    );
+    let out = crate::util::design_into(&spec, &dir.join("out"));
+    let printed = String::from_utf8_lossy(&out.stdout);
+    assert!(
+        printed.contains("passband edge 386.33 Hz, loss at the edge 3.0103 dB (from a group delay of 1 ms at DC)"),
+        "{printed}"
+    );
+}
+
+/// The other scales are refused outside their use, naming the key: two
+/// scales at once, a family other than Bessel, a kind other than lowpass,
+/// no order, a delay out of range.
+#[test]
+fn bessel_scale_keys_are_refused_outside_their_use() {
+    let cases = [
+        (
+            "bessel",
+            "lowpass",
+            "order = 5\npassband_edge_hz = 1000\ndc_delay_s = 1e-3",
+            "filter.dc_delay_s",
+            "exactly one of",
+        ),
+        (
+            "butterworth",
+            "lowpass",
+            "order = 5\ndc_delay_s = 1e-3",
+            "filter.dc_delay_s",
+            "Bessel lowpass only",
+        ),
+        (
+            "bessel",
+            "highpass",
+            "order = 5\nasymptote_hz = 1e3",
+            "filter.asymptote_hz",
+            "Bessel lowpass only",
+        ),
+        (
+            "bessel",
+            "lowpass",
+            "stopband_edge_hz = 5000\nstopband_attenuation_db = 40\ndc_delay_s = 1e-3",
+            "filter.order",
+            "depends on the order",
+        ),
+        (
+            "bessel",
+            "lowpass",
+            "order = 5\ndc_delay_s = -1",
+            "filter.dc_delay_s",
+            "a delay in seconds",
+        ),
+    ];
+    for (family, kind, keys, key, words) in cases {
+        let text = format!(
+            "[filter]\nkind = \"{kind}\"\nfamily = \"{family}\"\n{keys}\n[terminations]\nsource_ohm = 600\nload_ohm = 600\n"
+        );
+        let err = nocoil::spec::Spec::from_toml(std::path::Path::new("scale.toml"), &text)
+            .unwrap_err()
+            .to_string();
+        assert!(
+            err.contains(key) && err.contains(words),
+            "{family} {kind} {keys:?}: {err}"
+        );
+    }
+}

@@ -10,6 +10,7 @@ use crate::approx::{Family, Variant};
 use crate::circuit::{Element, Netlist, OpAmpModel};
 use crate::parts::PartsChoice;
 use crate::realize::{ErrorSteps, LadderLevel, Rescale, Trim};
+use crate::spec::FrequencyScale;
 use crate::synth::{Arm, Form, Reactance};
 use crate::transform::{Band, Kind};
 
@@ -108,8 +109,11 @@ pub struct Report {
     pub variant: Option<Variant>,
     /// Which dual ladder.
     pub form: Form,
-    /// Passband ripple (Butterworth: loss at the edge), dB.
+    /// Passband ripple (the monotonic families: loss at the edge), dB.
     pub passband_ripple_db: f64,
+    /// What fixed the passband edge, when the design file gave a DC delay
+    /// or an asymptote frequency instead of the edge (Bessel lowpass).
+    pub frequency_scale: Option<FrequencyScale>,
     /// Stopband attenuation asked for, dB.
     pub stopband_attenuation_db: Option<f64>,
     /// Realized stopband edge(s), Hz, where the attenuation is first
@@ -231,6 +235,7 @@ impl Design {
             variant,
             form: self.ladder.form,
             passband_ripple_db: self.passband_ripple_db(),
+            frequency_scale: self.spec.frequency_scale,
             stopband_attenuation_db: self.stopband_attenuation_db(),
             realized_stopband_edge_hz: self
                 .mask

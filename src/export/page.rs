@@ -5,7 +5,7 @@
 use super::bom::{tally, BomRow};
 use super::eng::format_trimmed as eng;
 use super::html::{html_report, Figure, ReportDoc, Table};
-use super::prose::{db, factor, level_warnings, opamp_model, signed};
+use super::prose::{db, factor, level_warnings, opamp_model, scale_words, signed};
 use super::summary::{edges, verdict_line, yield_line};
 use crate::analysis::Parameter;
 use crate::design::{Build, Documents};
@@ -37,11 +37,14 @@ pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> Strin
         (
             "filter".to_string(),
             format!(
-                "{} {}, order {}; passband edge {}",
+                "{} {}, order {}; passband edge {}{}",
                 r.family.map_or("table".to_string(), |f| f.to_string()),
                 r.kind,
                 r.order,
-                edges(&r.band.passband_edges_hz())
+                edges(&r.band.passband_edges_hz()),
+                r.frequency_scale
+                    .map(|f| format!(" ({})", scale_words(f)))
+                    .unwrap_or_default()
             ),
         ),
         (

@@ -6,10 +6,12 @@
 
 use super::eng::{format_trimmed as eng, HUMAN_DIGITS};
 use crate::active::{CornerVerdict, Method, NaturalFrequency, Note, Why};
+use crate::approx::Family;
 use crate::circuit::OpAmpModel;
 use crate::design::{ActiveReport, Margin, OrderChoice, TopOfRange, TOP_OF_RANGE};
 use crate::parts::ImpedanceLevel;
 use crate::realize::{LadderLevel, Moved, Rescale};
+use crate::spec::FrequencyScale;
 use std::fmt::{self, Display, Formatter};
 
 /// A dB figure as a designer writes it: at most four decimals, no
@@ -511,6 +513,28 @@ pub fn opamp_model(model: &OpAmpModel) -> String {
         s += &format!(", output {}", eng(output_ohm, "ohm"));
     }
     s
+}
+
+/// What the passband level at the edge is called: a ripple where the
+/// passband ripples, the loss at the edge where it is monotonic.
+pub fn edge_loss_name(family: Option<Family>) -> &'static str {
+    match family {
+        Some(f) if !f.equiripple_passband() => "loss at the edge",
+        _ => "ripple",
+    }
+}
+
+/// What fixed the passband edge of a Bessel lowpass given by another
+/// frequency scale, in words.
+pub fn scale_words(scale: FrequencyScale) -> String {
+    match scale {
+        FrequencyScale::DcDelay { dc_delay_s } => {
+            format!("from a group delay of {} at DC", eng(dc_delay_s, "s"))
+        }
+        FrequencyScale::Asymptote { asymptote_hz } => {
+            format!("from an asymptote frequency of {}", eng(asymptote_hz, "Hz"))
+        }
+    }
 }
 
 #[cfg(test)]

@@ -3,7 +3,7 @@
 //! builds, each figure labelled with the build it belongs to.
 
 use super::eng::format_trimmed as eng;
-use super::prose::{db, level_warnings, opamp_model, percent};
+use super::prose::{db, edge_loss_name, level_warnings, opamp_model, percent, scale_words};
 use crate::analysis::{MaskVerdict, EDGE_WINDOW};
 use crate::design::{Build, BuildFigures, Documents, Report};
 use std::fmt::Write as _;
@@ -146,10 +146,15 @@ fn passive(s: &mut String, r: &Report) {
         crate::synth::Form::MinInductor => "shunt capacitor first",
     };
     let _ = writeln!(s, "  {variant}; {} ladder ({series_first})", r.form);
+    let scale = r
+        .frequency_scale
+        .map(|f| format!(" ({})", scale_words(f)))
+        .unwrap_or_default();
     let _ = writeln!(
         s,
-        "  passband edge {}, ripple {} dB",
+        "  passband edge {}, {} {} dB{scale}",
         edges(&r.band.passband_edges_hz()),
+        edge_loss_name(r.family),
         db(r.passband_ripple_db)
     );
     let stop = r.band.stopband_edges_hz();

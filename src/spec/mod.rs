@@ -4,7 +4,9 @@
 //! with the file, the key and what would be accepted: serde reads the raw
 //! tables (unknown keys are rejected by name), then [`Spec::from_toml`]
 //! checks every value and their relations and builds the plain [`Spec`].
-//! Nothing here computes a filter: the file's words are read straight into
+//! Nothing here computes a filter (beyond one conversion: a Bessel
+//! lowpass's DC delay or asymptote frequency becomes its passband edge
+//! through [`crate::approx::bessel_edge_ratio`]): the file's words are read straight into
 //! the types of the stages that use them ([`Band`], [`Family`], [`Form`],
 //! [`Method`], [`OpAmpModel`], [`PartsChoice`], [`ImpedanceLevel`]),
 //! which each have one spelling for people ([`std::fmt::Display`]) and
@@ -100,6 +102,25 @@ impl Default for MonteCarloSpec {
 /// takes one to two hours, shown on the progress bar.
 pub const MAX_TRIALS: usize = 10_000_000;
 
+/// A frequency scale other than the passband edge (a Bessel lowpass only):
+/// the edge follows from it, the order and the edge loss.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+#[serde(tag = "by", rename_all = "snake_case")]
+pub enum FrequencyScale {
+    /// `filter.dc_delay_s`: the group delay at DC.
+    DcDelay {
+        /// Seconds.
+        dc_delay_s: f64,
+    },
+    /// `filter.asymptote_hz`: where the high-frequency asymptote
+    /// (f0/f)^n of |H| reaches 1 (the geometric mean of the natural
+    /// frequencies).
+    Asymptote {
+        /// Hz.
+        asymptote_hz: f64,
+    },
+}
+
 /// Where the normalized lowpass prototype comes from.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 #[serde(tag = "source", rename_all = "snake_case")]
@@ -133,6 +154,9 @@ pub struct Spec {
     pub file: PathBuf,
     /// The kind and its passband and stopband edges.
     pub band: Band,
+    /// What fixed the passband edge, when the file gave a frequency scale
+    /// other than the edge itself.
+    pub frequency_scale: Option<FrequencyScale>,
     /// Family and order, or a table.
     pub prototype: PrototypeSource,
     /// The dual form asked for, or `None` to let the pipeline choose.

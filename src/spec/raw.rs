@@ -1,9 +1,12 @@
 //! First step of reading a design file: the raw tables as serde sees them,
 //! then the checks that turn them into a [`Spec`].
 
-use super::{ActiveSpec, MonteCarloSpec, OpAmpSpec, PrototypeSource, Spec, SpecError, MAX_TRIALS};
+use super::{
+    ActiveSpec, FrequencyScale, MonteCarloSpec, OpAmpSpec, PrototypeSource, Spec, SpecError,
+    MAX_TRIALS,
+};
 use crate::active::{Method, Refine};
-use crate::approx::Family;
+use crate::approx::{self, BesselScale, Family};
 use crate::circuit::{OpAmpKind, OpAmpModel};
 use crate::parts::{Distribution, ImpedanceLevel, PartsChoice, Series, MAX_TOLERANCE};
 use crate::synth::{self, Form};
@@ -86,7 +89,11 @@ struct RawFilter {
     family: Option<Family>,
     prototype: Option<String>,
     order: Option<i64>,
-    passband_edge_hz: toml::Value,
+    passband_edge_hz: Option<toml::Value>,
+    #[serde(default, deserialize_with = "number")]
+    dc_delay_s: Option<f64>,
+    #[serde(default, deserialize_with = "number")]
+    asymptote_hz: Option<f64>,
     stopband_edge_hz: Option<toml::Value>,
     #[serde(default, deserialize_with = "number")]
     passband_ripple_db: Option<f64>,
@@ -236,13 +243,13 @@ pub(super) fn parse(file: &Path, text: &str) -> Result<Spec, SpecError> {
     let raw: RawSpec = toml::from_str(text).map_err(|e| syntax_error(file, text, e))?;
     let c = Checker { file };
     let f = raw.filter;
-    let passband = c.edges(KEY_PASSBAND, &f.passband_edge_hz)?;
     let stopband = match &f.stopband_edge_hz {
         Some(v) => Some(c.edges("filter.stopband_edge_hz", v)?),
         None => None,
     };
-    let band = Band::new(f.kind, &passband, stopband.as_deref()).map_err(|p| c.problem(p))?;
     let prototype = prototype_source(&c, &f, stopband.is_some())?;
+    let (passband, frequency_scale) = passband_edges(&c, &f, &prototype)?;
+    let band = Band::new(f.kind, &passband, stopband.as_deref()).map_err(|p| c.problem(p))?;
     let source_ohm = c.termination("terminations.source_ohm", raw.terminations.source_ohm)?;
     let load_ohm = c.termination("terminations.load_ohm", raw.terminations.load_ohm)?;
     let opamp = opamp(&c, &raw.opamp)?;
@@ -266,6 +273,7 @@ pub(super) fn parse(file: &Path, text: &str) -> Result<Spec, SpecError> {
     Ok(Spec {
         file: file.to_path_buf(),
         band,
+        frequency_scale,
         prototype,
         form: f.form,
         source_ohm,
@@ -283,6 +291,100 @@ pub(super) fn parse(file: &Path, text: &str) -> Result<Spec, SpecError> {
         parts,
         montecarlo,
     })
+}
+
+/// DC delays a design file may give, seconds: a picosecond to a day
+/// (filters beyond either end are not built from op-amps and capacitors;
+/// the edge they give must still pass the band's own range check).
+const DC_DELAY_RANGE_S: (f64, f64) = (1e-12, 86_400.0);
+
+/// The passband edges, as written or from a Bessel lowpass's other
+/// frequency scale (a DC group delay or an asymptote frequency, which fix
+/// the edge with the order and edge loss).
+fn passband_edges(
+    c: &Checker,
+    f: &RawFilter,
+    prototype: &PrototypeSource,
+) -> Result<(Vec<f64>, Option<FrequencyScale>), SpecError> {
+    const KEYS: [&str; 3] = [KEY_PASSBAND, "filter.dc_delay_s", "filter.asymptote_hz"];
+    let given = [
+        f.passband_edge_hz.is_some(),
+        f.dc_delay_s.is_some(),
+        f.asymptote_hz.is_some(),
+    ];
+    if let Some(second) = (0..3).filter(|&i| given[i]).nth(1) {
+        return Err(c.invalid(
+            KEYS[second],
+            "(given too)",
+            "expected exactly one of filter.passband_edge_hz, filter.dc_delay_s and filter.asymptote_hz: each fixes the frequency scale",
+        ));
+    }
+    let (key, scale) = match (&f.passband_edge_hz, f.dc_delay_s, f.asymptote_hz) {
+        (Some(v), _, _) => return Ok((c.edges(KEY_PASSBAND, v)?, None)),
+        (None, Some(t), _) => (
+            "filter.dc_delay_s",
+            FrequencyScale::DcDelay {
+                dc_delay_s: c.within("filter.dc_delay_s", t, DC_DELAY_RANGE_S, "a delay in seconds")?,
+            },
+        ),
+        (None, None, Some(f0)) => (
+            "filter.asymptote_hz",
+            FrequencyScale::Asymptote {
+                asymptote_hz: c.positive("filter.asymptote_hz", f0, "a frequency in Hz")?,
+            },
+        ),
+        (None, None, None) => {
+            return Err(c.invalid(
+                KEY_PASSBAND,
+                "(missing)",
+                "expected a frequency in Hz, or [low, high] for a band kind (a Bessel lowpass may give filter.dc_delay_s or filter.asymptote_hz instead)",
+            ))
+        }
+    };
+    let got = match scale {
+        FrequencyScale::DcDelay { dc_delay_s } => dc_delay_s,
+        FrequencyScale::Asymptote { asymptote_hz } => asymptote_hz,
+    };
+    let (family, order, ripple) = match prototype {
+        PrototypeSource::Family {
+            family,
+            order,
+            passband_ripple_db,
+            ..
+        } => (Some(*family), *order, *passband_ripple_db),
+        PrototypeSource::Table { .. } => (None, None, 0.0),
+    };
+    if family != Some(Family::Bessel) || f.kind != Kind::Lowpass {
+        return Err(c.invalid(
+            key,
+            got,
+            "expected filter.passband_edge_hz instead: a DC delay or an asymptote fixes the frequency scale of a Bessel lowpass only (kind = \"lowpass\", family = \"bessel\")",
+        ));
+    }
+    let Some(order) = order else {
+        return Err(c.invalid(
+            "filter.order",
+            "(missing)",
+            format!(
+                "expected an order with {key}: the passband edge it fixes depends on the order"
+            ),
+        ));
+    };
+    let (approx_scale, per) = match scale {
+        FrequencyScale::DcDelay { dc_delay_s } => (
+            BesselScale::DcDelay,
+            1.0 / (std::f64::consts::TAU * dc_delay_s),
+        ),
+        FrequencyScale::Asymptote { asymptote_hz } => (BesselScale::Asymptote, asymptote_hz),
+    };
+    let ratio = approx::bessel_edge_ratio(order, ripple, approx_scale).map_err(|e| {
+        c.invalid(
+            key,
+            got,
+            format!("expected a scale the Bessel approximation can take ({e})"),
+        )
+    })?;
+    Ok((vec![ratio * per], Some(scale)))
 }
 
 /// A relative tolerance or spread in [0, MAX_TOLERANCE].
