@@ -104,6 +104,7 @@ fn montecarlo(c: &mut Criterion) {
         // The sweep engine alone; a design adds a stability verdict per
         // trial (active::is_stable), measured separately in its note.
         stability: None,
+        delay: None,
     };
     group.throughput(Throughput::Elements(TRIALS as u64));
     for threads in [1, 2] {

@@ -795,6 +795,7 @@ fn fdnr_run(
         seed,
         worst,
         stability: None,
+        delay: None,
     };
     monte_carlo(&system(&n), &setup, progress).unwrap()
 }
@@ -945,6 +946,7 @@ fn rc_yield_converges_to_its_closed_form() {
             seed: 7,
             worst: 0,
             stability: None,
+            delay: None,
         };
         let got = monte_carlo(&system(&n), &setup, None)
             .unwrap()
@@ -997,6 +999,7 @@ fn rc_stored_run(trials: usize, worst: usize) -> (MonteCarloResult, usize) {
         seed: 17,
         worst,
         stability: None,
+        delay: None,
     };
     (monte_carlo(&system(&n), &setup, None).unwrap(), 2)
 }
@@ -1139,6 +1142,7 @@ fn unstable_trials_fail_in_the_proportion_routh_hurwitz_predicts() {
         // Every trial kept as a worst one, to read each one's verdict.
         worst: trials,
         stability: Some(&judge),
+        delay: None,
     };
     let r = monte_carlo(&system(&n), &setup, None).unwrap();
     let got = r.unstable as f64 / trials as f64;
@@ -1199,6 +1203,7 @@ fn monte_carlo_refuses_bad_setups_naming_the_offender() {
         seed: 0,
         worst: 1,
         stability: None,
+        delay: None,
     };
     let err = |setup: MonteCarlo| monte_carlo(&sys, &setup, None).unwrap_err();
     assert_eq!(

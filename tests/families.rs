@@ -702,3 +702,216 @@ fn bessel_scale_keys_are_refused_outside_their_use() {
         );
     }
 }
+
+// ------------------------------------------------------- group delay spec
+
+fn spec_of(text: &str) -> nocoil::spec::Spec {
+    nocoil::spec::Spec::from_toml(std::path::Path::new("delay.toml"), text)
+        .unwrap_or_else(|e| panic!("{e}"))
+}
+
+/// The prototype's exact delay (from its poles) carried to real
+/// frequencies by each kind's transformation equals the passive ideal's
+/// exact delay from its circuit equations (dx/ds by one more solve): two
+/// routes that share nothing but the prototype, for every kind.
+#[test]
+fn prototype_delay_through_each_transformation_matches_the_circuit() {
+    use nocoil::circuit::AcSystem;
+    use nocoil::design::Origin;
+    for (kind, edges) in [
+        ("lowpass", "1000.0"),
+        ("highpass", "1000.0"),
+        ("bandpass", "[800.0, 1250.0]"),
+        ("bandstop", "[800.0, 1250.0]"),
+    ] {
+        let d = nocoil::design::design(&spec_of(&format!(
+            "[filter]\nkind = \"{kind}\"\nfamily = \"bessel\"\norder = 4\npassband_edge_hz = {edges}\n\
+             [terminations]\nsource_ohm = 600\nload_ohm = 600\n"
+        )))
+        .unwrap();
+        let Origin::Family(proto) = &d.origin else {
+            panic!("a family")
+        };
+        let mut system = AcSystem::new(&d.passive).unwrap();
+        let node = |name| d.passive.node_index(name).unwrap();
+        // 1000 Hz is the band kinds' centre, where a bandstop's substitution
+        // is infinite (its delay a limit only the circuit gives).
+        for f in [100.0, 300.0, 700.0, 900.0, 990.0, 1111.0, 1500.0, 4000.0] {
+            let band = &d.spec.band;
+            let analytic = proto.group_delay(band.normalized(f)) * band.delay_factor_s(f);
+            let circuit = system.group_delay(f, node("out"), node("in")).unwrap();
+            assert!(
+                (analytic - circuit).abs() <= 1e-9 * circuit.abs().max(1e-6),
+                "{kind} at {f} Hz: {analytic} s from the prototype, {circuit} s from the circuit"
+            );
+        }
+    }
+}
+
+/// A computed Bessel order is raised until the passive ideal keeps a
+/// delay spread of 1 % up to 700 Hz (edge 1 kHz), and no further: the
+/// passive ideals of the orders below and at the choice, designed with
+/// the order given and judged from their circuits, miss and keep it.
+#[test]
+fn a_delay_specification_raises_a_computed_order_just_enough() {
+    let text = |order: &str| {
+        format!(
+            "[filter]\nkind = \"lowpass\"\nfamily = \"bessel\"\n{order}\npassband_edge_hz = 1000\n\
+             stopband_edge_hz = 3000\nstopband_attenuation_db = 20\n\
+             [terminations]\nsource_ohm = 600\nload_ohm = 600\n\
+             [delay]\nmax_spread_pct = 1.0\nband_hz = 700\n"
+        )
+    };
+    let d = nocoil::design::design(&spec_of(&text(""))).unwrap();
+    let chosen = d.report().order;
+    assert!(
+        matches!(
+            d.order_choice,
+            nocoil::design::OrderChoice::Computed {
+                minimum: 3,
+                raised_for_delay: 1,
+                ..
+            }
+        ),
+        "{:?}",
+        d.order_choice
+    );
+    for (order, keeps) in [(chosen - 1, false), (chosen, true)] {
+        let given = nocoil::design::design(&spec_of(&text(&format!("order = {order}")))).unwrap();
+        let limit = given.delay_limit().unwrap().unwrap();
+        let grid = limit.grid();
+        let t = nocoil::analysis::trace(&given.passive, &grid, true).unwrap();
+        let v = limit.verdict(&grid, &t.group_delay_s.unwrap());
+        assert_eq!(v.meets, keeps, "order {order}: {v:?}");
+    }
+}
+
+/// The spread judged on the limit's grid moves by under 1e-3 of itself
+/// when the grid is doubled (every midpoint added), on a Butterworth
+/// (whose delay peaks inside the passband) and on a band from DC of an
+/// FDNR build (whose DC paths bend the delay at the bottom).
+#[test]
+fn delay_spread_holds_when_the_grid_doubles() {
+    for family in ["butterworth", "bessel"] {
+        let d = nocoil::design::design(&spec_of(&format!(
+            "[filter]\nkind = \"lowpass\"\nfamily = \"{family}\"\norder = 5\npassband_edge_hz = 1000\n\
+             [terminations]\nsource_ohm = 600\nload_ohm = 600\n\
+             [delay]\nmax_spread_s = 1e-5\nband_hz = 900\n"
+        )))
+        .unwrap();
+        let active = d.active().unwrap();
+        let limit = d.delay_limit().unwrap().unwrap();
+        let grid = limit.grid();
+        let mut doubled: Vec<f64> = grid
+            .windows(2)
+            .map(|w| (w[0] + w[1]) / 2.0)
+            .chain(grid.iter().copied())
+            .collect();
+        doubled.sort_by(f64::total_cmp);
+        for net in [&d.passive, &active.on_parts.netlist] {
+            let spread = |g: &[f64]| {
+                let t = nocoil::analysis::trace(net, g, true).unwrap();
+                limit.verdict(g, &t.group_delay_s.unwrap()).spread_s
+            };
+            let (coarse, fine) = (spread(&grid), spread(&doubled));
+            assert!(
+                (fine - coarse).abs() <= 1e-3 * fine,
+                "{family}: {coarse} s against {fine} s"
+            );
+        }
+    }
+}
+
+/// The Monte Carlo judges every board's spread: with no tolerance every
+/// board is the nominal one and keeps a bound above its spread; with a
+/// bound below the nominal spread every board fails on delay alone, and
+/// the yield line says so. The headline fails on delay when the gain
+/// meets the mask.
+#[test]
+fn the_monte_carlo_and_the_headline_judge_the_delay() {
+    let text = |bound: &str, tolerance: &str| {
+        format!(
+            "[filter]\nkind = \"lowpass\"\nfamily = \"butterworth\"\norder = 5\npassband_edge_hz = 1000\n\
+             [terminations]\nsource_ohm = 600\nload_ohm = 600\n\
+             [parts]\nresistor_tolerance = {tolerance}\ncapacitor_tolerance = {tolerance}\n\
+             [montecarlo]\ntrials = 40\ngbw_spread = 0\n\
+             [delay]\nmax_spread_s = {bound}\nband_hz = [100, 500]\n"
+        )
+    };
+    let d = nocoil::design::design(&spec_of(&text("1e-3", "0"))).unwrap();
+    let active = d.active().unwrap();
+    let nominal = d
+        .delay_figures(&active)
+        .unwrap()
+        .unwrap()
+        .active_on_parts
+        .spread_s;
+    for (bound, passed) in [(nominal * 1.01, 40), (nominal * 0.99, 0)] {
+        let d = nocoil::design::design(&spec_of(&text(&format!("{bound:e}"), "0"))).unwrap();
+        let active = d.active().unwrap();
+        let mc = d
+            .monte_carlo(&active.on_parts.netlist, 40, 1, None)
+            .unwrap();
+        assert_eq!(
+            (mc.passed, mc.delay_failed),
+            (passed, 40 - passed),
+            "bound {bound}"
+        );
+    }
+    let dir = crate::util::scratch("families-delay-headline");
+    let spec = crate::util::spec_in(&dir, &text(&format!("{:e}", nominal * 0.5), "0.01"));
+    let out = crate::util::design_into(&spec, &dir.join("out"));
+    let printed = String::from_utf8_lossy(&out.stdout);
+    let first = printed.lines().next().unwrap_or_default();
+    assert!(
+        first.starts_with(
+            "active on parts: FAILS the specification on group delay: group delay spread"
+        ),
+        "{printed}"
+    );
+    assert!(
+        printed.contains("over the group delay spread allowed"),
+        "{printed}"
+    );
+}
+
+/// Bad `[delay]` tables are refused naming the key; a family that no
+/// order lets keep the spread is refused with what to change, exit 2.
+#[test]
+fn bad_delay_specifications_are_refused_by_key() {
+    let base = "[filter]\nkind = \"lowpass\"\nfamily = \"butterworth\"\norder = 5\npassband_edge_hz = 1000\n\
+                [terminations]\nsource_ohm = 600\nload_ohm = 600\n[delay]\n";
+    for (table, key) in [
+        (
+            "max_spread_s = 1e-5\nmax_spread_pct = 1",
+            "delay.max_spread_pct",
+        ),
+        ("band_hz = 500", "delay.max_spread_s"),
+        ("max_spread_pct = 150", "delay.max_spread_pct"),
+        ("max_spread_s = -1", "delay.max_spread_s"),
+        ("max_spread_s = 1e-5\nband_hz = [500, 100]", "delay.band_hz"),
+    ] {
+        let err = nocoil::spec::Spec::from_toml(
+            std::path::Path::new("delay.toml"),
+            &format!("{base}{table}\n"),
+        )
+        .unwrap_err()
+        .to_string();
+        assert!(err.contains(key), "{table:?}: {err}");
+    }
+    let dir = crate::util::scratch("families-delay-beyond");
+    let spec = crate::util::spec_in(
+        &dir,
+        "[filter]\nkind = \"lowpass\"\nfamily = \"chebyshev\"\npassband_ripple_db = 0.5\n\
+         passband_edge_hz = 1000\nstopband_edge_hz = 3000\nstopband_attenuation_db = 20\n\
+         [terminations]\nsource_ohm = 600\nload_ohm = 600\n[delay]\nmax_spread_pct = 1\nband_hz = 700\n",
+    );
+    let out = crate::util::nocoil(&["bom", spec.to_str().unwrap()]);
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{err}");
+    assert!(
+        err.contains("no Chebyshev order up to 25 keeps the group delay spread")
+            && err.contains("Bessel"),
+        "{err}"
+    );
+}

@@ -38,6 +38,16 @@ pub enum AnalysisError {
     /// A Monte Carlo run of zero trials.
     #[error("a Monte Carlo run needs at least 1 trial, got 0")]
     NoTrials,
+    /// A delay limit without bands, with a bad band or a bad bound.
+    #[error("delay limit: band {from_hz} Hz to {to_hz} Hz, spread {max_spread_s} s; expected at least one band, each finite with 0 <= from < to, and a positive finite spread")]
+    BadDelayLimit {
+        /// Start of the first bad band, Hz (NaN when the bands are fine).
+        from_hz: f64,
+        /// End of that band, Hz.
+        to_hz: f64,
+        /// The bound, seconds.
+        max_spread_s: f64,
+    },
     /// A mask without any limit.
     #[error("the mask has no limits; give at least one")]
     EmptyMask,

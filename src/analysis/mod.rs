@@ -13,6 +13,8 @@
 //!   (passband deviation, edge shifts, stopband gains).
 //! - [`trace`] (in `sweep`): gain, phase and exact group delay over a
 //!   grid through the sparse solver, every value finite.
+//! - [`DelayLimit`] (in `spread`): the group-delay spread over bands
+//!   against a bound.
 //!
 //! Every analysis reads the circuit through [`crate::circuit::AcSystem`]'s
 //! public methods only, so any solver behind that interface serves it.
@@ -25,6 +27,7 @@ mod levels;
 mod mask;
 mod montecarlo;
 mod sensitivity;
+mod spread;
 mod sweep;
 
 pub use compare::{compare, passband_level_db, ComparePoints, Comparison, EDGE_WINDOW};
@@ -39,4 +42,5 @@ pub use sensitivity::{
     sensitivities, summarize, Extreme, Parameter, Sensitivity, SensitivitySummary,
     SensitivityTable, SummaryPoints,
 };
+pub use spread::{DelayLimit, DelayVerdict, DC_FRACTION, DELAY_POINTS};
 pub use sweep::{trace, unwrap_deg, Trace, Tracer, ZERO_GAIN_DB};

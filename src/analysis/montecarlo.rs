@@ -39,6 +39,7 @@ use rand_chacha::ChaCha8Rng;
 use rayon::prelude::*;
 
 use super::mask::{margin_db, Check, Mask};
+use super::spread::DelayLimit;
 use super::{AnalysisError, Parameter};
 use crate::circuit::{AcSystem, CircuitError, Element, ElementKind, Netlist, OpAmpModel, SparseAc};
 use crate::parts::Tolerance;
@@ -121,6 +122,9 @@ pub struct MonteCarlo<'a> {
     /// fails whatever its response (a sweep of an unstable circuit is the
     /// steady state it never reaches).
     pub stability: Option<StabilityJudge<'a>>,
+    /// A bound on the group-delay spread every trial must also keep, when
+    /// the specification has one (exact delay on the limit's own grid).
+    pub delay: Option<&'a DelayLimit>,
 }
 
 /// One varied quantity, as resolved from the rules.
@@ -152,6 +156,10 @@ pub struct TrialSummary {
     pub margin_db: f64,
     /// The largest |dB - nominal dB| over the frequencies.
     pub max_deviation_db: f64,
+    /// The group-delay spread, seconds, when the run has a delay limit.
+    pub delay_spread_s: Option<f64>,
+    /// Whether that spread kept the limit (true without one).
+    pub delay_ok: bool,
 }
 
 /// Min, median and max of 20 log10 |H| over the trials, per frequency.
@@ -200,6 +208,9 @@ pub struct MonteCarloResult {
     pub passed: usize,
     /// Trials judged unstable (each also counted as failed).
     pub unstable: usize,
+    /// Trials whose group-delay spread broke the delay limit (each also
+    /// counted as failed; 0 without a limit).
+    pub delay_failed: usize,
     /// passed / trials.
     pub yield_fraction: f64,
     /// The envelope of the trials.
@@ -321,6 +332,8 @@ struct Run<'a> {
     knobs: &'a [Knob],
     checks: &'a [Check],
     nominal_db: &'a [f64],
+    /// The delay limit's grid (empty without one).
+    delay_grid: &'a [f64],
 }
 
 impl Run<'_> {
@@ -344,6 +357,14 @@ impl Run<'_> {
             *slot = db(h);
         }
         let margin_db = margin_db(self.checks, row);
+        let delay_spread_s = match self.setup.delay {
+            Some(_) => Some(worker.delay_spread(self.setup, self.delay_grid)?),
+            None => None,
+        };
+        let delay_ok = match (self.setup.delay, delay_spread_s) {
+            (Some(limit), Some(spread)) => spread <= limit.max_spread_s,
+            _ => true,
+        };
         let stable = self
             .setup
             .stability
@@ -355,10 +376,12 @@ impl Run<'_> {
             .fold(0.0, f64::max);
         Ok(TrialSummary {
             trial,
-            passed: margin_db >= 0.0 && stable,
+            passed: margin_db >= 0.0 && stable && delay_ok,
             stable,
             margin_db,
             max_deviation_db,
+            delay_spread_s,
+            delay_ok,
         })
     }
 }
@@ -370,6 +393,11 @@ struct Worker {
     system: AcSystem,
     sparse: Option<SparseAc>,
     h: Vec<num_complex::Complex64>,
+    /// Whether `sparse` holds the current values (set by each sweep).
+    refilled: bool,
+    /// The delay grid's transfer and delay (unused without a limit).
+    hd: Vec<num_complex::Complex64>,
+    delay_s: Vec<f64>,
 }
 
 impl Worker {
@@ -381,6 +409,7 @@ impl Worker {
             Some(sparse) => sparse.refill(&self.system).is_ok(),
             None => false,
         };
+        self.refilled = refilled;
         match self.sparse.as_mut() {
             Some(sparse) if refilled => {
                 sparse.sweep_into(setup.freqs_hz, setup.out, setup.inp, &mut self.h)
@@ -394,6 +423,28 @@ impl Worker {
                 Ok(())
             }
         }
+    }
+
+    /// The group-delay spread over `grid` of the values [`Worker::sweep`]
+    /// left (its refill serves this sweep too).
+    fn delay_spread(&mut self, setup: &MonteCarlo<'_>, grid: &[f64]) -> Result<f64, CircuitError> {
+        match self.sparse.as_mut() {
+            Some(sparse) if self.refilled => sparse.sweep_delay_into(
+                grid,
+                setup.out,
+                setup.inp,
+                &mut self.hd,
+                &mut self.delay_s,
+            )?,
+            _ => {
+                self.delay_s.clear();
+                for &f in grid {
+                    let d = self.system.group_delay(f, setup.out, setup.inp)?;
+                    self.delay_s.push(d);
+                }
+            }
+        }
+        Ok(DelayLimit::spread_s(&self.delay_s))
     }
 }
 
@@ -418,9 +469,11 @@ pub fn monte_carlo(
     }
     let checks = setup.mask.checks(setup.freqs_hz)?;
     let knobs = knobs(system, setup.rules)?;
+    let delay_grid = setup.delay.map(DelayLimit::grid).unwrap_or_default();
     let (lo, hi) = setup
         .freqs_hz
         .iter()
+        .chain(&delay_grid)
         .fold((f64::INFINITY, 0.0_f64), |(lo, hi), &f| {
             (lo.min(f), hi.max(f))
         });
@@ -428,6 +481,9 @@ pub fn monte_carlo(
         system: system.clone(),
         sparse: SparseAc::new(system, lo, hi).ok(),
         h: Vec::with_capacity(n),
+        refilled: false,
+        hd: Vec::with_capacity(delay_grid.len()),
+        delay_s: Vec::with_capacity(delay_grid.len()),
     };
     // The nominal response by the trials' own solver, so a trial with
     // every value at nominal reproduces it bit for bit.
@@ -439,6 +495,7 @@ pub fn monte_carlo(
         knobs: &knobs,
         checks: &checks,
         nominal_db: &nominal_db,
+        delay_grid: &delay_grid,
     };
     let done = AtomicUsize::new(0);
     let block = setup.trials.min(BLOCK_TRIALS);
@@ -487,6 +544,7 @@ pub fn monte_carlo(
         varied: knobs.iter().map(|k| varied(system, k)).collect(),
         passed: tally.passed,
         unstable: tally.unstable,
+        delay_failed: tally.delay_failed,
         yield_fraction: tally.passed as f64 / setup.trials as f64,
         worst: tally.worst.into_sorted(),
         trials: setup.trials,
@@ -511,6 +569,7 @@ fn varied(system: &AcSystem, knob: &Knob) -> Varied {
 struct Tally {
     passed: usize,
     unstable: usize,
+    delay_failed: usize,
     worst: Worst,
 }
 
@@ -519,6 +578,7 @@ impl Tally {
         Tally {
             passed: 0,
             unstable: 0,
+            delay_failed: 0,
             worst: Worst::new(worst),
         }
     }
@@ -526,6 +586,7 @@ impl Tally {
     fn add(&mut self, trial: TrialSummary) {
         self.passed += usize::from(trial.passed);
         self.unstable += usize::from(!trial.stable);
+        self.delay_failed += usize::from(!trial.delay_ok);
         self.worst.add(trial);
     }
 }
@@ -923,6 +984,8 @@ mod tests {
                     stable: true,
                     margin_db,
                     max_deviation_db: 0.0,
+                    delay_spread_s: None,
+                    delay_ok: true,
                 }
             })
             .collect();

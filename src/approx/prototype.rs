@@ -66,6 +66,16 @@ impl Prototype {
         }
     }
 
+    /// The group delay -d arg H(jw) / dw at the normalized frequency `w`,
+    /// seconds at the 1 rad/s edge, exact from the zpk: the sum over the
+    /// poles of -Re p / |jw - p|^2, less the same over the zeros (which
+    /// add nothing on the jw axis, where every zero here lies).
+    pub fn group_delay(&self, w: f64) -> f64 {
+        let s = Complex64::new(0.0, w);
+        let term = |p: &Complex64| -p.re / (s - p).norm_sqr();
+        self.zpk.poles.iter().map(term).sum::<f64>() - self.zpk.zeros.iter().map(term).sum::<f64>()
+    }
+
     /// The loss -20 log10 |H(jw)| at the normalized frequency `w` (rad/s),
     /// evaluated from the zpk; +infinity at a transmission zero.
     pub fn attenuation_db(&self, w: f64) -> f64 {

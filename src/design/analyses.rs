@@ -5,11 +5,13 @@
 use super::{ActiveDesign, Design, DesignError};
 use crate::active;
 use crate::analysis::{
-    level_traces, monte_carlo, summarize, trace, AnalysisError, Mask, MaskVerdict, MonteCarlo,
-    MonteCarloResult, Scope, SensitivitySummary, StabilityJudge, SummaryPoints, ToleranceRule,
+    level_traces, monte_carlo, summarize, trace, AnalysisError, DelayLimit, DelayVerdict, Mask,
+    MaskVerdict, MonteCarlo, MonteCarloResult, Scope, SensitivitySummary, StabilityJudge,
+    SummaryPoints, ToleranceRule, DC_FRACTION,
 };
 use crate::circuit::{band_grid, log_grid, AcSystem, Netlist};
 use crate::parts::Tolerance;
+use crate::spec::SpreadBound;
 
 /// Points per passband of the worst-case sensitivity search.
 pub const SENSITIVITY_POINTS: usize = 50;
@@ -109,6 +111,21 @@ pub struct Analyses {
     /// The active on parts build against the specification, nominal parts
     /// (the headline).
     pub active_on_parts_verdict: MaskVerdict,
+    /// The builds against the delay specification, when there is one.
+    pub delay: Option<DelayFigures>,
+}
+
+/// The three builds against the `[delay]` specification.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct DelayFigures {
+    /// The bands and the bound in seconds.
+    pub limit: DelayLimit,
+    /// The passive ideal.
+    pub passive_ideal: DelayVerdict,
+    /// The active exact build.
+    pub active_exact: DelayVerdict,
+    /// The active on parts build (what the headline judges).
+    pub active_on_parts: DelayVerdict,
 }
 
 /// Gain, phase and exact group delay of `netlist` at `freq_hz`, through
@@ -127,6 +144,15 @@ impl Design {
     /// op-amp output levels of the active on parts build.
     pub fn chart_traces(&self, active: &ActiveDesign) -> Result<ChartTraces, DesignError> {
         let (lo, hi) = self.view_hz();
+        // Down to the lowest point a delay specification judges, which may
+        // lie below the view (a band from DC).
+        let lo = match &self.spec.delay {
+            Some(delay) => super::delay_bands(&self.spec, delay)
+                .iter()
+                .map(|&[a, b]| a.max(b * DC_FRACTION))
+                .fold(lo, f64::min),
+            None => lo,
+        };
         let grid = log_grid(lo, hi, CHART_POINTS).map_err(|cause| self.circuit_error(cause))?;
         self.traces(active, grid)
     }
@@ -230,6 +256,7 @@ impl Design {
         let circuit = |cause| self.circuit_error(cause);
         let analysis = |cause| self.analysis_error(cause);
         let mask = Mask::new(self.yield_limits()).map_err(analysis)?;
+        let delay = self.delay_limit()?;
         let freqs = self.monte_carlo_grid()?;
         let rules = self.tolerance_rules()?;
         let system = AcSystem::new(netlist).map_err(circuit)?;
@@ -250,8 +277,59 @@ impl Design {
             trials,
             seed,
             worst: WORST_TRIALS,
+            delay: delay.as_ref(),
         };
         monte_carlo(&system, &setup, progress).map_err(analysis)
+    }
+
+    /// The `[delay]` specification as a limit: its bands (by default the
+    /// passbands within the specification's view) and its bound in
+    /// seconds (a percentage is of the passive ideal's longest delay over
+    /// the bands); `None` without one.
+    pub fn delay_limit(&self) -> Result<Option<DelayLimit>, DesignError> {
+        let Some(spec) = &self.spec.delay else {
+            return Ok(None);
+        };
+        let analysis = |cause| self.analysis_error(cause);
+        let bands = super::delay_bands(&self.spec, spec);
+        let max_spread_s = match spec.bound {
+            SpreadBound::Seconds(s) => s,
+            SpreadBound::Percent(pct) => {
+                let probe = DelayLimit::new(bands.clone(), 1.0).map_err(analysis)?;
+                let grid = probe.grid();
+                let delay = self.delays(&self.passive, &grid)?;
+                probe.verdict(&grid, &delay).longest_s * pct / 100.0
+            }
+        };
+        DelayLimit::new(bands, max_spread_s)
+            .map(Some)
+            .map_err(analysis)
+    }
+
+    /// The exact group delay of `netlist` at `grid`, seconds.
+    fn delays(&self, netlist: &Netlist, grid: &[f64]) -> Result<Vec<f64>, DesignError> {
+        trace(netlist, grid, true)
+            .map(|t| t.group_delay_s.unwrap_or_default())
+            .map_err(|cause| self.analysis_error(cause))
+    }
+
+    /// The three builds against the delay specification, if any.
+    pub fn delay_figures(
+        &self,
+        active: &ActiveDesign,
+    ) -> Result<Option<DelayFigures>, DesignError> {
+        let Some(limit) = self.delay_limit()? else {
+            return Ok(None);
+        };
+        let grid = limit.grid();
+        let judge =
+            |n: &Netlist| Ok::<_, DesignError>(limit.verdict(&grid, &self.delays(n, &grid)?));
+        Ok(Some(DelayFigures {
+            passive_ideal: judge(&self.passive)?,
+            active_exact: judge(&active.build.netlist)?,
+            active_on_parts: judge(&active.on_parts.netlist)?,
+            limit,
+        }))
     }
 
     /// How `netlist` (a build of this design) stands against the
@@ -295,6 +373,7 @@ impl Design {
             montecarlo: self.monte_carlo(parts, self.trials(active), mc.seed, progress)?,
             active_exact_verdict: self.verdict(&active.build.netlist)?,
             active_on_parts_verdict: self.verdict(parts)?,
+            delay: self.delay_figures(active)?,
         })
     }
 }

@@ -17,12 +17,12 @@
 //! Neither the command line nor any stage needs to know the whole chain.
 
 use crate::active::{self, ActiveError};
-use crate::analysis::{passband_level_db, AnalysisError, Limit};
+use crate::analysis::{passband_level_db, AnalysisError, DelayLimit, Limit};
 use crate::approx::{self, ApproxError, Family, Params, Prototype};
 use crate::circuit::{CircuitError, Netlist, OpAmpModel};
 use crate::realize::{ladder_level, LadderLevel, PartsSnapError};
 use crate::spec::table::PrototypeTable;
-use crate::spec::{PrototypeSource, Spec, SpecError};
+use crate::spec::{DelaySpec, PrototypeSource, Spec, SpecError, SpreadBound};
 use crate::synth::{self, Form, Ladder, SynthError};
 use crate::transform::{passive_netlist, Band, Kind, MaskField, MaskProblem};
 use std::path::PathBuf;
@@ -33,8 +33,9 @@ mod order;
 mod report;
 
 pub use analyses::{
-    default_trials, Analyses, BuildTrace, ChartTraces, DEFAULT_TRIALS, DEFAULT_TRIALS_OPAMPS,
-    MIN_DEFAULT_TRIALS, MONTE_CARLO_POINTS, SENSITIVITY_POINTS, WORST_TRIALS,
+    default_trials, Analyses, BuildTrace, ChartTraces, DelayFigures, DEFAULT_TRIALS,
+    DEFAULT_TRIALS_OPAMPS, MIN_DEFAULT_TRIALS, MONTE_CARLO_POINTS, SENSITIVITY_POINTS,
+    WORST_TRIALS,
 };
 pub use builds::{ActiveDesign, BuildFigures, TopOfRange};
 pub use order::{order_table, OrderRow, OrderTable};
@@ -85,6 +86,9 @@ pub enum OrderChoice {
         /// Whether the even-order form the terminations need missed the
         /// mask at `minimum`, so one more order was taken.
         raised_for_form: bool,
+        /// Orders added beyond that so the passive ideal keeps the
+        /// `[delay]` spread (0 without one).
+        raised_for_delay: usize,
     },
     /// Fixed by a prototype table.
     Table,
@@ -207,6 +211,18 @@ pub enum DesignError {
         /// Why.
         cause: AnalysisError,
     },
+    /// No order up to the synthesis limit keeps the `[delay]` spread.
+    #[error("{}: no {family} order up to {max} keeps the group delay spread of the [delay] table (the smallest reached is {best_spread_s:e} s); the Bessel family has the flattest delay, and a narrower delay.band_hz or a larger spread is easier to meet", file.display())]
+    DelayBeyondMaxOrder {
+        /// The design file.
+        file: PathBuf,
+        /// The family.
+        family: Family,
+        /// The highest order tried.
+        max: usize,
+        /// The smallest spread any order reached, seconds.
+        best_spread_s: f64,
+    },
     /// The inverse Chebyshev of this order and floor has no ladder with
     /// positive elements.
     #[error("{}: no {family} ladder of order {order} with a {attenuation_db} dB stopband floor has positive elements (the first partial removal of a zero comes out negative in every order of removal); a deeper floor allows a higher order (measured: 20 dB up to order 4, 40 dB up to 6, 60 dB up to 10, 100 dB up to 14), a lower order a shallower one, and the elliptic family meets the same mask at a lower order", file.display())]
@@ -240,7 +256,8 @@ impl DesignError {
             DesignError::Spec(_)
             | DesignError::Approx { .. }
             | DesignError::Synth { .. }
-            | DesignError::NoLadder { .. } => true,
+            | DesignError::NoLadder { .. }
+            | DesignError::DelayBeyondMaxOrder { .. } => true,
             DesignError::Circuit { .. } | DesignError::Analysis { .. } => false,
             DesignError::Active { cause, .. } => matches!(
                 cause,
@@ -299,6 +316,7 @@ pub fn design(spec: &Spec) -> Result<Design, DesignError> {
                         cause,
                     },
                 )?;
+            let (proto, how) = raise_for_delay(spec, proto, how, ratio)?;
             check_synthesis_limit(spec, &proto)?;
             let ladder = ladder(spec, &proto, ratio)?;
             (Origin::Family(proto), how, ladder)
@@ -473,8 +491,98 @@ fn choose_prototype(
         OrderChoice::Computed {
             minimum,
             raised_for_form,
+            raised_for_delay: 0,
         },
     ))
+}
+
+/// The bands a `[delay]` specification holds over: its own, or the
+/// passbands within the specification's view.
+pub(crate) fn delay_bands(spec: &Spec, delay: &DelaySpec) -> Vec<[f64; 2]> {
+    delay
+        .bands_hz
+        .clone()
+        .unwrap_or_else(|| spec.band.passbands_hz(spec.band.view_hz()))
+}
+
+/// A computed order raised, one at a time, until the prototype's group
+/// delay (exact, from its poles, carried to real frequencies by the
+/// kind's transformation) keeps the `[delay]` spread; a given order is
+/// kept as written (the verdicts then say how it fares).
+fn raise_for_delay(
+    spec: &Spec,
+    proto: Prototype,
+    how: OrderChoice,
+    ratio: f64,
+) -> Result<(Prototype, OrderChoice), DesignError> {
+    let (
+        Some(delay),
+        &OrderChoice::Computed {
+            minimum,
+            raised_for_form,
+            ..
+        },
+    ) = (&spec.delay, &how)
+    else {
+        return Ok((proto, how));
+    };
+    let limit =
+        DelayLimit::new(delay_bands(spec, delay), 1.0).map_err(|cause| DesignError::Analysis {
+            file: spec.file.clone(),
+            cause,
+        })?;
+    let grid = limit.grid();
+    let keeps = |p: &Prototype| {
+        let delays: Vec<f64> = grid
+            .iter()
+            .map(|&f| p.group_delay(spec.band.normalized(f)) * spec.band.delay_factor_s(f))
+            .collect();
+        let v = limit.verdict(&grid, &delays);
+        let bound = match delay.bound {
+            SpreadBound::Seconds(s) => s,
+            SpreadBound::Percent(pct) => v.longest_s * pct / 100.0,
+        };
+        (v.spread_s <= bound, v.spread_s)
+    };
+    let family = proto.params.family;
+    let mut best = keeps(&proto).1;
+    for order in proto.params.order..=synth::max_order(family) {
+        let candidate = if order == proto.params.order {
+            proto.clone()
+        } else {
+            let eps = (proto.params.passband_ripple_db * std::f64::consts::LN_10 / 10.0)
+                .exp_m1()
+                .sqrt();
+            Prototype::new(Params {
+                order,
+                variant: synth::variant_for(family, order, eps, ratio),
+                ..proto.params
+            })
+            .map_err(|cause| DesignError::Approx {
+                file: spec.file.clone(),
+                cause,
+            })?
+        };
+        let (ok, spread) = keeps(&candidate);
+        if ok {
+            let raised = order - proto.params.order;
+            return Ok((
+                candidate,
+                OrderChoice::Computed {
+                    minimum,
+                    raised_for_form,
+                    raised_for_delay: raised,
+                },
+            ));
+        }
+        best = best.min(spread);
+    }
+    Err(DesignError::DelayBeyondMaxOrder {
+        file: spec.file.clone(),
+        family,
+        max: synth::max_order(family),
+        best_spread_s: best,
+    })
 }
 
 /// The top of the op-amp range as a fraction of the gain-bandwidth: a

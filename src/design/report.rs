@@ -3,7 +3,9 @@
 //! [`Documents`], the report with the networks and analyses the charts,
 //! decks and tables need.
 
-use super::{ActiveDesign, Analyses, BuildFigures, Design, MaskCheck, OrderChoice, Origin};
+use super::{
+    ActiveDesign, Analyses, BuildFigures, DelayFigures, Design, MaskCheck, OrderChoice, Origin,
+};
 use crate::active::{CornerVerdict, Method, NaturalFrequency, Note, Stage, Why};
 use crate::analysis::{Limit, MaskVerdict};
 use crate::approx::{Family, Variant};
@@ -145,7 +147,7 @@ pub struct Report {
 }
 
 /// How the active builds stand against the specification.
-#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct Outcome {
     /// The active on parts build with nominal parts (the headline).
     pub active_on_parts: MaskVerdict,
@@ -160,6 +162,11 @@ pub struct Outcome {
     pub boards_meeting: usize,
     /// Boards whose network is unstable (counted as not meeting it).
     pub boards_unstable: usize,
+    /// Boards whose group-delay spread broke the `[delay]` bound (counted
+    /// as not meeting it; 0 without one).
+    pub boards_over_delay: usize,
+    /// The three builds against the `[delay]` specification, if any.
+    pub delay: Option<DelayFigures>,
     /// The seed of the draws.
     pub seed: u64,
     /// When the design file gave no trial count and the default was
@@ -304,6 +311,8 @@ impl Design {
             boards: mc.trials,
             boards_meeting: mc.passed,
             boards_unstable: mc.unstable,
+            boards_over_delay: mc.delay_failed,
+            delay: analyses.delay.clone(),
             seed: self.spec.montecarlo.seed,
             boards_shortened_for_opamps: self.trials_shortened_for(active),
         };

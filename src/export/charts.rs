@@ -39,6 +39,29 @@ fn mask_boxes(d: &Documents) -> Vec<MaskBox> {
         .collect()
 }
 
+/// The spread a `[delay]` table allows, drawn over each of its bands as a
+/// window of that height centred on the active on parts build's delay
+/// (its trace fits the window exactly when it keeps the spread), ms.
+fn delay_window(d: &Documents) -> Vec<MaskBox> {
+    let Some(figures) = &d.analyses.delay else {
+        return Vec::new();
+    };
+    let v = &figures.active_on_parts;
+    let centre_ms = (v.longest_s + v.shortest_s) / 2.0 * 1e3;
+    let half_ms = v.max_spread_s / 2.0 * 1e3;
+    figures
+        .limit
+        .bands_hz
+        .iter()
+        .map(|&[a, b]| MaskBox {
+            from_hz: a.max(b * crate::analysis::DC_FRACTION),
+            to_hz: b,
+            min_db: Some(centre_ms - half_ms),
+            max_db: Some(centre_ms + half_ms),
+        })
+        .collect()
+}
+
 /// The y range of the delay chart: the passive ideal's delay with a
 /// quarter of its span to spare on either side (`None`, the data's own
 /// span, for a flat or empty trace).
@@ -137,15 +160,37 @@ pub fn design_charts(d: &Documents) -> Vec<NamedChart> {
         },
         NamedChart {
             stem: "delay",
-            caption: "Group delay of the three builds (exact, not a difference of phases)",
-            chart: Chart {
-                traces: three(&delay_ms),
-                // Scaled to the passive ideal's delay: near a notch of
-                // the active builds, whose zeros sit a hair off the axis,
-                // the delay spikes by orders of magnitude (real, and
-                // clipped at the frame) and would flatten the passband.
-                y_range: delay_range(&delay_ms(&t.passive_ideal)),
-                ..base("Group delay", "delay (ms)")
+            caption: match d.analyses.delay {
+                None => "Group delay of the three builds (exact, not a difference of phases)",
+                Some(_) => "Group delay of the three builds (exact, not a difference of phases), with the spread the specification allows centred on the active on parts build's delay",
+            },
+            chart: match delay_window(d)[..] {
+                // Without a delay specification: the whole view, scaled to
+                // the passive ideal's delay (near a notch of the active
+                // builds, whose zeros sit a hair off the axis, the delay
+                // spikes by orders of magnitude, real and clipped at the
+                // frame, and would flatten the passband).
+                [] => Chart {
+                    traces: three(&delay_ms),
+                    y_range: delay_range(&delay_ms(&t.passive_ideal)),
+                    ..base("Group delay", "delay (ms)")
+                },
+                // With one: its bands, at the scale of the allowed spread
+                // (a few microseconds of spread vanish on the scale of the
+                // whole delay curve).
+                ref window => Chart {
+                    traces: three(&delay_ms),
+                    mask: window.to_vec(),
+                    x_range: Some(window.iter().fold((f64::INFINITY, 0.0), |(lo, hi), w| {
+                        (w.from_hz.min(lo), w.to_hz.max(hi))
+                    })),
+                    y_range: window.first().and_then(|w| {
+                        let (lo, hi) = (w.min_db?, w.max_db?);
+                        let spread = hi - lo;
+                        Some((lo - 1.5 * spread, hi + 1.5 * spread))
+                    }),
+                    ..base("Group delay over the delay specification's bands", "delay (ms)")
+                },
             },
         },
         NamedChart {

@@ -26,12 +26,22 @@ pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> Strin
     let mut summary = vec![
         (
             "verdict".to_string(),
-            verdict_line(Build::ActiveOnParts, &a.active_on_parts_verdict, level),
+            verdict_line(
+                Build::ActiveOnParts,
+                &a.active_on_parts_verdict,
+                a.delay.as_ref().map(|d| &d.active_on_parts),
+                level,
+            ),
         ),
         ("yield".to_string(), yield_line(d)),
         (
             "active exact".to_string(),
-            verdict_line(Build::ActiveExact, &a.active_exact_verdict, level),
+            verdict_line(
+                Build::ActiveExact,
+                &a.active_exact_verdict,
+                a.delay.as_ref().map(|d| &d.active_exact),
+                level,
+            ),
         ),
         ("design file".to_string(), r.design_file.clone()),
         (

@@ -368,15 +368,21 @@ impl Display for OrderChoice {
             OrderChoice::Table => f.write_str("from the table"),
             OrderChoice::Computed {
                 minimum,
-                raised_for_form: false,
-            } => write!(f, "the minimum for the mask, {minimum}"),
-            OrderChoice::Computed {
-                minimum,
-                raised_for_form: true,
-            } => write!(
-                f,
-                "raised from the minimum {minimum}: the even-order form the terminations need missed the mask"
-            ),
+                raised_for_form,
+                raised_for_delay,
+            } => {
+                match raised_for_form {
+                    false => write!(f, "the minimum for the mask, {minimum}")?,
+                    true => write!(
+                        f,
+                        "raised from the minimum {minimum}: the even-order form the terminations need missed the mask"
+                    )?,
+                }
+                match raised_for_delay {
+                    0 => Ok(()),
+                    n => write!(f, "; raised by {n} more to keep the group delay spread"),
+                }
+            }
         }
     }
 }

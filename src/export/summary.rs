@@ -4,7 +4,7 @@
 
 use super::eng::format_trimmed as eng;
 use super::prose::{db, edge_loss_name, level_warnings, opamp_model, percent, scale_words};
-use crate::analysis::{MaskVerdict, EDGE_WINDOW};
+use crate::analysis::{DelayVerdict, MaskVerdict, EDGE_WINDOW};
 use crate::design::{Build, BuildFigures, Documents, Report};
 use std::fmt::Write as _;
 
@@ -20,30 +20,55 @@ pub fn edges(hz: &[f64]) -> String {
 /// terms: the loss in the passband or the attenuation in the stopband,
 /// both measured from the passband level `level_db` (the terminations'
 /// divider), against what the specification allows or asks.
-pub fn verdict_line(build: Build, v: &MaskVerdict, level_db: f64) -> String {
+pub fn verdict_line(
+    build: Build,
+    v: &MaskVerdict,
+    delay: Option<&DelayVerdict>,
+    level_db: f64,
+) -> String {
     let (what, limit) = if v.lower_bound {
         ("passband loss", "allowed")
     } else {
         ("attenuation", "asked")
     };
     let (got, limit_db) = (level_db - v.gain_db, level_db - v.limit_db);
-    if v.meets {
-        format!(
-            "{build}: meets the specification with {} dB to spare (closest at {}: {what} {} dB, {} dB {limit})",
+    let delay_words = delay
+        .map(|d| format!("; {}", spread_words(d)))
+        .unwrap_or_default();
+    match (v.meets, delay) {
+        (true, Some(d)) if !d.meets => format!(
+            "{build}: FAILS the specification on group delay: {} (the gain meets it with {} dB to spare)",
+            spread_words(d),
+            db(v.margin_db)
+        ),
+        (true, _) => format!(
+            "{build}: meets the specification with {} dB to spare (closest at {}: {what} {} dB, {} dB {limit}){delay_words}",
             db(v.margin_db),
             eng(v.at_hz, "Hz"),
             db(got),
             db(limit_db)
-        )
-    } else {
-        format!(
-            "{build}: FAILS the specification by {} dB at {} ({what} {} dB, {} dB {limit})",
+        ),
+        (false, _) => format!(
+            "{build}: FAILS the specification by {} dB at {} ({what} {} dB, {} dB {limit}){delay_words}",
             db(-v.margin_db),
             eng(v.at_hz, "Hz"),
             db(got),
             db(limit_db)
-        )
+        ),
     }
+}
+
+/// A build's group-delay spread against its bound, in words.
+pub fn spread_words(d: &DelayVerdict) -> String {
+    format!(
+        "group delay spread {} ({} allowed; longest {} at {}, shortest {} at {})",
+        eng(d.spread_s, "s"),
+        eng(d.max_spread_s, "s"),
+        eng(d.longest_s, "s"),
+        eng(d.longest_at_hz, "Hz"),
+        eng(d.shortest_s, "s"),
+        eng(d.shortest_at_hz, "Hz")
+    )
 }
 
 /// The yield line of the summary and the report.
@@ -251,17 +276,43 @@ pub fn summary(d: &Documents) -> String {
     let a = &d.analyses;
     let mut s = String::new();
     let level = r.passband_level_db;
+    let delay = a.delay.as_ref();
     let _ = writeln!(
         s,
         "{}",
-        verdict_line(Build::ActiveOnParts, &a.active_on_parts_verdict, level)
+        verdict_line(
+            Build::ActiveOnParts,
+            &a.active_on_parts_verdict,
+            delay.map(|d| &d.active_on_parts),
+            level
+        )
     );
     let _ = writeln!(s, "{}", yield_line(d));
     let _ = writeln!(
         s,
         "{}",
-        verdict_line(Build::ActiveExact, &a.active_exact_verdict, level)
+        verdict_line(
+            Build::ActiveExact,
+            &a.active_exact_verdict,
+            delay.map(|d| &d.active_exact),
+            level
+        )
     );
+    if let Some(d) = delay {
+        let _ = writeln!(
+            s,
+            "{}: {}",
+            Build::PassiveIdeal,
+            spread_words(&d.passive_ideal)
+        );
+        let bands: Vec<String> = d
+            .limit
+            .bands_hz
+            .iter()
+            .map(|&[a, b]| format!("{} to {}", eng(a, "Hz"), eng(b, "Hz")))
+            .collect();
+        let _ = writeln!(s, "  group delay judged over {}", bands.join(" and "));
+    }
     passive(&mut s, r);
     let Some(act) = &r.active else {
         return s;

@@ -87,16 +87,26 @@ pub fn yield_summary(r: &MonteCarloResult, seed: u64, shortened_for: Option<usiz
         let _ = writeln!(s, "  {}", super::prose::shortened_default(trials, opamps));
     }
     for t in &r.worst {
+        let spread = t
+            .delay_spread_s
+            .map(|d| {
+                format!(
+                    ", group delay spread {}",
+                    super::eng::format_trimmed(d, "s")
+                )
+            })
+            .unwrap_or_default();
         let _ = writeln!(
             s,
-            "  trial {:>7}: margin {} dB to the specification, largest deviation from the nominal build {} dB{}",
+            "  trial {:>7}: margin {} dB to the specification, largest deviation from the nominal build {} dB{spread}{}",
             t.trial,
             db(t.margin_db),
             db(t.max_deviation_db),
-            match (t.passed, t.stable) {
-                (true, _) => "",
-                (false, true) => "  FAILS",
-                (false, false) => "  FAILS: UNSTABLE",
+            match (t.passed, t.stable, t.delay_ok) {
+                (true, _, _) => "",
+                (false, false, _) => "  FAILS: UNSTABLE",
+                (false, true, false) => "  FAILS: group delay spread",
+                (false, true, true) => "  FAILS",
             }
         );
     }
@@ -106,10 +116,15 @@ pub fn yield_summary(r: &MonteCarloResult, seed: u64, shortened_for: Option<usiz
 /// "; 12 unstable, counted as failed" when some trials were unstable,
 /// else nothing.
 pub fn unstable_words(r: &MonteCarloResult) -> String {
-    match r.unstable {
+    let unstable = match r.unstable {
         0 => String::new(),
         n => format!("; {n} unstable, counted as failed"),
-    }
+    };
+    let delay = match r.delay_failed {
+        0 => String::new(),
+        n => format!("; {n} over the group delay spread allowed"),
+    };
+    unstable + &delay
 }
 
 /// The minimum orders of a mask, one family a line.

@@ -176,6 +176,28 @@ pub struct Spec {
     pub parts: PartsChoice,
     /// The Monte Carlo run.
     pub montecarlo: MonteCarloSpec,
+    /// A bound on the group-delay spread (the `[delay]` table), if any.
+    pub delay: Option<DelaySpec>,
+}
+
+/// The `[delay]` table: the group-delay spread the boards must keep.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct DelaySpec {
+    /// The bound.
+    pub bound: SpreadBound,
+    /// The bands it holds over, Hz; `None`: the passbands of the view.
+    pub bands_hz: Option<Vec<[f64; 2]>>,
+}
+
+/// A bound on the longest less the shortest group delay.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum SpreadBound {
+    /// `delay.max_spread_s`: seconds.
+    Seconds(f64),
+    /// `delay.max_spread_pct`: percent of the longest delay of the
+    /// passive ideal over the bands.
+    Percent(f64),
 }
 
 /// A problem with a design file.

@@ -2,8 +2,8 @@
 //! then the checks that turn them into a [`Spec`].
 
 use super::{
-    ActiveSpec, FrequencyScale, MonteCarloSpec, OpAmpSpec, PrototypeSource, Spec, SpecError,
-    MAX_TRIALS,
+    ActiveSpec, DelaySpec, FrequencyScale, MonteCarloSpec, OpAmpSpec, PrototypeSource, Spec,
+    SpecError, SpreadBound, MAX_TRIALS,
 };
 use crate::active::{Method, Refine};
 use crate::approx::{self, BesselScale, Family};
@@ -31,6 +31,17 @@ struct RawSpec {
     parts: RawParts,
     #[serde(default)]
     montecarlo: RawMonteCarlo,
+    delay: Option<RawDelay>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawDelay {
+    #[serde(default, deserialize_with = "number")]
+    max_spread_s: Option<f64>,
+    #[serde(default, deserialize_with = "number")]
+    max_spread_pct: Option<f64>,
+    band_hz: Option<toml::Value>,
 }
 
 #[derive(Deserialize, Default)]
@@ -255,6 +266,10 @@ pub(super) fn parse(file: &Path, text: &str) -> Result<Spec, SpecError> {
     let opamp = opamp(&c, &raw.opamp)?;
     let parts = parts(&c, &raw.parts)?;
     let montecarlo = montecarlo(&c, &raw.montecarlo)?;
+    let delay = match &raw.delay {
+        Some(d) => Some(delay(&c, d)?),
+        None => None,
+    };
     // The passband margin tightens the ripple limit; at or beyond the
     // ripple the limit would sit above the passband level, which no
     // board reaches.
@@ -290,7 +305,61 @@ pub(super) fn parse(file: &Path, text: &str) -> Result<Spec, SpecError> {
         opamp,
         parts,
         montecarlo,
+        delay,
     })
+}
+
+/// Most a spread may be of the longest delay, percent: beyond 100 % any
+/// response keeps it.
+const MAX_SPREAD_PCT: f64 = 100.0;
+
+/// The `[delay]` table: one bound, and the bands it holds over.
+fn delay(c: &Checker, raw: &RawDelay) -> Result<DelaySpec, SpecError> {
+    let bound = match (raw.max_spread_s, raw.max_spread_pct) {
+        (Some(s), None) => SpreadBound::Seconds(c.positive("delay.max_spread_s", s, "a spread in seconds")?),
+        (None, Some(p)) if p > 0.0 && p < MAX_SPREAD_PCT => SpreadBound::Percent(p),
+        (None, Some(p)) => {
+            return Err(c.invalid(
+                "delay.max_spread_pct",
+                p,
+                format!("expected a percentage of the longest delay above 0 and below {MAX_SPREAD_PCT}"),
+            ))
+        }
+        (Some(_), Some(_)) => {
+            return Err(c.invalid(
+                "delay.max_spread_pct",
+                "(given too)",
+                "expected one of delay.max_spread_s and delay.max_spread_pct",
+            ))
+        }
+        (None, None) => {
+            return Err(c.invalid(
+                "delay.max_spread_s",
+                "(missing)",
+                "expected delay.max_spread_s (seconds) or delay.max_spread_pct (percent of the longest delay)",
+            ))
+        }
+    };
+    let bands_hz = match &raw.band_hz {
+        None => None,
+        Some(v) => {
+            let edges = c.edges("delay.band_hz", v)?;
+            let band = match edges[..] {
+                [to] => [0.0, to],
+                [from, to] => [from, to],
+                _ => [f64::NAN; 2],
+            };
+            if !(band[0] >= 0.0 && band[0] < band[1] && band[1].is_finite()) {
+                return Err(c.invalid(
+                    "delay.band_hz",
+                    v,
+                    "expected the top of a band from DC in Hz, or [low, high] with 0 <= low < high",
+                ));
+            }
+            Some(vec![band])
+        }
+    };
+    Ok(DelaySpec { bound, bands_hz })
 }
 
 /// DC delays a design file may give, seconds: a picosecond to a day

@@ -386,6 +386,33 @@ impl Band {
         }
     }
 
+    /// |dW/dw| of the substitution that [`Band::normalized`] inverts,
+    /// seconds (normalized rad/s per real rad/s): a prototype's group
+    /// delay at `normalized(f)` times this is the real filter's at `f`
+    /// (the chain rule; for highpass and bandstop the conjugation the
+    /// substitution brings cancels the sign).
+    pub fn delay_factor_s(&self, f_hz: f64) -> f64 {
+        let per_hz = match *self {
+            Band::Lowpass {
+                passband_edge_hz: fp,
+                ..
+            } => 1.0 / fp,
+            Band::Highpass {
+                passband_edge_hz: fp,
+                ..
+            } => fp / (f_hz * f_hz),
+            Band::Bandpass {
+                passband_edge_hz: [f1, f2],
+                ..
+            } => (f_hz * f_hz + f1 * f2) / ((f2 - f1) * f_hz * f_hz),
+            Band::Bandstop {
+                passband_edge_hz: [f1, f2],
+                ..
+            } => (f2 - f1) * (f1 * f2 + f_hz * f_hz) / (f1 * f2 - f_hz * f_hz).powi(2),
+        };
+        per_hz / std::f64::consts::TAU
+    }
+
     /// The normalized lowpass stopband edge the mask asks for (rad/s): the
     /// nearer of the two transformed edges for band kinds; `None` without
     /// a stopband.
