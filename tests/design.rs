@@ -128,9 +128,13 @@ fn prototype_tables_are_reproduced() {
             ArmValues::ShuntC(_) | ArmValues::ShuntResonator(..) => "min_inductor",
             ArmValues::SeriesL(_) | ArmValues::SeriesTank(..) => "min_capacitor",
         };
+        let attenuation = table
+            .stopband_attenuation_db
+            .map(|a| format!("stopband_attenuation_db = {a:?}\n"))
+            .unwrap_or_default();
         let text = format!(
-            "[filter]\nkind = \"lowpass\"\nfamily = \"{}\"\norder = {}\npassband_edge_hz = {:?}\npassband_ripple_db = {:?}\nform = \"{form}\"\n[terminations]\nsource_ohm = 1.0\nload_ohm = {:?}\n",
-            format!("{family:?}").to_lowercase(),
+            "[filter]\nkind = \"lowpass\"\nfamily = \"{}\"\norder = {}\npassband_edge_hz = {:?}\npassband_ripple_db = {:?}\n{attenuation}form = \"{form}\"\n[terminations]\nsource_ohm = 1.0\nload_ohm = {:?}\n",
+            nocoil::spec::as_written(&family),
             table.order,
             1.0 / (2.0 * std::f64::consts::PI),
             table.passband_ripple_db,
@@ -138,14 +142,14 @@ fn prototype_tables_are_reproduced() {
         );
         let d = design(&Spec::from_toml(&path, &text).unwrap()).unwrap();
         let got: Vec<f64> = d.ladder.elements.iter().map(|e| e.value).collect();
+        // A resonator arm's inductor comes first in the ladder, as in the
+        // table's [l, c].
         let want: Vec<f64> = table
             .arms
             .iter()
-            .map(|a| match *a {
-                ArmValues::SeriesL(v) | ArmValues::ShuntC(v) => v,
-                ArmValues::SeriesTank(..) | ArmValues::ShuntResonator(..) => {
-                    panic!("no resonator tables shipped yet")
-                }
+            .flat_map(|a| match *a {
+                ArmValues::SeriesL(v) | ArmValues::ShuntC(v) => vec![v],
+                ArmValues::SeriesTank(l, c) | ArmValues::ShuntResonator(l, c) => vec![l, c],
             })
             .collect();
         assert_eq!(got.len(), want.len(), "{}", path.display());
@@ -158,16 +162,24 @@ fn prototype_tables_are_reproduced() {
             );
         }
         // The arms alternate as the table writes them.
-        for (e, a) in d.ladder.elements.iter().zip(&table.arms) {
-            let expected = match a {
-                ArmValues::SeriesL(_) => (Arm::Series, Reactance::Inductor),
-                _ => (Arm::Shunt, Reactance::Capacitor),
-            };
+        let expected = table.arms.iter().flat_map(|a| match a {
+            ArmValues::SeriesL(_) => vec![(Arm::Series, Reactance::Inductor)],
+            ArmValues::ShuntC(_) => vec![(Arm::Shunt, Reactance::Capacitor)],
+            ArmValues::SeriesTank(..) => vec![
+                (Arm::Series, Reactance::Inductor),
+                (Arm::Series, Reactance::Capacitor),
+            ],
+            ArmValues::ShuntResonator(..) => vec![
+                (Arm::Shunt, Reactance::Inductor),
+                (Arm::Shunt, Reactance::Capacitor),
+            ],
+        });
+        for (e, expected) in d.ladder.elements.iter().zip(expected) {
             assert_eq!((e.arm, e.kind), expected, "{}", path.display());
         }
         checked += 1;
     }
-    assert!(checked >= 4, "expected the shipped tables, found {checked}");
+    assert!(checked >= 9, "expected the shipped tables, found {checked}");
 }
 
 /// A design file that names a table gives the table's ladder.
