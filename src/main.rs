@@ -119,7 +119,7 @@ enum Command {
         #[arg(long, value_name = "HZ[,HZ]", value_delimiter = ',', required = true)]
         stopband: Vec<f64>,
         /// Largest loss allowed across the passband, dB (the ripple; for
-        /// Butterworth the loss at the passband edge).
+        /// the monotonic families the loss at the passband edge).
         #[arg(long, value_name = "DB")]
         ripple: f64,
         /// Minimum stopband attenuation, dB.

@@ -482,6 +482,7 @@ fn new_family_ladders_realize_their_prototypes() {
     ];
     for (family, as_, highest) in cases {
         let ap = 1.0;
+        let mut worst: f64 = 0.0;
         for order in 1..=highest {
             for (r, form) in [
                 (1.0, Form::MinCapacitor),
@@ -492,9 +493,13 @@ fn new_family_ladders_realize_their_prototypes() {
                 let eps = (10f64.powf(ap / 10.0) - 1.0).sqrt();
                 let variant = variant_for(family, order, eps, r);
                 let proto = prototype(family, order, ap, as_, variant);
-                crate::synth::checked_prototype_ladder(&proto, r, form);
+                let ladder = crate::synth::checked_prototype_ladder(&proto, r, form);
+                worst = worst.max(crate::synth::response_error_db(&ladder, |s| {
+                    proto.zpk.eval(s)
+                }));
             }
         }
+        eprintln!("{family} ladders to order {highest} (floor {as_} dB): worst response error {worst:.2e} dB");
     }
 }
 

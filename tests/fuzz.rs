@@ -180,11 +180,28 @@ impl Gen {
             s += "prototype = \"TABLE\"\n";
             table = Some(self.table());
         } else if !self.chance(3) {
-            let family = self.pick(&["butterworth", "chebyshev", "elliptic", "bessel"]);
+            let family = self.pick(&[
+                "butterworth",
+                "chebyshev",
+                "elliptic",
+                "bessel",
+                "inverse_chebyshev",
+                "legendre",
+            ]);
             s += &format!("family = \"{family}\"\n");
         }
         let f = 10f64.powf(self.below(7) as f64 - 1.0);
-        s += &format!("passband_edge_hz = {}\n", self.edge(band, f, 1.5));
+        // Now and then a Bessel lowpass's other frequency scales, alone or
+        // beside the edge (refused by key there).
+        if self.chance(6) {
+            s += &format!("dc_delay_s = {}\n", self.number((1e-6, 1e-1)));
+        }
+        if self.chance(6) {
+            s += &format!("asymptote_hz = {}\n", self.number((1.0, 1e6)));
+        }
+        if !self.chance(6) {
+            s += &format!("passband_edge_hz = {}\n", self.edge(band, f, 1.5));
+        }
         let given_order = self.chance(50);
         if given_order {
             // Orders to 12 (a 24th-order band filter); in every test run
@@ -272,6 +289,14 @@ impl Gen {
         self.maybe_key(&mut s, 20, "stopband_margin_db", (0.1, 10.0));
         if self.chance(5) {
             s += "colour = \"blue\"\n";
+        }
+        if self.chance(12) {
+            s += "\n[delay]\n";
+            self.maybe_key(&mut s, 60, "max_spread_s", (1e-9, 1e-2));
+            self.maybe_key(&mut s, 50, "max_spread_pct", (0.01, 50.0));
+            if self.chance(50) {
+                s += &format!("band_hz = {}\n", self.edge(band, f * 0.5, 2.0));
+            }
         }
         (s, table)
     }

@@ -234,7 +234,7 @@ fn assert_structure(ladder: &Ladder, form: Form, resonators: usize) {
 /// Largest |dB difference| between the ladder's transfer and flat_gain * H
 /// on a grid dense in the passband and log-spaced beyond, skipping points
 /// below [`RESPONSE_FLOOR_DB`].
-fn response_error_db(ladder: &Ladder, h: impl Fn(Complex64) -> Complex64) -> f64 {
+pub(crate) fn response_error_db(ladder: &Ladder, h: impl Fn(Complex64) -> Complex64) -> f64 {
     let passband = (0..=400).map(|i| 1.2 * i as f64 / 400.0);
     let stopband = (1..=300).map(|i| 1.2 * 10f64.powf(2.0 * i as f64 / 300.0));
     passband

@@ -137,14 +137,14 @@ pub fn order_text(t: &OrderTable) -> String {
         // The design-file spelling, to copy into `filter.family`.
         let name = crate::spec::as_written(&row.family);
         let _ = match &row.order {
-            Ok(n) if *n <= row.synthesis_max_order => writeln!(s, "  {name:<12} {n}"),
+            Ok(n) if *n <= row.synthesis_max_order => writeln!(s, "  {name:<NAME_WIDTH$} {n}"),
             // Beyond the synthesis (or the approximation) the order the
             // mask needs is still worth knowing.
             Ok(n) => too_high(&mut s, &name, *n as f64, row.synthesis_max_order),
             Err(ApproxError::OrderTooHigh { needed, .. }) => {
                 too_high(&mut s, &name, needed.ceil(), row.synthesis_max_order)
             }
-            Err(e) => writeln!(s, "  {name:<12} none: {e}"),
+            Err(e) => writeln!(s, "  {name:<NAME_WIDTH$} none: {e}"),
         };
     }
     s
@@ -155,6 +155,10 @@ pub fn order_text(t: &OrderTable) -> String {
 fn too_high(s: &mut String, name: &str, needed: f64, max: usize) -> std::fmt::Result {
     writeln!(
         s,
-        "  {name:<12} {needed} (above {max}, the highest order its ladder synthesis holds: move the stopband edge away from the passband, or lower the attenuation)"
+        "  {name:<NAME_WIDTH$} {needed} (above {max}, the highest order its ladder synthesis holds: move the stopband edge away from the passband, or lower the attenuation)"
     )
 }
+
+/// The width of the family column: the longest design-file name,
+/// "inverse_chebyshev", and a space.
+const NAME_WIDTH: usize = 18;
