@@ -149,8 +149,10 @@ pub fn bessel_edge_ratio(
 pub enum Variant {
     /// The classical form (scipy's for every order).
     Standard,
-    /// Even elliptic: the highest transmission zero moved to infinity
-    /// (Saal's type B). DC keeps the ripple loss: unequal terminations.
+    /// Even elliptic or inverse Chebyshev: the highest transmission zero
+    /// moved to infinity (Saal's type B), so that a ladder realizes it.
+    /// The elliptic keeps its ripple loss at DC (unequal terminations);
+    /// the inverse Chebyshev has none (any terminations).
     ZeroAtInfinity,
     /// Even Chebyshev or elliptic: additionally the lowest reflection zero
     /// moved to DC (Saal's type C), so equal terminations work.
@@ -163,7 +165,7 @@ impl std::fmt::Display for Variant {
         f.write_str(match self {
             Variant::Standard => "standard form",
             Variant::ZeroAtInfinity => {
-                "modified even-order form: highest transmission zero moved to infinity (unequal terminations)"
+                "modified even-order form: highest transmission zero moved to infinity, which a ladder needs"
             }
             Variant::ReflectionAtDc => {
                 "modified even-order form: lowest reflection zero moved to DC, so the terminations may be equal"
