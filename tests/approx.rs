@@ -149,7 +149,7 @@ fn fixtures() -> &'static Fixtures {
 
 // ---------------------------------------------------------------- helpers
 
-fn complex(pairs: &[[f64; 2]]) -> Vec<Complex64> {
+pub(crate) fn complex(pairs: &[[f64; 2]]) -> Vec<Complex64> {
     pairs
         .iter()
         .map(|&[re, im]| Complex64::new(re, im))
@@ -158,7 +158,7 @@ fn complex(pairs: &[[f64; 2]]) -> Vec<Complex64> {
 
 /// Largest |got - want| / |want| after pairing each wanted point with its
 /// nearest unused got point; infinite when the counts differ.
-fn set_mismatch(got: &[Complex64], want: &[Complex64]) -> f64 {
+pub(crate) fn set_mismatch(got: &[Complex64], want: &[Complex64]) -> f64 {
     if got.len() != want.len() {
         return f64::INFINITY;
     }

@@ -70,35 +70,7 @@ fn fixtures() -> &'static Fixtures {
 
 // -------------------------------------------------------------- helpers
 
-fn complex(pairs: &[[f64; 2]]) -> Vec<Complex64> {
-    pairs
-        .iter()
-        .map(|&[re, im]| Complex64::new(re, im))
-        .collect()
-}
-
-/// Largest |got - want| / |want| after pairing each wanted point with its
-/// nearest unused got point; infinite when the counts differ.
-fn set_mismatch(got: &[Complex64], want: &[Complex64]) -> f64 {
-    if got.len() != want.len() {
-        return f64::INFINITY;
-    }
-    let mut unused = got.to_vec();
-    want.iter().fold(0.0, |worst: f64, w| {
-        let (i, d) = unused.iter().map(|g| (g - w).norm()).enumerate().fold(
-            (0, f64::INFINITY),
-            |best, (i, d)| {
-                if d < best.1 {
-                    (i, d)
-                } else {
-                    best
-                }
-            },
-        );
-        unused.swap_remove(i);
-        worst.max(d / w.norm())
-    })
-}
+use crate::approx::{complex, set_mismatch};
 
 fn prototype(family: Family, order: usize, ap: f64, as_: f64, variant: Variant) -> Prototype {
     let p = Params {
