@@ -463,17 +463,7 @@ fn choose_prototype(
     attenuation_db: f64,
     ratio: f64,
 ) -> Result<(Prototype, OrderChoice), ApproxError> {
-    let build = |n: usize| {
-        let eps = (ripple_db * std::f64::consts::LN_10 / 10.0).exp_m1().sqrt();
-        let variant = synth::variant_for(family, n, eps, ratio);
-        Prototype::new(Params {
-            family,
-            order: n,
-            passband_ripple_db: ripple_db,
-            stopband_attenuation_db: attenuation_db,
-            variant,
-        })
-    };
+    let build = |n: usize| prototype_at(family, n, ripple_db, attenuation_db, ratio);
     let ws = match ask {
         OrderAsk::Given(n) => return Ok((build(n)?, OrderChoice::Given)),
         OrderAsk::ForMask(ws) => ws,
@@ -494,6 +484,25 @@ fn choose_prototype(
             raised_for_delay: 0,
         },
     ))
+}
+
+/// The prototype of order `n` in the even-order variant the termination
+/// ratio can realize.
+fn prototype_at(
+    family: Family,
+    n: usize,
+    ripple_db: f64,
+    attenuation_db: f64,
+    ratio: f64,
+) -> Result<Prototype, ApproxError> {
+    let eps = (ripple_db * std::f64::consts::LN_10 / 10.0).exp_m1().sqrt();
+    Prototype::new(Params {
+        family,
+        order: n,
+        passband_ripple_db: ripple_db,
+        stopband_attenuation_db: attenuation_db,
+        variant: synth::variant_for(family, n, eps, ratio),
+    })
 }
 
 /// The bands a `[delay]` specification holds over: its own, or the
@@ -550,14 +559,14 @@ fn raise_for_delay(
         let candidate = if order == proto.params.order {
             proto.clone()
         } else {
-            let eps = (proto.params.passband_ripple_db * std::f64::consts::LN_10 / 10.0)
-                .exp_m1()
-                .sqrt();
-            Prototype::new(Params {
+            let p = &proto.params;
+            prototype_at(
+                family,
                 order,
-                variant: synth::variant_for(family, order, eps, ratio),
-                ..proto.params
-            })
+                p.passband_ripple_db,
+                p.stopband_attenuation_db,
+                ratio,
+            )
             .map_err(|cause| DesignError::Approx {
                 file: spec.file.clone(),
                 cause,
