@@ -521,7 +521,13 @@ fn run(request: Request) -> anyhow::Result<()> {
                 )?,
                 None => String::new(),
             };
-            emit(&tables::yield_summary(&result, seed, shortened_for))?;
+            let level_db = d.report().passband_level_db;
+            emit(&tables::yield_summary(
+                &result,
+                seed,
+                shortened_for,
+                level_db,
+            ))?;
             emit(&written)
         }
         Request::Table { spec, table } => {

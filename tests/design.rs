@@ -503,3 +503,50 @@ fn highpass_passband_is_checked_to_the_top_of_the_opamp_range() {
         top.deviation_db
     );
 }
+
+/// Each Monte Carlo trial names the limit it came closest to (or broke)
+/// and where: with no tolerance every board is the nominal one, so each
+/// trial's limit, frequency, gain and margin are the nominal build's
+/// verdict, computed by the mask on its own; and `nocoil montecarlo`
+/// prints them in the verdict's words.
+#[test]
+fn monte_carlo_trials_name_the_limit_and_where() {
+    let text = "[filter]\nkind = \"bandpass\"\nfamily = \"chebyshev\"\norder = 3\npassband_edge_hz = [800.0, 1250.0]\n\
+                stopband_edge_hz = [400.0, 2500.0]\npassband_ripple_db = 0.5\nstopband_attenuation_db = 30.0\n\
+                [terminations]\nsource_ohm = 2000\nload_ohm = 2000\n\
+                [parts]\nresistor_tolerance = 0\ncapacitor_tolerance = 0\n[montecarlo]\ngbw_spread = 0\n";
+    let d = design(&Spec::from_toml(Path::new("closest.toml"), text).unwrap()).unwrap();
+    let active = d.active().unwrap();
+    let nominal = d.verdict(&active.on_parts.netlist).unwrap();
+    let mc = d.monte_carlo(&active.on_parts.netlist, 8, 1, None).unwrap();
+    assert_eq!(mc.worst.len(), 5);
+    for t in &mc.worst {
+        assert_eq!(
+            (t.margin_db, t.at_hz, t.gain_db, t.limit_db, t.lower_bound),
+            (
+                nominal.margin_db,
+                nominal.at_hz,
+                nominal.gain_db,
+                nominal.limit_db,
+                nominal.lower_bound
+            ),
+            "trial {}",
+            t.trial
+        );
+    }
+    let dir = crate::util::scratch("design-mc-closest");
+    let spec = crate::util::spec_in(&dir, text);
+    let out = crate::util::nocoil(&["montecarlo", spec.to_str().unwrap(), "--trials", "8"]);
+    let printed = String::from_utf8_lossy(&out.stdout);
+    let words = nocoil::export::prose::bound_words(
+        nominal.gain_db,
+        nominal.limit_db,
+        nominal.lower_bound,
+        d.report().passband_level_db,
+    );
+    let at = nocoil::export::eng::format_trimmed(nominal.at_hz, "Hz");
+    assert!(
+        printed.contains(&format!("to the specification at {at} ({words})")),
+        "{printed}"
+    );
+}

@@ -131,36 +131,61 @@ impl Mask {
     /// How the response `db` at `freqs_hz` stands against the mask.
     pub fn verdict(&self, freqs_hz: &[f64], db: &[f64]) -> Result<MaskVerdict, AnalysisError> {
         let checks = self.checks(freqs_hz)?;
-        let mut best: Option<MaskVerdict> = None;
-        for c in &checks {
-            let g = db[c.point];
-            for (limit_db, distance, lower_bound) in [
-                (c.min_db, g - c.min_db, true),
-                (c.max_db, c.max_db - g, false),
-            ] {
-                if limit_db.is_finite() && best.is_none_or(|b| distance < b.margin_db) {
-                    best = Some(MaskVerdict {
-                        meets: distance >= 0.0,
-                        margin_db: distance,
-                        at_hz: freqs_hz[c.point],
-                        gain_db: g,
-                        limit_db,
-                        lower_bound,
-                    });
-                }
-            }
-        }
         // `checks` holds at least one check per limit, and every limit has
-        // a finite bound (Mask::new), so `best` is set.
-        best.ok_or(AnalysisError::EmptyMask)
+        // a finite bound (Mask::new), so there is a closest bound.
+        closest(&checks, db)
+            .map(|c| c.verdict(freqs_hz, db))
+            .ok_or(AnalysisError::EmptyMask)
     }
 }
 
-/// The smallest distance, in dB, from a response to the bounds it must
-/// keep: negative when some bound is broken.
-pub(crate) fn margin_db(checks: &[Check], db: &[f64]) -> f64 {
-    checks
-        .iter()
-        .map(|c| (db[c.point] - c.min_db).min(c.max_db - db[c.point]))
-        .fold(f64::INFINITY, f64::min)
+/// The bound a response comes closest to (or breaks by most).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(crate) struct Closest {
+    /// The distance, dB (negative: broken by that much).
+    pub margin_db: f64,
+    /// Index into the analysis frequencies.
+    pub point: usize,
+    /// The bound, dB.
+    pub limit_db: f64,
+    /// Whether it is a lower bound.
+    pub lower_bound: bool,
+}
+
+impl Closest {
+    /// As a verdict on the grid `freqs_hz` with the response `db`.
+    pub(crate) fn verdict(self, freqs_hz: &[f64], db: &[f64]) -> MaskVerdict {
+        MaskVerdict {
+            meets: self.margin_db >= 0.0,
+            margin_db: self.margin_db,
+            at_hz: freqs_hz[self.point],
+            gain_db: db[self.point],
+            limit_db: self.limit_db,
+            lower_bound: self.lower_bound,
+        }
+    }
+}
+
+/// The bound of `checks` closest to the response `db` (the first of
+/// equals, a lower bound before an upper one at a point), `None` when no
+/// check has a finite bound.
+pub(crate) fn closest(checks: &[Check], db: &[f64]) -> Option<Closest> {
+    let mut best: Option<Closest> = None;
+    for c in checks {
+        let g = db[c.point];
+        for (limit_db, distance, lower_bound) in [
+            (c.min_db, g - c.min_db, true),
+            (c.max_db, c.max_db - g, false),
+        ] {
+            if limit_db.is_finite() && best.is_none_or(|b| distance < b.margin_db) {
+                best = Some(Closest {
+                    margin_db: distance,
+                    point: c.point,
+                    limit_db,
+                    lower_bound,
+                });
+            }
+        }
+    }
+    best
 }

@@ -38,7 +38,7 @@ use rand_chacha::rand_core::SeedableRng;
 use rand_chacha::ChaCha8Rng;
 use rayon::prelude::*;
 
-use super::mask::{margin_db, Check, Mask};
+use super::mask::{closest, Check, Closest, Mask};
 use super::spread::DelayLimit;
 use super::{AnalysisError, Parameter};
 use crate::circuit::{AcSystem, CircuitError, Element, ElementKind, Netlist, OpAmpModel, SparseAc};
@@ -154,6 +154,15 @@ pub struct TrialSummary {
     /// The smallest distance to a limit, dB (negative: broken by that
     /// much).
     pub margin_db: f64,
+    /// Where that limit is closest, Hz.
+    pub at_hz: f64,
+    /// The trial's gain there, dB.
+    pub gain_db: f64,
+    /// The limit, dB.
+    pub limit_db: f64,
+    /// Whether the limit is a lower one (a passband limit) rather than an
+    /// upper one (a stopband limit).
+    pub lower_bound: bool,
     /// The largest |dB - nominal dB| over the frequencies.
     pub max_deviation_db: f64,
     /// The group-delay spread, seconds, when the run has a delay limit.
@@ -356,7 +365,15 @@ impl Run<'_> {
         for (slot, &h) in row.iter_mut().zip(&worker.h) {
             *slot = db(h);
         }
-        let margin_db = margin_db(self.checks, row);
+        // Every limit has a finite bound (Mask::new), so one is closest;
+        // without any, nothing could fail.
+        let near = closest(self.checks, row).unwrap_or(Closest {
+            margin_db: f64::INFINITY,
+            point: 0,
+            limit_db: f64::INFINITY,
+            lower_bound: false,
+        });
+        let margin_db = near.margin_db;
         let delay_spread_s = match self.setup.delay {
             Some(_) => Some(worker.delay_spread(self.setup, self.delay_grid)?),
             None => None,
@@ -379,6 +396,10 @@ impl Run<'_> {
             passed: margin_db >= 0.0 && stable && delay_ok,
             stable,
             margin_db,
+            at_hz: self.setup.freqs_hz[near.point],
+            gain_db: row[near.point],
+            limit_db: near.limit_db,
+            lower_bound: near.lower_bound,
             max_deviation_db,
             delay_spread_s,
             delay_ok,
@@ -983,6 +1004,10 @@ mod tests {
                     passed: margin_db >= 0.0,
                     stable: true,
                     margin_db,
+                    at_hz: 1.0,
+                    gain_db: 0.0,
+                    limit_db: 0.0,
+                    lower_bound: true,
                     max_deviation_db: 0.0,
                     delay_spread_s: None,
                     delay_ok: true,

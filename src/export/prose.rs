@@ -543,6 +543,23 @@ pub fn scale_words(scale: FrequencyScale) -> String {
     }
 }
 
+/// A gain against the bound it is judged by, as the trade says it: a loss
+/// below the passband level against what is allowed ("passband loss
+/// 3.07 dB, 3.0103 dB allowed") or an attenuation against what is asked
+/// ("attenuation 47.5 dB, 50 dB asked").
+pub fn bound_words(gain_db: f64, limit_db: f64, lower_bound: bool, level_db: f64) -> String {
+    let (what, limit) = if lower_bound {
+        ("passband loss", "allowed")
+    } else {
+        ("attenuation", "asked")
+    };
+    format!(
+        "{what} {} dB, {} dB {limit}",
+        db(level_db - gain_db),
+        db(level_db - limit_db)
+    )
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -3,7 +3,9 @@
 //! builds, each figure labelled with the build it belongs to.
 
 use super::eng::format_trimmed as eng;
-use super::prose::{db, edge_loss_name, level_warnings, opamp_model, percent, scale_words};
+use super::prose::{
+    bound_words, db, edge_loss_name, level_warnings, opamp_model, percent, scale_words,
+};
 use crate::analysis::{DelayVerdict, MaskVerdict, EDGE_WINDOW};
 use crate::design::{Build, BuildFigures, Documents, Report};
 use std::fmt::Write as _;
@@ -26,12 +28,7 @@ pub fn verdict_line(
     delay: Option<&DelayVerdict>,
     level_db: f64,
 ) -> String {
-    let (what, limit) = if v.lower_bound {
-        ("passband loss", "allowed")
-    } else {
-        ("attenuation", "asked")
-    };
-    let (got, limit_db) = (level_db - v.gain_db, level_db - v.limit_db);
+    let bound = bound_words(v.gain_db, v.limit_db, v.lower_bound, level_db);
     let delay_words = delay
         .map(|d| format!("; {}", spread_words(d)))
         .unwrap_or_default();
@@ -42,18 +39,14 @@ pub fn verdict_line(
             db(v.margin_db)
         ),
         (true, _) => format!(
-            "{build}: meets the specification with {} dB to spare (closest at {}: {what} {} dB, {} dB {limit}){delay_words}",
+            "{build}: meets the specification with {} dB to spare (closest at {}: {bound}){delay_words}",
             db(v.margin_db),
             eng(v.at_hz, "Hz"),
-            db(got),
-            db(limit_db)
         ),
         (false, _) => format!(
-            "{build}: FAILS the specification by {} dB at {} ({what} {} dB, {} dB {limit}){delay_words}",
+            "{build}: FAILS the specification by {} dB at {} ({bound}){delay_words}",
             db(-v.margin_db),
             eng(v.at_hz, "Hz"),
-            db(got),
-            db(limit_db)
         ),
     }
 }

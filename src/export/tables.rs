@@ -71,10 +71,17 @@ pub fn envelope_csv(r: &MonteCarloResult) -> String {
     s
 }
 
-/// The run's account in words: yield and the worst trials;
-/// `shortened_for` is the build's op-amp count when the default count was
-/// shortened for it (see [`crate::design::default_trials`]).
-pub fn yield_summary(r: &MonteCarloResult, seed: u64, shortened_for: Option<usize>) -> String {
+/// The run's account in words: yield and the worst trials, each with the
+/// limit it came closest to (or broke) and where; `level_db` is the
+/// passband level the limits are read against; `shortened_for` is the
+/// build's op-amp count when the default count was shortened for it (see
+/// [`crate::design::default_trials`]).
+pub fn yield_summary(
+    r: &MonteCarloResult,
+    seed: u64,
+    shortened_for: Option<usize>,
+    level_db: f64,
+) -> String {
     let trials = r.trials;
     let mut s = format!(
         "Monte Carlo: {trials} trials, seed {seed}: yield {:.2} % ({} passed{}): boards of the {} build meeting the specification\n",
@@ -98,9 +105,11 @@ pub fn yield_summary(r: &MonteCarloResult, seed: u64, shortened_for: Option<usiz
             .unwrap_or_default();
         let _ = writeln!(
             s,
-            "  trial {:>7}: margin {} dB to the specification, largest deviation from the nominal build {} dB{spread}{}",
+            "  trial {:>7}: margin {} dB to the specification at {} ({}), largest deviation from the nominal build {} dB{spread}{}",
             t.trial,
             db(t.margin_db),
+            super::eng::format_trimmed(t.at_hz, "Hz"),
+            super::prose::bound_words(t.gain_db, t.limit_db, t.lower_bound, level_db),
             db(t.max_deviation_db),
             match (t.passed, t.stable, t.delay_ok) {
                 (true, _, _) => "",
