@@ -952,3 +952,41 @@ fn bessel_ladders_step_with_under_one_percent_overshoot() {
         );
     }
 }
+
+/// `nocoil order` says when the inverse Chebyshev's order has no ladder at
+/// the floor asked (order 5 at 20 dB) and not when it has (order 6 at
+/// 30 dB, within the measured limits above; the limits there are the
+/// highest order up to which every order has a ladder: above, the even
+/// orders' modified form may still have one where an odd order has none).
+#[test]
+fn the_order_table_says_when_an_inverse_chebyshev_has_no_ladder() {
+    for (stopband, ripple, attenuation, order, refused) in [
+        ("1300", "1", "20", "5", true),
+        ("1500", "0.5", "30", "6", false),
+    ] {
+        let out = crate::util::nocoil(&[
+            "order",
+            "--kind",
+            "lowpass",
+            "--passband",
+            "1000",
+            "--stopband",
+            stopband,
+            "--ripple",
+            ripple,
+            "--attenuation",
+            attenuation,
+        ]);
+        let printed = String::from_utf8_lossy(&out.stdout);
+        let row = printed
+            .lines()
+            .find(|l| l.trim_start().starts_with("inverse_chebyshev"))
+            .unwrap_or_default();
+        assert!(row.contains(&format!(" {order}")), "{printed}");
+        assert_eq!(
+            row.contains("no ladder of this order"),
+            refused,
+            "{printed}"
+        );
+    }
+}

@@ -14,6 +14,10 @@ pub struct OrderRow {
     /// The highest order its ladder synthesis holds
     /// ([`synth::max_order`]).
     pub synthesis_max_order: usize,
+    /// Whether that order has no ladder with positive elements between
+    /// equal terminations (the inverse Chebyshev's shallow floors; see
+    /// [`super::DesignError::NoLadder`]).
+    pub no_ladder: bool,
 }
 
 /// The minimum orders of every family for one mask.
@@ -34,11 +38,34 @@ pub fn order_table(band: &Band, ripple_db: f64, attenuation_db: f64) -> OrderTab
         normalized_stopband_rad_s: ws,
         rows: FAMILIES
             .iter()
-            .map(|&family| OrderRow {
-                family,
-                order: approx::min_order(family, ws, ripple_db, attenuation_db),
-                synthesis_max_order: synth::max_order(family),
+            .map(|&family| {
+                let order = approx::min_order(family, ws, ripple_db, attenuation_db);
+                let synthesis_max_order = synth::max_order(family);
+                let no_ladder = match order {
+                    Ok(n) if family.finite_zeros() && n <= synthesis_max_order => {
+                        has_no_ladder(family, n, ripple_db, attenuation_db)
+                    }
+                    _ => false,
+                };
+                OrderRow {
+                    family,
+                    order,
+                    synthesis_max_order,
+                    no_ladder,
+                }
             })
             .collect(),
     }
+}
+
+/// Whether the synthesis finds no order of zero removal with positive
+/// elements for this prototype between equal terminations.
+fn has_no_ladder(family: Family, order: usize, ripple_db: f64, attenuation_db: f64) -> bool {
+    let Ok(proto) = super::prototype_at(family, order, ripple_db, attenuation_db, 1.0) else {
+        return false;
+    };
+    matches!(
+        synth::synthesize(&proto, 1.0, synth::Form::MinInductor),
+        Err(synth::SynthError::NoZeroOrder { .. })
+    )
 }

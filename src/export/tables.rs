@@ -146,6 +146,10 @@ pub fn order_text(t: &OrderTable) -> String {
         // The design-file spelling, to copy into `filter.family`.
         let name = crate::spec::as_written(&row.family);
         let _ = match &row.order {
+            Ok(n) if row.no_ladder => writeln!(
+                s,
+                "  {name:<NAME_WIDTH$} {n} (no ladder of this order has positive elements at this floor: a deeper floor allows higher orders, or take the elliptic)"
+            ),
             Ok(n) if *n <= row.synthesis_max_order => writeln!(s, "  {name:<NAME_WIDTH$} {n}"),
             // Beyond the synthesis (or the approximation) the order the
             // mask needs is still worth knowing.
