@@ -42,5 +42,5 @@ pub use sensitivity::{
     sensitivities, summarize, Extreme, Parameter, Sensitivity, SensitivitySummary,
     SensitivityTable, SummaryPoints,
 };
-pub use spread::{DelayLimit, DelayVerdict, DC_FRACTION, DELAY_POINTS};
+pub use spread::{judged_from_hz, DelayLimit, DelayVerdict, DC_FRACTION, DELAY_POINTS};
 pub use sweep::{trace, unwrap_deg, Trace, Tracer, ZERO_GAIN_DB};

@@ -39,7 +39,7 @@ use rand_chacha::ChaCha8Rng;
 use rayon::prelude::*;
 
 use super::mask::{closest, Check, Closest, Mask};
-use super::spread::DelayLimit;
+use super::spread::{DelayLimit, DelayVerdict};
 use super::{AnalysisError, Parameter};
 use crate::circuit::{AcSystem, CircuitError, Element, ElementKind, Netlist, OpAmpModel, SparseAc};
 use crate::parts::Tolerance;
@@ -374,14 +374,12 @@ impl Run<'_> {
             lower_bound: false,
         });
         let margin_db = near.margin_db;
-        let delay_spread_s = match self.setup.delay {
-            Some(_) => Some(worker.delay_spread(self.setup, self.delay_grid)?),
+        let delay = match self.setup.delay {
+            Some(limit) => Some(worker.delay_verdict(self.setup, limit, self.delay_grid)?),
             None => None,
         };
-        let delay_ok = match (self.setup.delay, delay_spread_s) {
-            (Some(limit), Some(spread)) => spread <= limit.max_spread_s,
-            _ => true,
-        };
+        let delay_spread_s = delay.map(|v| v.spread_s);
+        let delay_ok = delay.is_none_or(|v| v.meets);
         let stable = self
             .setup
             .stability
@@ -446,9 +444,15 @@ impl Worker {
         }
     }
 
-    /// The group-delay spread over `grid` of the values [`Worker::sweep`]
-    /// left (its refill serves this sweep too).
-    fn delay_spread(&mut self, setup: &MonteCarlo<'_>, grid: &[f64]) -> Result<f64, CircuitError> {
+    /// How the delay over `grid` (the limit's) of the values
+    /// [`Worker::sweep`] left stands against `limit` (its refill serves
+    /// this sweep too).
+    fn delay_verdict(
+        &mut self,
+        setup: &MonteCarlo<'_>,
+        limit: &DelayLimit,
+        grid: &[f64],
+    ) -> Result<DelayVerdict, CircuitError> {
         match self.sparse.as_mut() {
             Some(sparse) if self.refilled => sparse.sweep_delay_into(
                 grid,
@@ -465,7 +469,7 @@ impl Worker {
                 }
             }
         }
-        Ok(DelayLimit::spread_s(&self.delay_s))
+        Ok(limit.verdict(grid, &self.delay_s))
     }
 }
 

@@ -78,8 +78,8 @@ impl DelayLimit {
         let mut grid: Vec<f64> = self
             .bands_hz
             .iter()
-            .flat_map(|&[a, b]| {
-                let a = if a == 0.0 { b * DC_FRACTION } else { a };
+            .flat_map(|&band| {
+                let (a, b) = (judged_from_hz(band), band[1]);
                 let step = |i: usize| i as f64 / (DELAY_POINTS - 1) as f64;
                 let even = (0..DELAY_POINTS).map(move |i| a + (b - a) * step(i));
                 let log = (0..DELAY_POINTS).map(move |i| a * (b / a).powf(step(i)));
@@ -123,15 +123,14 @@ impl DelayLimit {
             shortest_at_hz: shortest.1,
         }
     }
+}
 
-    /// The spread of `delay_s` on [`DelayLimit::grid`] (every point is in
-    /// a band): longest less shortest.
-    pub(crate) fn spread_s(delay_s: &[f64]) -> f64 {
-        let (lo, hi) = delay_s
-            .iter()
-            .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), &t| {
-                (lo.min(t), hi.max(t))
-            });
-        hi - lo
+/// The lowest frequency a band is judged at, Hz: its bottom, or for a
+/// band from DC [`DC_FRACTION`] of its top.
+pub fn judged_from_hz([from, to]: [f64; 2]) -> f64 {
+    if from == 0.0 {
+        to * DC_FRACTION
+    } else {
+        from
     }
 }

@@ -5,9 +5,9 @@
 use super::{ActiveDesign, Design, DesignError};
 use crate::active;
 use crate::analysis::{
-    level_traces, monte_carlo, summarize, trace, AnalysisError, DelayLimit, DelayVerdict, Mask,
-    MaskVerdict, MonteCarlo, MonteCarloResult, Scope, SensitivitySummary, StabilityJudge,
-    SummaryPoints, ToleranceRule, DC_FRACTION,
+    judged_from_hz, level_traces, monte_carlo, summarize, trace, AnalysisError, DelayLimit,
+    DelayVerdict, Mask, MaskVerdict, MonteCarlo, MonteCarloResult, Scope, SensitivitySummary,
+    StabilityJudge, SummaryPoints, ToleranceRule,
 };
 use crate::circuit::{band_grid, log_grid, AcSystem, Netlist};
 use crate::parts::Tolerance;
@@ -158,7 +158,7 @@ impl Design {
         let lo = match &self.spec.delay {
             Some(delay) => super::delay_bands(&self.spec, delay)
                 .iter()
-                .map(|&[a, b]| a.max(b * DC_FRACTION))
+                .map(|&band| judged_from_hz(band))
                 .fold(lo, f64::min),
             None => lo,
         };

@@ -54,7 +54,7 @@ fn delay_window(d: &Documents) -> Vec<MaskBox> {
         .bands_hz
         .iter()
         .map(|&[a, b]| MaskBox {
-            from_hz: a.max(b * crate::analysis::DC_FRACTION),
+            from_hz: crate::analysis::judged_from_hz([a, b]),
             to_hz: b,
             min_db: Some(centre_ms - half_ms),
             max_db: Some(centre_ms + half_ms),
