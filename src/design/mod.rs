@@ -554,7 +554,7 @@ fn raise_for_delay(
         (v.spread_s <= bound, v.spread_s)
     };
     let family = proto.params.family;
-    let mut best = keeps(&proto).1;
+    let mut best = f64::INFINITY;
     for order in proto.params.order..=synth::max_order(family) {
         let candidate = if order == proto.params.order {
             proto.clone()
