@@ -43,7 +43,7 @@ pub fn min_order(family: Family, ws: f64, ap_db: f64, as_db: f64) -> Result<usiz
         Family::Butterworth => ratio.ln() / (2.0 * (ws - 1.0).ln_1p()),
         // The inverse Chebyshev shares the formula: its R at the stopband
         // edge is T_n(ws), as the Chebyshev's is (scipy's cheb2ord agrees,
-        // tests/approx.rs).
+        // tests/families.rs).
         Family::Chebyshev | Family::InverseChebyshev => acosh(ratio.sqrt()) / acosh(ws),
         Family::Elliptic => elliptic_degree(ws, ap_db, as_db),
         Family::Bessel | Family::Legendre => return searched_order(family, ws, ap_db, as_db),
