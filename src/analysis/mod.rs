@@ -15,6 +15,10 @@
 //!   grid through the sparse solver, every value finite.
 //! - [`DelayLimit`] (in `spread`): the group-delay spread over bands
 //!   against a bound.
+//! - [`output_noise`] (in `noise`): the output noise density of every
+//!   resistor and op-amp, one adjoint solve per frequency for all.
+//! - [`step_figures`] (in `step`): overshoot, rise and settling times of
+//!   the step response, from the circuit's modes.
 //!
 //! Every analysis reads the circuit through [`crate::circuit::AcSystem`]'s
 //! public methods only, so any solver behind that interface serves it.
@@ -26,8 +30,10 @@ mod error;
 mod levels;
 mod mask;
 mod montecarlo;
+mod noise;
 mod sensitivity;
 mod spread;
+mod step;
 mod sweep;
 
 pub use compare::{compare, passband_level_db, ComparePoints, Comparison, EDGE_WINDOW};
@@ -38,9 +44,16 @@ pub use montecarlo::{
     monte_carlo, Envelope, MonteCarlo, MonteCarloResult, Scope, StabilityJudge, ToleranceRule,
     TrialSummary, Varied, BLOCK_TRIALS, MEDIAN_BINS,
 };
+pub use noise::{
+    a_weighting, integrate, noise_band_grid, output_noise, NoiseKind, NoiseSource, NoiseSpectrum,
+    MIN_NOISE_POINTS, NOISE_POINTS_PER_DECADE,
+};
 pub use sensitivity::{
     sensitivities, summarize, Extreme, Parameter, Sensitivity, SensitivitySummary,
     SensitivityTable, SummaryPoints,
 };
 pub use spread::{judged_from_hz, DelayLimit, DelayVerdict, DC_FRACTION, DELAY_POINTS};
+pub use step::{
+    step_figures, step_modes, Settling, StepFigures, SETTLING_FRACTIONS, STEP_SEARCH_SAMPLES,
+};
 pub use sweep::{trace, unwrap_deg, Trace, Tracer, ZERO_GAIN_DB};

@@ -364,6 +364,17 @@ impl AcSystem {
         self.layout.node(node)
     }
 
+    /// The equation of op-amp `index`'s gain law (its output current's
+    /// row), where a voltage e in series with its non-inverting input
+    /// enters as b = e: the row reads -(v+ + e - v-) + ... = 0. `None`
+    /// for an element that is not an op-amp.
+    pub fn opamp_row(&self, index: usize) -> Option<usize> {
+        match self.netlist.elements.get(index) {
+            Some(Element::OpAmp { .. }) => self.layout.extras[index].current,
+            _ => None,
+        }
+    }
+
     /// Every stamp of element `index` as (entry, value), in the order the
     /// element emits them; entries of one element may repeat (their values
     /// add). The matrix entry is the sum over all elements' stamps on it.
@@ -494,6 +505,26 @@ impl AcSystem {
             x: &self.x,
             y: &self.dx,
         })
+    }
+
+    /// The adjoint of node `out` at one frequency, by the dense LU: y
+    /// solving (G + j 2 pi f C)^T y = e_out, indexed by equation (see
+    /// [`SparseAc::adjoint_sweep`](super::SparseAc::adjoint_sweep), the
+    /// fast path, which is tested against this one).
+    pub fn output_adjoint(
+        &mut self,
+        freq_hz: f64,
+        out: usize,
+    ) -> Result<&[Complex64], CircuitError> {
+        self.check_node(out, "output")?;
+        self.solve(freq_hz)?;
+        self.dx.fill(Complex64::new(0.0, 0.0));
+        let Some(u) = self.layout.node(out) else {
+            return Err(CircuitError::ZeroVoltage { node: out, freq_hz });
+        };
+        self.dx[u] = Complex64::new(1.0, 0.0);
+        self.lu.solve_transposed(&mut self.dx);
+        Ok(&self.dx)
     }
 
     /// [`AcSystem::transfer`] at each frequency.

@@ -18,6 +18,10 @@
 //! - [`log_grid`] and the [`Response`] readers (in `response`).
 //! - [`AcSystem::natural_frequencies`] (in `poles`): roots of
 //!   det(G + sC) for stability checks.
+//! - [`AcSystem::modes`] (in `modes`): the transfer as poles and
+//!   residues, for the step response.
+//! - [`SparseAc::adjoint_sweep`]: one transposed solve per frequency, the
+//!   transfer from every noise source to the output.
 
 mod delay;
 mod error;
@@ -25,6 +29,7 @@ mod lanes;
 mod layout;
 mod lu;
 mod mna;
+mod modes;
 pub mod netlist;
 mod ordering;
 mod plan;
@@ -36,6 +41,7 @@ mod sparse;
 pub use delay::{DenseDelay, RESONANCE_STEP};
 pub use error::CircuitError;
 pub use mna::{AcSystem, Adjoint, Target};
+pub use modes::{Modes, MODES_CHECK};
 pub use netlist::{ElementKind, Terminal};
 pub use reference::reference_transfer;
 pub use response::{band_grid, log_grid};
@@ -72,6 +78,46 @@ pub enum OpAmpModel {
         /// Output resistance, ohm (0 for none).
         output_ohm: f64,
     },
+}
+
+/// Boltzmann's constant, J/K (exact in the SI since 2019).
+pub const BOLTZMANN_J_PER_K: f64 = 1.380649e-23;
+
+/// The noise of an op-amp as a data sheet gives it: an input voltage
+/// noise density and an input current noise density (the same at either
+/// input, uncorrelated), each white above its 1/f corner, with power
+/// density e_w^2 (1 + f_c / f) (common practice). Zero densities make a
+/// noiseless op-amp; a zero corner, white noise down to DC.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct OpAmpNoise {
+    /// Input voltage noise density above the corner, V/sqrt(Hz), >= 0.
+    pub en_v_per_rthz: f64,
+    /// Its 1/f corner, Hz, >= 0.
+    pub en_corner_hz: f64,
+    /// Input current noise density above the corner, A/sqrt(Hz), >= 0.
+    pub in_a_per_rthz: f64,
+    /// Its 1/f corner, Hz, >= 0.
+    pub in_corner_hz: f64,
+}
+
+impl OpAmpNoise {
+    /// No noise at all.
+    pub const NOISELESS: OpAmpNoise = OpAmpNoise {
+        en_v_per_rthz: 0.0,
+        en_corner_hz: 0.0,
+        in_a_per_rthz: 0.0,
+        in_corner_hz: 0.0,
+    };
+
+    /// The input voltage noise power density at `freq_hz` (> 0), V^2/Hz.
+    pub fn en2_at(&self, freq_hz: f64) -> f64 {
+        self.en_v_per_rthz.powi(2) * (1.0 + self.en_corner_hz / freq_hz)
+    }
+
+    /// The input current noise power density at `freq_hz` (> 0), A^2/Hz.
+    pub fn in2_at(&self, freq_hz: f64) -> f64 {
+        self.in_a_per_rthz.powi(2) * (1.0 + self.in_corner_hz / freq_hz)
+    }
 }
 
 /// V(out)/V(in) at each of `freqs_hz` of a netlist that follows the

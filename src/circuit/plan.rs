@@ -172,6 +172,8 @@ pub(crate) struct Plan {
     step_of_unknown: Vec<usize>,
     /// Step -> the original row of its pivot.
     row_of_step: Vec<usize>,
+    /// Row -> the step that pivots on it.
+    step_of_row: Vec<usize>,
     program: Program,
     slot_g: Vec<f64>,
     slot_c: Vec<f64>,
@@ -194,7 +196,8 @@ pub(crate) struct Plan {
     /// The nonzero entries of C as (value, row step, column step), for
     /// the right-hand side -C x of the derivative solve.
     c_terms: Vec<(f64, usize, usize)>,
-    /// dx/ds in step order after [`Plan::solve_with_derivative`].
+    /// dx/ds in step order after [`Plan::solve_with_derivative`], or the
+    /// adjoint in row-step order after [`Plan::solve_adjoint`].
     dy: Vec<Lanes>,
 }
 
@@ -231,6 +234,7 @@ impl Plan {
             entries,
             step_of_unknown,
             row_of_step: order.rows.clone(),
+            step_of_row: step_of_row.clone(),
             program: Program::new(&slots, &excited),
             slot_g: vec![0.0; filled],
             slot_c: vec![0.0; filled],
@@ -450,6 +454,40 @@ impl Plan {
         self.back
             .extend((0..self.n).rev().filter(|&t| self.need[t]));
         self.back_for = Some(wanted);
+    }
+
+    /// Factors G + j omega C for each lane's omega and solves the
+    /// transposed system (G + j omega C)^T y = e_u, the adjoint of unknown
+    /// `u`: U^T q = r ascending, then L^T w = q descending, with the
+    /// factors of the forward solve (read with [`Plan::adjoint`]). Lanes
+    /// whose pivots fail the guard come back `false`.
+    pub fn solve_adjoint(&mut self, omega: &[f64; LANES], guard: f64, u: usize) -> [bool; LANES] {
+        let ok = self.factor(omega, guard);
+        let p = &self.program;
+        let w = &mut self.dy;
+        w.fill(Lanes::real(0.0));
+        w[self.step_of_unknown[u]] = Lanes::real(1.0);
+        for t in 0..self.n {
+            let q = w[t].mul(self.inv_pivot[t]);
+            w[t] = q;
+            for k in p.upper.range(t) {
+                w[p.upper.step[k]].sub_assign(self.values[p.upper.slot[k]].mul(q));
+            }
+        }
+        for t in (0..self.n).rev() {
+            let mut sum = w[t];
+            for k in p.lower.range(t) {
+                sum.sub_assign(self.values[p.lower.slot[k]].mul(w[p.lower.step[k]]));
+            }
+            w[t] = sum;
+        }
+        ok
+    }
+
+    /// Lane `lane` of the adjoint's entry for equation `row` after
+    /// [`Plan::solve_adjoint`].
+    pub fn adjoint(&self, row: usize, lane: usize) -> Complex64 {
+        self.dy[self.step_of_row[row]].lane(lane)
     }
 
     /// Lane `lane` of unknown `u` in the last solution (one of `wanted`).

@@ -42,6 +42,7 @@ use num_complex::Complex64;
 use super::delay::{point_error, DenseDelay, PointFailure};
 use super::lanes::LANES;
 use super::layout::{Layout, OpAmpUnknowns};
+use super::lu::Lu;
 use super::ordering::{markowitz, Sample};
 use super::plan::{row_size, Plan, GUARD_THRESHOLD};
 use super::{AcSystem, CircuitError, Element, ElementKind, Response};
@@ -227,6 +228,8 @@ struct Dense {
     c: DMatrix<f64>,
     b: DVector<f64>,
     solver: DenseDelay,
+    /// The dense LU of the adjoint's fallback.
+    lu: Lu,
 }
 
 /// The sparse solver of one circuit; see the module documentation.
@@ -306,6 +309,7 @@ impl SparseAc {
                 c: DMatrix::zeros(n, n),
                 b: DVector::zeros(n),
                 solver: DenseDelay::with_size(n),
+                lu: Lu::new(n),
             },
             fallbacks: 0,
         })
@@ -511,6 +515,69 @@ impl SparseAc {
             (h[k], delay_s[k]) = self
                 .dense_point(omega[k], unknowns, Some(at_zero))
                 .map_err(|f| point_error(f, freq_hz, [out, inp]))?;
+        }
+        Ok(())
+    }
+
+    /// The adjoint of node `out` at each of `freqs_hz`: y solving
+    /// (G + j 2 pi f C)^T y = e_out, so that a current i injected into
+    /// node n adds y_n i to V(out), and a source e in the right-hand side
+    /// of equation r adds y_r e (one transposed solve gives the transfer
+    /// from every source at once; see [`AcSystem::opamp_row`]). `visit`
+    /// gets each point's index and y, indexed by equation (like the rows
+    /// of [`AcSystem::g`]). Sparse passes of [`LANES`] points, the dense
+    /// path for a lane no order solves.
+    pub fn adjoint_sweep(
+        &mut self,
+        freqs_hz: &[f64],
+        out: usize,
+        mut visit: impl FnMut(usize, &[Complex64]),
+    ) -> Result<(), CircuitError> {
+        self.check(freqs_hz, out, out)?;
+        let Some(u) = out.checked_sub(1) else {
+            return Err(CircuitError::ZeroVoltage {
+                node: out,
+                freq_hz: freqs_hz.first().copied().unwrap_or(0.0),
+            });
+        };
+        let n = self.n;
+        let mut y = vec![Complex64::new(0.0, 0.0); n];
+        for (chunk_index, chunk) in freqs_hz.chunks(LANES).enumerate() {
+            let omega = lane_omegas(chunk);
+            let mut done = [false; LANES];
+            for plan in &mut self.plans {
+                if done[..chunk.len()].iter().all(|&d| d) {
+                    break;
+                }
+                let ok = plan.solve_adjoint(&omega, GUARD_THRESHOLD, u);
+                for k in 0..chunk.len() {
+                    if ok[k] && !done[k] {
+                        for (row, v) in y.iter_mut().enumerate() {
+                            *v = plan.adjoint(row, k);
+                        }
+                        if y.iter().all(|v| v.is_finite()) {
+                            done[k] = true;
+                            visit(chunk_index * LANES + k, &y);
+                        }
+                    }
+                }
+            }
+            for k in (0..chunk.len()).filter(|&k| !done[k]) {
+                self.fallbacks += 1;
+                let d = &mut self.dense;
+                self.plans[0].unload(&mut d.g, &mut d.c, &mut d.b);
+                let freq_hz = chunk[k];
+                if !d.lu.factor(&d.g, &d.c, Complex64::new(0.0, omega[k])) {
+                    return Err(CircuitError::Singular { freq_hz });
+                }
+                y.fill(Complex64::new(0.0, 0.0));
+                y[u] = Complex64::new(1.0, 0.0);
+                d.lu.solve_transposed(&mut y);
+                if !y.iter().all(|v| v.is_finite()) {
+                    return Err(CircuitError::Singular { freq_hz });
+                }
+                visit(chunk_index * LANES + k, &y);
+            }
         }
         Ok(())
     }

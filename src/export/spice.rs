@@ -9,7 +9,7 @@
 //! ignoring case; node `0` is ground; values carry at least 9
 //! significant digits ([`SPICE_DIGITS`]).
 
-use crate::circuit::{CircuitError, Element, Netlist, OpAmpModel};
+use crate::circuit::{CircuitError, Element, Netlist, OpAmpModel, OpAmpNoise, BOLTZMANN_J_PER_K};
 use crate::export::eng;
 
 /// Significant digits of values in a deck: at least 9, this project's
@@ -51,11 +51,39 @@ pub struct StepResponse {
     pub stop_s: f64,
 }
 
+/// The noise a deck's elements carry: the op-amps' input noise (as
+/// ordinary elements inside each op-amp subcircuit) and the temperature
+/// of the resistors' thermal noise.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct DeckNoise {
+    /// Every op-amp's input noise.
+    pub opamp: OpAmpNoise,
+    /// The circuit's temperature, kelvin.
+    pub temperature_k: f64,
+}
+
+/// The resistance of every noise generator in an op-amp subcircuit, ohm:
+/// its noise voltage, sqrt(4 k T R) (times sqrt(1 + f_c/f) with a 1/f
+/// corner), is copied onto the input by a controlled source whose gain
+/// sets the density, so the resistance itself is free; 1 kohm keeps the
+/// generator's DC bias at 1 V.
+const GENERATOR_OHM: f64 = 1e3;
+
+/// The DC bias current through a generator with a 1/f corner, A: SPICE
+/// gives a resistor flicker noise of current density KF I^AF / f (AF = 2,
+/// EF = 1 here), so KF = 4 k T f_c / (R I^2) puts the corner at f_c. A
+/// second source of the same current through a noiseless twin cancels
+/// the bias at the copy.
+const GENERATOR_BIAS_A: f64 = 1e-3;
+
 /// Which analysis a deck runs.
 #[derive(Debug, Clone, Copy, PartialEq)]
 enum Analysis<'a> {
     Ac(&'a AcSweep),
     Step(&'a StepResponse),
+    /// The AC sweep's grid, for ngspice's `.noise` at V(out) with the
+    /// named source as input.
+    Noise(&'a AcSweep, &'a str),
 }
 
 /// Why no deck was written.
@@ -75,6 +103,10 @@ pub enum SpiceError {
         /// Stop given.
         stop_hz: f64,
     },
+    /// A noise analysis needs a source at the input and the netlist has
+    /// none.
+    #[error("a noise analysis needs the voltage source at the input, and the netlist has no voltage source")]
+    NoSource,
     /// The step response times are out of range.
     #[error(
         "step response with time step {step_s} s to {stop_s} s: need 0 < step < stop, both finite"
@@ -182,49 +214,105 @@ fn element_line(
     }
 }
 
-/// The subcircuit of one op-amp model, ports (plus, minus, out).
-fn subcircuit(model: &OpAmpModel, name: &str) -> String {
-    match *model {
-        OpAmpModel::Ideal => format!(
-            "* ideal op-amp: a VCVS of gain {}\n.subckt {name} p m o\nE1 o 0 p m {}\n.ends {name}\n",
-            value(IDEAL_VCVS_GAIN),
-            value(IDEAL_VCVS_GAIN)
+/// The op-amp input noise of a subcircuit as SPICE elements: the input
+/// voltage noise a VCVS in series with the non-inverting input (node
+/// `pn` feeds the amplifier instead of `p`), the input current noise a
+/// VCCS into each input, each copying the noise voltage of its own
+/// generator resistor ([`GENERATOR_OHM`], with the flicker bias of
+/// [`GENERATOR_BIAS_A`] where there is a 1/f corner). Empty without
+/// noise (the amplifier then reads `p` itself).
+fn input_noise(noise: Option<&DeckNoise>) -> String {
+    let Some(noise) = noise else {
+        return String::new();
+    };
+    let four_kt = 4.0 * BOLTZMANN_J_PER_K * noise.temperature_k;
+    let generator_rthz = (four_kt * GENERATOR_OHM).sqrt();
+    let n = &noise.opamp;
+    let mut out = format!(
+        "* input noise: {} V/rtHz (1/f corner {} Hz) in series with p, {} A/rtHz (corner {} Hz) into p and into m\n",
+        value(n.en_v_per_rthz),
+        value(n.en_corner_hz),
+        value(n.in_a_per_rthz),
+        value(n.in_corner_hz)
+    );
+    let mut generator = |tag: &str, corner_hz: f64| -> String {
+        if corner_hz > 0.0 {
+            let kf = four_kt * corner_hz / (GENERATOR_OHM * GENERATOR_BIAS_A.powi(2));
+            out += &format!(
+                ".model fl_{tag} R (kf={} af=2 ef=1)\nI_{tag} 0 g_{tag} DC {}\nR_{tag} g_{tag} 0 {} fl_{tag}\nI_{tag}_twin 0 t_{tag} DC {}\nG_{tag}_twin t_{tag} 0 t_{tag} 0 {}\n",
+                value(kf),
+                value(GENERATOR_BIAS_A),
+                value(GENERATOR_OHM),
+                value(GENERATOR_BIAS_A),
+                value(1.0 / GENERATOR_OHM)
+            );
+            format!("g_{tag} t_{tag}")
+        } else {
+            out += &format!("R_{tag} g_{tag} 0 {}\n", value(GENERATOR_OHM));
+            format!("g_{tag} 0")
+        }
+    };
+    let en = generator("en", n.en_corner_hz);
+    let ip = generator("ip", n.in_corner_hz);
+    let im = generator("im", n.in_corner_hz);
+    out += &format!(
+        "E_en pn p {en} {}\nG_ip p 0 {ip} {}\nG_im m 0 {im} {}\n",
+        value(n.en_v_per_rthz / generator_rthz),
+        value(n.in_a_per_rthz / generator_rthz),
+        value(n.in_a_per_rthz / generator_rthz)
+    );
+    out
+}
+
+/// The subcircuit of one op-amp model, ports (plus, minus, out), with the
+/// input noise of `noise` if any. The model's own conductances are
+/// voltage-controlled current sources across their nodes, which SPICE
+/// counts as noiseless: an op-amp's noise is what its data sheet gives.
+/// (A resistor marked `noisy=0` would do in ngspice, but its zero density
+/// makes ngspice's integrated noise NaN: it integrates the logarithms.)
+fn subcircuit(model: &OpAmpModel, name: &str, noise: Option<&DeckNoise>) -> String {
+    let noise_lines = input_noise(noise);
+    let input = if noise.is_some() { "pn" } else { "p" };
+    let (header, body) = match *model {
+        OpAmpModel::Ideal => (
+            format!("* ideal op-amp: a VCVS of gain {}", value(IDEAL_VCVS_GAIN)),
+            format!("E1 o 0 {input} m {}\n", value(IDEAL_VCVS_GAIN)),
         ),
         OpAmpModel::SinglePole {
             dc_gain,
             gbw_hz,
             output_ohm,
-        } => {
-            let header = format!(
+        } => (
+            format!(
                 "* single-pole op-amp: A0 = {}, GBW = {} Hz, output {} ohm",
                 value(dc_gain),
                 value(gbw_hz),
                 value(output_ohm)
-            );
-            pole_chain(&header, name, dc_gain, &[gbw_hz / dc_gain], output_ohm)
-        }
+            ),
+            pole_chain(input, dc_gain, &[gbw_hz / dc_gain], output_ohm),
+        ),
         OpAmpModel::TwoPole {
             dc_gain,
             gbw_hz,
             second_pole_hz,
             output_ohm,
-        } => {
-            let header = format!(
+        } => (
+            format!(
                 "* two-pole op-amp: A0 = {}, GBW = {} Hz, second pole = {} Hz, output {} ohm",
                 value(dc_gain),
                 value(gbw_hz),
                 value(second_pole_hz),
                 value(output_ohm)
-            );
+            ),
             pole_chain(
-                &header,
-                name,
+                input,
                 dc_gain,
                 &[gbw_hz / dc_gain, second_pole_hz],
                 output_ohm,
-            )
-        }
-    }
+            ),
+        ),
+    };
+    format!("{header}\n.subckt {name} p m o\n{noise_lines}{body}.ends {name}\n")
 }
 
 /// The capacitor of an op-amp subcircuit's first pole, farad. With the
@@ -235,14 +323,17 @@ fn subcircuit(model: &OpAmpModel, name: &str) -> String {
 /// 3rd-order elliptic bandstop, while this form ran to the end (measured).
 const FIRST_POLE_F: f64 = 1e-9;
 
-/// An op-amp subcircuit of lags in cascade: G1, a transconductance
+/// The body of an op-amp subcircuit of lags in cascade, its amplifier
+/// reading node `input` against `m`: G1, a transconductance
 /// gm = 2 pi GBW C into C1 = [`FIRST_POLE_F`] with R1 = A0 / gm across
 /// it, the first pole A0 / (1 + s/w1); each further pole buffered by a
 /// unit VCVS into its own 1 ohm and 1/w; a last unit VCVS drives the
-/// output, through RO where there is an output resistance. Nodes are
+/// output, through RO where there is an output resistance. The
+/// resistances are conductances GR1, GR2, ... and GRO (see
+/// [`subcircuit`]). Nodes are
 /// lettered in order (b for the first pole, c, d for the second, ...),
 /// so ngspice sees A(s) = A0 / prod(1 + s/w_k).
-fn pole_chain(header: &str, name: &str, dc_gain: f64, poles_hz: &[f64], output_ohm: f64) -> String {
+fn pole_chain(input: &str, dc_gain: f64, poles_hz: &[f64], output_ohm: f64) -> String {
     let letter = |i: usize| char::from(b'a' + i as u8);
     let mut body = String::new();
     for (k, &pole_hz) in poles_hz.iter().enumerate() {
@@ -250,16 +341,16 @@ fn pole_chain(header: &str, name: &str, dc_gain: f64, poles_hz: &[f64], output_o
         if k == 0 {
             let gm = std::f64::consts::TAU * pole_hz * dc_gain * FIRST_POLE_F;
             body += &format!(
-                "G1 0 {to} p m {}\nR1 {to} 0 {}\nC1 {to} 0 {}\n",
+                "G1 0 {to} {input} m {}\nGR1 {to} 0 {to} 0 {}\nC1 {to} 0 {}\n",
                 value(gm),
-                value(dc_gain / gm),
+                value(gm / dc_gain),
                 value(FIRST_POLE_F)
             );
             continue;
         }
         body += &format!("E{} {from} 0 {} 0 1\n", k + 1, letter(2 * k - 1));
         body += &format!(
-            "R{n} {from} {to} 1\nC{n} {to} 0 {}\n",
+            "GR{n} {from} {to} {from} {to} 1\nC{n} {to} 0 {}\n",
             value(1.0 / (std::f64::consts::TAU * pole_hz)),
             n = k + 1
         );
@@ -273,16 +364,16 @@ fn pole_chain(header: &str, name: &str, dc_gain: f64, poles_hz: &[f64], output_o
     };
     body += &format!("E{} {driven} 0 {last} 0 1\n", poles_hz.len() + 1);
     if output_ohm > 0.0 {
-        body += &format!("RO {buffer} o {}\n", value(output_ohm));
+        body += &format!("GRO {buffer} o {buffer} o {}\n", value(1.0 / output_ohm));
     }
-    format!("{header}\n.subckt {name} p m o\n{body}.ends {name}\n")
+    body
 }
 
 /// The transient waveform of a source: none for AC, else a pulse from 0
 /// to the AC magnitude at t = 0 that lasts past the end of the run.
 fn source_waveform(ac_volt: f64, analysis: Analysis) -> String {
     match analysis {
-        Analysis::Ac(_) => String::new(),
+        Analysis::Ac(_) | Analysis::Noise(..) => String::new(),
         Analysis::Step(t) => format!(
             " PULSE(0 {} 0 {} {} {} {})",
             value(ac_volt),
@@ -294,32 +385,45 @@ fn source_waveform(ac_volt: f64, analysis: Analysis) -> String {
     }
 }
 
-/// Checks the analysis and writes its control line.
-fn analysis_line(analysis: Analysis) -> Result<String, SpiceError> {
-    match analysis {
-        Analysis::Ac(&AcSweep {
+/// The `dec` grid of an AC or noise analysis, checked.
+fn dec_grid(sweep: &AcSweep) -> Result<String, SpiceError> {
+    let &AcSweep {
+        points_per_decade,
+        start_hz,
+        stop_hz,
+    } = sweep;
+    let finite = start_hz.is_finite() && stop_hz.is_finite();
+    if finite && points_per_decade >= 1 && start_hz > 0.0 && stop_hz > start_hz {
+        Ok(format!(
+            "dec {points_per_decade} {} {}",
+            value(start_hz),
+            value(stop_hz)
+        ))
+    } else {
+        Err(SpiceError::Sweep {
             points_per_decade,
             start_hz,
             stop_hz,
-        }) => {
-            let finite = start_hz.is_finite() && stop_hz.is_finite();
-            if finite && points_per_decade >= 1 && start_hz > 0.0 && stop_hz > start_hz {
-                // The `.print` line makes `ngspice -b deck.cir` run and
-                // tabulate the sweep as it is (without one it runs
-                // nothing); classic SPICE 2 output syntax.
-                Ok(format!(
-                    ".ac dec {points_per_decade} {} {}\n.print ac vdb(out) vp(out)",
-                    value(start_hz),
-                    value(stop_hz)
-                ))
-            } else {
-                Err(SpiceError::Sweep {
-                    points_per_decade,
-                    start_hz,
-                    stop_hz,
-                })
-            }
-        }
+        })
+    }
+}
+
+/// Checks the analysis and writes its control line.
+fn analysis_line(analysis: Analysis) -> Result<String, SpiceError> {
+    match analysis {
+        // The `.print` line makes `ngspice -b deck.cir` run and tabulate
+        // the sweep as it is (without one it runs nothing); classic SPICE
+        // 2 output syntax.
+        Analysis::Ac(sweep) => Ok(format!(
+            ".ac {}\n.print ac vdb(out) vp(out)",
+            dec_grid(sweep)?
+        )),
+        // ngspice's noise analysis: the output noise density at V(out)
+        // and the input-referred one, per point, then their integrals.
+        Analysis::Noise(sweep, source) => Ok(format!(
+            ".noise v(out) {source} {}\n.print noise onoise_spectrum inoise_spectrum",
+            dec_grid(sweep)?
+        )),
         Analysis::Step(&StepResponse { step_s, stop_s }) => {
             if step_s.is_finite() && stop_s.is_finite() && step_s > 0.0 && stop_s > step_s {
                 // TSTART 0, TMAX = the step, so ngspice resolves it.
@@ -350,32 +454,90 @@ fn title_line(title: &str) -> String {
     }
 }
 
-/// A self-contained deck for an `.ac dec` sweep of the netlist.
+/// A self-contained deck for an `.ac dec` sweep of the netlist, its
+/// op-amps noiseless.
 pub fn deck(netlist: &Netlist, sweep: &AcSweep) -> Result<String, SpiceError> {
-    write(netlist, Analysis::Ac(sweep))
+    write(netlist, &[Analysis::Ac(sweep)], None)
 }
 
 /// A self-contained deck for the step response of the netlist (`.tran`),
 /// for stability checks: a stable circuit settles, an unstable one grows.
 pub fn step_deck(netlist: &Netlist, tran: &StepResponse) -> Result<String, SpiceError> {
-    write(netlist, Analysis::Step(tran))
+    write(netlist, &[Analysis::Step(tran)], None)
 }
 
-fn write(netlist: &Netlist, analysis: Analysis) -> Result<String, SpiceError> {
+/// A self-contained deck for ngspice's `.noise` analysis of V(out) over
+/// the sweep's grid, the op-amps carrying `noise` and the circuit at its
+/// temperature.
+pub fn noise_deck(
+    netlist: &Netlist,
+    sweep: &AcSweep,
+    noise: &DeckNoise,
+) -> Result<String, SpiceError> {
+    let source = input_source(netlist)?;
+    write(netlist, &[Analysis::Noise(sweep, source)], Some(noise))
+}
+
+/// The deck a design exports: the `.ac` sweep and the `.noise` analysis
+/// over the same grid, the op-amps carrying `noise`, so that
+/// `ngspice -b` on it tabulates the response and the output noise.
+pub fn exported_deck(
+    netlist: &Netlist,
+    sweep: &AcSweep,
+    noise: &DeckNoise,
+) -> Result<String, SpiceError> {
+    let source = input_source(netlist)?;
+    write(
+        netlist,
+        &[Analysis::Ac(sweep), Analysis::Noise(sweep, source)],
+        Some(noise),
+    )
+}
+
+/// The name of the source that drives the input (the first voltage
+/// source, by the netlist contract the one at node `in`).
+fn input_source(netlist: &Netlist) -> Result<&str, SpiceError> {
+    netlist
+        .elements
+        .iter()
+        .find_map(|e| match e {
+            Element::VoltageSource { name, .. } => Some(name.as_str()),
+            _ => None,
+        })
+        .ok_or(SpiceError::NoSource)
+}
+
+fn write(
+    netlist: &Netlist,
+    analyses: &[Analysis],
+    noise: Option<&DeckNoise>,
+) -> Result<String, SpiceError> {
     netlist.validate()?;
-    let control = analysis_line(analysis)?;
+    let control = analyses
+        .iter()
+        .map(|&a| analysis_line(a))
+        .collect::<Result<Vec<_>, _>>()?;
     let models = opamp_models(netlist);
     let mut out = title_line(&netlist.title);
     out.push('\n');
     for element in &netlist.elements {
-        out.push_str(&element_line(netlist, element, &models, analysis));
+        out.push_str(&element_line(netlist, element, &models, analyses[0]));
         out.push('\n');
     }
     for (model, name) in &models {
-        out.push_str(&subcircuit(model, name));
+        out.push_str(&subcircuit(model, name, noise));
     }
-    out.push_str(&control);
-    out.push_str("\n.end\n");
+    if let Some(noise) = noise {
+        // SPICE takes temperatures in degrees Celsius; both the circuit's
+        // and the nominal one, so no value moves with it.
+        let celsius = value(noise.temperature_k - 273.15);
+        out.push_str(&format!(".options temp={celsius} tnom={celsius}\n"));
+    }
+    for line in control {
+        out.push_str(&line);
+        out.push('\n');
+    }
+    out.push_str(".end\n");
     Ok(out)
 }
 

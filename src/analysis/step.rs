@@ -1,0 +1,167 @@
+//! The response to a step at the input: overshoot, rise time and the
+//! settling times an anti-alias filter before a sampling converter is
+//! chosen by, computed from the circuit's modes (its natural frequencies
+//! and residues, [`crate::circuit::Modes`]), so every figure is exact up
+//! to rounding and to the bisection that places it.
+//!
+//! The settling band is a fraction of the step's reference level: the
+//! final value where the filter passes DC (lowpass, bandstop), else the
+//! passband level (highpass, bandpass, whose step response returns to
+//! zero). Settling to half an LSB of an N-bit converter is settling to
+//! 2^-(N+1) of that level (common practice).
+
+use crate::circuit::{Modes, Netlist};
+
+use super::AnalysisError;
+
+/// Samples of the search for overshoot, crossings and the last exit from
+/// a settling band, uniform over the time the slowest band needs: with a
+/// filter's own periods at least a twentieth of that time, about 1,000
+/// samples per period, and each crossing then placed by bisection.
+pub const STEP_SEARCH_SAMPLES: usize = 20_000;
+
+/// Bisection steps placing a crossing between two samples: 2^-50 of the
+/// sample spacing.
+const BISECTIONS: usize = 50;
+
+/// Settling fractions every step response reports: 1 %, 0.1 %, 0.01 %.
+pub const SETTLING_FRACTIONS: [f64; 3] = [1e-2, 1e-3, 1e-4];
+
+/// Below this fraction of the passband level a final value counts as
+/// zero (a highpass or bandpass: its step returns to nothing).
+const ZERO_FINAL: f64 = 1e-6;
+
+/// The time a step response takes to stay within a band.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct Settling {
+    /// Half-width of the band, as a fraction of the reference level.
+    pub fraction: f64,
+    /// From the step until the response last leaves the band, s (0 when
+    /// it never does).
+    pub time_s: f64,
+}
+
+/// What a step response shows.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct StepFigures {
+    /// The response's final value for a 1 V step, V.
+    pub final_v: f64,
+    /// The level the settling bands are fractions of, V: |final value|,
+    /// or the passband level where the final value is zero.
+    pub reference_v: f64,
+    /// Peak above the final value, percent of it; `None` where the final
+    /// value is zero.
+    pub overshoot_pct: Option<f64>,
+    /// From 10 % to 90 % of the final value, s; `None` where it is zero.
+    pub rise_time_s: Option<f64>,
+    /// Settling to each of [`SETTLING_FRACTIONS`], then to half an LSB
+    /// when a converter resolution is given.
+    pub settling: Vec<Settling>,
+}
+
+/// The step response of `netlist`'s V(out)/V(in) by its modes.
+pub fn step_modes(netlist: &Netlist) -> Result<Modes, AnalysisError> {
+    let (inp, out) = (netlist.require_node("in")?, netlist.require_node("out")?);
+    Ok(crate::circuit::AcSystem::new(netlist)?.modes(out, inp)?)
+}
+
+/// The first time in `lo..hi` where `f` changes sign from `f(lo)`, by
+/// bisection (f(lo) and f(hi) differ in sign).
+fn crossing(f: impl Fn(f64) -> f64, mut lo: f64, mut hi: f64) -> f64 {
+    let below = f(lo) < 0.0;
+    for _ in 0..BISECTIONS {
+        let mid = 0.5 * (lo + hi);
+        if (f(mid) < 0.0) == below {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    0.5 * (lo + hi)
+}
+
+/// The time after which the response provably stays within `band` (V)
+/// of its final value: where the modes' tail bound falls to it, found by
+/// doubling and bisection; 0 if it starts there.
+fn settled_bound(modes: &Modes, band: f64) -> f64 {
+    if modes.tail_bound(0.0) <= band {
+        return 0.0;
+    }
+    let slowest = modes
+        .poles
+        .iter()
+        .filter(|p| p.re < 0.0)
+        .map(|p| -p.re)
+        .fold(f64::INFINITY, f64::min);
+    let mut hi = if slowest.is_finite() {
+        1.0 / slowest
+    } else {
+        1.0
+    };
+    let mut guard = 0;
+    while modes.tail_bound(hi) > band && guard < 200 {
+        hi *= 2.0;
+        guard += 1;
+    }
+    crossing(|t| modes.tail_bound(t) - band, 0.0, hi)
+}
+
+/// The figures of a step response by its modes; `passband_v` is the
+/// passband level (the reference where the final value is zero), `bits`
+/// a converter resolution for the half-LSB settling time.
+pub fn step_figures(modes: &Modes, passband_v: f64, bits: Option<u32>) -> StepFigures {
+    let final_v = modes.final_value();
+    let passes_dc = final_v.abs() > ZERO_FINAL * passband_v.abs();
+    let reference_v = if passes_dc {
+        final_v.abs()
+    } else {
+        passband_v.abs()
+    };
+    let fractions: Vec<f64> = SETTLING_FRACTIONS
+        .iter()
+        .copied()
+        .chain(bits.map(|n| 0.5f64.powi(n as i32 + 1)))
+        .collect();
+    let finest = fractions.iter().copied().fold(f64::INFINITY, f64::min);
+    let span = settled_bound(modes, finest * reference_v).max(f64::MIN_POSITIVE);
+    let dt = span / STEP_SEARCH_SAMPLES as f64;
+    let times: Vec<f64> = (0..=STEP_SEARCH_SAMPLES).map(|k| k as f64 * dt).collect();
+    let y: Vec<f64> = times.iter().map(|&t| modes.step_at(t)).collect();
+    let settling = fractions
+        .iter()
+        .map(|&fraction| {
+            let band = fraction * reference_v;
+            let outside = |t: f64| (modes.step_at(t) - final_v).abs() - band;
+            let time_s = match (0..y.len()).rev().find(|&k| (y[k] - final_v).abs() > band) {
+                None => 0.0,
+                Some(k) if k + 1 == y.len() => span,
+                Some(k) => crossing(outside, times[k], times[k + 1]),
+            };
+            Settling { fraction, time_s }
+        })
+        .collect();
+    let (overshoot_pct, rise_time_s) = if passes_dc {
+        let peak = y
+            .iter()
+            .map(|v| v * final_v.signum())
+            .fold(f64::NEG_INFINITY, f64::max);
+        let overshoot = (100.0 * (peak - final_v.abs()) / final_v.abs()).max(0.0);
+        let first = |level: f64| {
+            let g = |t: f64| modes.step_at(t) * final_v.signum() - level * final_v.abs();
+            match (0..y.len()).find(|&k| y[k] * final_v.signum() >= level * final_v.abs()) {
+                Some(0) | None => 0.0,
+                Some(k) => crossing(g, times[k - 1], times[k]),
+            }
+        };
+        (Some(overshoot), Some(first(0.9) - first(0.1)))
+    } else {
+        (None, None)
+    };
+    StepFigures {
+        final_v,
+        reference_v,
+        overshoot_pct,
+        rise_time_s,
+        settling,
+    }
+}

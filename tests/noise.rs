@@ -1,0 +1,276 @@
+//! Output noise: closed forms, Nyquist's theorem, and ngspice's own
+//! `.noise` analysis on the exported decks.
+
+use nocoil::analysis::{integrate, noise_band_grid, output_noise, NoiseKind};
+use nocoil::circuit::{AcSystem, Element, Netlist, OpAmpNoise, BOLTZMANN_J_PER_K};
+use nocoil::export::spice::{noise_deck, AcSweep, DeckNoise};
+
+use crate::util::ngspice_plot;
+
+const T_K: f64 = 300.0;
+
+fn four_kt() -> f64 {
+    4.0 * BOLTZMANN_J_PER_K * T_K
+}
+
+/// A source at `in` and the elements given, nodes by name.
+fn circuit(elements: &[(&str, &str, &str, f64)]) -> Netlist {
+    let mut n = Netlist::new("noise test");
+    let inp = n.node("in");
+    n.add(Element::VoltageSource {
+        name: "V1".into(),
+        pos: inp,
+        neg: 0,
+        ac_volt: 1.0,
+    })
+    .unwrap();
+    for &(name, a, b, v) in elements {
+        let (a, b) = (n.node(a), n.node(b));
+        let e = match name.as_bytes()[0] {
+            b'R' => Element::Resistor {
+                name: name.into(),
+                a,
+                b,
+                ohm: v,
+            },
+            b'C' => Element::Capacitor {
+                name: name.into(),
+                a,
+                b,
+                farad: v,
+            },
+            _ => Element::Inductor {
+                name: name.into(),
+                a,
+                b,
+                henry: v,
+            },
+        };
+        n.add(e).unwrap();
+    }
+    n
+}
+
+/// A resistor from the (shorted) source to the output, open there: the
+/// open-circuit noise sqrt(4kTR) (Johnson and Nyquist, common practice).
+#[test]
+fn a_resistor_shows_its_open_circuit_noise() {
+    let mut n = circuit(&[("R1", "in", "out", 10e3), ("C1", "out", "0", 1e-15)]);
+    n.title = "open resistor".into();
+    let out = n.require_node("out").unwrap();
+    let s = output_noise(&n, out, &[1.0, 10.0, 100.0], &OpAmpNoise::NOISELESS, T_K).unwrap();
+    for &p in &s.total_v2_per_hz {
+        let want = four_kt() * 10e3;
+        assert!((p / want - 1.0).abs() < 1e-6, "{p} against {want}");
+    }
+    assert_eq!(s.sources.len(), 1);
+    assert_eq!(s.sources[0].kind, NoiseKind::Thermal);
+}
+
+/// An RC lowpass integrates to kT/C whatever R (common practice).
+#[test]
+fn an_rc_lowpass_integrates_to_kt_over_c() {
+    for (r, c) in [(1e3, 1e-9), (47e3, 220e-12), (100.0, 1e-6)] {
+        let n = circuit(&[("R1", "in", "out", r), ("C1", "out", "0", c)]);
+        let out = n.require_node("out").unwrap();
+        let corner = 1.0 / (std::f64::consts::TAU * r * c);
+        let grid = noise_band_grid(corner * 1e-5, corner * 1e5);
+        let s = output_noise(&n, out, &grid, &OpAmpNoise::NOISELESS, T_K).unwrap();
+        let v2 = integrate(&grid, &s.total_v2_per_hz, |_| 1.0);
+        // The band stops at 1e5 corners: the tail beyond holds
+        // kT/C x 2/(pi 1e5) of it, and 1e-5 corners below a fraction 1e-5.
+        let want = BOLTZMANN_J_PER_K * T_K / c
+            * (1.0 - 2.0 / (std::f64::consts::PI * 1e5) - 1e-5 * 2.0 / std::f64::consts::PI);
+        assert!(
+            (v2 / want - 1.0).abs() < 1e-4,
+            "R {r} C {c}: {v2} against {want}"
+        );
+    }
+}
+
+/// The output noise of a passive network is 4kT Re Z_out at every
+/// frequency (Nyquist's theorem), Z_out found here by a second, unrelated
+/// route: a 1 A test current into the output with the source shorted.
+#[test]
+fn the_passive_ideal_obeys_nyquist() {
+    for file in [
+        "examples/vibration-antialias.toml",
+        "examples/birdsong-bandpass.toml",
+        "examples/rumble-highpass.toml",
+        "examples/mains-notch.toml",
+    ] {
+        let d =
+            nocoil::design::design(&nocoil::spec::Spec::load(std::path::Path::new(file)).unwrap())
+                .unwrap();
+        let passive = &d.passive;
+        let out = passive.require_node("out").unwrap();
+        let (lo, hi) = d.view_hz();
+        let grid = noise_band_grid(lo, hi);
+        let s = output_noise(passive, out, &grid, &OpAmpNoise::NOISELESS, T_K).unwrap();
+        // Z_out by a forward solve: the source shorted (AC 0), a test
+        // source Vt behind Rt at the output, V(out)/V(t) = Z / (Z + Rt).
+        let mut probe = passive.clone();
+        for e in &mut probe.elements {
+            if let Element::VoltageSource { ac_volt, .. } = e {
+                *ac_volt = 0.0;
+            }
+        }
+        let t = probe.node("t");
+        probe
+            .add(Element::VoltageSource {
+                name: "VT".into(),
+                pos: t,
+                neg: 0,
+                ac_volt: 1.0,
+            })
+            .unwrap();
+        let rt = 1e3;
+        probe
+            .add(Element::Resistor {
+                name: "RT".into(),
+                a: t,
+                b: out,
+                ohm: rt,
+            })
+            .unwrap();
+        let mut system = AcSystem::new(&probe).unwrap();
+        for (k, &f) in grid.iter().enumerate() {
+            let h = system.transfer(f, out, t).unwrap();
+            let z = rt * h / (1.0 - h);
+            let want = four_kt() * z.re;
+            let got = s.total_v2_per_hz[k];
+            assert!(
+                (got / want - 1.0).abs() < 1e-9,
+                "{file} at {f} Hz: {got} against {want}"
+            );
+        }
+    }
+}
+
+/// A noisy op-amp for the comparisons: 5 nV/sqrt(Hz) with a 10 Hz corner,
+/// 1 pA/sqrt(Hz) with a 200 Hz corner.
+const TEST_OPAMP: OpAmpNoise = OpAmpNoise {
+    en_v_per_rthz: 5e-9,
+    en_corner_hz: 10.0,
+    in_a_per_rthz: 1e-12,
+    in_corner_hz: 200.0,
+};
+
+/// Worst difference, dB, between nocoil's output noise density and
+/// ngspice's `.noise` on the deck nocoil writes, over the deck's grid.
+fn worst_against_ngspice(n: &Netlist, from_hz: f64, to_hz: f64) -> f64 {
+    let sweep = AcSweep {
+        points_per_decade: 20,
+        start_hz: from_hz,
+        stop_hz: to_hz,
+    };
+    let noise = DeckNoise {
+        opamp: TEST_OPAMP,
+        temperature_k: T_K,
+    };
+    let plot = ngspice_plot(&noise_deck(n, &sweep, &noise).unwrap(), "Noise Spectral");
+    let freq: Vec<f64> = plot.vector("frequency").iter().map(|z| z.re).collect();
+    let theirs: Vec<f64> = plot
+        .vector("onoise_spectrum")
+        .iter()
+        .map(|z| z.re)
+        .collect();
+    let out = n.require_node("out").unwrap();
+    let ours = output_noise(n, out, &freq, &TEST_OPAMP, T_K).unwrap();
+    freq.iter()
+        .zip(&theirs)
+        .zip(&ours.total_v2_per_hz)
+        .map(|((_, &t), &o)| (10.0 * o.log10() - 20.0 * t.log10()).abs())
+        .fold(0.0, f64::max)
+}
+
+/// ngspice's noise analysis on the decks of a lowpass (FDNR), a highpass
+/// and a bandpass (GIC), all three builds: the output density within
+/// [`NGSPICE_NOISE_DB`] at every point of its grid.
+#[test]
+fn output_noise_matches_ngspice_on_every_build() {
+    for file in [
+        "examples/vibration-antialias.toml",
+        "examples/rumble-highpass.toml",
+        "examples/birdsong-bandpass.toml",
+    ] {
+        let d =
+            nocoil::design::design(&nocoil::spec::Spec::load(std::path::Path::new(file)).unwrap())
+                .unwrap();
+        let a = d.active().unwrap();
+        let (lo, hi) = d.view_hz();
+        for (build, n) in [
+            ("passive ideal", &d.passive),
+            ("active exact", &a.build.netlist),
+            ("active on parts", &a.on_parts.netlist),
+        ] {
+            let worst = worst_against_ngspice(n, lo / 10.0, hi);
+            eprintln!("{file} {build}: worst {worst:.2e} dB");
+            assert!(worst < NGSPICE_NOISE_DB, "{file} {build}: {worst} dB");
+        }
+    }
+}
+
+/// See [`output_noise_matches_ngspice_on_every_build`]. Measured: 1.5e-6
+/// dB on every build, which is ngspice's Boltzmann constant (the 2014
+/// CODATA value, 1.38064852e-23 J/K, 3.5e-7 below the exact SI one this
+/// project uses); 1e-4 dB leaves room for its solver's rounding, far
+/// inside the 0.1 dB the noise analysis was asked to hold.
+const NGSPICE_NOISE_DB: f64 = 1e-4;
+
+/// ngspice's integrated output noise over a band (its power-law
+/// integration between its points, 50 per decade: ngspice 39 gives NaN
+/// for this deck at 100 per decade and on a 2,000-point linear grid,
+/// measured) against nocoil's
+/// trapezoidal rule in ln f on its own grid over the same band: within
+/// [`NGSPICE_TOTAL_DB`].
+#[test]
+fn integrated_noise_matches_ngspice() {
+    for file in [
+        "examples/vibration-antialias.toml",
+        "examples/birdsong-bandpass.toml",
+    ] {
+        let d =
+            nocoil::design::design(&nocoil::spec::Spec::load(std::path::Path::new(file)).unwrap())
+                .unwrap();
+        let a = d.active().unwrap();
+        let (lo, hi) = d.view_hz();
+        let n = &a.on_parts.netlist;
+        let sweep = AcSweep {
+            points_per_decade: 50,
+            start_hz: lo,
+            stop_hz: hi,
+        };
+        let noise = DeckNoise {
+            opamp: TEST_OPAMP,
+            temperature_k: T_K,
+        };
+        let plots = crate::util::ngspice_run(&noise_deck(n, &sweep, &noise).unwrap());
+        let spectrum = plots
+            .iter()
+            .find(|p| p.name.starts_with("Noise Spectral"))
+            .unwrap();
+        let freq: Vec<f64> = spectrum.vector("frequency").iter().map(|z| z.re).collect();
+        let total = plots
+            .iter()
+            .find(|p| p.name.starts_with("Integrated Noise"))
+            .unwrap();
+        let theirs = total.vector("v(onoise_total)")[0].re;
+        let grid = noise_band_grid(freq[0], freq[freq.len() - 1]);
+        let out = n.require_node("out").unwrap();
+        let ours = integrate(
+            &grid,
+            &output_noise(n, out, &grid, &TEST_OPAMP, T_K)
+                .unwrap()
+                .total_v2_per_hz,
+            |_| 1.0,
+        )
+        .sqrt();
+        let db = 20.0 * (ours / theirs).log10();
+        eprintln!("{file}: {ours:e} V against {theirs:e} V, {db:.2e} dB");
+        assert!(db.abs() < NGSPICE_TOTAL_DB, "{file}: {db} dB");
+    }
+}
+
+/// See [`integrated_noise_matches_ngspice`]: the issue asks 0.1 dB.
+const NGSPICE_TOTAL_DB: f64 = 0.1;
