@@ -86,7 +86,7 @@ fn sample_mask() -> Vec<MaskBox> {
 fn trace(label: &str, freq: &[f64], values: Vec<f64>, dashed: bool) -> Trace {
     Trace {
         label: label.into(),
-        freq_hz: freq.to_vec(),
+        x: freq.to_vec(),
         values,
         dashed,
     }
@@ -151,7 +151,7 @@ fn sample_charts() -> Vec<(&'static str, Chart)> {
         mask: sample_mask(),
         band: Some(Band {
             label: "active build".into(),
-            freq_hz: f.clone(),
+            x: f.clone(),
             min: (0..f.len())
                 .map(|i| spread.iter().map(|s| s[i]).fold(f64::INFINITY, f64::min))
                 .collect(),
@@ -495,19 +495,19 @@ fn bad_chart_data_is_refused_with_the_offending_values() {
         }
     );
     assert_eq!(
-        with(&|c| c.traces[0].freq_hz[2] = 50.0),
+        with(&|c| c.traces[0].x[2] = 50.0),
         PlotError::Frequency {
             series: "a".into(),
             index: 2,
-            freq_hz: 50.0
+            x: 50.0
         }
     );
     assert_eq!(
-        with(&|c| c.traces[0].freq_hz[0] = 0.0),
+        with(&|c| c.traces[0].x[0] = 0.0),
         PlotError::Frequency {
             series: "a".into(),
             index: 0,
-            freq_hz: 0.0
+            x: 0.0
         }
     );
     assert_eq!(
@@ -556,7 +556,7 @@ fn bad_chart_data_is_refused_with_the_offending_values() {
     // A linear axis takes 0 Hz.
     let mut linear = good.clone();
     linear.log_x = false;
-    linear.traces[0].freq_hz[0] = 0.0;
+    linear.traces[0].x[0] = 0.0;
     assert!(plot::svg(&linear, 800, 500).is_ok());
 }
 

@@ -122,6 +122,10 @@ pub struct Analyses {
     pub active_on_parts_verdict: MaskVerdict,
     /// The builds against the delay specification, when there is one.
     pub delay: Option<DelayFigures>,
+    /// Output noise of the three builds and the dynamic range.
+    pub noise: super::NoiseFigures,
+    /// Step responses of the three builds.
+    pub step: super::StepReport,
 }
 
 /// The three builds against the `[delay]` specification.
@@ -412,6 +416,8 @@ impl Design {
             active_exact_verdict: self.verdict(&active.build.netlist)?,
             active_on_parts_verdict: self.verdict(parts)?,
             delay: self.delay_figures(active)?,
+            noise: self.noise_figures(active)?,
+            step: self.step_report(active)?,
         })
     }
 }

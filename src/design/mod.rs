@@ -29,6 +29,7 @@ use std::path::PathBuf;
 
 mod analyses;
 mod builds;
+mod dynamics;
 mod order;
 mod report;
 
@@ -38,6 +39,10 @@ pub use analyses::{
     WORST_TRIALS,
 };
 pub use builds::{ActiveDesign, BuildFigures, TopOfRange};
+pub use dynamics::{
+    BuildNoise, Contribution, DynamicRange, Headroom, NoiseChart, NoiseFigures, StepChart,
+    StepReport, NOISE_CHART_POINTS, STEP_CHART_POINTS, TOP_CONTRIBUTORS,
+};
 pub use order::{order_table, OrderRow, OrderTable};
 pub use report::{ActiveReport, Documents, NormalizedElement, Outcome, Report, ScaledElement};
 

@@ -53,6 +53,10 @@ pub struct ActiveReport {
     pub opamp: OpAmpModel,
     /// The op-amps' largest output swing, V peak.
     pub swing_v_peak: f64,
+    /// The op-amps' input noise.
+    pub opamp_noise: crate::circuit::OpAmpNoise,
+    /// The op-amps' slew rate, V/s.
+    pub slew_v_per_s: f64,
     /// Number of op-amps.
     pub opamps: usize,
     /// Number of capacitors.
@@ -167,6 +171,10 @@ pub struct Outcome {
     pub boards_over_delay: usize,
     /// The three builds against the `[delay]` specification, if any.
     pub delay: Option<DelayFigures>,
+    /// Output noise of the three builds and the dynamic range.
+    pub noise: super::NoiseFigures,
+    /// Step responses of the three builds.
+    pub step: super::StepReport,
     /// The seed of the draws.
     pub seed: u64,
     /// When the design file gave no trial count and the default was
@@ -281,6 +289,8 @@ impl Design {
                 why: b.why.clone(),
                 opamp: self.spec.opamp.model,
                 swing_v_peak: self.spec.opamp.swing_v,
+                opamp_noise: self.spec.opamp.noise,
+                slew_v_per_s: self.spec.opamp.slew_v_per_s,
                 opamps: b.opamps,
                 capacitors: b.capacitors,
                 capacitor_spread: b.capacitor_spread,
@@ -313,6 +323,8 @@ impl Design {
             boards_unstable: mc.unstable,
             boards_over_delay: mc.delay_failed,
             delay: analyses.delay.clone(),
+            noise: analyses.noise.clone(),
+            step: analyses.step.clone(),
             seed: self.spec.montecarlo.seed,
             boards_shortened_for_opamps: self.trials_shortened_for(active),
         };

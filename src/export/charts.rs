@@ -82,7 +82,7 @@ pub fn design_charts(d: &Documents) -> Vec<NamedChart> {
     let f = &t.freq_hz;
     let trace = |label: String, values: Vec<f64>, dashed: bool| Trace {
         label,
-        freq_hz: f.clone(),
+        x: f.clone(),
         values,
         dashed,
     };
@@ -211,13 +211,13 @@ pub fn design_charts(d: &Documents) -> Vec<NamedChart> {
             chart: Chart {
                 traces: vec![Trace {
                     label: format!("{}, nominal parts", Build::ActiveOnParts),
-                    freq_hz: mc.freq_hz.clone(),
+                    x: mc.freq_hz.clone(),
                     values: mc.nominal_db.clone(),
                     dashed: true,
                 }],
                 band: Some(Band {
                     label: format!("{} boards", mc.trials),
-                    freq_hz: mc.freq_hz.clone(),
+                    x: mc.freq_hz.clone(),
                     min: mc.envelope.min_db.clone(),
                     median: mc.envelope.median_db.clone(),
                     max: mc.envelope.max_db.clone(),
@@ -227,10 +227,81 @@ pub fn design_charts(d: &Documents) -> Vec<NamedChart> {
                 ..base("Monte Carlo envelope, active on parts", "gain (dB)")
             },
         },
+        noise_chart(d),
+        step_chart(d),
     ]
     .into_iter()
     // A chart with nothing to draw is left out: a build without op-amps
     // (a first-order passive section) has no output levels.
     .filter(|c| !c.chart.traces.is_empty() || c.chart.band.is_some())
     .collect()
+}
+
+/// dB re 1 V/sqrt(Hz) of a density: the noise chart's y axis, whose
+/// densities span decades (nV to mV per root hertz).
+fn density_db(v: &[f64]) -> Vec<f64> {
+    v.iter().map(|d| 20.0 * d.log10()).collect()
+}
+
+/// The output noise densities of the three builds and the top sources of
+/// the active on parts build.
+fn noise_chart(d: &Documents) -> NamedChart {
+    let n = &d.analyses.noise.chart;
+    let trace = |label: String, values: &[f64], dashed: bool| Trace {
+        label,
+        x: n.freq_hz.clone(),
+        values: density_db(values),
+        dashed,
+    };
+    let mut traces = vec![
+        trace(Build::PassiveIdeal.to_string(), &n.passive_ideal, false),
+        trace(Build::ActiveExact.to_string(), &n.active_exact, true),
+        trace(Build::ActiveOnParts.to_string(), &n.active_on_parts, true),
+    ];
+    traces.extend(n.top.iter().take(CHART_SOURCES).map(|(name, kind, v)| {
+        trace(format!("{}: {name} {kind}", Build::ActiveOnParts), v, false)
+    }));
+    NamedChart {
+        stem: "noise",
+        caption: "Output noise density of the three builds and the largest sources of the active on parts build",
+        chart: Chart {
+            title: "Output noise".to_string(),
+            x_label: "frequency (Hz)".to_string(),
+            y_label: "noise density (dB re 1 V/sqrt(Hz))".to_string(),
+            log_x: true,
+            traces,
+            ..Chart::default()
+        },
+    }
+}
+
+/// Sources of the build on parts drawn beside the three builds' totals.
+const CHART_SOURCES: usize = 3;
+
+/// The responses of the three builds to a 1 V step.
+fn step_chart(d: &Documents) -> NamedChart {
+    let s = &d.analyses.step.chart;
+    let ms: Vec<f64> = s.time_s.iter().map(|t| t * 1e3).collect();
+    let trace = |build: Build, values: &[f64], dashed: bool| Trace {
+        label: build.to_string(),
+        x: ms.clone(),
+        values: values.to_vec(),
+        dashed,
+    };
+    NamedChart {
+        stem: "step",
+        caption: "Response of the three builds to a 1 V step at the input",
+        chart: Chart {
+            title: "Step response".to_string(),
+            x_label: "time (ms)".to_string(),
+            y_label: "output (V)".to_string(),
+            log_x: false,
+            traces: vec![
+                trace(Build::PassiveIdeal, &s.passive_ideal, false),
+                trace(Build::ActiveExact, &s.active_exact, true),
+                trace(Build::ActiveOnParts, &s.active_on_parts, true),
+            ],
+            ..Chart::default()
+        },
+    }
 }

@@ -68,10 +68,15 @@ const BLOCK_ROWS: usize = 4096;
 /// rows are written on rayon's threads; the text does not depend on
 /// their number.
 pub fn sweep_csv(freqs_hz: &[f64], columns: &[(&str, &[f64])]) -> Result<String, CsvError> {
-    check(freqs_hz, columns)?;
-    let mut out =
-        String::with_capacity((freqs_hz.len() + 1) * (columns.len() + 1) * (NUMBER_BYTES + 1));
-    emit(freqs_hz, columns, &mut |text| {
+    series_csv(FREQ_COLUMN, freqs_hz, columns)
+}
+
+/// [`sweep_csv`] with another first column than `freq_hz` (a time
+/// series: `time_s`).
+pub fn series_csv(first: &str, x: &[f64], columns: &[(&str, &[f64])]) -> Result<String, CsvError> {
+    check(x, columns)?;
+    let mut out = String::with_capacity((x.len() + 1) * (columns.len() + 1) * (NUMBER_BYTES + 1));
+    emit(first, x, columns, &mut |text| {
         out.push_str(text);
         Ok(())
     })
@@ -87,7 +92,7 @@ pub fn write_sweep_csv<W: std::io::Write + ?Sized>(
     columns: &[(&str, &[f64])],
 ) -> Result<(), CsvError> {
     check(freqs_hz, columns)?;
-    emit(freqs_hz, columns, &mut |text| {
+    emit(FREQ_COLUMN, freqs_hz, columns, &mut |text| {
         out.write_all(text.as_bytes())
     })
     .map_err(write_error)
@@ -100,7 +105,7 @@ pub fn csv_header(names: &[&str]) -> Result<String, CsvError> {
     let columns: Vec<(&str, &[f64])> = names.iter().map(|&n| (n, &[][..])).collect();
     check(&[], &columns)?;
     let mut header = String::new();
-    emit(&[], &columns, &mut |text| {
+    emit(FREQ_COLUMN, &[], &columns, &mut |text| {
         header.push_str(text);
         Ok(())
     })
@@ -152,11 +157,12 @@ fn check(freqs_hz: &[f64], columns: &[(&str, &[f64])]) -> Result<(), CsvError> {
 /// one block of rows per rayon thread written in parallel into buffers
 /// that every round reuses.
 fn emit(
+    first: &str,
     freqs_hz: &[f64],
     columns: &[(&str, &[f64])],
     sink: &mut dyn FnMut(&str) -> std::io::Result<()>,
 ) -> std::io::Result<()> {
-    let mut header = String::from(FREQ_COLUMN);
+    let mut header = String::from(first);
     for (name, _) in columns {
         header.push(',');
         header.push_str(name);

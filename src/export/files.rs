@@ -8,8 +8,9 @@ use super::charts::design_charts;
 use super::html::Figure;
 use super::page::design_page;
 use super::plot::{self, PlotError, PngOutput};
-use super::spice::{deck, AcSweep, SpiceError};
-use super::tables::{envelope_csv, sensitivity_csv};
+use super::spice::{deck, exported_deck, AcSweep, DeckNoise, SpiceError};
+use crate::circuit::OpAmpNoise;
+use super::tables::{envelope_csv, noise_csv, sensitivity_csv, step_csv};
 use crate::design::{Build, Design, Documents};
 use crate::realize::{soldered, PartsSnapError};
 use std::io::Write as _;
@@ -42,6 +43,9 @@ pub enum ExportError {
     /// A SPICE deck.
     #[error("writing a SPICE deck: {0}")]
     Spice(#[from] SpiceError),
+    /// A numeric table could not be written.
+    #[error("table: {0}")]
+    Csv(#[from] super::csv::CsvError),
     /// A chart.
     #[error("drawing a chart: {0}")]
     Plot(#[from] PlotError),
@@ -79,6 +83,8 @@ pub fn document_files(d: &Documents) -> Result<Vec<OutputFile>, ExportError> {
         "montecarlo.csv",
         envelope_csv(&d.analyses.montecarlo).into_bytes(),
     ));
+    files.push(file("noise.csv", noise_csv(&d.analyses.noise)?.into_bytes()));
+    files.push(file("step.csv", step_csv(&d.analyses.step)?.into_bytes()));
     files.push(file(
         "sensitivity.csv",
         sensitivity_csv(Build::ActiveOnParts, &d.analyses.sensitivity).into_bytes(),
@@ -115,10 +121,18 @@ pub fn design_files(d: &Documents) -> Result<Vec<OutputFile>, ExportError> {
         Build::ActiveOnParts,
         d.report.design_file
     );
+    let noise = DeckNoise {
+        opamp: d
+            .report
+            .active
+            .as_ref()
+            .map_or(OpAmpNoise::NOISELESS, |a| a.opamp_noise),
+        temperature_k: d.analyses.noise.temperature_k,
+    };
     let mut files = vec![
-        file("passive.cir", deck(&d.passive_ideal, &sweep)?.into_bytes()),
-        file("active.cir", deck(&exact, &sweep)?.into_bytes()),
-        file("built.cir", deck(&built, &sweep)?.into_bytes()),
+        file("passive.cir", exported_deck(&d.passive_ideal, &sweep, &noise)?.into_bytes()),
+        file("active.cir", exported_deck(&exact, &sweep, &noise)?.into_bytes()),
+        file("built.cir", exported_deck(&built, &sweep, &noise)?.into_bytes()),
         file(
             "report.json",
             serde_json::to_string_pretty(&d.report)?.into_bytes(),

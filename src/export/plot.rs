@@ -67,14 +67,16 @@ pub const PALETTE: [(u8, u8, u8); 8] = [
 /// limit, and as a light tint over the forbidden region.
 pub const MASK_COLOR: (u8, u8, u8) = (200, 40, 40);
 
-/// One curve over frequency.
+/// One curve over the chart's x axis (frequency, or time on a step
+/// chart).
 #[derive(Debug, Clone, PartialEq, Default)]
 pub struct Trace {
     /// Legend text.
     pub label: String,
-    /// Frequencies, Hz: finite, strictly increasing (> 0 on a log axis).
-    pub freq_hz: Vec<f64>,
-    /// One value per frequency, in the chart's y unit. NaN and -inf are
+    /// The x values in the axis's unit (Hz on a frequency chart): finite,
+    /// strictly increasing (> 0 on a log axis).
+    pub x: Vec<f64>,
+    /// One value per x, in the chart's y unit. NaN and -inf are
     /// drawn at the bottom of the chart, +inf at the top.
     pub values: Vec<f64>,
     /// Dashed instead of solid, so two nearly equal curves overlaid (a
@@ -104,8 +106,8 @@ pub struct Band {
     /// Legend text; the legend shows "`label` median" and
     /// "`label` min to max".
     pub label: String,
-    /// Frequencies, Hz, as for [`Trace::freq_hz`].
-    pub freq_hz: Vec<f64>,
+    /// The x values, as for [`Trace::x`].
+    pub x: Vec<f64>,
     /// Lower envelope, one value per frequency.
     pub min: Vec<f64>,
     /// Median, one value per frequency.
@@ -166,16 +168,16 @@ pub enum PlotError {
         /// Number of values (of the first mismatching column of a band).
         values_len: usize,
     },
-    /// A frequency is not finite, not increasing, or not positive on a
+    /// An x value is not finite, not increasing, or not positive on a
     /// log axis.
-    #[error("{series:?}: frequency {freq_hz} Hz at index {index}: need finite, strictly increasing frequencies, > 0 on a log axis")]
+    #[error("{series:?}: x value {x} at index {index}: need finite, strictly increasing x values, > 0 on a log axis")]
     Frequency {
         /// Label of the trace or band.
         series: String,
-        /// Index of the offending frequency.
+        /// Index of the offending value.
         index: usize,
-        /// The offending frequency.
-        freq_hz: f64,
+        /// The offending value.
+        x: f64,
     },
     /// No trace or band has a point.
     #[error("chart {title:?} has nothing to draw: need a trace or band with at least one point")]
@@ -340,11 +342,11 @@ fn series(chart: &Chart) -> Result<Vec<Series<'_>>, PlotError> {
     let mut all: Vec<Series<'_>> = chart
         .traces
         .iter()
-        .map(|t| (t.label.as_str(), &t.freq_hz[..], &t.values[..]))
+        .map(|t| (t.label.as_str(), &t.x[..], &t.values[..]))
         .collect();
     if let Some(b) = &chart.band {
         for column in [&b.min, &b.median, &b.max] {
-            all.push((b.label.as_str(), &b.freq_hz[..], &column[..]));
+            all.push((b.label.as_str(), &b.x[..], &column[..]));
         }
     }
     for &(label, freq, values) in &all {
@@ -371,10 +373,10 @@ fn check_series(label: &str, freq: &[f64], values: &[f64], log_x: bool) -> Resul
         .enumerate()
         .find(|&(i, &f)| !f.is_finite() || (log_x && f <= 0.0) || (i > 0 && f <= freq[i - 1]));
     match bad {
-        Some((index, &freq_hz)) => Err(PlotError::Frequency {
+        Some((index, &x)) => Err(PlotError::Frequency {
             series: label.to_string(),
             index,
-            freq_hz,
+            x,
         }),
         None => Ok(()),
     }

@@ -419,9 +419,14 @@ fn analysis_line(analysis: Analysis) -> Result<String, SpiceError> {
             dec_grid(sweep)?
         )),
         // ngspice's noise analysis: the output noise density at V(out)
-        // and the input-referred one, per point, then their integrals.
+        // and the input-referred one, per point, then their integrals
+        // (`all`: naming the vectors makes ngspice 39 warn that it cannot
+        // parse them, though it prints them).
         Analysis::Noise(sweep, source) => Ok(format!(
-            ".noise v(out) {source} {}\n.print noise onoise_spectrum inoise_spectrum",
+            "* ngspice integrates each source's density as a power law between\n\
+             * points: where one changes by orders of magnitude between two (a\n\
+             * transmission zero), its totals can come out NaN; the spectra hold\n\
+             .noise v(out) {source} {}\n.print noise all",
             dec_grid(sweep)?
         )),
         Analysis::Step(&StepResponse { step_s, stop_s }) => {

@@ -6,7 +6,9 @@
 use super::prose::db;
 use crate::analysis::{MonteCarloResult, OpAmpLevel, Parameter, SensitivitySummary};
 use crate::approx::ApproxError;
-use crate::design::{Build, OrderTable};
+use crate::design::{Build, NoiseFigures, OrderTable, StepReport};
+use super::csv::{series_csv, sweep_csv, CsvError};
+use crate::spec::as_written;
 use std::fmt::Write as _;
 
 /// Sensitivities of `build` as CSV: designator, quantity, and dB per %
@@ -175,3 +177,57 @@ fn too_high(s: &mut String, name: &str, needed: f64, max: usize) -> std::fmt::Re
 /// The width of the family column: the longest design-file name,
 /// "inverse_chebyshev", and a space.
 const NAME_WIDTH: usize = 18;
+
+/// Output noise densities as CSV: `freq_hz`, the passive ideal, the
+/// active exact and the active on parts builds (V/sqrt(Hz)), then one
+/// column per top source of the active on parts build, named
+/// `active_on_parts_<designator>_<kind>_v_per_rthz`.
+pub fn noise_csv(n: &NoiseFigures) -> Result<String, CsvError> {
+    let c = &n.chart;
+    let names: Vec<String> = c
+        .top
+        .iter()
+        .map(|(name, kind, _)| {
+            format!(
+                "{}_{name}_{}_v_per_rthz",
+                as_written(&Build::ActiveOnParts),
+                as_written(kind)
+            )
+        })
+        .collect();
+    let builds = [
+        (Build::PassiveIdeal, &c.passive_ideal),
+        (Build::ActiveExact, &c.active_exact),
+        (Build::ActiveOnParts, &c.active_on_parts),
+    ];
+    let build_names: Vec<String> = builds
+        .iter()
+        .map(|(b, _)| format!("{}_v_per_rthz", as_written(b)))
+        .collect();
+    let mut columns: Vec<(&str, &[f64])> = builds
+        .iter()
+        .zip(&build_names)
+        .map(|((_, v), name)| (name.as_str(), v.as_slice()))
+        .collect();
+    columns.extend(c.top.iter().zip(&names).map(|((_, _, v), name)| (name.as_str(), v.as_slice())));
+    sweep_csv(&c.freq_hz, &columns)
+}
+
+/// Step responses as CSV: `time_s`, then the passive ideal, the active
+/// exact and the active on parts outputs for a 1 V step at the input.
+pub fn step_csv(s: &StepReport) -> Result<String, CsvError> {
+    let c = &s.chart;
+    let names: Vec<String> = [Build::PassiveIdeal, Build::ActiveExact, Build::ActiveOnParts]
+        .iter()
+        .map(|b| format!("{}_v", as_written(b)))
+        .collect();
+    series_csv(
+        "time_s",
+        &c.time_s,
+        &[
+            (&names[0], &c.passive_ideal),
+            (&names[1], &c.active_exact),
+            (&names[2], &c.active_on_parts),
+        ],
+    )
+}

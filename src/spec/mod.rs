@@ -18,7 +18,7 @@ pub use raw::{as_written, HALF_POWER_DB};
 
 use crate::active::{Method, Refine};
 use crate::approx::Family;
-use crate::circuit::OpAmpModel;
+use crate::circuit::{OpAmpModel, OpAmpNoise};
 use crate::parts::{ImpedanceLevel, PartsChoice};
 use crate::synth::Form;
 use crate::transform::Band;
@@ -46,7 +46,23 @@ pub struct OpAmpSpec {
     /// Largest output swing, V peak (default 10 V, a +-15 V supply less
     /// the usual headroom).
     pub swing_v: f64,
+    /// Input noise (default [`DEFAULT_OPAMP_NOISE`]).
+    pub noise: OpAmpNoise,
+    /// Slew rate, V/s (default 10 V/us).
+    pub slew_v_per_s: f64,
 }
+
+/// The input noise of the default op-amp: a generic modern low-noise
+/// audio op-amp of this project's choosing, an assumption and not any
+/// part's data: 5 nV/sqrt(Hz) with a 1/f corner at 10 Hz, 1 pA/sqrt(Hz)
+/// with its corner at 100 Hz (the magnitudes a bipolar-input low-noise
+/// op-amp's data sheet quotes, common practice).
+pub const DEFAULT_OPAMP_NOISE: OpAmpNoise = OpAmpNoise {
+    en_v_per_rthz: 5e-9,
+    en_corner_hz: 10.0,
+    in_a_per_rthz: 1e-12,
+    in_corner_hz: 100.0,
+};
 
 impl Default for OpAmpSpec {
     /// A general-purpose audio op-amp of the common kind.
@@ -58,6 +74,51 @@ impl Default for OpAmpSpec {
                 output_ohm: 0.0,
             },
             swing_v: 10.0,
+            noise: DEFAULT_OPAMP_NOISE,
+            slew_v_per_s: 10e6,
+        }
+    }
+}
+
+/// How integrated noise is weighted.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, serde::Serialize, serde::Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Weighting {
+    /// Every frequency counts alike.
+    #[default]
+    None,
+    /// The A-weighting of IEC 61672-1.
+    A,
+}
+
+impl std::fmt::Display for Weighting {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self {
+            Weighting::None => "unweighted",
+            Weighting::A => "A-weighted",
+        })
+    }
+}
+
+/// The `[noise]` table: how noise is integrated.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct NoiseSpec {
+    /// Temperature of every resistor, K (default 300).
+    pub temperature_k: f64,
+    /// The band the noise is integrated over, Hz; `None`: the passband
+    /// (from a thousandth of the edge for a lowpass, to ten times the
+    /// edge for a highpass).
+    pub band_hz: Option<[f64; 2]>,
+    /// The weighting of the integral (default none).
+    pub weighting: Weighting,
+}
+
+impl Default for NoiseSpec {
+    fn default() -> NoiseSpec {
+        NoiseSpec {
+            temperature_k: 300.0,
+            band_hz: None,
+            weighting: Weighting::None,
         }
     }
 }
@@ -178,6 +239,11 @@ pub struct Spec {
     pub montecarlo: MonteCarloSpec,
     /// A bound on the group-delay spread (the `[delay]` table), if any.
     pub delay: Option<DelaySpec>,
+    /// How noise is integrated.
+    pub noise: NoiseSpec,
+    /// The resolution of the converter after the filter (`[adc] bits`),
+    /// for the time to settle within half an LSB.
+    pub adc_bits: Option<u32>,
 }
 
 /// The `[delay]` table: the group-delay spread the boards must keep.

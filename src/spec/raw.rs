@@ -2,12 +2,12 @@
 //! then the checks that turn them into a [`Spec`].
 
 use super::{
-    ActiveSpec, DelaySpec, FrequencyScale, MonteCarloSpec, OpAmpSpec, PrototypeSource, Spec,
-    SpecError, SpreadBound, MAX_TRIALS,
+    ActiveSpec, DelaySpec, FrequencyScale, MonteCarloSpec, NoiseSpec, OpAmpSpec, PrototypeSource,
+    Spec, SpecError, SpreadBound, Weighting, MAX_TRIALS,
 };
 use crate::active::{Method, Refine};
 use crate::approx::{self, BesselScale, Family};
-use crate::circuit::{OpAmpKind, OpAmpModel};
+use crate::circuit::{OpAmpKind, OpAmpModel, OpAmpNoise};
 use crate::parts::{Distribution, ImpedanceLevel, PartsChoice, Series, MAX_TOLERANCE};
 use crate::synth::{self, Form};
 use crate::transform::{check_levels, Band, Kind, MaskField, MaskProblem, TERMINATION_RANGE_OHM};
@@ -32,6 +32,24 @@ struct RawSpec {
     #[serde(default)]
     montecarlo: RawMonteCarlo,
     delay: Option<RawDelay>,
+    #[serde(default)]
+    noise: RawNoise,
+    adc: Option<RawAdc>,
+}
+
+#[derive(Deserialize, Default)]
+#[serde(deny_unknown_fields)]
+struct RawNoise {
+    #[serde(default, deserialize_with = "number")]
+    temperature_k: Option<f64>,
+    band_hz: Option<toml::Value>,
+    weighting: Option<Weighting>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawAdc {
+    bits: Option<i64>,
 }
 
 #[derive(Deserialize)]
@@ -91,6 +109,16 @@ struct RawOpAmp {
     output_ohm: Option<f64>,
     #[serde(default, deserialize_with = "number")]
     swing_v: Option<f64>,
+    #[serde(default, deserialize_with = "number")]
+    en_v_per_rthz: Option<f64>,
+    #[serde(default, deserialize_with = "number")]
+    en_corner_hz: Option<f64>,
+    #[serde(default, deserialize_with = "number")]
+    in_a_per_rthz: Option<f64>,
+    #[serde(default, deserialize_with = "number")]
+    in_corner_hz: Option<f64>,
+    #[serde(default, deserialize_with = "number")]
+    slew_v_per_s: Option<f64>,
 }
 
 #[derive(Deserialize)]
@@ -270,6 +298,22 @@ pub(super) fn parse(file: &Path, text: &str) -> Result<Spec, SpecError> {
         Some(d) => Some(delay(&c, d)?),
         None => None,
     };
+    let noise = noise(&c, &raw.noise)?;
+    let adc_bits = match &raw.adc {
+        None => None,
+        Some(RawAdc { bits: Some(n) }) if ADC_BITS.contains(n) => Some(*n as u32),
+        Some(RawAdc { bits }) => {
+            return Err(c.invalid(
+                "adc.bits",
+                bits.map_or("(missing)".to_string(), |n| n.to_string()),
+                format!(
+                    "expected the converter's resolution, a whole number of bits from {} to {}",
+                    ADC_BITS.start(),
+                    ADC_BITS.end()
+                ),
+            ))
+        }
+    };
     // The passband margin tightens the ripple limit; at or beyond the
     // ripple the limit would sit above the passband level, which no
     // board reaches.
@@ -306,6 +350,43 @@ pub(super) fn parse(file: &Path, text: &str) -> Result<Spec, SpecError> {
         parts,
         montecarlo,
         delay,
+        noise,
+        adc_bits,
+    })
+}
+
+/// Converter resolutions `[adc] bits` may give: half an LSB of 32 bits
+/// is 1e-10 of full scale, beyond any analog filter's settling.
+const ADC_BITS: std::ops::RangeInclusive<i64> = 1..=32;
+
+/// Temperatures `[noise] temperature_k` may give, K: from liquid helium
+/// to well beyond any component's rating.
+const TEMPERATURE_RANGE_K: (f64, f64) = (1.0, 1000.0);
+
+/// The `[noise]` table.
+fn noise(c: &Checker, raw: &RawNoise) -> Result<NoiseSpec, SpecError> {
+    let d = NoiseSpec::default();
+    let temperature_k = match raw.temperature_k {
+        None => d.temperature_k,
+        Some(t) => c.within("noise.temperature_k", t, TEMPERATURE_RANGE_K, "a temperature in kelvin")?,
+    };
+    let band_hz = match &raw.band_hz {
+        None => None,
+        Some(v) => match c.edges("noise.band_hz", v)?.as_slice() {
+            &[lo, hi] if lo > 0.0 && lo < hi && hi.is_finite() => Some([lo, hi]),
+            _ => {
+                return Err(c.invalid(
+                    "noise.band_hz",
+                    v,
+                    "expected [low, high] in Hz with 0 < low < high",
+                ))
+            }
+        },
+    };
+    Ok(NoiseSpec {
+        temperature_k,
+        band_hz,
+        weighting: raw.weighting.unwrap_or(d.weighting),
     })
 }
 
@@ -658,11 +739,37 @@ fn opamp(c: &Checker, raw: &RawOpAmp) -> Result<OpAmpSpec, SpecError> {
             ))
         }
     };
+    let density = |key: &'static str, v: Option<f64>, default: f64, range: (f64, f64), what: &str| match v {
+        None => Ok(default),
+        Some(v) => c.within(key, v, range, what),
+    };
+    let noise = OpAmpNoise {
+        en_v_per_rthz: density("opamp.en_v_per_rthz", raw.en_v_per_rthz, d.noise.en_v_per_rthz, EN_RANGE, "an input voltage noise density in V/sqrt(Hz)")?,
+        en_corner_hz: density("opamp.en_corner_hz", raw.en_corner_hz, d.noise.en_corner_hz, CORNER_RANGE_HZ, "a 1/f corner in Hz")?,
+        in_a_per_rthz: density("opamp.in_a_per_rthz", raw.in_a_per_rthz, d.noise.in_a_per_rthz, IN_RANGE, "an input current noise density in A/sqrt(Hz)")?,
+        in_corner_hz: density("opamp.in_corner_hz", raw.in_corner_hz, d.noise.in_corner_hz, CORNER_RANGE_HZ, "a 1/f corner in Hz")?,
+    };
+    let slew_v_per_s = density("opamp.slew_v_per_s", raw.slew_v_per_s, d.slew_v_per_s, SLEW_RANGE_V_PER_S, "a slew rate in V/s")?;
     Ok(OpAmpSpec {
         model: OpAmpModel::from_data_sheet(kind, gbw_hz, dc_gain_db, second_pole_hz, output_ohm),
         swing_v,
+        noise,
+        slew_v_per_s,
     })
 }
+
+/// Input voltage noise densities a design file may give, V/sqrt(Hz): 0
+/// (noiseless) to 1 uV/sqrt(Hz), far above any op-amp's.
+const EN_RANGE: (f64, f64) = (0.0, 1e-6);
+
+/// Input current noise densities, A/sqrt(Hz): 0 to 1 nA/sqrt(Hz).
+const IN_RANGE: (f64, f64) = (0.0, 1e-9);
+
+/// 1/f corners, Hz: 0 (white to DC) to 1 MHz.
+const CORNER_RANGE_HZ: (f64, f64) = (0.0, 1e6);
+
+/// Slew rates, V/s: 1 V/ms to 100 V/ns.
+const SLEW_RANGE_V_PER_S: (f64, f64) = (1e3, 1e11);
 
 /// Open-loop gains beyond this (1e10) are indistinguishable from an ideal
 /// op-amp in double precision and usually a typing slip.

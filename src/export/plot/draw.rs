@@ -142,7 +142,7 @@ where
     for dashed in [true, false] {
         for (i, trace) in chart.traces.iter().enumerate() {
             if trace.dashed == dashed {
-                canvas.curve(&trace.freq_hz, &trace.values, color(i), trace.dashed)?;
+                canvas.curve(&trace.x, &trace.values, color(i), trace.dashed)?;
             }
         }
     }
@@ -249,10 +249,10 @@ where
 
     /// The shaded envelope and its median.
     fn band(&mut self, band: &Band) -> Result<(), PlotError> {
-        let mut area = self.samples(&band.freq_hz, &band.min);
-        area.extend(self.samples(&band.freq_hz, &band.max).into_iter().rev());
+        let mut area = self.samples(&band.x, &band.min);
+        area.extend(self.samples(&band.x, &band.max).into_iter().rev());
         self.fill(area, BAND.mix(BAND_ALPHA))?;
-        self.curve(&band.freq_hz, &band.median, BAND, false)
+        self.curve(&band.x, &band.median, BAND, false)
     }
 
     fn fill(&mut self, area: Vec<Point>, color: RGBAColor) -> Result<(), PlotError> {

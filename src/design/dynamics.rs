@@ -1,0 +1,381 @@
+//! The figures an audio or instrumentation designer judges a filter by
+//! beside its response: output noise (per build, with the top sources of
+//! the build on parts), dynamic range (the largest input before an op-amp
+//! clips or slews, over the input-referred noise) and the step response
+//! (overshoot, rise time, settling times).
+
+use super::{ActiveDesign, Design, DesignError};
+use crate::analysis::{
+    a_weighting, integrate, level_traces, noise_band_grid, output_noise, step_figures,
+    step_modes, NoiseKind, NoiseSpectrum, StepFigures,
+};
+use crate::circuit::{log_grid, AcSystem, Netlist};
+use crate::spec::Weighting;
+
+/// Points of the noise charts and `noise.csv`, log-spaced over the view
+/// and the noise band.
+pub const NOISE_CHART_POINTS: usize = 400;
+
+/// How many sources of the build on parts are named.
+pub const TOP_CONTRIBUTORS: usize = 5;
+
+/// Points of the step chart and `step.csv`.
+pub const STEP_CHART_POINTS: usize = 1000;
+
+/// Without a band in the design file, a lowpass passband's noise is
+/// integrated from this fraction of its edge (a band from DC has no
+/// bottom on a log scale; below it a filter's noise is the same flat
+/// density and adds nothing visible to the total).
+const FROM_DC_FRACTION: f64 = 1e-3;
+
+/// One source's share of a build's integrated output noise.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct Contribution {
+    /// The element.
+    pub designator: String,
+    /// What kind of noise.
+    pub kind: NoiseKind,
+    /// Its integrated output noise, V rms.
+    pub output_v_rms: f64,
+    /// Its share of the total output noise power, percent.
+    pub share_pct: f64,
+}
+
+/// One build's integrated noise.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct BuildNoise {
+    /// Integrated (and weighted, if asked) output noise, V rms.
+    pub output_v_rms: f64,
+    /// The same referred to the input: over the passband gain, V rms.
+    pub input_v_rms: f64,
+    /// The sources with the largest shares, largest first.
+    pub top: Vec<Contribution>,
+}
+
+/// What limits the largest input.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Headroom {
+    /// An op-amp output reaches the stated swing.
+    Swing,
+    /// An op-amp output's peak slope 2 pi f V reaches the slew rate.
+    Slew,
+}
+
+impl std::fmt::Display for Headroom {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self {
+            Headroom::Swing => "output swing",
+            Headroom::Slew => "slew rate",
+        })
+    }
+}
+
+/// The dynamic range of the active on parts build.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct DynamicRange {
+    /// The largest sine at the input before an op-amp clips or slews, V
+    /// peak.
+    pub max_input_v_peak: f64,
+    /// The op-amp that limits it.
+    pub limited_by: String,
+    /// How.
+    pub headroom: Headroom,
+    /// At which input frequency, Hz.
+    pub at_hz: f64,
+    /// The largest sine's rms over the input-referred noise, dB.
+    pub range_db: f64,
+    /// The source that dominates the noise.
+    pub noisiest: Option<String>,
+}
+
+/// The output noise of the three builds.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct NoiseFigures {
+    /// The band integrated over, Hz.
+    pub band_hz: [f64; 2],
+    /// Its weighting.
+    pub weighting: Weighting,
+    /// The resistors' temperature, K.
+    pub temperature_k: f64,
+    /// The passive ideal (its resistors only).
+    pub passive_ideal: BuildNoise,
+    /// The active exact build.
+    pub active_exact: BuildNoise,
+    /// The active on parts build.
+    pub active_on_parts: BuildNoise,
+    /// The active on parts build's dynamic range (`None` without op-amps).
+    pub dynamic_range: Option<DynamicRange>,
+    /// The densities over the chart grid.
+    #[serde(skip)]
+    pub chart: NoiseChart,
+}
+
+/// Output noise densities for the charts and `noise.csv`, V/sqrt(Hz).
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct NoiseChart {
+    /// Frequencies, Hz.
+    pub freq_hz: Vec<f64>,
+    /// The passive ideal.
+    pub passive_ideal: Vec<f64>,
+    /// The active exact build.
+    pub active_exact: Vec<f64>,
+    /// The active on parts build.
+    pub active_on_parts: Vec<f64>,
+    /// The top sources of the active on parts build: (designator, kind,
+    /// density), in the order of [`BuildNoise::top`].
+    pub top: Vec<(String, NoiseKind, Vec<f64>)>,
+}
+
+/// The step responses of the three builds.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct StepReport {
+    /// The converter resolution the half-LSB settling is for, if given.
+    pub adc_bits: Option<u32>,
+    /// The passive ideal.
+    pub passive_ideal: StepFigures,
+    /// The active exact build.
+    pub active_exact: StepFigures,
+    /// The active on parts build.
+    pub active_on_parts: StepFigures,
+    /// The responses to a 1 V step over the chart's times.
+    #[serde(skip)]
+    pub chart: StepChart,
+}
+
+/// Step responses for the chart and `step.csv`, V for a 1 V step.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct StepChart {
+    /// Times, s.
+    pub time_s: Vec<f64>,
+    /// The passive ideal.
+    pub passive_ideal: Vec<f64>,
+    /// The active exact build.
+    pub active_exact: Vec<f64>,
+    /// The active on parts build.
+    pub active_on_parts: Vec<f64>,
+}
+
+/// The integrated noise of one spectrum and its top sources.
+fn build_noise(s: &NoiseSpectrum, weighting: Weighting, passband_v: f64) -> BuildNoise {
+    let weight = |f: f64| match weighting {
+        Weighting::None => 1.0,
+        Weighting::A => a_weighting(f),
+    };
+    let total = integrate(&s.freq_hz, &s.total_v2_per_hz, weight);
+    let mut shares: Vec<(usize, f64)> = s
+        .source_v2_per_hz
+        .iter()
+        .map(|p| integrate(&s.freq_hz, p, weight))
+        .enumerate()
+        .collect();
+    shares.sort_by(|a, b| b.1.total_cmp(&a.1));
+    BuildNoise {
+        output_v_rms: total.sqrt(),
+        input_v_rms: total.sqrt() / passband_v,
+        top: shares
+            .into_iter()
+            .take(TOP_CONTRIBUTORS)
+            .map(|(i, v2)| Contribution {
+                designator: s.sources[i].designator.clone(),
+                kind: s.sources[i].kind,
+                output_v_rms: v2.sqrt(),
+                share_pct: if total > 0.0 { 100.0 * v2 / total } else { 0.0 },
+            })
+            .collect(),
+    }
+}
+
+impl Design {
+    /// The band noise is integrated over: the design file's, else the
+    /// passbands' span (a lowpass from [`FROM_DC_FRACTION`] of its edge).
+    pub fn noise_band_hz(&self) -> [f64; 2] {
+        if let Some(band) = self.spec.noise.band_hz {
+            return band;
+        }
+        let passbands = self.passbands_hz();
+        let hi = passbands.iter().map(|b| b[1]).fold(0.0, f64::max);
+        let lo = match self.spec.band {
+            crate::transform::Band::Lowpass { .. } | crate::transform::Band::Bandstop { .. } => {
+                FROM_DC_FRACTION * self.spec.band.passband_edges_hz()[0]
+            }
+            _ => passbands.iter().map(|b| b[0]).fold(f64::INFINITY, f64::min),
+        };
+        [lo, hi]
+    }
+
+    /// The passband level, V/V.
+    fn passband_v(&self) -> f64 {
+        10f64.powf(self.passband_level_db() / 20.0)
+    }
+
+    /// The output noise of `netlist` at `freqs_hz`.
+    fn noise_of(&self, netlist: &Netlist, freqs_hz: &[f64]) -> Result<NoiseSpectrum, DesignError> {
+        let out = netlist
+            .require_node("out")
+            .map_err(|cause| self.circuit_error(cause))?;
+        output_noise(
+            netlist,
+            out,
+            freqs_hz,
+            &self.spec.opamp.noise,
+            self.spec.noise.temperature_k,
+        )
+        .map_err(|cause| self.analysis_error(cause))
+    }
+
+    /// The output noise of the three builds: integrated over the noise
+    /// band, the top sources, the densities for the charts, and the
+    /// dynamic range of the build on parts.
+    pub fn noise_figures(&self, active: &ActiveDesign) -> Result<NoiseFigures, DesignError> {
+        let band_hz = self.noise_band_hz();
+        let weighting = self.spec.noise.weighting;
+        let passband_v = self.passband_v();
+        let grid = noise_band_grid(band_hz[0], band_hz[1]);
+        let builds = [&self.passive, &active.build.netlist, &active.on_parts.netlist];
+        let mut integrated = Vec::new();
+        for n in builds {
+            integrated.push(build_noise(&self.noise_of(n, &grid)?, weighting, passband_v));
+        }
+        let (lo, hi) = self.view_hz();
+        let chart_grid = log_grid(lo.min(band_hz[0]), hi.max(band_hz[1]), NOISE_CHART_POINTS)
+            .map_err(|cause| self.circuit_error(cause))?;
+        let mut densities = Vec::new();
+        let mut parts_spectrum = None;
+        for n in builds {
+            let s = self.noise_of(n, &chart_grid)?;
+            densities.push(s.total_v2_per_hz.iter().map(|p| p.sqrt()).collect::<Vec<_>>());
+            parts_spectrum = Some(s);
+        }
+        let parts_spectrum = parts_spectrum.unwrap_or_else(|| unreachable!("three builds"));
+        let [passive_ideal, active_exact, active_on_parts]: [BuildNoise; 3] = integrated
+            .try_into()
+            .unwrap_or_else(|_| unreachable!("three builds"));
+        let top = active_on_parts
+            .top
+            .iter()
+            .filter_map(|c| {
+                let i = parts_spectrum
+                    .sources
+                    .iter()
+                    .position(|s| s.designator == c.designator && s.kind == c.kind)?;
+                let density = parts_spectrum.source_v2_per_hz[i].iter().map(|p| p.sqrt()).collect();
+                Some((c.designator.clone(), c.kind, density))
+            })
+            .collect();
+        let [p, e, o]: [Vec<f64>; 3] = densities
+            .try_into()
+            .unwrap_or_else(|_| unreachable!("three builds"));
+        let dynamic_range = self.dynamic_range(active, &active_on_parts)?;
+        Ok(NoiseFigures {
+            band_hz,
+            weighting,
+            temperature_k: self.spec.noise.temperature_k,
+            passive_ideal,
+            active_exact,
+            active_on_parts,
+            dynamic_range,
+            chart: NoiseChart {
+                freq_hz: chart_grid,
+                passive_ideal: p,
+                active_exact: e,
+                active_on_parts: o,
+                top,
+            },
+        })
+    }
+
+    /// The largest sine at the input of the build on parts before an
+    /// op-amp output reaches the swing or its slope the slew rate: at
+    /// each frequency of the level grid V_in <= min(swing, SR / (2 pi f))
+    /// / |gain to that output| (common practice), over the input-referred
+    /// noise. `None` for a build without op-amps.
+    fn dynamic_range(
+        &self,
+        active: &ActiveDesign,
+        noise: &BuildNoise,
+    ) -> Result<Option<DynamicRange>, DesignError> {
+        let levels = &active.on_parts_figures.levels;
+        if levels.is_empty() {
+            return Ok(None);
+        }
+        let parts = &active.on_parts.netlist;
+        let circuit = |cause| self.circuit_error(cause);
+        let inp = parts.require_node("in").map_err(circuit)?;
+        let mut system = AcSystem::new(parts).map_err(circuit)?;
+        let (lo, hi) = self.view_hz();
+        let grid = log_grid(lo, hi, crate::analysis::LEVEL_POINTS).map_err(circuit)?;
+        let traces = level_traces(&mut system, inp, &grid, levels)
+            .map_err(|cause| self.analysis_error(cause))?;
+        let (swing, slew) = (self.spec.opamp.swing_v, self.spec.opamp.slew_v_per_s);
+        let mut best: Option<(f64, usize, Headroom, f64)> = None;
+        for (k, trace) in traces.iter().enumerate() {
+            for (&f, &gain_db) in grid.iter().zip(trace) {
+                let gain = 10f64.powf(gain_db / 20.0);
+                for (limit, headroom) in [
+                    (swing / gain, Headroom::Swing),
+                    (slew / (std::f64::consts::TAU * f * gain), Headroom::Slew),
+                ] {
+                    if best.is_none_or(|b| limit < b.0) {
+                        best = Some((limit, k, headroom, f));
+                    }
+                }
+            }
+        }
+        let Some((max_input_v_peak, k, headroom, at_hz)) = best else {
+            return Ok(None);
+        };
+        let rms = max_input_v_peak / std::f64::consts::SQRT_2;
+        Ok(Some(DynamicRange {
+            max_input_v_peak,
+            limited_by: levels[k].name.clone(),
+            headroom,
+            at_hz,
+            range_db: 20.0 * (rms / noise.input_v_rms).log10(),
+            noisiest: noise.top.first().map(|c| c.designator.clone()),
+        }))
+    }
+
+    /// The step responses of the three builds from their modes, with the
+    /// design file's converter resolution.
+    pub fn step_report(&self, active: &ActiveDesign) -> Result<StepReport, DesignError> {
+        let bits = self.spec.adc_bits;
+        let passband_v = self.passband_v();
+        let builds = [&self.passive, &active.build.netlist, &active.on_parts.netlist];
+        let mut modes = Vec::new();
+        let mut figures = Vec::new();
+        for n in builds {
+            let m = step_modes(n).map_err(|cause| self.analysis_error(cause))?;
+            figures.push(step_figures(&m, passband_v, bits));
+            modes.push(m);
+        }
+        // The chart shows the builds to one and a half times the longest
+        // settling to 0.1 % (the slow tails to 0.01 % are in the figures).
+        let span_s = 1.5
+            * figures
+                .iter()
+                .map(|f| f.settling[1].time_s)
+                .fold(0.0, f64::max)
+                .max(f64::MIN_POSITIVE);
+        let time_s: Vec<f64> = (0..STEP_CHART_POINTS)
+            .map(|k| span_s * k as f64 / (STEP_CHART_POINTS - 1) as f64)
+            .collect();
+        let trace = |i: usize| time_s.iter().map(|&t| modes[i].step_at(t)).collect();
+        let chart = StepChart {
+            passive_ideal: trace(0),
+            active_exact: trace(1),
+            active_on_parts: trace(2),
+            time_s: time_s.clone(),
+        };
+        let [passive_ideal, active_exact, active_on_parts]: [StepFigures; 3] = figures
+            .try_into()
+            .unwrap_or_else(|_| unreachable!("three builds"));
+        Ok(StepReport {
+            adc_bits: bits,
+            passive_ideal,
+            active_exact,
+            active_on_parts,
+            chart,
+        })
+    }
+}
