@@ -98,6 +98,27 @@ enum Command {
         /// The design file (TOML).
         spec: PathBuf,
     },
+    /// Print the output noise of the three builds integrated over the
+    /// passband (or the design file's [noise] band), the largest sources
+    /// and the dynamic range of the active on parts build; with --csv,
+    /// the noise densities as CSV instead.
+    Noise {
+        /// The design file (TOML).
+        spec: PathBuf,
+        /// Print the densities over frequency as CSV (noise.csv).
+        #[arg(long)]
+        csv: bool,
+    },
+    /// Print the step response of the three builds: overshoot, rise time
+    /// and settling times (and to half an LSB with [adc] bits); with
+    /// --csv, the responses over time as CSV instead.
+    Step {
+        /// The design file (TOML).
+        spec: PathBuf,
+        /// Print the responses over time as CSV (step.csv).
+        #[arg(long)]
+        csv: bool,
+    },
     /// Write the charts, sensitivity.csv, montecarlo.csv, bom.csv and
     /// report.html into a folder (no decks, no JSON).
     Report {
@@ -170,11 +191,14 @@ enum Request {
     },
 }
 
-/// The single tables a command prints as CSV.
+/// The single tables a command prints (as CSV, or as text where `csv`
+/// is false).
 enum Table {
     Bom,
     Sensitivity,
     Levels,
+    Noise { csv: bool },
+    Step { csv: bool },
 }
 
 /// A flag whose value is not accepted: exit status 2.
@@ -292,6 +316,14 @@ fn resolve(cli: Cli) -> Result<Request, FlagError> {
         Command::Levels { spec } => Request::Table {
             spec,
             table: Table::Levels,
+        },
+        Command::Noise { spec, csv } => Request::Table {
+            spec,
+            table: Table::Noise { csv },
+        },
+        Command::Step { spec, csv } => Request::Table {
+            spec,
+            table: Table::Step { csv },
         },
         Command::Report { spec, out } => Request::Report { spec, out },
         Command::Order {
@@ -545,6 +577,12 @@ fn run(request: Request) -> anyhow::Result<()> {
                 }
                 Table::Levels => {
                     tables::levels_csv(Build::ActiveOnParts, &active.on_parts_figures.levels)
+                }
+                Table::Noise { csv: true } => tables::noise_csv(&d.noise_figures(&active)?)?,
+                Table::Noise { csv: false } => summary::noise_text(&d.noise_figures(&active)?),
+                Table::Step { csv: true } => tables::step_csv(&d.step_report(&active)?)?,
+                Table::Step { csv: false } => {
+                    summary::step_text(&d.step_report(&active)?, Some(active.build.method_used))
                 }
             })
         }

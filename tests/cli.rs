@@ -619,6 +619,8 @@ fn every_example_speaks_the_glossary() {
             "sensitivity.csv",
             "montecarlo.csv",
             "report.json",
+            "noise.csv",
+            "step.csv",
         ] {
             texts.push((
                 file.to_string(),
@@ -922,4 +924,76 @@ fn a_refused_active_build_still_writes_the_passive_ideal() {
     assert_eq!(names, ["passive.cir", "report.json"]);
     let report = std::fs::read_to_string(out.join("report.json")).unwrap();
     assert!(report.contains("\"active\": null"), "{report}");
+}
+
+/// `nocoil noise` and `nocoil step` print the three builds' figures, each
+/// line naming its build; with --csv, the tables of the design's
+/// noise.csv and step.csv, column for column.
+#[test]
+fn noise_and_step_commands_print_every_build() {
+    let spec = "examples/vibration-antialias.toml";
+    let text = succeeds(&nocoil(&["noise", spec]));
+    for build in ["passive ideal", "active exact", "active on parts"] {
+        assert!(text.contains(&format!("  {build}: ")), "{text}");
+    }
+    assert!(text.contains("dynamic range"), "{text}");
+    assert!(
+        text.starts_with("noise (unweighted, 300 Hz to 3 kHz, resistors at 300 K):"),
+        "{text}"
+    );
+    let step = succeeds(&nocoil(&["step", spec]));
+    assert!(step.contains("settles to 0.01 % in"), "{step}");
+    assert!(step.contains("an FDNR build's DC-path resistors"), "{step}");
+    let out = scratch("noise-step-csv");
+    succeeds(&design_into(std::path::Path::new(spec), &out));
+    for (cmd, file, header) in [
+        ("noise", "noise.csv", "freq_hz,passive_ideal_v_per_rthz,active_exact_v_per_rthz,active_on_parts_v_per_rthz,active_on_parts_"),
+        ("step", "step.csv", "time_s,passive_ideal_v,active_exact_v,active_on_parts_v\n"),
+    ] {
+        let printed = succeeds(&nocoil(&[cmd, spec, "--csv"]));
+        let written = std::fs::read_to_string(out.join(file)).unwrap();
+        assert_eq!(printed.trim_end(), written.trim_end(), "{cmd}");
+        assert!(written.starts_with(header), "{file}: {}", written.lines().next().unwrap());
+    }
+}
+
+/// The noise, step and converter keys are checked like every other:
+/// exit status 2 naming the key and what is accepted.
+#[test]
+fn bad_noise_keys_are_rejected() {
+    for (case, extra, needles) in [
+        (
+            "en",
+            "[opamp]\nen_v_per_rthz = -1e-9\n",
+            &["opamp.en_v_per_rthz", "V/sqrt(Hz)"][..],
+        ),
+        (
+            "slew",
+            "[opamp]\nslew_v_per_s = 0\n",
+            &["opamp.slew_v_per_s", "V/s"][..],
+        ),
+        (
+            "band",
+            "[noise]\nband_hz = [10000, 10]\n",
+            &["noise.band_hz", "0 < low < high"][..],
+        ),
+        (
+            "temperature",
+            "[noise]\ntemperature_k = 0\n",
+            &["noise.temperature_k", "kelvin"][..],
+        ),
+        (
+            "weighting",
+            "[noise]\nweighting = \"c\"\n",
+            &["weighting"][..],
+        ),
+        (
+            "bits",
+            "[adc]\nbits = 40\n",
+            &["adc.bits", "from 1 to 32"][..],
+        ),
+        ("nobits", "[adc]\n", &["adc.bits", "(missing)"][..]),
+    ] {
+        rejects(&format!("noise-{case}"), &format!("{GOOD}{extra}"), needles);
+    }
 }

@@ -253,6 +253,24 @@ impl Gen {
             }
             self.maybe_key(&mut s, 30, "output_ohm", (1.0, 500.0));
             self.maybe_key(&mut s, 30, "swing_v", (0.5, 20.0));
+            self.maybe_key(&mut s, 20, "en_v_per_rthz", (0.0, 1e-7));
+            self.maybe_key(&mut s, 20, "en_corner_hz", (0.0, 1e4));
+            self.maybe_key(&mut s, 20, "in_a_per_rthz", (0.0, 1e-10));
+            self.maybe_key(&mut s, 20, "in_corner_hz", (0.0, 1e4));
+            self.maybe_key(&mut s, 20, "slew_v_per_s", (1e4, 1e9));
+        }
+        if self.chance(10) {
+            s += "\n[noise]\n";
+            self.maybe_key(&mut s, 50, "temperature_k", (0.5, 1200.0));
+            if self.chance(50) {
+                s += &format!("band_hz = {}\n", self.edge(true, f, 10.0));
+            }
+            if self.chance(50) {
+                s += &format!("weighting = \"{}\"\n", self.pick(&["a", "none", "c"]));
+            }
+        }
+        if self.chance(10) {
+            s += &format!("\n[adc]\nbits = {}\n", self.int((0, 40)));
         }
         if self.chance(40) {
             s += "\n[parts]\n";
@@ -412,6 +430,8 @@ impl Gen {
             "bom",
             "sensitivity",
             "levels",
+            "noise",
+            "step",
             "report",
             "order",
         ]);
@@ -432,6 +452,7 @@ impl Gen {
                 args.push("SPEC".into());
                 match sub {
                     "design" | "report" => args.extend(["--out".into(), "OUT".into()]),
+                    "noise" | "step" if self.chance(50) => args.push("--csv".into()),
                     "sweep" => {
                         if self.chance(50) {
                             args.extend(["--points".into(), self.int((2, 60))]);

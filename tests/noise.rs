@@ -274,3 +274,163 @@ fn integrated_noise_matches_ngspice() {
 
 /// See [`integrated_noise_matches_ngspice`]: the issue asks 0.1 dB.
 const NGSPICE_TOTAL_DB: f64 = 0.1;
+
+/// The A-weighting against the values IEC 61672-1 tabulates (from
+/// memory, to the table's 0.1 dB), at the exact base-ten frequencies
+/// behind its nominal ones (31.5 Hz is 10^1.5 = 31.62 Hz).
+#[test]
+fn a_weighting_matches_the_standard_table() {
+    for (tenths, want_db) in [
+        (15, -39.4),
+        (18, -26.2),
+        (21, -16.1),
+        (24, -8.6),
+        (27, -3.2),
+        (30, 0.0),
+        (33, 1.2),
+        (36, 1.0),
+        (39, -1.1),
+        (42, -6.6),
+    ] {
+        let f = 10f64.powf(tenths as f64 / 10.0);
+        let got = 10.0 * nocoil::analysis::a_weighting(f).log10();
+        assert!(
+            (got - want_db).abs() <= 0.05 + 1e-9,
+            "{f} Hz: {got:.3} dB, the table {want_db}"
+        );
+    }
+}
+
+/// A design file with a Q = 20 bandpass (its noise peaks in a band 5 %
+/// wide) for the grid tests.
+const Q20_BANDPASS: &str = "[filter]\nkind = \"bandpass\"\nfamily = \"butterworth\"\norder = 3\npassband_edge_hz = [975.6, 1025.0]\n[terminations]\nsource_ohm = 1000\nload_ohm = 1000\n";
+
+/// The integrated noise of every build of the examples and of a Q = 20
+/// bandpass moves by less than [`GRID_DOUBLING_DB`] when the
+/// integration grid is doubled (the trapezoidal rule in ln f on
+/// `NOISE_POINTS_PER_DECADE`).
+#[test]
+fn integrals_hold_when_the_grid_doubles() {
+    let mut specs: Vec<nocoil::spec::Spec> = [
+        "examples/vibration-antialias.toml",
+        "examples/rumble-highpass.toml",
+        "examples/birdsong-bandpass.toml",
+        "examples/mains-notch.toml",
+    ]
+    .iter()
+    .map(|f| nocoil::spec::Spec::load(std::path::Path::new(f)).unwrap())
+    .collect();
+    specs.push(
+        nocoil::spec::Spec::from_toml(std::path::Path::new("q20.toml"), Q20_BANDPASS).unwrap(),
+    );
+    let mut worst = 0.0f64;
+    for spec in &specs {
+        let d = nocoil::design::design(spec).unwrap();
+        let a = d.active().unwrap();
+        let [lo, hi] = d.noise_band_hz();
+        let grid = noise_band_grid(lo, hi);
+        let doubled: Vec<f64> = grid
+            .windows(2)
+            .flat_map(|w| [w[0], (w[0] * w[1]).sqrt()])
+            .chain([hi])
+            .collect();
+        for n in [&d.passive, &a.build.netlist, &a.on_parts.netlist] {
+            let out = n.require_node("out").unwrap();
+            let total = |g: &[f64]| {
+                integrate(
+                    g,
+                    &output_noise(n, out, g, &TEST_OPAMP, T_K)
+                        .unwrap()
+                        .total_v2_per_hz,
+                    |_| 1.0,
+                )
+            };
+            let db = 10.0 * (total(&doubled) / total(&grid)).log10();
+            worst = worst.max(db.abs());
+        }
+    }
+    eprintln!("worst change on doubling: {worst:.2e} dB");
+    assert!(worst < GRID_DOUBLING_DB, "{worst} dB");
+}
+
+/// See [`integrals_hold_when_the_grid_doubles`].
+const GRID_DOUBLING_DB: f64 = 1e-3;
+
+/// The largest input the dynamic range states, driven in ngspice's
+/// transient as a sine at its frequency into the active on parts build:
+/// every op-amp output stays within the swing and within the slew rate
+/// (checked on the waveforms, after the start-up transient), and the
+/// limiting op-amp comes within [`TIGHT`] of its limit, so the figure is
+/// neither unsafe nor needlessly cautious.
+#[test]
+fn dynamic_range_input_stays_within_swing_and_slew_in_ngspice() {
+    use nocoil::circuit::Element;
+    use nocoil::export::spice::{step_deck, StepResponse};
+    for file in [
+        "examples/vibration-antialias.toml",
+        "examples/birdsong-bandpass.toml",
+    ] {
+        let spec = nocoil::spec::Spec::load(std::path::Path::new(file)).unwrap();
+        let d = nocoil::design::design(&spec).unwrap();
+        let a = d.active().unwrap();
+        let r = d.noise_figures(&a).unwrap().dynamic_range.unwrap();
+        let n = &a.on_parts.netlist;
+        let period = 1.0 / r.at_hz;
+        // Long enough for the start-up transient to die (the slowest
+        // settling to 0.1 % of the step response), then ten periods.
+        let settle = d.step_report(&a).unwrap().active_on_parts.settling[1].time_s;
+        let start = (settle / period).ceil() * period;
+        let stop_s = start + 10.0 * period;
+        let step_s = period / 200.0;
+        let deck = step_deck(n, &StepResponse { step_s, stop_s }).unwrap();
+        // The step's pulse becomes the sine.
+        let line = deck.lines().find(|l| l.starts_with("V1 ")).unwrap();
+        let sine = format!("V1 in 0 DC 0 SIN(0 {} {})", r.max_input_v_peak, r.at_hz);
+        let deck = deck.replace(line, &sine);
+        let plot = crate::util::ngspice_plot(&deck, "Transient");
+        let time: Vec<f64> = plot.vector("time").iter().map(|z| z.re).collect();
+        let mut nearest = 0.0f64;
+        for e in &n.elements {
+            let Element::OpAmp { name, out, .. } = e else {
+                continue;
+            };
+            let v: Vec<f64> = plot
+                .vector(&format!("v({})", n.nodes[*out]))
+                .iter()
+                .map(|z| z.re)
+                .collect();
+            let mut peak = 0.0f64;
+            let mut slope = 0.0f64;
+            for k in 1..time.len() {
+                if time[k] < start {
+                    continue;
+                }
+                peak = peak.max(v[k].abs());
+                slope = slope.max(((v[k] - v[k - 1]) / (time[k] - time[k - 1])).abs());
+            }
+            let (swing, slew) = (spec.opamp.swing_v, spec.opamp.slew_v_per_s);
+            assert!(
+                peak <= swing * (1.0 + TIGHT),
+                "{file} {name}: {peak} V peak, swing {swing}"
+            );
+            assert!(
+                slope <= slew * (1.0 + TIGHT),
+                "{file} {name}: {slope} V/s, slew {slew}"
+            );
+            nearest = nearest.max((peak / swing).max(slope / slew));
+        }
+        eprintln!(
+            "{file}: limited by {} ({:?}) at {} Hz; nearest op-amp at {nearest:.4} of its limit",
+            r.limited_by, r.headroom, r.at_hz
+        );
+        assert!(
+            nearest > 1.0 - TIGHT,
+            "{file}: the nearest op-amp reaches only {nearest} of its limit"
+        );
+    }
+}
+
+/// How close to the limit the driven waveforms come: 1 % (the level grid
+/// and the transient's time step each place the peak within a fraction
+/// of that).
+const TIGHT: f64 = 0.01;

@@ -44,7 +44,9 @@ pub struct Settling {
 /// What a step response shows.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct StepFigures {
-    /// The response's final value for a 1 V step, V.
+    /// The response's final value for a 1 V step, V (exactly 0 where it
+    /// is below a millionth of the passband level: a filter that blocks
+    /// DC).
     pub final_v: f64,
     /// The level the settling bands are fractions of, V: |final value|,
     /// or the passband level where the final value is zero.
@@ -110,8 +112,10 @@ fn settled_bound(modes: &Modes, band: f64) -> f64 {
 /// passband level (the reference where the final value is zero), `bits`
 /// a converter resolution for the half-LSB settling time.
 pub fn step_figures(modes: &Modes, passband_v: f64, bits: Option<u32>) -> StepFigures {
-    let final_v = modes.final_value();
-    let passes_dc = final_v.abs() > ZERO_FINAL * passband_v.abs();
+    let dc = modes.final_value();
+    let passes_dc = dc.abs() > ZERO_FINAL * passband_v.abs();
+    // A highpass or bandpass blocks DC: what is left is rounding.
+    let final_v = if passes_dc { dc } else { 0.0 };
     let reference_v = if passes_dc {
         final_v.abs()
     } else {

@@ -6,8 +6,8 @@
 
 use super::{ActiveDesign, Design, DesignError};
 use crate::analysis::{
-    a_weighting, integrate, level_traces, noise_band_grid, output_noise, step_figures,
-    step_modes, NoiseKind, NoiseSpectrum, StepFigures,
+    a_weighting, integrate, level_traces, noise_band_grid, output_noise, step_figures, step_modes,
+    NoiseKind, NoiseSpectrum, StepFigures,
 };
 use crate::circuit::{log_grid, AcSystem, Netlist};
 use crate::spec::Weighting;
@@ -21,12 +21,6 @@ pub const TOP_CONTRIBUTORS: usize = 5;
 
 /// Points of the step chart and `step.csv`.
 pub const STEP_CHART_POINTS: usize = 1000;
-
-/// Without a band in the design file, a lowpass passband's noise is
-/// integrated from this fraction of its edge (a band from DC has no
-/// bottom on a log scale; below it a filter's noise is the same flat
-/// density and adds nothing visible to the total).
-const FROM_DC_FRACTION: f64 = 1e-3;
 
 /// One source's share of a build's integrated output noise.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
@@ -188,20 +182,19 @@ fn build_noise(s: &NoiseSpectrum, weighting: Weighting, passband_v: f64) -> Buil
 
 impl Design {
     /// The band noise is integrated over: the design file's, else the
-    /// passbands' span (a lowpass from [`FROM_DC_FRACTION`] of its edge).
+    /// span of the passbands within the view (a passband from DC from the
+    /// view's lower end, a decade below the lowest edge, as the charts
+    /// show it; 1/f noise through the high resistances of some builds
+    /// grows without bound towards DC, so a band reaching lower is the
+    /// design file's choice to make).
     pub fn noise_band_hz(&self) -> [f64; 2] {
         if let Some(band) = self.spec.noise.band_hz {
             return band;
         }
         let passbands = self.passbands_hz();
+        let lo = passbands.iter().map(|b| b[0]).fold(f64::INFINITY, f64::min);
         let hi = passbands.iter().map(|b| b[1]).fold(0.0, f64::max);
-        let lo = match self.spec.band {
-            crate::transform::Band::Lowpass { .. } | crate::transform::Band::Bandstop { .. } => {
-                FROM_DC_FRACTION * self.spec.band.passband_edges_hz()[0]
-            }
-            _ => passbands.iter().map(|b| b[0]).fold(f64::INFINITY, f64::min),
-        };
-        [lo, hi]
+        [lo.max(self.view_hz().0), hi]
     }
 
     /// The passband level, V/V.
@@ -232,10 +225,18 @@ impl Design {
         let weighting = self.spec.noise.weighting;
         let passband_v = self.passband_v();
         let grid = noise_band_grid(band_hz[0], band_hz[1]);
-        let builds = [&self.passive, &active.build.netlist, &active.on_parts.netlist];
+        let builds = [
+            &self.passive,
+            &active.build.netlist,
+            &active.on_parts.netlist,
+        ];
         let mut integrated = Vec::new();
         for n in builds {
-            integrated.push(build_noise(&self.noise_of(n, &grid)?, weighting, passband_v));
+            integrated.push(build_noise(
+                &self.noise_of(n, &grid)?,
+                weighting,
+                passband_v,
+            ));
         }
         let (lo, hi) = self.view_hz();
         let chart_grid = log_grid(lo.min(band_hz[0]), hi.max(band_hz[1]), NOISE_CHART_POINTS)
@@ -244,7 +245,12 @@ impl Design {
         let mut parts_spectrum = None;
         for n in builds {
             let s = self.noise_of(n, &chart_grid)?;
-            densities.push(s.total_v2_per_hz.iter().map(|p| p.sqrt()).collect::<Vec<_>>());
+            densities.push(
+                s.total_v2_per_hz
+                    .iter()
+                    .map(|p| p.sqrt())
+                    .collect::<Vec<_>>(),
+            );
             parts_spectrum = Some(s);
         }
         let parts_spectrum = parts_spectrum.unwrap_or_else(|| unreachable!("three builds"));
@@ -259,7 +265,10 @@ impl Design {
                     .sources
                     .iter()
                     .position(|s| s.designator == c.designator && s.kind == c.kind)?;
-                let density = parts_spectrum.source_v2_per_hz[i].iter().map(|p| p.sqrt()).collect();
+                let density = parts_spectrum.source_v2_per_hz[i]
+                    .iter()
+                    .map(|p| p.sqrt())
+                    .collect();
                 Some((c.designator.clone(), c.kind, density))
             })
             .collect();
@@ -341,7 +350,11 @@ impl Design {
     pub fn step_report(&self, active: &ActiveDesign) -> Result<StepReport, DesignError> {
         let bits = self.spec.adc_bits;
         let passband_v = self.passband_v();
-        let builds = [&self.passive, &active.build.netlist, &active.on_parts.netlist];
+        let builds = [
+            &self.passive,
+            &active.build.netlist,
+            &active.on_parts.netlist,
+        ];
         let mut modes = Vec::new();
         let mut figures = Vec::new();
         for n in builds {

@@ -9,8 +9,8 @@ use super::html::Figure;
 use super::page::design_page;
 use super::plot::{self, PlotError, PngOutput};
 use super::spice::{deck, exported_deck, AcSweep, DeckNoise, SpiceError};
-use crate::circuit::OpAmpNoise;
 use super::tables::{envelope_csv, noise_csv, sensitivity_csv, step_csv};
+use crate::circuit::OpAmpNoise;
 use crate::design::{Build, Design, Documents};
 use crate::realize::{soldered, PartsSnapError};
 use std::io::Write as _;
@@ -83,7 +83,10 @@ pub fn document_files(d: &Documents) -> Result<Vec<OutputFile>, ExportError> {
         "montecarlo.csv",
         envelope_csv(&d.analyses.montecarlo).into_bytes(),
     ));
-    files.push(file("noise.csv", noise_csv(&d.analyses.noise)?.into_bytes()));
+    files.push(file(
+        "noise.csv",
+        noise_csv(&d.analyses.noise)?.into_bytes(),
+    ));
     files.push(file("step.csv", step_csv(&d.analyses.step)?.into_bytes()));
     files.push(file(
         "sensitivity.csv",
@@ -130,9 +133,18 @@ pub fn design_files(d: &Documents) -> Result<Vec<OutputFile>, ExportError> {
         temperature_k: d.analyses.noise.temperature_k,
     };
     let mut files = vec![
-        file("passive.cir", exported_deck(&d.passive_ideal, &sweep, &noise)?.into_bytes()),
-        file("active.cir", exported_deck(&exact, &sweep, &noise)?.into_bytes()),
-        file("built.cir", exported_deck(&built, &sweep, &noise)?.into_bytes()),
+        file(
+            "passive.cir",
+            exported_deck(&d.passive_ideal, &sweep, &noise)?.into_bytes(),
+        ),
+        file(
+            "active.cir",
+            exported_deck(&exact, &sweep, &noise)?.into_bytes(),
+        ),
+        file(
+            "built.cir",
+            exported_deck(&built, &sweep, &noise)?.into_bytes(),
+        ),
         file(
             "report.json",
             serde_json::to_string_pretty(&d.report)?.into_bytes(),

@@ -14,7 +14,7 @@ use crate::design::{Build, Documents};
 pub const CAUTIONS: [&str; 3] = [
     "These results are a design aid: a prototype built from real parts must be measured against the specification before the design is released.",
     "Mains-powered or safety-related equipment follows local codes and licensed practice; nothing here replaces them.",
-    "Op-amps are simulated with the small-signal model the summary names (ideal, single-pole or two-pole); slew rate, noise, output current and input bias are not simulated.",
+    "Op-amps are simulated with the small-signal model the summary names (ideal, single-pole or two-pole); their input noise enters the noise figures and their slew rate the largest input, as stated in the design file or assumed by default; output current and input bias are not simulated.",
 ];
 
 /// The report page, with the charts as SVG `figures` and the bill of
@@ -192,6 +192,73 @@ pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> Strin
                 .map(|n| format!("{}: {n}", Build::ActiveOnParts)),
         );
     }
+    let n = &a.noise;
+    let st = &a.step;
+    if let Some(r) = &n.dynamic_range {
+        summary.push((
+            format!("{}: dynamic range", Build::ActiveOnParts),
+            super::prose::dynamic_range_words(r, n.active_on_parts.input_v_rms),
+        ));
+    }
+    summary.push((
+        format!("{}: largest noise sources", Build::ActiveOnParts),
+        super::prose::sources_words(&n.active_on_parts),
+    ));
+    let settle_header: Vec<String> = st
+        .active_on_parts
+        .settling
+        .iter()
+        .enumerate()
+        .map(|(k, x)| match st.adc_bits {
+            Some(bits) if k + 1 == st.active_on_parts.settling.len() => {
+                format!("settles to half an LSB of {bits} bits")
+            }
+            _ => format!("settles to {} %", 100.0 * x.fraction),
+        })
+        .collect();
+    let mut header: Vec<String> = [
+        "build",
+        "output noise (rms)",
+        "referred to the input (rms)",
+        "overshoot",
+        "rise time (10 to 90 %)",
+    ]
+    .map(String::from)
+    .to_vec();
+    header.extend(settle_header);
+    tables.push(Table {
+        caption: format!(
+            "Noise ({}, {} to {}, resistors at {} K) and the response to a 1 V step",
+            n.weighting,
+            eng(n.band_hz[0], "Hz"),
+            eng(n.band_hz[1], "Hz"),
+            n.temperature_k
+        ),
+        header,
+        rows: [
+            (Build::PassiveIdeal, &n.passive_ideal, &st.passive_ideal),
+            (Build::ActiveExact, &n.active_exact, &st.active_exact),
+            (
+                Build::ActiveOnParts,
+                &n.active_on_parts,
+                &st.active_on_parts,
+            ),
+        ]
+        .into_iter()
+        .map(|(build, noise, step)| {
+            let mut row = vec![
+                build.to_string(),
+                eng(noise.output_v_rms, "V"),
+                eng(noise.input_v_rms, "V"),
+                step.overshoot_pct
+                    .map_or("none (no DC output)".to_string(), |o| format!("{o:.3} %")),
+                step.rise_time_s.map_or(String::new(), |r| eng(r, "s")),
+            ];
+            row.extend(step.settling.iter().map(|x| eng(x.time_s, "s")));
+            row
+        })
+        .collect(),
+    });
     let mut worst: Vec<_> = a.sensitivity.iter().collect();
     worst.sort_by(|x, y| {
         y.passband_worst

@@ -560,6 +560,65 @@ pub fn bound_words(gain_db: f64, limit_db: f64, lower_bound: bool, level_db: f64
     )
 }
 
+/// A build's integrated noise: "68.871 uV rms at the output (137.74 uV
+/// referred to the input)".
+pub fn noise_words(n: &crate::design::BuildNoise) -> String {
+    use super::eng::format_trimmed as eng;
+    format!(
+        "{} rms at the output ({} referred to the input)",
+        eng(n.output_v_rms, "V"),
+        eng(n.input_v_rms, "V")
+    )
+}
+
+/// The largest sources of a build's noise: "X_C3_2 input current noise
+/// 25 %, RS thermal noise 20 %".
+pub fn sources_words(n: &crate::design::BuildNoise) -> String {
+    n.top
+        .iter()
+        .map(|c| format!("{} {} {:.1} %", c.designator, c.kind, c.share_pct))
+        .collect::<Vec<_>>()
+        .join(", ")
+}
+
+/// The dynamic range in words.
+pub fn dynamic_range_words(r: &crate::design::DynamicRange, input_noise_v: f64) -> String {
+    use super::eng::format_trimmed as eng;
+    let verb = match r.headroom {
+        crate::design::Headroom::Swing => "reaches its output swing",
+        crate::design::Headroom::Slew => "reaches its slew rate",
+    };
+    format!(
+        "dynamic range {} dB: the largest sine at the input is {} peak ({} {verb} at {}) over {} rms of input-referred noise",
+        db(r.range_db),
+        eng(r.max_input_v_peak, "V"),
+        r.limited_by,
+        eng(r.at_hz, "Hz"),
+        eng(input_noise_v, "V")
+    )
+}
+
+/// A step response's figures in words: "overshoot 19.2 %, rise time
+/// 179.5 us, settles to 1 % in 2.27 ms, to 0.1 % in 4.37 ms, ...".
+pub fn step_words(f: &crate::analysis::StepFigures, bits: Option<u32>) -> String {
+    use super::eng::format_trimmed as eng;
+    let mut parts = vec![format!("final value {}", eng(f.final_v, "V"))];
+    if let Some(o) = f.overshoot_pct {
+        parts.push(format!("overshoot {o:.3} %"));
+    }
+    if let Some(r) = f.rise_time_s {
+        parts.push(format!("rise time (10 to 90 %) {}", eng(r, "s")));
+    }
+    for (k, s) in f.settling.iter().enumerate() {
+        let band = match bits {
+            Some(n) if k == f.settling.len() - 1 => format!("half an LSB of {n} bits"),
+            _ => format!("{} %", 100.0 * s.fraction),
+        };
+        parts.push(format!("settles to {band} in {}", eng(s.time_s, "s")));
+    }
+    parts.join(", ")
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -4,10 +4,13 @@
 
 use super::eng::format_trimmed as eng;
 use super::prose::{
-    bound_words, db, edge_loss_name, level_warnings, opamp_model, percent, scale_words,
+    bound_words, db, dynamic_range_words, edge_loss_name, level_warnings, noise_words, opamp_model,
+    percent, scale_words, sources_words, step_words,
 };
+use crate::active::Method;
+use crate::analysis::StepFigures;
 use crate::analysis::{DelayVerdict, MaskVerdict, EDGE_WINDOW};
-use crate::design::{Build, BuildFigures, Documents, Report};
+use crate::design::{Build, BuildFigures, Documents, NoiseFigures, Report, StepReport};
 use std::fmt::Write as _;
 
 /// The edges of a band as "3 kHz" or "300 Hz and 3.4 kHz".
@@ -324,6 +327,7 @@ pub fn summary(d: &Documents) -> String {
     let _ = writeln!(s, "  why: {}", act.why);
     figures(&mut s, Build::ActiveExact, &act.active_exact);
     figures(&mut s, Build::ActiveOnParts, &act.active_on_parts);
+    dynamics(&mut s, d);
     let e = &act.parts_error_db;
     let _ = writeln!(
         s,
@@ -353,3 +357,96 @@ pub fn summary(d: &Documents) -> String {
     }
     s
 }
+
+/// Noise, dynamic range and step response of the three builds.
+pub fn dynamics(s: &mut String, d: &Documents) {
+    s.push_str(&noise_text(&d.analyses.noise));
+    s.push_str(&step_text(
+        &d.analyses.step,
+        d.report.active.as_ref().map(|a| a.method),
+    ));
+}
+
+/// The noise of the three builds and the dynamic range, as
+/// `nocoil noise` prints it.
+pub fn noise_text(n: &NoiseFigures) -> String {
+    let mut s = String::new();
+    let _ = writeln!(
+        s,
+        "noise ({}, {} to {}, resistors at {} K):",
+        n.weighting,
+        eng(n.band_hz[0], "Hz"),
+        eng(n.band_hz[1], "Hz"),
+        n.temperature_k
+    );
+    for (build, b) in [
+        (Build::PassiveIdeal, &n.passive_ideal),
+        (Build::ActiveExact, &n.active_exact),
+        (Build::ActiveOnParts, &n.active_on_parts),
+    ] {
+        let _ = writeln!(s, "  {build}: {}", noise_words(b));
+    }
+    let _ = writeln!(
+        s,
+        "  {}: largest sources {}",
+        Build::ActiveOnParts,
+        sources_words(&n.active_on_parts)
+    );
+    let excess = 20.0 * (n.active_on_parts.output_v_rms / n.passive_ideal.output_v_rms).log10();
+    if excess > NOISIER_DB {
+        let _ = writeln!(
+            s,
+            "  {}: note: {} dB noisier than the passive ideal, whose terminations alone are noisy",
+            Build::ActiveOnParts,
+            db(excess)
+        );
+    }
+    if let Some(r) = &n.dynamic_range {
+        let _ = writeln!(
+            s,
+            "  {}: {}",
+            Build::ActiveOnParts,
+            dynamic_range_words(r, n.active_on_parts.input_v_rms)
+        );
+    }
+    s
+}
+
+/// The step responses of the three builds, as `nocoil step` prints them;
+/// `method` is how the inductors were removed (for the reason of a slow
+/// tail).
+pub fn step_text(st: &StepReport, method: Option<Method>) -> String {
+    let mut s = String::new();
+    let _ = writeln!(s, "step response to 1 V at the input:");
+    for (build, f) in [
+        (Build::PassiveIdeal, &st.passive_ideal),
+        (Build::ActiveExact, &st.active_exact),
+        (Build::ActiveOnParts, &st.active_on_parts),
+    ] {
+        let _ = writeln!(s, "  {build}: {}", step_words(f, st.adc_bits));
+    }
+    let slowest = |f: &StepFigures| f.settling.iter().map(|x| x.time_s).fold(0.0, f64::max);
+    let ratio = slowest(&st.active_on_parts) / slowest(&st.passive_ideal);
+    if ratio > SLOWER_FACTOR {
+        let _ = writeln!(
+            s,
+            "  {}: note: settles to its finest band {} times later than the passive ideal: a slow mode the active build adds{}",
+            Build::ActiveOnParts,
+            super::prose::factor(ratio),
+            match method {
+                Some(Method::Fdnr) => " (an FDNR build's DC-path resistors across the termination capacitors, with those capacitors, make a pole near DC)",
+                _ => "",
+            }
+        );
+    }
+    s
+}
+
+/// An active build this much noisier than the passive ideal gets a note,
+/// dB: its op-amps and converter resistors, not the terminations, set
+/// the noise floor.
+const NOISIER_DB: f64 = 6.0;
+
+/// An active build settling this many times later than the passive ideal
+/// gets a note.
+const SLOWER_FACTOR: f64 = 1.5;

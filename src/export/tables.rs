@@ -3,11 +3,11 @@
 //! yield, the minimum orders of a mask. Each CSV states the build its
 //! figures belong to in its header or its column names.
 
+use super::csv::{series_csv, sweep_csv, CsvError};
 use super::prose::db;
 use crate::analysis::{MonteCarloResult, OpAmpLevel, Parameter, SensitivitySummary};
 use crate::approx::ApproxError;
 use crate::design::{Build, NoiseFigures, OrderTable, StepReport};
-use super::csv::{series_csv, sweep_csv, CsvError};
 use crate::spec::as_written;
 use std::fmt::Write as _;
 
@@ -209,7 +209,12 @@ pub fn noise_csv(n: &NoiseFigures) -> Result<String, CsvError> {
         .zip(&build_names)
         .map(|((_, v), name)| (name.as_str(), v.as_slice()))
         .collect();
-    columns.extend(c.top.iter().zip(&names).map(|((_, _, v), name)| (name.as_str(), v.as_slice())));
+    columns.extend(
+        c.top
+            .iter()
+            .zip(&names)
+            .map(|((_, _, v), name)| (name.as_str(), v.as_slice())),
+    );
     sweep_csv(&c.freq_hz, &columns)
 }
 
@@ -217,10 +222,14 @@ pub fn noise_csv(n: &NoiseFigures) -> Result<String, CsvError> {
 /// exact and the active on parts outputs for a 1 V step at the input.
 pub fn step_csv(s: &StepReport) -> Result<String, CsvError> {
     let c = &s.chart;
-    let names: Vec<String> = [Build::PassiveIdeal, Build::ActiveExact, Build::ActiveOnParts]
-        .iter()
-        .map(|b| format!("{}_v", as_written(b)))
-        .collect();
+    let names: Vec<String> = [
+        Build::PassiveIdeal,
+        Build::ActiveExact,
+        Build::ActiveOnParts,
+    ]
+    .iter()
+    .map(|b| format!("{}_v", as_written(b)))
+    .collect();
     series_csv(
         "time_s",
         &c.time_s,

@@ -105,9 +105,8 @@ impl std::fmt::Display for Weighting {
 pub struct NoiseSpec {
     /// Temperature of every resistor, K (default 300).
     pub temperature_k: f64,
-    /// The band the noise is integrated over, Hz; `None`: the passband
-    /// (from a thousandth of the edge for a lowpass, to ten times the
-    /// edge for a highpass).
+    /// The band the noise is integrated over, Hz; `None`: the passbands
+    /// within the view (see `Design::noise_band_hz`).
     pub band_hz: Option<[f64; 2]>,
     /// The weighting of the integral (default none).
     pub weighting: Weighting,

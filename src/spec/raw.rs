@@ -368,7 +368,12 @@ fn noise(c: &Checker, raw: &RawNoise) -> Result<NoiseSpec, SpecError> {
     let d = NoiseSpec::default();
     let temperature_k = match raw.temperature_k {
         None => d.temperature_k,
-        Some(t) => c.within("noise.temperature_k", t, TEMPERATURE_RANGE_K, "a temperature in kelvin")?,
+        Some(t) => c.within(
+            "noise.temperature_k",
+            t,
+            TEMPERATURE_RANGE_K,
+            "a temperature in kelvin",
+        )?,
     };
     let band_hz = match &raw.band_hz {
         None => None,
@@ -739,17 +744,48 @@ fn opamp(c: &Checker, raw: &RawOpAmp) -> Result<OpAmpSpec, SpecError> {
             ))
         }
     };
-    let density = |key: &'static str, v: Option<f64>, default: f64, range: (f64, f64), what: &str| match v {
-        None => Ok(default),
-        Some(v) => c.within(key, v, range, what),
-    };
+    let density =
+        |key: &'static str, v: Option<f64>, default: f64, range: (f64, f64), what: &str| match v {
+            None => Ok(default),
+            Some(v) => c.within(key, v, range, what),
+        };
     let noise = OpAmpNoise {
-        en_v_per_rthz: density("opamp.en_v_per_rthz", raw.en_v_per_rthz, d.noise.en_v_per_rthz, EN_RANGE, "an input voltage noise density in V/sqrt(Hz)")?,
-        en_corner_hz: density("opamp.en_corner_hz", raw.en_corner_hz, d.noise.en_corner_hz, CORNER_RANGE_HZ, "a 1/f corner in Hz")?,
-        in_a_per_rthz: density("opamp.in_a_per_rthz", raw.in_a_per_rthz, d.noise.in_a_per_rthz, IN_RANGE, "an input current noise density in A/sqrt(Hz)")?,
-        in_corner_hz: density("opamp.in_corner_hz", raw.in_corner_hz, d.noise.in_corner_hz, CORNER_RANGE_HZ, "a 1/f corner in Hz")?,
+        en_v_per_rthz: density(
+            "opamp.en_v_per_rthz",
+            raw.en_v_per_rthz,
+            d.noise.en_v_per_rthz,
+            EN_RANGE,
+            "an input voltage noise density in V/sqrt(Hz)",
+        )?,
+        en_corner_hz: density(
+            "opamp.en_corner_hz",
+            raw.en_corner_hz,
+            d.noise.en_corner_hz,
+            CORNER_RANGE_HZ,
+            "a 1/f corner in Hz",
+        )?,
+        in_a_per_rthz: density(
+            "opamp.in_a_per_rthz",
+            raw.in_a_per_rthz,
+            d.noise.in_a_per_rthz,
+            IN_RANGE,
+            "an input current noise density in A/sqrt(Hz)",
+        )?,
+        in_corner_hz: density(
+            "opamp.in_corner_hz",
+            raw.in_corner_hz,
+            d.noise.in_corner_hz,
+            CORNER_RANGE_HZ,
+            "a 1/f corner in Hz",
+        )?,
     };
-    let slew_v_per_s = density("opamp.slew_v_per_s", raw.slew_v_per_s, d.slew_v_per_s, SLEW_RANGE_V_PER_S, "a slew rate in V/s")?;
+    let slew_v_per_s = density(
+        "opamp.slew_v_per_s",
+        raw.slew_v_per_s,
+        d.slew_v_per_s,
+        SLEW_RANGE_V_PER_S,
+        "a slew rate in V/s",
+    )?;
     Ok(OpAmpSpec {
         model: OpAmpModel::from_data_sheet(kind, gbw_hz, dc_gain_db, second_pole_hz, output_ohm),
         swing_v,
