@@ -8,7 +8,13 @@
 #   every top-level resistor and capacitor by up to 1 % (sunif) and runs
 #   the 201-point `.ac` per trial; (t_MANY - t_FEW) / (MANY - FEW) is its
 #   cost per trial.
-# - nocoil: the criterion benches `sweep`, `sweep_cli` and `montecarlo`
+# - noise: ngspice -b on a 1,000-point and a 2-point `.noise` of the same
+#   network (the op-amps carrying the default input noise as elements,
+#   see `nocoil::export::spice::noise_deck`); (t_1000 - t_2) / 998 per
+#   point against the criterion bench `noise` (nocoil's output_noise on
+#   the same grid, set-up included), which also times the step response
+#   to 0.01 % settling.
+# - nocoil: the criterion benches `sweep`, `sweep_cli`, `montecarlo` and `noise`
 #   (run here unless SKIP_CARGO_BENCH=1, then their last results are read).
 # - command line: `nocoil sweep examples/vibration-antialias.toml
 #   --points N` (its default band, 300 Hz to 44 kHz) for N = CLI_POINTS
@@ -117,6 +123,10 @@ PY
 with_control "$DIR/sweep_1000.cir" run >"$DIR/s1000.cir"
 with_control "$DIR/sweep_2.cir" run >"$DIR/s2.cir"
 
+# Noise decks: the deck's own `.noise` line, run once.
+with_control "$DIR/noise_1000.cir" run >"$DIR/n1000.cir"
+with_control "$DIR/noise_2.cir" run >"$DIR/n2.cir"
+
 # Monte Carlo decks: every top-level R and C (not those inside the op-amp
 # subcircuits) altered within 1 % of its nominal value, one `.ac` per trial.
 alters=$(awk '
@@ -166,11 +176,15 @@ ng_cli_point_us=$(echo "($t_ng_cli_many - $t_ng_cli_two) / ($cli_rows - 2) * 100
 cli_point_us=$(echo "($t_cli_many - $t_cli_two) / ($CLI_POINTS - 2) * 1000000" | bc -l)
 cli1_point_us=$(echo "($t_cli1_many - $t_cli1_two) / ($CLI_POINTS - 2) * 1000000" | bc -l)
 ng_trial_us=$(echo "($tmany - $tfew) / ($MANY - $FEW) * 1000000" | bc -l)
+tn1000=$(best_time "$DIR/n1000.cir" 1000)
+tn2=$(best_time "$DIR/n2.cir" 2)
+ng_noise_point_us=$(echo "($tn1000 - $tn2) / 998 * 1000000" | bc -l)
 
 if [ "${SKIP_CARGO_BENCH:-0}" != 1 ]; then
     cargo bench --quiet --bench sweep >&2
     cargo bench --quiet --bench sweep_cli >&2
     cargo bench --quiet --bench montecarlo >&2
+    cargo bench --quiet --bench noise >&2
 fi
 
 # Fastest sample of a criterion bench: time per iteration, nanoseconds.
@@ -185,6 +199,8 @@ dense_point_us=$(echo "$(criterion_ns sweep_1000/dense) / 1000 / 1000" | bc -l)
 table_point_us=$(echo "($(criterion_ns sweep_cli/table_20000) - $(criterion_ns sweep_cli/table_2)) / 19998 / 1000" | bc -l)
 sparse_trial_us=$(echo "$(criterion_ns montecarlo_201/loop_sparse_10000_trials) / 10000 / 1000" | bc -l)
 dense_trial_us=$(echo "$(criterion_ns montecarlo_201/loop_dense_100_trials) / 100 / 1000" | bc -l)
+noise_point_us=$(echo "$(criterion_ns noise/noise_1000) / 1000 / 1000" | bc -l)
+step_ms=$(echo "$(criterion_ns step_to_0.01_percent) / 1000000" | bc -l)
 engine1_s=$(echo "$(criterion_ns montecarlo_201/engine_1_threads_10000_trials) / 1000000000" | bc -l)
 engine2_s=$(echo "$(criterion_ns montecarlo_201/engine_2_threads_10000_trials) / 1000000000" | bc -l)
 
@@ -209,3 +225,8 @@ printf '\n%-36s %8.3f s\n' "10,000 trials, bare sparse loop" "$(echo "$sparse_tr
 printf '%-36s %8.3f s\n' "10,000 trials, monte_carlo, 1 thread" "$engine1_s"
 printf '%-36s %8.3f s\n' "10,000 trials, monte_carlo, 2 threads" "$engine2_s"
 printf '%-36s %8.3f s\n' "10,000 trials, ngspice (estimated)" "$(echo "$ng_trial_us * 10000 / 1000000" | bc -l)"
+printf '\n%-28s %12s %12s\n' "noise, per point (us)" nocoil ngspice
+printf '%-28s %12.3f %12.3f\n' "" "$noise_point_us" "$ng_noise_point_us"
+printf '%-28s %12.1f\n' "ngspice / nocoil" "$(echo "$ng_noise_point_us / $noise_point_us" | bc -l)"
+printf '(ngspice .noise: 1000 points %.4f s, 2 points %.4f s)\n' "$tn1000" "$tn2"
+printf '\n%-36s %8.3f ms\n' "step response to 0.01 %, nocoil" "$step_ms"

@@ -3,13 +3,15 @@
 //!
 //! - `sweep_1000.cir`: the sweep benchmark's 1,000 points, 44 Hz to 44 kHz;
 //! - `sweep_2.cir`: two points, to time ngspice's start and set-up alone;
-//! - `montecarlo.cir`: the Monte Carlo grid, 201 points, 440 Hz to 44 kHz.
+//! - `montecarlo.cir`: the Monte Carlo grid, 201 points, 440 Hz to 44 kHz;
+//! - `noise_1000.cir` and `noise_2.cir`: ngspice's `.noise` on the sweep's
+//!   grids, the op-amps carrying the default input noise.
 //!
 //! Usage: `cargo run --release --example export_bench_deck -- DIR`
 
 use std::path::PathBuf;
 
-use nocoil::export::spice::{deck, AcSweep};
+use nocoil::export::spice::{deck, noise_deck, AcSweep, DeckNoise};
 
 #[path = "../benches/network.rs"]
 mod network;
@@ -52,10 +54,19 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
             },
         ),
     ];
+    let noise = DeckNoise {
+        opamp: nocoil::spec::DEFAULT_OPAMP_NOISE,
+        temperature_k: 300.0,
+    };
     for (name, sweep) in decks {
         let path = dir.join(name);
         std::fs::write(&path, deck(&netlist, &sweep)?)?;
         println!("wrote {}", path.display());
+        if let Some(points) = name.strip_prefix("sweep_") {
+            let path = dir.join(format!("noise_{points}"));
+            std::fs::write(&path, noise_deck(&netlist, &sweep, &noise)?)?;
+            println!("wrote {}", path.display());
+        }
     }
     Ok(())
 }

@@ -89,8 +89,14 @@ fn with(find: &str, replace: &str) -> String {
 
 /// The files `nocoil design` writes (the PNG charts too where a font is
 /// found; CI installs one).
-const OUTPUTS: [&str; 20] = [
+const OUTPUTS: [&str; 26] = [
     "passive.cir",
+    "noise.csv",
+    "step.csv",
+    "noise.svg",
+    "noise.png",
+    "step.svg",
+    "step.png",
     "active.cir",
     "built.cir",
     "report.json",

@@ -181,8 +181,13 @@ pub fn corner_verdicts(
         .collect()
 }
 
-/// The stability verdict of `netlist` with its own op-amp models.
-pub fn is_stable(netlist: &Netlist) -> Result<StabilityVerdict, ActiveError> {
+/// The natural frequencies of `netlist` (rad/s, charge modes included),
+/// each from the reduced eigenproblem at a shift near it (see the module
+/// documentation, [`reduced_roots`] and [`banded_roots`]): the roots the
+/// stability verdict judges, and the poles the step response expands
+/// into. An impedance scaling of the whole network (to a mean resistance
+/// of 1 ohm here, for the shifts' scale) leaves them unchanged.
+pub fn natural_frequencies(netlist: &Netlist) -> Result<Vec<Complex64>, ActiveError> {
     netlist.validate()?;
     let scaled = impedance_scaled(netlist, 1.0 / mean_resistance(netlist));
     let system = AcSystem::new(&scaled)?;
@@ -194,7 +199,12 @@ pub fn is_stable(netlist: &Netlist) -> Result<StabilityVerdict, ActiveError> {
         .ok_or(CircuitError::NoConvergence {
             what: "natural frequencies at every shift",
         })?;
-    let mut roots = banded_roots(&system, sigma, roots);
+    Ok(banded_roots(&system, sigma, roots))
+}
+
+/// The stability verdict of `netlist` with its own op-amp models.
+pub fn is_stable(netlist: &Netlist) -> Result<StabilityVerdict, ActiveError> {
+    let mut roots = natural_frequencies(netlist)?;
     let count = roots.len();
     let charge_modes = charge_modes(netlist).min(count);
     roots.sort_by(|a, b| a.norm().total_cmp(&b.norm()));

@@ -10,6 +10,8 @@
 //! zero). Settling to half an LSB of an N-bit converter is settling to
 //! 2^-(N+1) of that level (common practice).
 
+use num_complex::Complex64;
+
 use crate::circuit::{Modes, Netlist};
 
 use super::AnalysisError;
@@ -61,10 +63,11 @@ pub struct StepFigures {
     pub settling: Vec<Settling>,
 }
 
-/// The step response of `netlist`'s V(out)/V(in) by its modes.
-pub fn step_modes(netlist: &Netlist) -> Result<Modes, AnalysisError> {
+/// The modes of `netlist`'s V(out)/V(in), from its natural frequencies
+/// `roots` (rad/s), for its step response.
+pub fn step_modes(netlist: &Netlist, roots: &[Complex64]) -> Result<Modes, AnalysisError> {
     let (inp, out) = (netlist.require_node("in")?, netlist.require_node("out")?);
-    Ok(crate::circuit::AcSystem::new(netlist)?.modes(out, inp)?)
+    Ok(crate::circuit::AcSystem::new(netlist)?.modes(roots, out, inp)?)
 }
 
 /// The first time in `lo..hi` where `f` changes sign from `f(lo)`, by
@@ -90,10 +93,10 @@ fn settled_bound(modes: &Modes, band: f64) -> f64 {
         return 0.0;
     }
     let slowest = modes
-        .poles
+        .terms
         .iter()
-        .filter(|p| p.re < 0.0)
-        .map(|p| -p.re)
+        .filter(|m| m.pole.re < 0.0)
+        .map(|m| -m.pole.re)
         .fold(f64::INFINITY, f64::min);
     let mut hi = if slowest.is_finite() {
         1.0 / slowest

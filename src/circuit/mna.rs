@@ -517,13 +517,29 @@ impl AcSystem {
         out: usize,
     ) -> Result<&[Complex64], CircuitError> {
         self.check_node(out, "output")?;
-        self.solve(freq_hz)?;
-        self.dx.fill(Complex64::new(0.0, 0.0));
         let Some(u) = self.layout.node(out) else {
             return Err(CircuitError::ZeroVoltage { node: out, freq_hz });
         };
-        self.dx[u] = Complex64::new(1.0, 0.0);
-        self.lu.solve_transposed(&mut self.dx);
+        let at = |system: &mut AcSystem, f: f64| -> Result<(), CircuitError> {
+            system.solve(f)?;
+            system.dx.fill(Complex64::new(0.0, 0.0));
+            system.dx[u] = Complex64::new(1.0, 0.0);
+            system.lu.solve_transposed(&mut system.dx);
+            Ok(())
+        };
+        match at(self, freq_hz) {
+            // Across a lossless resonance, the mean of the two sides (as
+            // `transfer` takes it).
+            Err(e @ CircuitError::Singular { .. }) if freq_hz > 0.0 => {
+                at(self, freq_hz * (1.0 + RESONANCE_STEP)).map_err(|_| e.clone())?;
+                let above = self.dx.clone();
+                at(self, freq_hz * (1.0 - RESONANCE_STEP)).map_err(|_| e)?;
+                for (v, a) in self.dx.iter_mut().zip(above) {
+                    *v = (*v + a) / 2.0;
+                }
+            }
+            other => other?,
+        }
         Ok(&self.dx)
     }
 

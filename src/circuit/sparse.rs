@@ -45,7 +45,7 @@ use super::layout::{Layout, OpAmpUnknowns};
 use super::lu::Lu;
 use super::ordering::{markowitz, Sample};
 use super::plan::{row_size, Plan, GUARD_THRESHOLD};
-use super::{AcSystem, CircuitError, Element, ElementKind, Response};
+use super::{AcSystem, CircuitError, Element, ElementKind, Response, RESONANCE_STEP};
 
 /// Pivots are checked at this many log-spaced frequencies per decade of
 /// the band given to [`SparseAc::new`]. Between check points the
@@ -564,17 +564,32 @@ impl SparseAc {
             }
             for k in (0..chunk.len()).filter(|&k| !done[k]) {
                 self.fallbacks += 1;
+                let freq_hz = chunk[k];
                 let d = &mut self.dense;
                 self.plans[0].unload(&mut d.g, &mut d.c, &mut d.b);
-                let freq_hz = chunk[k];
-                if !d.lu.factor(&d.g, &d.c, Complex64::new(0.0, omega[k])) {
-                    return Err(CircuitError::Singular { freq_hz });
-                }
-                y.fill(Complex64::new(0.0, 0.0));
-                y[u] = Complex64::new(1.0, 0.0);
-                d.lu.solve_transposed(&mut y);
-                if !y.iter().all(|v| v.is_finite()) {
-                    return Err(CircuitError::Singular { freq_hz });
+                let mut at = |f: f64, y: &mut [Complex64]| {
+                    y.fill(Complex64::new(0.0, 0.0));
+                    y[u] = Complex64::new(1.0, 0.0);
+                    if !d.lu.factor(&d.g, &d.c, Complex64::new(0.0, TAU * f)) {
+                        return false;
+                    }
+                    d.lu.solve_transposed(y);
+                    y.iter().all(|v| v.is_finite())
+                };
+                if !at(freq_hz, &mut y) {
+                    // Across a lossless resonance (a passive ideal's
+                    // tank at its own frequency) the mean of the two
+                    // sides, as `AcSystem::transfer` takes it.
+                    let mut above = vec![Complex64::new(0.0, 0.0); n];
+                    let sides = freq_hz > 0.0
+                        && at(freq_hz * (1.0 - RESONANCE_STEP), &mut y)
+                        && at(freq_hz * (1.0 + RESONANCE_STEP), &mut above);
+                    if !sides {
+                        return Err(CircuitError::Singular { freq_hz });
+                    }
+                    for (v, a) in y.iter_mut().zip(&above) {
+                        *v = (*v + a) / 2.0;
+                    }
                 }
                 visit(chunk_index * LANES + k, &y);
             }

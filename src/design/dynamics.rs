@@ -358,7 +358,12 @@ impl Design {
         let mut modes = Vec::new();
         let mut figures = Vec::new();
         for n in builds {
-            let m = step_modes(n).map_err(|cause| self.analysis_error(cause))?;
+            let roots =
+                crate::active::natural_frequencies(n).map_err(|cause| DesignError::Active {
+                    file: self.spec.file.clone(),
+                    cause,
+                })?;
+            let m = step_modes(n, &roots).map_err(|cause| self.analysis_error(cause))?;
             figures.push(step_figures(&m, passband_v, bits));
             modes.push(m);
         }

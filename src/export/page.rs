@@ -200,9 +200,10 @@ pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> Strin
             super::prose::dynamic_range_words(r, n.active_on_parts.input_v_rms),
         ));
     }
-    summary.push((
-        format!("{}: largest noise sources", Build::ActiveOnParts),
-        super::prose::sources_words(&n.active_on_parts),
+    notes.push(format!(
+        "{}: largest noise sources {}",
+        Build::ActiveOnParts,
+        super::prose::sources_words(&n.active_on_parts)
     ));
     let settle_header: Vec<String> = st
         .active_on_parts

@@ -421,11 +421,13 @@ fn analysis_line(analysis: Analysis) -> Result<String, SpiceError> {
         // ngspice's noise analysis: the output noise density at V(out)
         // and the input-referred one, per point, then their integrals
         // (`all`: naming the vectors makes ngspice 39 warn that it cannot
-        // parse them, though it prints them).
+        // parse them, though it prints them). The comment keeps the word
+        // NaN out of the deck, which a reader could take for a value.
         Analysis::Noise(sweep, source) => Ok(format!(
             "* ngspice integrates each source's density as a power law between\n\
              * points: where one changes by orders of magnitude between two (a\n\
-             * transmission zero), its totals can come out NaN; the spectra hold\n\
+             * transmission zero), its totals can come out not a number; the\n\
+             * spectra hold\n\
              .noise v(out) {source} {}\n.print noise all",
             dec_grid(sweep)?
         )),
