@@ -378,7 +378,9 @@ fn dynamic_range_input_stays_within_swing_and_slew_in_ngspice() {
         let period = 1.0 / r.at_hz;
         // Long enough for the start-up transient to die (the slowest
         // settling to 0.1 % of the step response), then ten periods.
-        let settle = d.step_report(&a).unwrap().active_on_parts.settling[1].time_s;
+        let settle = d.step_report(&a).unwrap().active_on_parts.unwrap().settling[1]
+            .time_s
+            .unwrap();
         let start = (settle / period).ceil() * period;
         let stop_s = start + 10.0 * period;
         let step_s = period / 200.0;

@@ -54,6 +54,7 @@ pub use sensitivity::{
 };
 pub use spread::{judged_from_hz, DelayLimit, DelayVerdict, DC_FRACTION, DELAY_POINTS};
 pub use step::{
-    step_figures, step_modes, Settling, StepFigures, SETTLING_FRACTIONS, STEP_SEARCH_SAMPLES,
+    step_figures, step_modes, Settling, StepFigures, RESOLVED_BY_ACCURACY, SETTLING_FRACTIONS,
+    STEP_SEARCH_SAMPLES,
 };
 pub use sweep::{trace, unwrap_deg, Trace, Tracer, ZERO_GAIN_DB};

@@ -26,6 +26,12 @@ pub const STEP_SEARCH_SAMPLES: usize = 20_000;
 /// sample spacing.
 const BISECTIONS: usize = 50;
 
+/// A settling band is placed only where it is at least this many times
+/// the modes' accuracy (`circuit::Modes::accuracy`, relative to the
+/// largest gain, which the reference level is close to): the response
+/// is then known to a tenth of the band.
+pub const RESOLVED_BY_ACCURACY: f64 = 10.0;
+
 /// Settling fractions every step response reports: 1 %, 0.1 %, 0.01 %.
 pub const SETTLING_FRACTIONS: [f64; 3] = [1e-2, 1e-3, 1e-4];
 
@@ -39,8 +45,10 @@ pub struct Settling {
     /// Half-width of the band, as a fraction of the reference level.
     pub fraction: f64,
     /// From the step until the response last leaves the band, s (0 when
-    /// it never does).
-    pub time_s: f64,
+    /// it never does); `None` for a band finer than
+    /// [`RESOLVED_BY_ACCURACY`] times the accuracy of the modes, which
+    /// cannot place it.
+    pub time_s: Option<f64>,
 }
 
 /// What a step response shows.
@@ -129,7 +137,12 @@ pub fn step_figures(modes: &Modes, passband_v: f64, bits: Option<u32>) -> StepFi
         .copied()
         .chain(bits.map(|n| 0.5f64.powi(n as i32 + 1)))
         .collect();
-    let finest = fractions.iter().copied().fold(f64::INFINITY, f64::min);
+    let resolved = |fraction: f64| fraction >= RESOLVED_BY_ACCURACY * modes.accuracy;
+    let finest = fractions
+        .iter()
+        .copied()
+        .filter(|&f| resolved(f))
+        .fold(SETTLING_FRACTIONS[0], f64::min);
     let span = settled_bound(modes, finest * reference_v).max(f64::MIN_POSITIVE);
     let dt = span / STEP_SEARCH_SAMPLES as f64;
     let times: Vec<f64> = (0..=STEP_SEARCH_SAMPLES).map(|k| k as f64 * dt).collect();
@@ -140,9 +153,10 @@ pub fn step_figures(modes: &Modes, passband_v: f64, bits: Option<u32>) -> StepFi
             let band = fraction * reference_v;
             let outside = |t: f64| (modes.step_at(t) - final_v).abs() - band;
             let time_s = match (0..y.len()).rev().find(|&k| (y[k] - final_v).abs() > band) {
-                None => 0.0,
-                Some(k) if k + 1 == y.len() => span,
-                Some(k) => crossing(outside, times[k], times[k + 1]),
+                _ if !resolved(fraction) => None,
+                None => Some(0.0),
+                Some(k) if k + 1 == y.len() => Some(span),
+                Some(k) => Some(crossing(outside, times[k], times[k + 1])),
             };
             Settling { fraction, time_s }
         })

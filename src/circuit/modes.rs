@@ -44,6 +44,14 @@ const NEAR_POLE: f64 = 1e-8;
 /// written.
 pub const MODES_CHECK: f64 = 1e-7;
 
+/// Largest mismatch (as for [`MODES_CHECK`]) of an expansion still used
+/// after its residues were refitted: the step figures then leave out
+/// every settling band finer than ten times it (see
+/// `analysis::step_figures`). Measured: about one design in 3,000 of
+/// the generative test (an 18th-order Chebyshev bandpass's active
+/// builds: 1.5e-3 from the null vectors, 1.0e-5 refitted) needs this.
+pub const MODES_USABLE: f64 = 1e-3;
+
 /// Largest Rayleigh correction of a true pole, relative to it (see
 /// `AcSystem::pole_and_residue`): inverse iteration [`NEAR_POLE`] away
 /// leaves a true pole's correction near NEAR_POLE^2; a root that is not a
@@ -100,6 +108,10 @@ pub struct Modes {
     pub direct: f64,
     /// The terms.
     pub terms: Vec<Mode>,
+    /// How closely the expansion reproduces the solved transfer: the
+    /// largest difference at the check points, relative to the largest
+    /// |H| there (at most [`MODES_USABLE`]).
+    pub accuracy: f64,
 }
 
 /// (e^z - 1) / z, accurate near z = 0.
@@ -322,11 +334,15 @@ impl AcSystem {
     ) -> Result<Option<(Complex64, Complex64)>, CircuitError> {
         let n = self.g().nrows();
         let size = p.norm().max(TINY_POLE * scale);
-        let near = p + NEAR_POLE * size;
-        if !lu.factor(self.g(), self.c(), near) {
-            return Err(CircuitError::NoConvergence {
-                what: "step response: a pole's null vectors",
-            });
+        // Where the matrix is too nearly singular for the LU at the
+        // first offset, farther ones (the null vectors then come out
+        // less pure, which the check of the expansion catches).
+        // The LU keeps the factors of the first offset it accepts.
+        let factored = [1.0, 1e2, 1e4]
+            .iter()
+            .any(|k| lu.factor(self.g(), self.c(), p + k * NEAR_POLE * size));
+        if !factored {
+            return Ok(None);
         }
         let (g, c) = (self.g(), self.c());
         let apply =
@@ -408,8 +424,18 @@ impl AcSystem {
         let mut modes = Modes {
             direct: 0.0,
             terms: Vec::new(),
+            accuracy: 0.0,
         };
-        for group in clusters(&upper, scale) {
+        // Charge modes (roots at the origin, within rounding) have no
+        // residue: no source excites them and no output sees them (see
+        // `active::stability`); the charge of a floating group never
+        // changes.
+        let moving: Vec<Complex64> = upper
+            .iter()
+            .copied()
+            .filter(|p| p.norm() > TINY_POLE * scale)
+            .collect();
+        for group in clusters(&moving, scale) {
             let term = match group.as_slice() {
                 &[p] => self
                     .pole_and_residue(&mut lu, p, scale, out)?
@@ -418,7 +444,9 @@ impl AcSystem {
                         residue,
                         second: Complex64::new(0.0, 0.0),
                     }),
-                members => Some(self.cluster_term(&mut lu, members, &upper, out)?),
+                // A contour that cannot be solved leaves the cluster out,
+                // for the check of the expansion to judge.
+                members => self.cluster_term(&mut lu, members, &moving, out).ok(),
             };
             modes.terms.extend(term);
         }
@@ -461,7 +489,8 @@ impl AcSystem {
         let check: Vec<f64> = (0..CHECK_POINTS)
             .map(|k| lowest * span.powf(k as f64 / (CHECK_POINTS - 1) as f64))
             .collect();
-        if self.mismatch(&mut lu, &modes, &check, out, inp)? > MODES_CHECK {
+        modes.accuracy = self.mismatch(&mut lu, &modes, &check, out, inp)?;
+        if modes.accuracy > MODES_CHECK {
             // A high order's residues come out of the null vectors less
             // accurately than its poles (a 25th-order Butterworth
             // bandpass's passive ideal: 2.3e-5 of the passband level):
@@ -478,8 +507,13 @@ impl AcSystem {
                         )
                 })
                 .collect();
-            self.refit(&mut lu, &mut modes, &fit, out, inp)?;
-            if self.mismatch(&mut lu, &modes, &check, out, inp)? > MODES_CHECK {
+            let mut refitted = modes.clone();
+            self.refit(&mut lu, &mut refitted, &fit, out, inp)?;
+            refitted.accuracy = self.mismatch(&mut lu, &refitted, &check, out, inp)?;
+            if refitted.accuracy < modes.accuracy {
+                modes = refitted;
+            }
+            if modes.accuracy > MODES_USABLE {
                 return Err(CircuitError::NoConvergence {
                     what: "step response: the poles and residues do not reproduce the transfer",
                 });
@@ -578,6 +612,7 @@ impl AcSystem {
             let (s, vout, vin) = self.voltages_near(lu, Complex64::new(0.0, w), out, inp)?;
             let fixed = Modes {
                 direct: 0.0,
+                accuracy: 0.0,
                 terms: modes
                     .terms
                     .iter()

@@ -4,7 +4,7 @@
 //! clips or slews, over the input-referred noise) and the step response
 //! (overshoot, rise time, settling times).
 
-use super::{ActiveDesign, Design, DesignError};
+use super::{ActiveDesign, Build, Design, DesignError};
 use crate::analysis::{
     a_weighting, integrate, level_traces, noise_band_grid, output_noise, step_figures, step_modes,
     NoiseKind, NoiseSpectrum, StepFigures,
@@ -121,23 +121,38 @@ pub struct NoiseChart {
     pub top: Vec<(String, NoiseKind, Vec<f64>)>,
 }
 
-/// The step responses of the three builds.
+/// The step responses of the three builds; a build whose modes could not
+/// be found (see `circuit::Modes`: the generative test meets about one
+/// design in 3,000 whose expansion misses the solved transfer) has none,
+/// and says why in `not_computed`, rather than the whole design failing.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct StepReport {
     /// The converter resolution the half-LSB settling is for, if given.
     pub adc_bits: Option<u32>,
     /// The passive ideal.
-    pub passive_ideal: StepFigures,
+    pub passive_ideal: Option<StepFigures>,
     /// The active exact build.
-    pub active_exact: StepFigures,
+    pub active_exact: Option<StepFigures>,
     /// The active on parts build.
-    pub active_on_parts: StepFigures,
+    pub active_on_parts: Option<StepFigures>,
+    /// The builds without figures, and why.
+    pub not_computed: Vec<NotComputed>,
     /// The responses to a 1 V step over the chart's times.
     #[serde(skip)]
     pub chart: StepChart,
 }
 
-/// Step responses for the chart and `step.csv`, V for a 1 V step.
+/// A build whose step response could not be computed.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct NotComputed {
+    /// The build.
+    pub build: super::Build,
+    /// Why, in words.
+    pub reason: String,
+}
+
+/// Step responses for the chart and `step.csv`, V for a 1 V step (NaN
+/// for a build without one).
 #[derive(Debug, Clone, PartialEq, Default)]
 pub struct StepChart {
     /// Times, s.
@@ -357,35 +372,55 @@ impl Design {
         ];
         let mut modes = Vec::new();
         let mut figures = Vec::new();
-        for n in builds {
-            let roots =
-                crate::active::natural_frequencies(n).map_err(|cause| DesignError::Active {
-                    file: self.spec.file.clone(),
-                    cause,
-                })?;
-            let m = step_modes(n, &roots).map_err(|cause| self.analysis_error(cause))?;
-            figures.push(step_figures(&m, passband_v, bits));
-            modes.push(m);
+        let mut not_computed = Vec::new();
+        for (build, n) in [
+            Build::PassiveIdeal,
+            Build::ActiveExact,
+            Build::ActiveOnParts,
+        ]
+        .into_iter()
+        .zip(builds)
+        {
+            let found = crate::active::natural_frequencies(n)
+                .map_err(|e| e.to_string())
+                .and_then(|roots| step_modes(n, &roots).map_err(|e| e.to_string()));
+            match found {
+                Ok(m) => {
+                    figures.push(Some(step_figures(&m, passband_v, bits)));
+                    modes.push(Some(m));
+                }
+                Err(reason) => {
+                    not_computed.push(NotComputed { build, reason });
+                    figures.push(None);
+                    modes.push(None);
+                }
+            }
         }
         // The chart shows the builds to one and a half times the longest
         // settling to 0.1 % (the slow tails to 0.01 % are in the figures).
         let span_s = 1.5
             * figures
                 .iter()
-                .map(|f| f.settling[1].time_s)
+                .flatten()
+                .flat_map(|f| f.settling.iter().take(2).filter_map(|x| x.time_s))
                 .fold(0.0, f64::max)
                 .max(f64::MIN_POSITIVE);
         let time_s: Vec<f64> = (0..STEP_CHART_POINTS)
             .map(|k| span_s * k as f64 / (STEP_CHART_POINTS - 1) as f64)
             .collect();
-        let trace = |i: usize| time_s.iter().map(|&t| modes[i].step_at(t)).collect();
+        let trace = |i: usize| -> Vec<f64> {
+            time_s
+                .iter()
+                .map(|&t| modes[i].as_ref().map_or(f64::NAN, |m| m.step_at(t)))
+                .collect()
+        };
         let chart = StepChart {
             passive_ideal: trace(0),
             active_exact: trace(1),
             active_on_parts: trace(2),
             time_s: time_s.clone(),
         };
-        let [passive_ideal, active_exact, active_on_parts]: [StepFigures; 3] = figures
+        let [passive_ideal, active_exact, active_on_parts]: [Option<StepFigures>; 3] = figures
             .try_into()
             .unwrap_or_else(|_| unreachable!("three builds"));
         Ok(StepReport {
@@ -393,6 +428,7 @@ impl Design {
             passive_ideal,
             active_exact,
             active_on_parts,
+            not_computed,
             chart,
         })
     }

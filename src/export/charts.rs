@@ -296,11 +296,15 @@ fn step_chart(d: &Documents) -> NamedChart {
             x_label: "time (ms)".to_string(),
             y_label: "output (V)".to_string(),
             log_x: false,
-            traces: vec![
+            // A build without a step response (all NaN) is left out.
+            traces: [
                 trace(Build::PassiveIdeal, &s.passive_ideal, false),
                 trace(Build::ActiveExact, &s.active_exact, true),
                 trace(Build::ActiveOnParts, &s.active_on_parts, true),
-            ],
+            ]
+            .into_iter()
+            .filter(|t| t.values.iter().any(|v| v.is_finite()))
+            .collect(),
             ..Chart::default()
         },
     }

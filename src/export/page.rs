@@ -205,17 +205,13 @@ pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> Strin
         Build::ActiveOnParts,
         super::prose::sources_words(&n.active_on_parts)
     ));
-    let settle_header: Vec<String> = st
-        .active_on_parts
-        .settling
+    let settle_header: Vec<String> = crate::analysis::SETTLING_FRACTIONS
         .iter()
-        .enumerate()
-        .map(|(k, x)| match st.adc_bits {
-            Some(bits) if k + 1 == st.active_on_parts.settling.len() => {
-                format!("settles to half an LSB of {bits} bits")
-            }
-            _ => format!("settles to {} %", 100.0 * x.fraction),
-        })
+        .map(|f| format!("settles to {} %", 100.0 * f))
+        .chain(
+            st.adc_bits
+                .map(|bits| format!("settles to half an LSB of {bits} bits")),
+        )
         .collect();
     let mut header: Vec<String> = [
         "build",
@@ -251,11 +247,23 @@ pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> Strin
                 build.to_string(),
                 eng(noise.output_v_rms, "V"),
                 eng(noise.input_v_rms, "V"),
-                step.overshoot_pct
-                    .map_or("none (no DC output)".to_string(), |o| format!("{o:.3} %")),
-                step.rise_time_s.map_or(String::new(), |r| eng(r, "s")),
             ];
-            row.extend(step.settling.iter().map(|x| eng(x.time_s, "s")));
+            match step {
+                Some(step) => {
+                    row.push(
+                        step.overshoot_pct
+                            .map_or("none (no DC output)".to_string(), |o| format!("{o:.3} %")),
+                    );
+                    row.push(step.rise_time_s.map_or(String::new(), |r| eng(r, "s")));
+                    row.extend(step.settling.iter().map(|x| {
+                        x.time_s
+                            .map_or("beyond the accuracy of the modes".to_string(), |t| {
+                                eng(t, "s")
+                            })
+                    }));
+                }
+                None => row.push("step response not computed (see the summary)".to_string()),
+            }
             row
         })
         .collect(),

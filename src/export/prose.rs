@@ -614,7 +614,10 @@ pub fn step_words(f: &crate::analysis::StepFigures, bits: Option<u32>) -> String
             Some(n) if k == f.settling.len() - 1 => format!("half an LSB of {n} bits"),
             _ => format!("{} %", 100.0 * s.fraction),
         };
-        parts.push(format!("settles to {band} in {}", eng(s.time_s, "s")));
+        parts.push(match s.time_s {
+            Some(t) => format!("settles to {band} in {}", eng(t, "s")),
+            None => format!("settling to {band} beyond the accuracy of its modes"),
+        });
     }
     parts.join(", ")
 }

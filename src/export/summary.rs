@@ -423,10 +423,44 @@ pub fn step_text(st: &StepReport, method: Option<Method>) -> String {
         (Build::ActiveExact, &st.active_exact),
         (Build::ActiveOnParts, &st.active_on_parts),
     ] {
-        let _ = writeln!(s, "  {build}: {}", step_words(f, st.adc_bits));
+        match f {
+            Some(f) => {
+                let _ = writeln!(s, "  {build}: {}", step_words(f, st.adc_bits));
+            }
+            None => {
+                let why = st
+                    .not_computed
+                    .iter()
+                    .find(|n| n.build == build)
+                    .map_or("", |n| n.reason.as_str());
+                let _ = writeln!(s, "  {build}: not computed ({why})");
+            }
+        }
     }
-    let slowest = |f: &StepFigures| f.settling.iter().map(|x| x.time_s).fold(0.0, f64::max);
-    let ratio = slowest(&st.active_on_parts) / slowest(&st.passive_ideal);
+    let (Some(parts), Some(ideal)) = (&st.active_on_parts, &st.passive_ideal) else {
+        return s;
+    };
+    let (dc_parts, dc_ideal) = (parts.final_v, ideal.final_v);
+    if dc_parts != 0.0 && dc_ideal != 0.0 {
+        let off_db = 20.0 * (dc_parts / dc_ideal).abs().log10();
+        if off_db.abs() > DC_OFF_DB {
+            let _ = writeln!(
+                s,
+                "  {}: note: its DC gain is {} dB off the passive ideal's (a final value of {} against {}): a path the active build adds or loses at DC",
+                Build::ActiveOnParts,
+                db(off_db),
+                eng(dc_parts, "V"),
+                eng(dc_ideal, "V")
+            );
+        }
+    }
+    let slowest = |f: &StepFigures| {
+        f.settling
+            .iter()
+            .filter_map(|x| x.time_s)
+            .fold(0.0, f64::max)
+    };
+    let ratio = slowest(parts) / slowest(ideal);
     if ratio > SLOWER_FACTOR {
         let _ = writeln!(
             s,
@@ -446,6 +480,11 @@ pub fn step_text(st: &StepReport, method: Option<Method>) -> String {
 /// dB: its op-amps and converter resistors, not the terminations, set
 /// the noise floor.
 const NOISIER_DB: f64 = 6.0;
+
+/// A build on parts whose DC gain is this far off the passive ideal's
+/// gets a note, dB: the specification is judged from the view's lower
+/// end, and a step response shows what happens below it.
+const DC_OFF_DB: f64 = 0.1;
 
 /// An active build settling this many times later than the passive ideal
 /// gets a note.
