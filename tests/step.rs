@@ -60,6 +60,11 @@ fn an_rc_lowpass_steps_as_its_closed_form() {
             modes.step_at(t)
         );
     }
+    let dt = tau / 1000.0;
+    for (k, y) in modes.step_samples(dt, 20_001).iter().enumerate() {
+        let want = modes.step_at(k as f64 * dt);
+        assert!((y - want).abs() < 1e-11, "sample {k}: {y} against {want}");
+    }
     for t in [tau / 3.0, tau, 5.0 * tau] {
         let want = t - tau * (1.0 - (-t / tau).exp());
         assert!(

@@ -146,7 +146,7 @@ pub fn step_figures(modes: &Modes, passband_v: f64, bits: Option<u32>) -> StepFi
     let span = settled_bound(modes, finest * reference_v).max(f64::MIN_POSITIVE);
     let dt = span / STEP_SEARCH_SAMPLES as f64;
     let times: Vec<f64> = (0..=STEP_SEARCH_SAMPLES).map(|k| k as f64 * dt).collect();
-    let y: Vec<f64> = times.iter().map(|&t| modes.step_at(t)).collect();
+    let y = modes.step_samples(dt, times.len());
     let settling = fractions
         .iter()
         .map(|&fraction| {
