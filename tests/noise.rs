@@ -13,49 +13,11 @@ fn four_kt() -> f64 {
     4.0 * BOLTZMANN_J_PER_K * T_K
 }
 
-/// A source at `in` and the elements given, nodes by name.
-fn circuit(elements: &[(&str, &str, &str, f64)]) -> Netlist {
-    let mut n = Netlist::new("noise test");
-    let inp = n.node("in");
-    n.add(Element::VoltageSource {
-        name: "V1".into(),
-        pos: inp,
-        neg: 0,
-        ac_volt: 1.0,
-    })
-    .unwrap();
-    for &(name, a, b, v) in elements {
-        let (a, b) = (n.node(a), n.node(b));
-        let e = match name.as_bytes()[0] {
-            b'R' => Element::Resistor {
-                name: name.into(),
-                a,
-                b,
-                ohm: v,
-            },
-            b'C' => Element::Capacitor {
-                name: name.into(),
-                a,
-                b,
-                farad: v,
-            },
-            _ => Element::Inductor {
-                name: name.into(),
-                a,
-                b,
-                henry: v,
-            },
-        };
-        n.add(e).unwrap();
-    }
-    n
-}
-
 /// A resistor from the (shorted) source to the output, open there: the
 /// open-circuit noise sqrt(4kTR) (Johnson and Nyquist, common practice).
 #[test]
 fn a_resistor_shows_its_open_circuit_noise() {
-    let mut n = circuit(&[("R1", "in", "out", 10e3), ("C1", "out", "0", 1e-15)]);
+    let mut n = crate::util::driven(&[("R1", "in", "out", 10e3), ("C1", "out", "0", 1e-15)]);
     n.title = "open resistor".into();
     let out = n.require_node("out").unwrap();
     let s = output_noise(&n, out, &[1.0, 10.0, 100.0], &OpAmpNoise::NOISELESS, T_K).unwrap();
@@ -71,7 +33,7 @@ fn a_resistor_shows_its_open_circuit_noise() {
 #[test]
 fn an_rc_lowpass_integrates_to_kt_over_c() {
     for (r, c) in [(1e3, 1e-9), (47e3, 220e-12), (100.0, 1e-6)] {
-        let n = circuit(&[("R1", "in", "out", r), ("C1", "out", "0", c)]);
+        let n = crate::util::driven(&[("R1", "in", "out", r), ("C1", "out", "0", c)]);
         let out = n.require_node("out").unwrap();
         let corner = 1.0 / (std::f64::consts::TAU * r * c);
         let grid = noise_band_grid(corner * 1e-5, corner * 1e5);
@@ -99,9 +61,7 @@ fn the_passive_ideal_obeys_nyquist() {
         "examples/rumble-highpass.toml",
         "examples/mains-notch.toml",
     ] {
-        let d =
-            nocoil::design::design(&nocoil::spec::Spec::load(std::path::Path::new(file)).unwrap())
-                .unwrap();
+        let d = crate::util::example(file);
         let passive = &d.passive;
         let out = passive.require_node("out").unwrap();
         let (lo, hi) = d.view_hz();
@@ -194,9 +154,7 @@ fn output_noise_matches_ngspice_on_every_build() {
         "examples/rumble-highpass.toml",
         "examples/birdsong-bandpass.toml",
     ] {
-        let d =
-            nocoil::design::design(&nocoil::spec::Spec::load(std::path::Path::new(file)).unwrap())
-                .unwrap();
+        let d = crate::util::example(file);
         let a = d.active().unwrap();
         let (lo, hi) = d.view_hz();
         for (build, n) in [
@@ -230,9 +188,7 @@ fn integrated_noise_matches_ngspice() {
         "examples/vibration-antialias.toml",
         "examples/birdsong-bandpass.toml",
     ] {
-        let d =
-            nocoil::design::design(&nocoil::spec::Spec::load(std::path::Path::new(file)).unwrap())
-                .unwrap();
+        let d = crate::util::example(file);
         let a = d.active().unwrap();
         let (lo, hi) = d.view_hz();
         let n = &a.on_parts.netlist;

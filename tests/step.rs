@@ -2,14 +2,10 @@
 //! solved transfer, closed forms, and ngspice's transient on the decks.
 
 use nocoil::analysis::{step_figures, step_modes, SETTLING_FRACTIONS};
-use nocoil::circuit::{AcSystem, Element, Netlist, MODES_CHECK};
+use nocoil::circuit::{AcSystem, MODES_CHECK};
 use nocoil::export::spice::{step_deck, StepResponse};
 
 use crate::util::ngspice_tran;
-
-fn example(file: &str) -> nocoil::design::Design {
-    nocoil::design::design(&nocoil::spec::Spec::load(std::path::Path::new(file)).unwrap()).unwrap()
-}
 
 const EXAMPLES: [&str; 3] = [
     "examples/vibration-antialias.toml",
@@ -27,29 +23,7 @@ fn passband_v(d: &nocoil::design::Design) -> f64 {
 #[test]
 fn an_rc_lowpass_steps_as_its_closed_form() {
     let (r, c) = (10e3, 100e-9);
-    let mut n = Netlist::new("rc");
-    let (inp, out) = (n.node("in"), n.node("out"));
-    n.add(Element::VoltageSource {
-        name: "V1".into(),
-        pos: inp,
-        neg: 0,
-        ac_volt: 1.0,
-    })
-    .unwrap();
-    n.add(Element::Resistor {
-        name: "R1".into(),
-        a: inp,
-        b: out,
-        ohm: r,
-    })
-    .unwrap();
-    n.add(Element::Capacitor {
-        name: "C1".into(),
-        a: out,
-        b: 0,
-        farad: c,
-    })
-    .unwrap();
+    let n = crate::util::driven(&[("R1", "in", "out", r), ("C1", "out", "0", c)]);
     let modes = step_modes(&n, &nocoil::active::natural_frequencies(&n).unwrap()).unwrap();
     let tau = r * c;
     for t in [0.0, tau / 3.0, tau, 5.0 * tau] {
@@ -102,7 +76,7 @@ fn modes_reproduce_the_transfer() {
         "examples/echo-timing-bessel.toml",
         "examples/table-demo.toml",
     ]) {
-        let d = example(file);
+        let d = crate::util::example(file);
         let a = d.active().unwrap();
         for n in [&d.passive, &a.build.netlist, &a.on_parts.netlist] {
             let modes = step_modes(n, &nocoil::active::natural_frequencies(n).unwrap()).unwrap();
@@ -141,7 +115,7 @@ fn modes_reproduce_the_transfer() {
 #[test]
 fn step_matches_ngspice_transient() {
     for file in EXAMPLES {
-        let d = example(file);
+        let d = crate::util::example(file);
         let a = d.active().unwrap();
         for (build, n) in [
             ("passive ideal", &d.passive),

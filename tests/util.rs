@@ -276,3 +276,47 @@ pub fn design_into(spec: &Path, out: &Path) -> std::process::Output {
         out.to_str().unwrap(),
     ])
 }
+
+/// A 1 V source at `in` and the elements given (R, C or L by the
+/// name's first letter), nodes by name (`0` is ground).
+pub fn driven(elements: &[(&str, &str, &str, f64)]) -> nocoil::circuit::Netlist {
+    let mut n = nocoil::circuit::Netlist::new("test circuit");
+    let inp = n.node("in");
+    n.add(nocoil::circuit::Element::VoltageSource {
+        name: "V1".into(),
+        pos: inp,
+        neg: 0,
+        ac_volt: 1.0,
+    })
+    .unwrap();
+    for &(name, a, b, v) in elements {
+        let (a, b) = (n.node(a), n.node(b));
+        let e = match name.as_bytes()[0] {
+            b'R' => nocoil::circuit::Element::Resistor {
+                name: name.into(),
+                a,
+                b,
+                ohm: v,
+            },
+            b'C' => nocoil::circuit::Element::Capacitor {
+                name: name.into(),
+                a,
+                b,
+                farad: v,
+            },
+            _ => nocoil::circuit::Element::Inductor {
+                name: name.into(),
+                a,
+                b,
+                henry: v,
+            },
+        };
+        n.add(e).unwrap();
+    }
+    n
+}
+
+/// The design of a shipped example file.
+pub fn example(file: &str) -> nocoil::design::Design {
+    nocoil::design::design(&nocoil::spec::Spec::load(Path::new(file)).unwrap()).unwrap()
+}
