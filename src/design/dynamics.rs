@@ -19,6 +19,10 @@ pub const NOISE_CHART_POINTS: usize = 400;
 /// How many sources of the build on parts are named.
 pub const TOP_CONTRIBUTORS: usize = 5;
 
+/// Sources below this share of a build's noise power are not named
+/// (0.05 %: they print as 0.0 %).
+const MIN_SHARE: f64 = 5e-4;
+
 /// Points of the step chart and `step.csv`.
 pub const STEP_CHART_POINTS: usize = 1000;
 
@@ -100,6 +104,15 @@ pub struct NoiseFigures {
     pub active_on_parts: BuildNoise,
     /// The active on parts build's dynamic range (`None` without op-amps).
     pub dynamic_range: Option<DynamicRange>,
+    /// The op-amps' input noise the figures assume.
+    pub opamp: crate::circuit::OpAmpNoise,
+    /// Their slew rate, V/s.
+    pub slew_v_per_s: f64,
+    /// Their output swing, V peak.
+    pub swing_v_peak: f64,
+    /// Whether the noise and slew rate are the default op-amp's (an
+    /// assumption: the design file gave none of them).
+    pub opamp_assumed: bool,
     /// The densities over the chart grid.
     #[serde(skip)]
     pub chart: NoiseChart,
@@ -185,6 +198,7 @@ fn build_noise(s: &NoiseSpectrum, weighting: Weighting, passband_v: f64) -> Buil
         top: shares
             .into_iter()
             .take(TOP_CONTRIBUTORS)
+            .filter(|&(_, v2)| v2 >= MIN_SHARE * total)
             .map(|(i, v2)| Contribution {
                 designator: s.sources[i].designator.clone(),
                 kind: s.sources[i].kind,
@@ -291,7 +305,13 @@ impl Design {
             .try_into()
             .unwrap_or_else(|_| unreachable!("three builds"));
         let dynamic_range = self.dynamic_range(active, &active_on_parts)?;
+        let spec = &self.spec.opamp;
+        let default = crate::spec::OpAmpSpec::default();
         Ok(NoiseFigures {
+            opamp: spec.noise,
+            slew_v_per_s: spec.slew_v_per_s,
+            swing_v_peak: spec.swing_v,
+            opamp_assumed: spec.noise == default.noise && spec.slew_v_per_s == default.slew_v_per_s,
             band_hz,
             weighting,
             temperature_k: self.spec.noise.temperature_k,

@@ -3,6 +3,7 @@
 //! detail, phase, group delay, op-amp levels and the Monte Carlo envelope.
 //! Every trace is labelled with the build it belongs to.
 
+use super::eng::format_trimmed as eng;
 use super::plot::{Band, Chart, MaskBox, Trace};
 use crate::design::{Build, BuildTrace, Documents};
 
@@ -261,11 +262,17 @@ fn noise_chart(d: &Documents) -> NamedChart {
     traces.extend(n.top.iter().take(CHART_SOURCES).map(|(name, kind, v)| {
         trace(format!("{}: {name} {kind}", Build::ActiveOnParts), v, false)
     }));
+    let noise = &d.analyses.noise;
     NamedChart {
         stem: "noise",
-        caption: "Output noise density of the three builds and the largest sources of the active on parts build",
+        caption: "Output noise density of the three builds and the three largest sources of the active on parts build (densities unweighted; the integrals in the table are over the band the title names)",
         chart: Chart {
-            title: "Output noise".to_string(),
+            title: format!(
+                "Output noise (integrated {} to {}, {})",
+                eng(noise.band_hz[0], "Hz"),
+                eng(noise.band_hz[1], "Hz"),
+                noise.weighting
+            ),
             x_label: "frequency (Hz)".to_string(),
             y_label: "noise density (dB re 1 V/sqrt(Hz))".to_string(),
             log_x: true,
@@ -281,7 +288,14 @@ const CHART_SOURCES: usize = 3;
 /// The responses of the three builds to a 1 V step.
 fn step_chart(d: &Documents) -> NamedChart {
     let s = &d.analyses.step.chart;
-    let ms: Vec<f64> = s.time_s.iter().map(|t| t * 1e3).collect();
+    // The unit that keeps the axis's numbers between 1 and 1000.
+    let end = s.time_s.last().copied().unwrap_or(0.0);
+    let (scale, unit) = match end {
+        e if e < 1e-3 => (1e6, "us"),
+        e if e < 1.0 => (1e3, "ms"),
+        _ => (1.0, "s"),
+    };
+    let ms: Vec<f64> = s.time_s.iter().map(|t| t * scale).collect();
     let trace = |build: Build, values: &[f64], dashed: bool| Trace {
         label: build.to_string(),
         x: ms.clone(),
@@ -290,10 +304,10 @@ fn step_chart(d: &Documents) -> NamedChart {
     };
     NamedChart {
         stem: "step",
-        caption: "Response of the three builds to a 1 V step at the input",
+        caption: "Response of the three builds to a 1 V step at the input, to one and a half times the longest settling to 0.1 % (the finer settling times are in the table)",
         chart: Chart {
             title: "Step response".to_string(),
-            x_label: "time (ms)".to_string(),
+            x_label: format!("time ({unit})"),
             y_label: "output (V)".to_string(),
             log_x: false,
             // A build without a step response (all NaN) is left out.

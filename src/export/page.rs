@@ -205,6 +205,11 @@ pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> Strin
         Build::ActiveOnParts,
         super::prose::sources_words(&n.active_on_parts)
     ));
+    notes.extend(super::summary::noise_notes(n));
+    notes.extend(super::summary::step_notes(
+        st,
+        r.active.as_ref().map(|a| a.method),
+    ));
     let settle_header: Vec<String> = crate::analysis::SETTLING_FRACTIONS
         .iter()
         .map(|f| format!("settles to {} %", 100.0 * f))

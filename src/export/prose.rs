@@ -611,7 +611,9 @@ pub fn step_words(f: &crate::analysis::StepFigures, bits: Option<u32>) -> String
     }
     for (k, s) in f.settling.iter().enumerate() {
         let band = match bits {
-            Some(n) if k == f.settling.len() - 1 => format!("half an LSB of {n} bits"),
+            Some(n) if k == f.settling.len() - 1 => {
+                format!("half an LSB of {n} bits (the reference level as full scale)")
+            }
             _ => format!("{} %", 100.0 * s.fraction),
         };
         parts.push(match s.time_s {

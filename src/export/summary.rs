@@ -8,7 +8,6 @@ use super::prose::{
     percent, scale_words, sources_words, step_words,
 };
 use crate::active::Method;
-use crate::analysis::StepFigures;
 use crate::analysis::{DelayVerdict, MaskVerdict, EDGE_WINDOW};
 use crate::design::{Build, BuildFigures, Documents, NoiseFigures, Report, StepReport};
 use std::fmt::Write as _;
@@ -327,7 +326,6 @@ pub fn summary(d: &Documents) -> String {
     let _ = writeln!(s, "  why: {}", act.why);
     figures(&mut s, Build::ActiveExact, &act.active_exact);
     figures(&mut s, Build::ActiveOnParts, &act.active_on_parts);
-    dynamics(&mut s, d);
     let e = &act.parts_error_db;
     let _ = writeln!(
         s,
@@ -355,6 +353,7 @@ pub fn summary(d: &Documents) -> String {
     for n in &act.rescaled {
         let _ = writeln!(s, "  {}: note: {n}", Build::ActiveOnParts);
     }
+    dynamics(&mut s, d);
     s
 }
 
@@ -373,11 +372,12 @@ pub fn noise_text(n: &NoiseFigures) -> String {
     let mut s = String::new();
     let _ = writeln!(
         s,
-        "noise ({}, {} to {}, resistors at {} K):",
+        "noise ({}, {} to {}, resistors at {} K; {}):",
         n.weighting,
         eng(n.band_hz[0], "Hz"),
         eng(n.band_hz[1], "Hz"),
-        n.temperature_k
+        n.temperature_k,
+        opamp_noise_words(n)
     );
     for (build, b) in [
         (Build::PassiveIdeal, &n.passive_ideal),
@@ -392,15 +392,6 @@ pub fn noise_text(n: &NoiseFigures) -> String {
         Build::ActiveOnParts,
         sources_words(&n.active_on_parts)
     );
-    let excess = 20.0 * (n.active_on_parts.output_v_rms / n.passive_ideal.output_v_rms).log10();
-    if excess > NOISIER_DB {
-        let _ = writeln!(
-            s,
-            "  {}: note: {} dB noisier than the passive ideal, whose terminations alone are noisy",
-            Build::ActiveOnParts,
-            db(excess)
-        );
-    }
     if let Some(r) = &n.dynamic_range {
         let _ = writeln!(
             s,
@@ -409,7 +400,55 @@ pub fn noise_text(n: &NoiseFigures) -> String {
             dynamic_range_words(r, n.active_on_parts.input_v_rms)
         );
     }
+    for note in noise_notes(n) {
+        let _ = writeln!(s, "  {note}");
+    }
     s
+}
+
+/// The op-amps' noise and slew rate, saying when they are the default
+/// (an assumption of this project's, not a part's data).
+fn opamp_noise_words(n: &NoiseFigures) -> String {
+    let o = &n.opamp;
+    format!(
+        "op-amps {}/sqrt(Hz) (1/f corner {}), {}/sqrt(Hz) (corner {}), slew rate {}/us{}",
+        eng(o.en_v_per_rthz, "V"),
+        eng(o.en_corner_hz, "Hz"),
+        eng(o.in_a_per_rthz, "A"),
+        eng(o.in_corner_hz, "Hz"),
+        eng(n.slew_v_per_s * 1e-6, "V"),
+        if n.opamp_assumed {
+            ", the default op-amp: an assumption, give the data sheet's in [opamp]"
+        } else {
+            ""
+        }
+    )
+}
+
+/// The notes on the noise figures, each naming its build: an active
+/// build much noisier than the passive ideal, an input limit above the
+/// op-amps' swing.
+pub fn noise_notes(n: &NoiseFigures) -> Vec<String> {
+    let mut notes = Vec::new();
+    let excess = 20.0 * (n.active_on_parts.output_v_rms / n.passive_ideal.output_v_rms).log10();
+    if excess > NOISIER_DB {
+        notes.push(format!(
+            "{}: note: {} dB noisier than the passive ideal (whose only noise is its terminations')",
+            Build::ActiveOnParts,
+            db(excess)
+        ));
+    }
+    if let Some(r) = &n.dynamic_range {
+        if r.max_input_v_peak > n.swing_v_peak {
+            notes.push(format!(
+                "{}: note: the largest input, {} peak, is beyond the op-amps' own swing ({} peak): whatever drives the filter clips first",
+                Build::ActiveOnParts,
+                eng(r.max_input_v_peak, "V"),
+                eng(n.swing_v_peak, "V")
+            ));
+        }
+    }
+    notes
 }
 
 /// The step responses of the three builds, as `nocoil step` prints them;
@@ -437,43 +476,55 @@ pub fn step_text(st: &StepReport, method: Option<Method>) -> String {
             }
         }
     }
+    for note in step_notes(st, method) {
+        let _ = writeln!(s, "  {note}");
+    }
+    s
+}
+
+/// The notes on the step responses: a build on parts whose DC gain is
+/// off the passive ideal's, or that settles much later.
+pub fn step_notes(st: &StepReport, method: Option<Method>) -> Vec<String> {
+    let mut notes = Vec::new();
     let (Some(parts), Some(ideal)) = (&st.active_on_parts, &st.passive_ideal) else {
-        return s;
+        return notes;
     };
     let (dc_parts, dc_ideal) = (parts.final_v, ideal.final_v);
     if dc_parts != 0.0 && dc_ideal != 0.0 {
         let off_db = 20.0 * (dc_parts / dc_ideal).abs().log10();
         if off_db.abs() > DC_OFF_DB {
-            let _ = writeln!(
-                s,
-                "  {}: note: its DC gain is {} dB off the passive ideal's (a final value of {} against {}): a path the active build adds or loses at DC",
+            notes.push(format!(
+                "{}: note: its DC gain is {} dB off the passive ideal's (a final value of {} against {}): a path the active build adds or loses at DC",
                 Build::ActiveOnParts,
                 db(off_db),
                 eng(dc_parts, "V"),
                 eng(dc_ideal, "V")
-            );
+            ));
         }
     }
-    let slowest = |f: &StepFigures| {
-        f.settling
-            .iter()
-            .filter_map(|x| x.time_s)
-            .fold(0.0, f64::max)
-    };
-    let ratio = slowest(parts) / slowest(ideal);
-    if ratio > SLOWER_FACTOR {
-        let _ = writeln!(
-            s,
-            "  {}: note: settles to its finest band {} times later than the passive ideal: a slow mode the active build adds{}",
-            Build::ActiveOnParts,
-            super::prose::factor(ratio),
-            match method {
-                Some(Method::Fdnr) => " (an FDNR build's DC-path resistors across the termination capacitors, with those capacitors, make a pole near DC)",
-                _ => "",
-            }
-        );
+    // The finest band both builds placed.
+    let finest = parts
+        .settling
+        .iter()
+        .zip(&ideal.settling)
+        .filter_map(|(a, b)| Some((a.fraction, a.time_s?, b.time_s?)))
+        .next_back();
+    if let Some((fraction, slow, fast)) = finest {
+        let ratio = slow / fast;
+        if ratio > SLOWER_FACTOR {
+            notes.push(format!(
+                "{}: note: settles to {} % {} times later than the passive ideal: a slow mode the active build adds{}",
+                Build::ActiveOnParts,
+                100.0 * fraction,
+                super::prose::factor(ratio),
+                match method {
+                    Some(Method::Fdnr) => " (an FDNR build's DC-path resistors across the termination capacitors, with those capacitors, make a pole near DC)",
+                    _ => "",
+                }
+            ));
+        }
     }
-    s
+    notes
 }
 
 /// An active build this much noisier than the passive ideal gets a note,

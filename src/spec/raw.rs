@@ -363,6 +363,12 @@ const ADC_BITS: std::ops::RangeInclusive<i64> = 1..=32;
 /// to well beyond any component's rating.
 const TEMPERATURE_RANGE_K: (f64, f64) = (1.0, 1000.0);
 
+/// The band a noise integral may span, Hz: a band reaching 1e300 Hz made
+/// the network's equations singular in a double, and one from 5e-324 Hz
+/// overflowed the grid (a trial as a new user); a filter's noise of
+/// interest lies far inside these.
+const NOISE_BAND_HZ: (f64, f64) = (1e-6, 1e10);
+
 /// The `[noise]` table.
 fn noise(c: &Checker, raw: &RawNoise) -> Result<NoiseSpec, SpecError> {
     let d = NoiseSpec::default();
@@ -378,12 +384,17 @@ fn noise(c: &Checker, raw: &RawNoise) -> Result<NoiseSpec, SpecError> {
     let band_hz = match &raw.band_hz {
         None => None,
         Some(v) => match c.edges("noise.band_hz", v)?.as_slice() {
-            &[lo, hi] if lo > 0.0 && lo < hi && hi.is_finite() => Some([lo, hi]),
+            &[lo, hi] if lo >= NOISE_BAND_HZ.0 && lo < hi && hi <= NOISE_BAND_HZ.1 => {
+                Some([lo, hi])
+            }
             _ => {
                 return Err(c.invalid(
                     "noise.band_hz",
                     v,
-                    "expected [low, high] in Hz with 0 < low < high",
+                    format!(
+                        "expected [low, high] in Hz with {:e} <= low < high <= {:e}",
+                        NOISE_BAND_HZ.0, NOISE_BAND_HZ.1
+                    ),
                 ))
             }
         },
