@@ -602,7 +602,15 @@ pub fn dynamic_range_words(r: &crate::design::DynamicRange, input_noise_v: f64) 
 /// 179.5 us, settles to 1 % in 2.27 ms, to 0.1 % in 4.37 ms, ...".
 pub fn step_words(f: &crate::analysis::StepFigures, bits: Option<u32>) -> String {
     use super::eng::format_trimmed as eng;
-    let mut parts = vec![format!("final value {}", eng(f.final_v, "V"))];
+    // A filter that blocks DC returns to 0 V: its bands are fractions of
+    // the passband level, which the reader must be told.
+    let mut parts = vec![match f.final_v == 0.0 {
+        true => format!(
+            "returns to 0 V (bands as fractions of the passband level, {})",
+            eng(f.reference_v, "V")
+        ),
+        false => format!("final value {}", eng(f.final_v, "V")),
+    }];
     if let Some(o) = f.overshoot_pct {
         parts.push(format!("overshoot {o:.3} %"));
     }
