@@ -944,7 +944,7 @@ fn noise_and_step_commands_print_every_build() {
     }
     assert!(text.contains("dynamic range"), "{text}");
     assert!(
-        text.starts_with("noise (unweighted, 300 Hz to 3 kHz, resistors at 300 K; op-amps 5 nV/sqrt(Hz) (1/f corner 10 Hz), 1 pA/sqrt(Hz) (corner 100 Hz), slew rate 10 V/us, the default op-amp: an assumption"),
+        text.starts_with("noise (unweighted, 300 Hz to 3 kHz, resistors at 300 K; op-amps 5 nV/sqrt(Hz) (1/f corner 10 Hz), 1 pA/sqrt(Hz) (corner 100 Hz), slew rate 10 V/us, the default op-amp's: an assumption"),
         "{text}"
     );
     let step = succeeds(&nocoil(&["step", spec]));

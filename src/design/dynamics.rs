@@ -110,9 +110,11 @@ pub struct NoiseFigures {
     pub slew_v_per_s: f64,
     /// Their output swing, V peak.
     pub swing_v_peak: f64,
-    /// Whether the noise and slew rate are the default op-amp's (an
-    /// assumption: the design file gave none of them).
-    pub opamp_assumed: bool,
+    /// Whether the noise is the default op-amp's (an assumption: the
+    /// design file gave none of its keys).
+    pub noise_assumed: bool,
+    /// Whether the slew rate is the default op-amp's.
+    pub slew_assumed: bool,
     /// The densities over the chart grid.
     #[serde(skip)]
     pub chart: NoiseChart,
@@ -311,7 +313,8 @@ impl Design {
             opamp: spec.noise,
             slew_v_per_s: spec.slew_v_per_s,
             swing_v_peak: spec.swing_v,
-            opamp_assumed: spec.noise == default.noise && spec.slew_v_per_s == default.slew_v_per_s,
+            noise_assumed: spec.noise == default.noise,
+            slew_assumed: spec.slew_v_per_s == default.slew_v_per_s,
             band_hz,
             weighting,
             temperature_k: self.spec.noise.temperature_k,

@@ -417,10 +417,11 @@ fn opamp_noise_words(n: &NoiseFigures) -> String {
         eng(o.in_a_per_rthz, "A"),
         eng(o.in_corner_hz, "Hz"),
         eng(n.slew_v_per_s * 1e-6, "V"),
-        if n.opamp_assumed {
-            ", the default op-amp: an assumption, give the data sheet's in [opamp]"
-        } else {
-            ""
+        match (n.noise_assumed, n.slew_assumed) {
+            (true, true) => ", the default op-amp's: an assumption, give the data sheet's in [opamp]",
+            (true, false) => "; the noise is the default op-amp's: an assumption, give the data sheet's in [opamp]",
+            (false, true) => "; the slew rate is the default op-amp's: an assumption, give the data sheet's in [opamp]",
+            (false, false) => "",
         }
     )
 }
