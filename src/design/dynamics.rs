@@ -261,51 +261,39 @@ impl Design {
             &active.build.netlist,
             &active.on_parts.netlist,
         ];
-        let mut integrated = Vec::new();
-        for n in builds {
-            integrated.push(build_noise(
-                &self.noise_of(n, &grid)?,
-                weighting,
-                passband_v,
-            ));
-        }
+        let integrate = |n: &Netlist| {
+            self.noise_of(n, &grid)
+                .map(|s| build_noise(&s, weighting, passband_v))
+        };
+        let [passive_ideal, active_exact, active_on_parts] = builds.map(integrate);
+        let (passive_ideal, active_exact, active_on_parts) =
+            (passive_ideal?, active_exact?, active_on_parts?);
         let (lo, hi) = self.view_hz();
         let chart_grid = log_grid(lo.min(band_hz[0]), hi.max(band_hz[1]), NOISE_CHART_POINTS)
             .map_err(|cause| self.circuit_error(cause))?;
-        let mut densities = Vec::new();
-        let mut parts_spectrum = None;
-        for n in builds {
-            let s = self.noise_of(n, &chart_grid)?;
-            densities.push(
-                s.total_v2_per_hz
-                    .iter()
-                    .map(|p| p.sqrt())
-                    .collect::<Vec<_>>(),
-            );
-            parts_spectrum = Some(s);
-        }
-        let parts_spectrum = parts_spectrum.unwrap_or_else(|| unreachable!("three builds"));
-        let [passive_ideal, active_exact, active_on_parts]: [BuildNoise; 3] = integrated
-            .try_into()
-            .unwrap_or_else(|_| unreachable!("three builds"));
+        let [p, e, o] = builds.map(|n| self.noise_of(n, &chart_grid));
+        let (p, e, o) = (p?, e?, o?);
+        let density = |v2: &[f64]| v2.iter().map(|p| p.sqrt()).collect::<Vec<f64>>();
         let top = active_on_parts
             .top
             .iter()
             .filter_map(|c| {
-                let i = parts_spectrum
+                let i = o
                     .sources
                     .iter()
                     .position(|s| s.designator == c.designator && s.kind == c.kind)?;
-                let density = parts_spectrum.source_v2_per_hz[i]
-                    .iter()
-                    .map(|p| p.sqrt())
-                    .collect();
-                Some((c.designator.clone(), c.kind, density))
+                Some((
+                    c.designator.clone(),
+                    c.kind,
+                    density(&o.source_v2_per_hz[i]),
+                ))
             })
             .collect();
-        let [p, e, o]: [Vec<f64>; 3] = densities
-            .try_into()
-            .unwrap_or_else(|_| unreachable!("three builds"));
+        let (p, e, o) = (
+            density(&p.total_v2_per_hz),
+            density(&e.total_v2_per_hz),
+            density(&o.total_v2_per_hz),
+        );
         let dynamic_range = self.dynamic_range(active, &active_on_parts)?;
         let spec = &self.spec.opamp;
         let default = crate::spec::OpAmpSpec::default();
@@ -389,36 +377,29 @@ impl Design {
         let bits = self.spec.adc_bits;
         let passband_v = self.passband_v();
         let builds = [
-            &self.passive,
-            &active.build.netlist,
-            &active.on_parts.netlist,
+            (Build::PassiveIdeal, &self.passive),
+            (Build::ActiveExact, &active.build.netlist),
+            (Build::ActiveOnParts, &active.on_parts.netlist),
         ];
-        let mut modes = Vec::new();
-        let mut figures = Vec::new();
-        let mut not_computed = Vec::new();
-        for (build, n) in [
-            Build::PassiveIdeal,
-            Build::ActiveExact,
-            Build::ActiveOnParts,
-        ]
-        .into_iter()
-        .zip(builds)
-        {
-            let found = crate::active::natural_frequencies(n)
+        let found = builds.map(|(build, n)| {
+            let modes = crate::active::natural_frequencies(n)
                 .map_err(|e| e.to_string())
                 .and_then(|roots| step_modes(n, &roots).map_err(|e| e.to_string()));
-            match found {
-                Ok(m) => {
-                    figures.push(Some(step_figures(&m, passband_v, bits)));
-                    modes.push(Some(m));
-                }
-                Err(reason) => {
-                    not_computed.push(NotComputed { build, reason });
-                    figures.push(None);
-                    modes.push(None);
-                }
-            }
-        }
+            (build, modes)
+        });
+        let not_computed = found
+            .iter()
+            .filter_map(|(build, m)| {
+                m.as_ref().err().map(|reason| NotComputed {
+                    build: *build,
+                    reason: reason.clone(),
+                })
+            })
+            .collect();
+        let modes = found.map(|(_, m)| m.ok());
+        let figures = modes
+            .each_ref()
+            .map(|m| m.as_ref().map(|m| step_figures(m, passband_v, bits)));
         // The chart shows the builds to one and a half times the longest
         // settling to 0.1 % (the slow tails to 0.01 % are in the figures).
         let span_s = 1.5
@@ -443,9 +424,7 @@ impl Design {
             active_on_parts: trace(2),
             time_s: time_s.clone(),
         };
-        let [passive_ideal, active_exact, active_on_parts]: [Option<StepFigures>; 3] = figures
-            .try_into()
-            .unwrap_or_else(|_| unreachable!("three builds"));
+        let [passive_ideal, active_exact, active_on_parts] = figures;
         Ok(StepReport {
             adc_bits: bits,
             passive_ideal,
