@@ -36,8 +36,9 @@ enum Command {
     /// active on parts build meets the specification, then the three
     /// builds, and write into a folder the decks of the three builds
     /// (passive.cir, active.cir, built.cir), report.json, bom.csv,
-    /// sensitivity.csv, montecarlo.csv, six charts (.svg, and .png where a
-    /// TrueType font is installed) and report.html.
+    /// sensitivity.csv, montecarlo.csv, noise.csv, step.csv, eight charts
+    /// (.svg, and .png where a TrueType font is installed) and
+    /// report.html.
     Design {
         /// The design file (TOML).
         spec: PathBuf,
@@ -119,8 +120,9 @@ enum Command {
         #[arg(long)]
         csv: bool,
     },
-    /// Write the charts, sensitivity.csv, montecarlo.csv, bom.csv and
-    /// report.html into a folder (no decks, no JSON).
+    /// Write the charts, sensitivity.csv, montecarlo.csv, noise.csv,
+    /// step.csv, bom.csv and report.html into a folder (no decks, no
+    /// JSON).
     Report {
         /// The design file (TOML).
         spec: PathBuf,
