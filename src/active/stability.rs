@@ -317,17 +317,71 @@ fn reduced_roots(system: &AcSystem, sigma: f64) -> Option<Vec<Complex64>> {
 }
 
 /// The eigenvalues of `n` by faer's dense eigensolver (Hessenberg
-/// reduction and a multishift QR iteration with aggressive early
-/// deflation). It replaced nalgebra's real Schur form, whose QR iteration
-/// stalled at every shift on builds with near-ideal op-amps (GBW 10 THz,
-/// A0 200 dB; 7th- to 9th-order elliptic bandpasses and bandstops), even
-/// after balancing; faer converged on all of them (the band-filter grid
-/// of tests/damping.rs).
+/// reduction, then the double-shift QR iteration with exceptional shifts
+/// of LAPACK's dlahqr), or `None` where the iteration did not finish.
+///
+/// It replaced nalgebra's real Schur form, whose QR iteration stalled at
+/// every shift on builds with near-ideal op-amps (GBW 10 THz, A0 200 dB;
+/// 7th- to 9th-order elliptic bandpasses and bandstops), even after
+/// balancing; faer converged on all of them (the band-filter grid of
+/// tests/damping.rs). faer's default multishift path is not used: the
+/// reordering loop of its aggressive early deflation has no bound and
+/// spun forever on the passive ideal of a 12th-order Chebyshev bandpass
+/// at 0.1 Hz (tests/step.rs, `a_slow_band_filter_finishes`) when a
+/// block swap kept failing. dlahqr's iteration is bounded (30 sweeps per
+/// unknown, at least 300), and a blocking threshold above any size sends
+/// every matrix to it.
 fn eigenvalues(n: DMatrix<f64>) -> Option<Vec<Complex64>> {
-    let m = faer::Mat::<f64>::from_fn(n.nrows(), n.ncols(), |i, j| n[(i, j)]);
-    let values = m.eigenvalues().ok()?;
-    Some(values.iter().map(|z| Complex64::new(z.re, z.im)).collect())
+    use faer::dyn_stack::{MemBuffer, MemStack};
+    use faer::linalg::evd::{self, ComputeEigenvectors, EvdParams};
+    let size = n.nrows();
+    let m = faer::Mat::<f64>::from_fn(size, size, |i, j| n[(i, j)]);
+    let mut params: faer::Spec<EvdParams, f64> = Default::default();
+    params.schur.blocking_threshold = usize::MAX;
+    let (mut re, mut im) = (
+        faer::diag::Diag::<f64>::zeros(size),
+        faer::diag::Diag::<f64>::zeros(size),
+    );
+    let no = ComputeEigenvectors::No;
+    let scratch = evd::evd_scratch::<f64>(size, no, no, faer::Par::Seq, params);
+    let mut buffer = MemBuffer::new(scratch);
+    let stack = MemStack::new(&mut buffer);
+    let solved = evd::evd_real(
+        m.as_ref(),
+        re.as_mut(),
+        im.as_mut(),
+        None,
+        None,
+        faer::Par::Seq,
+        stack,
+        params,
+    );
+    solved.ok()?;
+    let values: Vec<Complex64> = (0..size).map(|i| Complex64::new(re[i], im[i])).collect();
+    traces_agree(&n, &values).then_some(values)
 }
+
+/// Whether the sums of the eigenvalues and of their squares equal the
+/// traces of `n` and of its square, to [`TRACE_AGREEMENT`] of their
+/// scales. faer returns `Ok` even where the QR iteration ran out of
+/// sweeps, leaving the unconverged eigenvalues at zero: the traces are
+/// what tells.
+fn traces_agree(n: &DMatrix<f64>, values: &[Complex64]) -> bool {
+    let scale = n.norm();
+    let sum: Complex64 = values.iter().sum();
+    let squares: Complex64 = values.iter().map(|z| z * z).sum();
+    let trace_of_square = (n * n).trace();
+    (sum - n.trace()).norm() <= TRACE_AGREEMENT * scale
+        && (squares - trace_of_square).norm() <= TRACE_AGREEMENT * scale * scale
+}
+
+/// How closely the eigenvalues' sums must match the traces, relative to
+/// |N| (and |N|^2): a converged Schur form keeps them to a few hundred
+/// rounding errors of |N| for the sizes here (a few hundred unknowns); a
+/// missing eigenvalue moves them by its own size, so one above 1e-9 |N|
+/// is caught (smaller ones are roots more than 1e9 times the shift away,
+/// which the bands of [`banded_roots`] take from shifts of their own).
+const TRACE_AGREEMENT: f64 = 1e-9;
 
 /// Nodes merged into groups; each group is named by its lowest node, so
 /// ground (node 0) always names its own.
