@@ -944,7 +944,11 @@ fn noise_and_step_commands_print_every_build() {
     }
     assert!(text.contains("dynamic range"), "{text}");
     assert!(
-        text.starts_with("noise (unweighted, 300 Hz to 3 kHz, resistors at 300 K; op-amps 5 nV/sqrt(Hz) (1/f corner 10 Hz), 1 pA/sqrt(Hz) (corner 100 Hz), slew rate 10 V/us, the default op-amp's: an assumption"),
+        text.contains("active on parts: converter levels chosen for dynamic range, "),
+        "{text}"
+    );
+    assert!(
+        text.starts_with("noise (unweighted, 300 Hz to 3 kHz, resistors at 300 K; op-amps 5 nV/sqrt(Hz) (1/f corner 10 Hz), 1 pA/sqrt(Hz) (corner 100 Hz), slew rate 10 V/us, output current 10 mA, the default op-amp's: an assumption"),
         "{text}"
     );
     let step = succeeds(&nocoil(&["step", spec]));
@@ -977,6 +981,11 @@ fn bad_noise_keys_are_rejected() {
             "slew",
             "[opamp]\nslew_v_per_s = 0\n",
             &["opamp.slew_v_per_s", "V/s"][..],
+        ),
+        (
+            "current",
+            "[opamp]\noutput_current_a = 0\n",
+            &["opamp.output_current_a", "output current in A"][..],
         ),
         (
             "band",

@@ -258,6 +258,7 @@ impl Gen {
             self.maybe_key(&mut s, 20, "in_a_per_rthz", (0.0, 1e-10));
             self.maybe_key(&mut s, 20, "in_corner_hz", (0.0, 1e4));
             self.maybe_key(&mut s, 20, "slew_v_per_s", (1e4, 1e9));
+            self.maybe_key(&mut s, 20, "output_current_a", (1e-5, 1.0));
         }
         if self.chance(10) {
             s += "\n[noise]\n";

@@ -171,6 +171,30 @@ fn snapping_agrees_with_a_brute_force_search_over_literals() {
     }
 }
 
+/// `between` lists exactly the literals inside a range, ends included,
+/// bit for bit (the brute force above is the reference).
+#[test]
+fn between_lists_the_literals_in_a_range() {
+    for series in Series::ALL {
+        let all = literals(series);
+        for (low, high) in [
+            (1e-10, 1e-6),
+            (4.7e-9, 4.7e-9),
+            (3.3e2, 9.1e5),
+            (2e-12, 2.1e-12),
+        ] {
+            let want: Vec<f64> = all
+                .iter()
+                .copied()
+                .filter(|v| (low..=high).contains(v))
+                .collect();
+            let got: Vec<f64> = series.between(low, high).collect();
+            assert_eq!(got, want, "{series} from {low:e} to {high:e}");
+        }
+    }
+    assert_eq!(Series::E12.between(-1.0, 1.0).count(), 0);
+}
+
 #[test]
 fn table_values_snap_to_themselves_bit_for_bit() {
     for series in Series::ALL {

@@ -150,13 +150,14 @@ pub fn scale_impedance(
 }
 
 /// Puts the capacitors of the first of a converter's `chains` (a floating
-/// inductor's two share Z5) on the values `place` chooses for them, by the
-/// balance shift for a capacitor Z1 and the level for the first capacitor
-/// of Z2..Z5; every chain keeps its realized value.
+/// inductor's two share Z5) on chosen values, every chain keeping its
+/// realized value: a capacitor Z1 on `balance(C1)` by the balance shift,
+/// the first capacitor of Z2..Z5 on `level(C)` by the level.
 pub fn place<E: From<CircuitError>>(
     chains: &[Chain],
     netlist: &mut Netlist,
-    mut place: impl FnMut(f64) -> Result<f64, E>,
+    mut balance: impl FnMut(f64) -> Result<f64, E>,
+    mut level: impl FnMut(f64) -> Result<f64, E>,
 ) -> Result<Moves, E> {
     let mut moves = Moves {
         balance: 1.0,
@@ -165,26 +166,48 @@ pub fn place<E: From<CircuitError>>(
     let Some(first) = chains.first().map(|c| c.z) else {
         return Ok(moves);
     };
-    let load = first[4];
     if is_capacitor(netlist, first[0]) {
         let c = value(netlist, first[0]);
-        moves.balance = c / place(c)?;
+        moves.balance = c / balance(c)?;
         for chain in chains {
             scale_impedance(netlist, chain.z[0], moves.balance)?;
         }
-        scale_impedance(netlist, load, 1.0 / moves.balance)?;
+        scale_impedance(netlist, first[4], 1.0 / moves.balance)?;
     }
-    if let Some(&cap) = first[1..].iter().find(|&&i| is_capacitor(netlist, i)) {
+    if let Some(cap) = level_capacitor(chains, netlist) {
         let c = value(netlist, cap);
-        moves.level = c / place(c)?;
-        for chain in chains {
-            for &index in &chain.z[1..4] {
-                scale_impedance(netlist, index, moves.level)?;
-            }
-        }
-        scale_impedance(netlist, load, moves.level)?;
+        moves.level = c / level(c)?;
+        scale_level(chains, netlist, moves.level)?;
     }
     Ok(moves)
+}
+
+/// The capacitor the level freedom places: the first of Z2..Z5 of the
+/// first chain, if any.
+pub fn level_capacitor(chains: &[Chain], netlist: &Netlist) -> Option<usize> {
+    let first = chains.first()?.z;
+    first[1..]
+        .iter()
+        .copied()
+        .find(|&i| is_capacitor(netlist, i))
+}
+
+/// The level freedom: Z2..Z5 of every chain times `factor` (a shared Z5
+/// once).
+pub fn scale_level(
+    chains: &[Chain],
+    netlist: &mut Netlist,
+    factor: f64,
+) -> Result<(), CircuitError> {
+    let Some(load) = chains.first().map(|c| c.z[4]) else {
+        return Ok(());
+    };
+    for chain in chains {
+        for &index in &chain.z[1..4] {
+            scale_impedance(netlist, index, factor)?;
+        }
+    }
+    scale_impedance(netlist, load, factor)
 }
 
 #[cfg(test)]

@@ -10,6 +10,8 @@
 //! gain. The output voltage read is the op-amp's `out` node (after any
 //! output resistance, which drops little at the loads a filter presents).
 
+use num_complex::Complex64;
+
 use super::AnalysisError;
 use crate::circuit::{AcSystem, CircuitError, Element, SparseAc};
 
@@ -126,32 +128,118 @@ pub fn level_traces(
         .collect())
 }
 
+/// The current each op-amp of `levels` delivers from its output into the
+/// network, per volt at node `inp` (A/V, complex), at each of `freqs_hz`:
+/// the sum over the resistors, capacitors and inductors on its output
+/// node of (V(out) - V(other end)) Y(f) (op-amp inputs draw none).
+pub fn output_currents(
+    system: &mut AcSystem,
+    inp: usize,
+    freqs_hz: &[f64],
+    levels: &[OpAmpLevel],
+) -> Result<Vec<Vec<Complex64>>, AnalysisError> {
+    let mut nodes: Vec<usize> = Vec::new();
+    let mut branches: Vec<Vec<(usize, &Element)>> = Vec::new();
+    let netlist = system.netlist().clone();
+    for level in levels {
+        let out = level.out_node;
+        let mut attached = Vec::new();
+        for e in &netlist.elements {
+            let (a, b) = match *e {
+                Element::Resistor { a, b, .. }
+                | Element::Capacitor { a, b, .. }
+                | Element::Inductor { a, b, .. } => (a, b),
+                _ => continue,
+            };
+            let other = match (a == out, b == out) {
+                (true, false) => b,
+                (false, true) => a,
+                _ => continue,
+            };
+            attached.push((other, e));
+            nodes.extend([out, other]);
+        }
+        branches.push(attached);
+    }
+    nodes.sort_unstable();
+    nodes.dedup();
+    let transfers = node_transfers(system, inp, freqs_hz, &nodes)?;
+    let at = |node: usize, k: usize| match nodes.binary_search(&node) {
+        Ok(i) => transfers[i][k],
+        Err(_) => Complex64::new(0.0, 0.0),
+    };
+    Ok(levels
+        .iter()
+        .zip(&branches)
+        .map(|(level, attached)| {
+            freqs_hz
+                .iter()
+                .enumerate()
+                .map(|(k, &f)| {
+                    let s = Complex64::new(0.0, std::f64::consts::TAU * f);
+                    attached
+                        .iter()
+                        .map(|&(other, e)| {
+                            let y = match *e {
+                                Element::Resistor { ohm, .. } => Complex64::new(1.0 / ohm, 0.0),
+                                Element::Capacitor { farad, .. } => s * farad,
+                                Element::Inductor { henry, .. } => 1.0 / (s * henry),
+                                _ => Complex64::new(0.0, 0.0),
+                            };
+                            (at(level.out_node, k) - at(other, k)) * y
+                        })
+                        .sum()
+                })
+                .collect()
+        })
+        .collect())
+}
+
 /// |V(out)/V(inp)| for each of `outs` at each of `freqs_hz`, one row per
-/// output, through the fastest exact path: the sparse solver over the
-/// grid's span (one sweep per output, each a solve per point reading two
-/// unknowns; its guard sends weak points to the dense LU itself), or the
-/// dense solver's node voltages where no sparse solver can be built
-/// (`tests/fast.rs` holds the two paths to 1e-12 of each other).
+/// output.
 fn output_gains(
     system: &mut AcSystem,
     inp: usize,
     freqs_hz: &[f64],
     outs: &[usize],
 ) -> Result<Vec<Vec<f64>>, AnalysisError> {
+    Ok(node_transfers(system, inp, freqs_hz, outs)?
+        .into_iter()
+        .map(|row| row.into_iter().map(|x| x.norm()).collect())
+        .collect())
+}
+
+/// V(node)/V(inp) for each of `nodes` at each of `freqs_hz`, one row per
+/// node, through the fastest exact path: the sparse solver over the
+/// grid's span (one sweep per node, each a solve per point reading two
+/// unknowns; its guard sends weak points to the dense LU itself), or the
+/// dense solver's node voltages where no sparse solver can be built
+/// (`tests/fast.rs` holds the two paths to 1e-12 of each other).
+fn node_transfers(
+    system: &mut AcSystem,
+    inp: usize,
+    freqs_hz: &[f64],
+    nodes: &[usize],
+) -> Result<Vec<Vec<Complex64>>, AnalysisError> {
     let lo = freqs_hz.iter().copied().fold(f64::INFINITY, f64::min);
     let hi = freqs_hz.iter().copied().fold(0.0, f64::max);
     if lo > 0.0 {
         if let Ok(mut sparse) = SparseAc::new(system, lo, hi) {
             let mut h = Vec::with_capacity(freqs_hz.len());
-            let mut rows = Vec::with_capacity(outs.len());
-            for &out in outs {
-                sparse.sweep_into(freqs_hz, out, inp, &mut h)?;
-                rows.push(h.iter().map(|x| x.norm()).collect());
+            let mut rows = Vec::with_capacity(nodes.len());
+            for &node in nodes {
+                match node {
+                    0 => rows.push(vec![Complex64::new(0.0, 0.0); freqs_hz.len()]),
+                    _ => {
+                        sparse.sweep_into(freqs_hz, node, inp, &mut h)?;
+                        rows.push(h.clone());
+                    }
+                }
             }
             return Ok(rows);
         }
     }
-    let mut rows = vec![Vec::with_capacity(freqs_hz.len()); outs.len()];
+    let mut rows = vec![Vec::with_capacity(freqs_hz.len()); nodes.len()];
     for &f in freqs_hz {
         let v = system.node_voltages(f)?;
         if v[inp].norm() == 0.0 {
@@ -161,8 +249,8 @@ fn output_gains(
             }
             .into());
         }
-        for (row, &out) in rows.iter_mut().zip(outs) {
-            row.push((v[out] / v[inp]).norm());
+        for (row, &node) in rows.iter_mut().zip(nodes) {
+            row.push(v[node] / v[inp]);
         }
     }
     Ok(rows)

@@ -7,7 +7,7 @@ use super::{Design, DesignError};
 use crate::active::{self, ActiveBuild, Options};
 use crate::analysis::{compare, opamp_levels, ComparePoints, Comparison, OpAmpLevel, LEVEL_POINTS};
 use crate::circuit::{band_grid, log_grid, response, AcSystem, Netlist};
-use crate::realize::{snap_build, SnappedBuild};
+use crate::realize::{choose_levels, snap_build, ConverterLevels, SnappedBuild};
 
 /// How one build compares with the passive ideal, and its op-amp levels.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
@@ -50,6 +50,8 @@ pub struct ActiveDesign {
     pub build: ActiveBuild,
     /// The active on parts build: preferred values, trimmed.
     pub on_parts: SnappedBuild,
+    /// Each converter's level on parts, chosen for dynamic range.
+    pub levels: ConverterLevels,
     /// The active exact build against the passive ideal.
     pub exact_figures: BuildFigures,
     /// The active on parts build against the passive ideal (the headline).
@@ -93,17 +95,32 @@ impl Design {
             file: file(),
             cause,
         })?;
-        let on_parts = snap_build(&self.passive, &build, &self.spec.parts, &opts.passband_hz)
-            .map_err(|cause| DesignError::Parts {
-                file: file(),
-                cause,
-            })?;
+        let parts = |cause| DesignError::Parts {
+            file: file(),
+            cause,
+        };
+        // A failed noise or current analysis costs the levels, not the
+        // build: the nearest values are what the parts stage had before.
+        let levels = match choose_levels(&build, &self.spec.parts, &self.level_goal()?) {
+            Ok(levels) => levels,
+            Err(cause) if cause.is_bad_input() => return Err(parts(cause)),
+            Err(cause) => ConverterLevels::unchosen(cause.to_string()),
+        };
+        let on_parts = snap_build(
+            &self.passive,
+            &build,
+            &self.spec.parts,
+            &opts.passband_hz,
+            Some(&levels),
+        )
+        .map_err(parts)?;
         let points = self.compare_points()?;
         Ok(ActiveDesign {
             exact_figures: self.figures(&build.netlist, &points)?,
             on_parts_figures: self.figures(&on_parts.netlist, &points)?,
             build,
             on_parts,
+            levels,
         })
     }
 

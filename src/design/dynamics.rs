@@ -6,10 +6,11 @@
 
 use super::{ActiveDesign, Build, Design, DesignError};
 use crate::analysis::{
-    a_weighting, integrate, level_traces, noise_band_grid, output_noise, step_figures, step_modes,
-    NoiseKind, NoiseSpectrum, StepFigures,
+    a_weighting, integrate, level_traces, noise_band_grid, opamp_levels, output_currents,
+    output_noise, step_figures, step_modes, NoiseKind, NoiseSpectrum, StepFigures,
 };
 use crate::circuit::{log_grid, AcSystem, Netlist};
+use crate::realize::{snap_build, LevelGoal};
 use crate::spec::Weighting;
 
 /// Points of the noise charts and `noise.csv`, log-spaced over the view
@@ -58,6 +59,9 @@ pub enum Headroom {
     Swing,
     /// An op-amp output's peak slope 2 pi f V reaches the slew rate.
     Slew,
+    /// The current an op-amp output delivers into the network reaches
+    /// its largest output current.
+    Current,
 }
 
 impl std::fmt::Display for Headroom {
@@ -65,6 +69,7 @@ impl std::fmt::Display for Headroom {
         f.write_str(match self {
             Headroom::Swing => "output swing",
             Headroom::Slew => "slew rate",
+            Headroom::Current => "output current",
         })
     }
 }
@@ -85,6 +90,15 @@ pub struct DynamicRange {
     pub range_db: f64,
     /// The source that dominates the noise.
     pub noisiest: Option<String>,
+}
+
+/// What the converter levels gain, measured on the builds on parts.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct LevelsGain {
+    /// The output noise lower by, dB.
+    pub noise_db: f64,
+    /// The dynamic range wider by, dB.
+    pub range_db: f64,
 }
 
 /// The output noise of the three builds.
@@ -115,6 +129,16 @@ pub struct NoiseFigures {
     pub noise_assumed: bool,
     /// Whether the slew rate is the default op-amp's.
     pub slew_assumed: bool,
+    /// Their largest output current, A peak.
+    pub output_current_a: f64,
+    /// Whether it is the default op-amp's.
+    pub current_assumed: bool,
+    /// Each converter's level on parts, chosen for dynamic range.
+    pub levels: crate::realize::ConverterLevels,
+    /// What the chosen levels gain on the build on parts, against the
+    /// same build with every converter on its nearest capacitor values
+    /// (`None` where the levels did not move).
+    pub levels_gain: Option<LevelsGain>,
     /// The densities over the chart grid.
     #[serde(skip)]
     pub chart: NoiseChart,
@@ -180,12 +204,17 @@ pub struct StepChart {
     pub active_on_parts: Vec<f64>,
 }
 
-/// The integrated noise of one spectrum and its top sources.
-fn build_noise(s: &NoiseSpectrum, weighting: Weighting, passband_v: f64) -> BuildNoise {
-    let weight = |f: f64| match weighting {
+/// The power weighting of `weighting` at `f` Hz.
+fn weight(weighting: Weighting, f: f64) -> f64 {
+    match weighting {
         Weighting::None => 1.0,
         Weighting::A => a_weighting(f),
-    };
+    }
+}
+
+/// The integrated noise of one spectrum and its top sources.
+fn build_noise(s: &NoiseSpectrum, weighting: Weighting, passband_v: f64) -> BuildNoise {
+    let weight = |f: f64| weight(weighting, f);
     let total = integrate(&s.freq_hz, &s.total_v2_per_hz, weight);
     let mut shares: Vec<(usize, f64)> = s
         .source_v2_per_hz
@@ -226,6 +255,31 @@ impl Design {
         let lo = passbands.iter().map(|b| b[0]).fold(f64::INFINITY, f64::min);
         let hi = passbands.iter().map(|b| b[1]).fold(0.0, f64::max);
         [lo.max(self.view_hz().0), hi]
+    }
+
+    /// What each converter's level on parts is chosen against: the noise
+    /// band and weighting of the noise figures, the level grid and the
+    /// op-amps' limits of the dynamic range.
+    pub fn level_goal(&self) -> Result<LevelGoal, DesignError> {
+        let band_hz = self.noise_band_hz();
+        let noise_grid_hz = noise_band_grid(band_hz[0], band_hz[1]);
+        let noise_weight = noise_grid_hz
+            .iter()
+            .map(|&f| weight(self.spec.noise.weighting, f))
+            .collect();
+        let (lo, hi) = self.view_hz();
+        let opamp = &self.spec.opamp;
+        Ok(LevelGoal {
+            noise_grid_hz,
+            noise_weight,
+            opamp_noise: opamp.noise,
+            temperature_k: self.spec.noise.temperature_k,
+            level_grid_hz: log_grid(lo, hi, crate::analysis::LEVEL_POINTS)
+                .map_err(|cause| self.circuit_error(cause))?,
+            swing_v: opamp.swing_v,
+            slew_v_per_s: opamp.slew_v_per_s,
+            output_current_a: opamp.output_current_a,
+        })
     }
 
     /// The passband level, V/V.
@@ -294,7 +348,29 @@ impl Design {
             density(&e.total_v2_per_hz),
             density(&o.total_v2_per_hz),
         );
-        let dynamic_range = self.dynamic_range(active, &active_on_parts)?;
+        let dynamic_range = self.dynamic_range(&active.on_parts.netlist, &active_on_parts)?;
+        let levels_gain = match (&dynamic_range, active.levels.used) {
+            (Some(range), true) => {
+                let nearest = snap_build(
+                    &self.passive,
+                    &active.build,
+                    &self.spec.parts,
+                    &self.passbands_hz(),
+                    None,
+                )
+                .map_err(|cause| DesignError::Parts {
+                    file: self.spec.file.clone(),
+                    cause,
+                })?;
+                let noise = integrate(&nearest.netlist)?;
+                let nearest_range = self.dynamic_range(&nearest.netlist, &noise)?;
+                nearest_range.map(|r| LevelsGain {
+                    noise_db: 20.0 * (noise.output_v_rms / active_on_parts.output_v_rms).log10(),
+                    range_db: range.range_db - r.range_db,
+                })
+            }
+            _ => None,
+        };
         let spec = &self.spec.opamp;
         let default = crate::spec::OpAmpSpec::default();
         Ok(NoiseFigures {
@@ -303,6 +379,10 @@ impl Design {
             swing_v_peak: spec.swing_v,
             noise_assumed: spec.noise == default.noise,
             slew_assumed: spec.slew_v_per_s == default.slew_v_per_s,
+            output_current_a: spec.output_current_a,
+            current_assumed: spec.output_current_a == default.output_current_a,
+            levels: active.levels.clone(),
+            levels_gain,
             band_hz,
             weighting,
             temperature_k: self.spec.noise.temperature_k,
@@ -321,35 +401,39 @@ impl Design {
     }
 
     /// The largest sine at the input of the build on parts before an
-    /// op-amp output reaches the swing or its slope the slew rate: at
-    /// each frequency of the level grid V_in <= min(swing, SR / (2 pi f))
-    /// / |gain to that output| (common practice), over the input-referred
-    /// noise. `None` for a build without op-amps.
+    /// op-amp output reaches the swing, its slope the slew rate or its
+    /// current the largest output current: at each frequency of the level
+    /// grid V_in <= min(swing, SR / (2 pi f)) / |gain to that output|
+    /// (common practice) and V_in <= I_max / |current per input volt|,
+    /// over the input-referred noise. `None` for a build without op-amps.
     fn dynamic_range(
         &self,
-        active: &ActiveDesign,
+        parts: &Netlist,
         noise: &BuildNoise,
     ) -> Result<Option<DynamicRange>, DesignError> {
-        let levels = &active.on_parts_figures.levels;
-        if levels.is_empty() {
-            return Ok(None);
-        }
-        let parts = &active.on_parts.netlist;
         let circuit = |cause| self.circuit_error(cause);
+        let analysis = |cause| self.analysis_error(cause);
         let inp = parts.require_node("in").map_err(circuit)?;
         let mut system = AcSystem::new(parts).map_err(circuit)?;
         let (lo, hi) = self.view_hz();
         let grid = log_grid(lo, hi, crate::analysis::LEVEL_POINTS).map_err(circuit)?;
-        let traces = level_traces(&mut system, inp, &grid, levels)
-            .map_err(|cause| self.analysis_error(cause))?;
-        let (swing, slew) = (self.spec.opamp.swing_v, self.spec.opamp.slew_v_per_s);
+        let opamp = &self.spec.opamp;
+        let levels = opamp_levels(&mut system, inp, &grid, opamp.swing_v).map_err(analysis)?;
+        if levels.is_empty() {
+            return Ok(None);
+        }
+        let levels = &levels;
+        let traces = level_traces(&mut system, inp, &grid, levels).map_err(analysis)?;
+        let currents = output_currents(&mut system, inp, &grid, levels).map_err(analysis)?;
+        let (swing, slew) = (opamp.swing_v, opamp.slew_v_per_s);
         let mut best: Option<(f64, usize, Headroom, f64)> = None;
-        for (k, trace) in traces.iter().enumerate() {
-            for (&f, &gain_db) in grid.iter().zip(trace) {
+        for (k, (trace, current)) in traces.iter().zip(&currents).enumerate() {
+            for ((&f, &gain_db), i) in grid.iter().zip(trace).zip(current) {
                 let gain = 10f64.powf(gain_db / 20.0);
                 for (limit, headroom) in [
                     (swing / gain, Headroom::Swing),
                     (slew / (std::f64::consts::TAU * f * gain), Headroom::Slew),
+                    (opamp.output_current_a / i.norm(), Headroom::Current),
                 ] {
                     if best.is_none_or(|b| limit < b.0) {
                         best = Some((limit, k, headroom, f));

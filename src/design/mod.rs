@@ -40,8 +40,8 @@ pub use analyses::{
 };
 pub use builds::{ActiveDesign, BuildFigures, TopOfRange};
 pub use dynamics::{
-    BuildNoise, Contribution, DynamicRange, Headroom, NoiseChart, NoiseFigures, StepChart,
-    StepReport, NOISE_CHART_POINTS, STEP_CHART_POINTS, TOP_CONTRIBUTORS,
+    BuildNoise, Contribution, DynamicRange, Headroom, LevelsGain, NoiseChart, NoiseFigures,
+    StepChart, StepReport, NOISE_CHART_POINTS, STEP_CHART_POINTS, TOP_CONTRIBUTORS,
 };
 pub use order::{order_table, OrderRow, OrderTable};
 pub use report::{ActiveReport, Documents, NormalizedElement, Outcome, Report, ScaledElement};

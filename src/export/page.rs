@@ -205,6 +205,11 @@ pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> Strin
         Build::ActiveOnParts,
         super::prose::sources_words(&n.active_on_parts)
     ));
+    notes.push(format!(
+        "{}: {}",
+        Build::ActiveOnParts,
+        super::prose::converter_levels_words(n)
+    ));
     notes.extend(super::summary::noise_notes(n));
     notes.extend(super::summary::step_notes(
         st,

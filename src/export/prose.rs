@@ -584,17 +584,57 @@ pub fn sources_words(n: &crate::design::BuildNoise) -> String {
 /// The dynamic range in words.
 pub fn dynamic_range_words(r: &crate::design::DynamicRange, input_noise_v: f64) -> String {
     use super::eng::format_trimmed as eng;
-    let verb = match r.headroom {
-        crate::design::Headroom::Swing => "reaches its output swing",
-        crate::design::Headroom::Slew => "reaches its slew rate",
-    };
     format!(
-        "dynamic range {} dB: the largest sine at the input is {} peak ({} {verb} at {}) over {} rms of input-referred noise",
+        "dynamic range {} dB: the largest sine at the input is {} peak ({} reaches its {} at {}) over {} rms of input-referred noise",
         db(r.range_db),
         eng(r.max_input_v_peak, "V"),
         r.limited_by,
+        r.headroom,
         eng(r.at_hz, "Hz"),
         eng(input_noise_v, "V")
+    )
+}
+
+/// The converters' levels in words, with what they gain on the build on
+/// parts: "converter levels chosen for dynamic range, 6.96 dB wider than
+/// on the nearest capacitor values (noise 6.96 dB lower): C_L1A_2 3.9 nF
+/// to 39 nF, ...".
+pub fn converter_levels_words(n: &crate::design::NoiseFigures) -> String {
+    use super::eng::format_trimmed as eng;
+    let l = &n.levels;
+    if let Some(why) = &l.not_chosen {
+        return format!(
+            "converter levels on the nearest capacitor values (choosing them failed: {why})"
+        );
+    }
+    if l.converters.is_empty() {
+        return "no converter with a free level".to_string();
+    }
+    let Some(gain) = n.levels_gain.filter(|_| l.used) else {
+        return format!(
+            "converter levels on the nearest capacitor values (another level would widen the dynamic range by {} dB, less than the {} dB worth a change)",
+            db(l.gain_db.max(0.0)),
+            crate::realize::MIN_GAIN_DB
+        );
+    };
+    let moved: Vec<String> = l
+        .converters
+        .iter()
+        .filter(|c| c.level != 1.0)
+        .map(|c| {
+            format!(
+                "{} {} to {}",
+                c.capacitor,
+                eng(c.nearest_f, "F"),
+                eng(c.chosen_f, "F")
+            )
+        })
+        .collect();
+    format!(
+        "converter levels chosen for dynamic range, {} dB wider than on the nearest capacitor values (noise {} dB lower): {}",
+        db(gain.range_db),
+        db(gain.noise_db),
+        moved.join(", ")
     )
 }
 

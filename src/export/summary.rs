@@ -4,8 +4,8 @@
 
 use super::eng::format_trimmed as eng;
 use super::prose::{
-    bound_words, db, dynamic_range_words, edge_loss_name, level_warnings, noise_words, opamp_model,
-    percent, scale_words, sources_words, step_words,
+    bound_words, converter_levels_words, db, dynamic_range_words, edge_loss_name, level_warnings,
+    noise_words, opamp_model, percent, scale_words, sources_words, step_words,
 };
 use crate::active::Method;
 use crate::analysis::{DelayVerdict, MaskVerdict, EDGE_WINDOW};
@@ -400,29 +400,47 @@ pub fn noise_text(n: &NoiseFigures) -> String {
             dynamic_range_words(r, n.active_on_parts.input_v_rms)
         );
     }
+    let _ = writeln!(
+        s,
+        "  {}: {}",
+        Build::ActiveOnParts,
+        converter_levels_words(n)
+    );
     for note in noise_notes(n) {
         let _ = writeln!(s, "  {note}");
     }
     s
 }
 
-/// The op-amps' noise and slew rate, saying when they are the default
-/// (an assumption of this project's, not a part's data).
+/// The op-amps' noise, slew rate and output current, saying which are
+/// the default's (an assumption of this project's, not a part's data).
 fn opamp_noise_words(n: &NoiseFigures) -> String {
     let o = &n.opamp;
+    let assumed: Vec<&str> = [
+        (n.noise_assumed, "noise"),
+        (n.slew_assumed, "slew rate"),
+        (n.current_assumed, "output current"),
+    ]
+    .into_iter()
+    .filter_map(|(a, what)| a.then_some(what))
+    .collect();
+    let default = match assumed.len() {
+        0 => String::new(),
+        3 => ", the default op-amp's: an assumption, give the data sheet's in [opamp]".to_string(),
+        _ => format!(
+            "; the {} {} the default op-amp's: an assumption, give the data sheet's in [opamp]",
+            assumed.join(" and "),
+            if assumed.len() == 1 { "is" } else { "are" }
+        ),
+    };
     format!(
-        "op-amps {}/sqrt(Hz) (1/f corner {}), {}/sqrt(Hz) (corner {}), slew rate {}/us{}",
+        "op-amps {}/sqrt(Hz) (1/f corner {}), {}/sqrt(Hz) (corner {}), slew rate {}/us, output current {}{default}",
         eng(o.en_v_per_rthz, "V"),
         eng(o.en_corner_hz, "Hz"),
         eng(o.in_a_per_rthz, "A"),
         eng(o.in_corner_hz, "Hz"),
         eng(n.slew_v_per_s * 1e-6, "V"),
-        match (n.noise_assumed, n.slew_assumed) {
-            (true, true) => ", the default op-amp's: an assumption, give the data sheet's in [opamp]",
-            (true, false) => "; the noise is the default op-amp's: an assumption, give the data sheet's in [opamp]",
-            (false, true) => "; the slew rate is the default op-amp's: an assumption, give the data sheet's in [opamp]",
-            (false, false) => "",
-        }
+        eng(n.output_current_a, "A"),
     )
 }
 

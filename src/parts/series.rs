@@ -154,6 +154,22 @@ impl Series {
         Ok(best.unwrap_or(f64::NAN))
     }
 
+    /// The series values from `low` to `high` (inclusive), ascending;
+    /// none for a range outside the values the series snaps.
+    pub fn between(self, low: f64, high: f64) -> impl Iterator<Item = f64> {
+        let valid =
+            (MIN_VALUE..=MAX_VALUE).contains(&low) && (MIN_VALUE..=MAX_VALUE).contains(&high);
+        // |log10| <= 20 here, so the casts cannot overflow; an invalid
+        // range takes no decade.
+        let decades = match valid {
+            true => low.log10().floor() as i32 - 1..high.log10().floor() as i32 + 2,
+            false => 0..0,
+        };
+        decades
+            .flat_map(move |d| self.decade(d))
+            .filter(move |&v| (low..=high).contains(&v))
+    }
+
     /// The smallest series value at or above `value`.
     pub fn snap_up(self, value: f64) -> Result<f64, PartsError> {
         let above = self.around(value)?.find(|&c| c >= value);

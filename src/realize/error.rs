@@ -6,6 +6,7 @@
 //! stage or element they met.
 
 use crate::active::ActiveError;
+use crate::analysis::AnalysisError;
 use crate::circuit::CircuitError;
 use crate::parts::{PartsError, Series, MAX_TOLERANCE};
 
@@ -128,6 +129,9 @@ pub enum PartsSnapError {
     /// Changing a value of the netlist failed.
     #[error("circuit: {0}")]
     Circuit(#[from] CircuitError),
+    /// Analysing the noise or currents for the converter levels failed.
+    #[error("choosing the converter levels: {0}")]
+    Analysis(#[from] AnalysisError),
 }
 
 impl PartsSnapError {

@@ -45,10 +45,12 @@
 //! realized in the build (an FDNR's D divided by the image level of step
 //! 1, which multiplied every impedance of the image).
 
+mod converter_level;
 mod error;
 mod level;
 mod trim;
 
+pub use converter_level::{choose_levels, ConverterLevel, ConverterLevels, LevelGoal, MIN_GAIN_DB};
 pub use error::PartsSnapError;
 pub use level::{ladder_level, LadderLevel, LadderPart};
 pub use trim::{Trim, TRIMMER_SERIES};
@@ -186,12 +188,14 @@ pub struct SnappedBuild {
 /// Snaps `build` (the active network of `passive`) to the parts of
 /// `choice` (see the module documentation), measuring the errors over
 /// `passband_hz` (`[low, high]` bands, Hz) on [`PASSBAND_POINTS`]
-/// log-spaced points each.
+/// log-spaced points each; each converter's level capacitor on the value
+/// `levels` chose for it (see [`choose_levels`]), else on the nearest.
 pub fn snap_build(
     passive: &Netlist,
     build: &ActiveBuild,
     choice: &PartsChoice,
     passband_hz: &[[f64; 2]],
+    levels: Option<&ConverterLevels>,
 ) -> Result<SnappedBuild, PartsSnapError> {
     choice.check()?;
     if passband_hz.is_empty() {
@@ -208,7 +212,7 @@ pub fn snap_build(
     let deviation = |n: &Netlist| meter.deviation(n);
     let as_built = deviation(&build.netlist)?;
     let converters = converters(&build.stages);
-    let (mut netlist, rescaled) = rescale(build, &converters, choice)?;
+    let (mut netlist, rescaled) = rescale(build, &converters, choice, levels)?;
     let targets: Vec<Vec<f64>> = converters
         .iter()
         .map(|c| c.chains.iter().map(|ch| ch.realized(&netlist)).collect())
@@ -349,6 +353,7 @@ fn rescale(
     build: &ActiveBuild,
     converters: &[Converter],
     choice: &PartsChoice,
+    levels: Option<&ConverterLevels>,
 ) -> Result<(Netlist, Vec<Rescale>), PartsSnapError> {
     let mut netlist = build.netlist.clone();
     let mut done = Vec::new();
@@ -371,7 +376,16 @@ fn rescale(
     check_plain_capacitors(&netlist, &build.stages, converters, choice)?;
     for c in converters {
         let before = netlist.clone();
-        let moves = chain::place(c.chains, &mut netlist, |farad| choice.in_range(farad))?;
+        let level = |farad| match levels.and_then(|l| l.chosen_f(c.stage)) {
+            Some(chosen) => Ok(chosen),
+            None => choice.in_range(farad),
+        };
+        let moves = chain::place(
+            c.chains,
+            &mut netlist,
+            |farad| choice.in_range(farad),
+            level,
+        )?;
         let mut capacitors: Vec<usize> = Vec::new();
         for i in c.chains.iter().flat_map(|ch| ch.z) {
             if is_capacitor(&netlist, i) && !capacitors.contains(&i) {

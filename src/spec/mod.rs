@@ -50,6 +50,9 @@ pub struct OpAmpSpec {
     pub noise: OpAmpNoise,
     /// Slew rate, V/s (default 10 V/us).
     pub slew_v_per_s: f64,
+    /// Largest output current, A peak (default 10 mA: an assumption of
+    /// the same generic op-amp, which drives 1 kohm to its 10 V swing).
+    pub output_current_a: f64,
 }
 
 /// The input noise of the default op-amp: a generic modern low-noise
@@ -76,6 +79,7 @@ impl Default for OpAmpSpec {
             swing_v: 10.0,
             noise: DEFAULT_OPAMP_NOISE,
             slew_v_per_s: 10e6,
+            output_current_a: 10e-3,
         }
     }
 }

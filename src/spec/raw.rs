@@ -119,6 +119,8 @@ struct RawOpAmp {
     in_corner_hz: Option<f64>,
     #[serde(default, deserialize_with = "number")]
     slew_v_per_s: Option<f64>,
+    #[serde(default, deserialize_with = "number")]
+    output_current_a: Option<f64>,
 }
 
 #[derive(Deserialize)]
@@ -797,11 +799,19 @@ fn opamp(c: &Checker, raw: &RawOpAmp) -> Result<OpAmpSpec, SpecError> {
         SLEW_RANGE_V_PER_S,
         "a slew rate in V/s",
     )?;
+    let output_current_a = density(
+        "opamp.output_current_a",
+        raw.output_current_a,
+        d.output_current_a,
+        OUTPUT_CURRENT_RANGE_A,
+        "a largest output current in A",
+    )?;
     Ok(OpAmpSpec {
         model: OpAmpModel::from_data_sheet(kind, gbw_hz, dc_gain_db, second_pole_hz, output_ohm),
         swing_v,
         noise,
         slew_v_per_s,
+        output_current_a,
     })
 }
 
@@ -817,6 +827,10 @@ const CORNER_RANGE_HZ: (f64, f64) = (0.0, 1e6);
 
 /// Slew rates, V/s: 1 V/ms to 100 V/ns.
 const SLEW_RANGE_V_PER_S: (f64, f64) = (1e3, 1e11);
+
+/// Largest output currents, A: 1 uA (a micropower op-amp) to 10 A (a
+/// power op-amp), both far beyond a signal filter's.
+const OUTPUT_CURRENT_RANGE_A: (f64, f64) = (1e-6, 10.0);
 
 /// Open-loop gains beyond this (1e10) are indistinguishable from an ideal
 /// op-amp in double precision and usually a typing slip.
