@@ -545,3 +545,36 @@ const LEVEL_PREDICTION_DB: f64 = 0.1;
 /// and the transient's time step each place the peak within a fraction
 /// of that).
 const TIGHT: f64 = 0.01;
+
+/// A dynamic range below an ideal N-bit converter's full-scale SNR,
+/// 6.02 N + 1.76 dB (common practice), is a note naming both figures; a
+/// converter the filter out-ranges gets none.
+#[test]
+fn a_dynamic_range_below_the_converter_is_a_note() {
+    let text = |bits: u32| {
+        format!(
+            "[filter]\nkind = \"lowpass\"\nfamily = \"butterworth\"\npassband_edge_hz = 1000.0\n\
+             stopband_edge_hz = 4000.0\npassband_ripple_db = 3.0103\nstopband_attenuation_db = 40.0\n\
+             [terminations]\nsource_ohm = 1000.0\nload_ohm = 1000.0\n[adc]\nbits = {bits}\n"
+        )
+    };
+    for (bits, noted) in [(24, true), (12, false)] {
+        let spec =
+            nocoil::spec::Spec::from_toml(std::path::Path::new("adc.toml"), &text(bits)).unwrap();
+        let d = nocoil::design::design(&spec).unwrap();
+        let n = d.noise_figures(&d.active().unwrap()).unwrap();
+        let range = n.dynamic_range.as_ref().unwrap().range_db;
+        let notes = nocoil::export::summary::noise_notes(&n);
+        let note = notes.iter().find(|s| s.contains("-bit converter"));
+        eprintln!("{bits} bits, {range:.2} dB: {note:?}");
+        assert_eq!(note.is_some(), noted, "{bits} bits, {range} dB: {notes:?}");
+        if let Some(note) = note {
+            let converter_db = 6.02 * f64::from(bits) + 1.76;
+            assert!(range < converter_db);
+            assert!(
+                note.contains(&format!("{converter_db:.2} dB of an ideal {bits}-bit")),
+                "{note}"
+            );
+        }
+    }
+}

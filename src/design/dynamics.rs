@@ -135,6 +135,9 @@ pub struct NoiseFigures {
     pub current_assumed: bool,
     /// Each converter's level on parts, chosen for dynamic range.
     pub levels: crate::realize::ConverterLevels,
+    /// The converter resolution of `[adc] bits`, if given: a dynamic
+    /// range below its ideal SNR is worth a note.
+    pub adc_bits: Option<u32>,
     /// What the chosen levels gain on the build on parts, against the
     /// same build with every converter on its nearest capacitor values
     /// (`None` where the levels did not move).
@@ -383,6 +386,7 @@ impl Design {
             current_assumed: spec.output_current_a == default.output_current_a,
             levels: active.levels.clone(),
             levels_gain,
+            adc_bits: self.spec.adc_bits,
             band_hz,
             weighting,
             temperature_k: self.spec.noise.temperature_k,

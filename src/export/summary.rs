@@ -445,8 +445,8 @@ fn opamp_noise_words(n: &NoiseFigures) -> String {
 }
 
 /// The notes on the noise figures, each naming its build: an active
-/// build much noisier than the passive ideal, an input limit above the
-/// op-amps' swing.
+/// build much noisier than the passive ideal, a dynamic range below the
+/// `[adc] bits` converter's, an input limit above the op-amps' swing.
 pub fn noise_notes(n: &NoiseFigures) -> Vec<String> {
     let mut notes = Vec::new();
     let excess = 20.0 * (n.active_on_parts.output_v_rms / n.passive_ideal.output_v_rms).log10();
@@ -456,6 +456,19 @@ pub fn noise_notes(n: &NoiseFigures) -> Vec<String> {
             Build::ActiveOnParts,
             db(excess)
         ));
+    }
+    if let (Some(r), Some(bits)) = (&n.dynamic_range, n.adc_bits) {
+        // A full-scale sine over an ideal N-bit quantizer's noise: 6.02 N
+        // + 1.76 dB (common practice).
+        let converter_db = 6.02 * f64::from(bits) + 1.76;
+        if r.range_db < converter_db {
+            notes.push(format!(
+                "{}: note: the dynamic range, {} dB, is below the {} dB of an ideal {bits}-bit converter: the filter's noise, not the converter's, sets the floor",
+                Build::ActiveOnParts,
+                db(r.range_db),
+                db(converter_db)
+            ));
+        }
     }
     if let Some(r) = &n.dynamic_range {
         if r.max_input_v_peak > n.swing_v_peak {
