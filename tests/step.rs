@@ -254,3 +254,30 @@ fn converter_bits_leave_the_other_figures_alone() {
         assert_eq!(with.settling.len(), 4);
     }
 }
+
+/// A slow tail the active build adds is a note naming the band it is
+/// judged at: with `[adc] bits` that band is half an LSB, said in words
+/// (a 2 Hz FDNR Bessel lowpass for a 24-bit logger, whose DC-path
+/// resistors add a pole near DC), and the ratio is the figures' own.
+#[test]
+fn a_slow_tail_is_named_by_its_band() {
+    let text = "[filter]\nkind = \"lowpass\"\nfamily = \"bessel\"\npassband_edge_hz = 2.0\n\
+                stopband_edge_hz = 20.0\npassband_ripple_db = 3.0103\nstopband_attenuation_db = 30.0\n\
+                [terminations]\nsource_ohm = 10000.0\nload_ohm = 10000.0\n[adc]\nbits = 24\n";
+    let spec = nocoil::spec::Spec::from_toml(std::path::Path::new("logger.toml"), text).unwrap();
+    let d = nocoil::design::design(&spec).unwrap();
+    let st = d.step_report(&d.active().unwrap()).unwrap();
+    let notes = nocoil::export::summary::step_notes(&st, Some(nocoil::active::Method::Fdnr));
+    let note = notes
+        .iter()
+        .find(|n| n.contains("times later"))
+        .unwrap_or_else(|| panic!("{notes:?}"));
+    assert!(note.contains("settles to half an LSB of 24 bits"), "{note}");
+    let (parts, ideal) = (st.active_on_parts.unwrap(), st.passive_ideal.unwrap());
+    let ratio = parts.settling[3].time_s.unwrap() / ideal.settling[3].time_s.unwrap();
+    assert!(ratio > 100.0, "{ratio}");
+    assert!(
+        note.contains(&nocoil::export::prose::factor(ratio)),
+        "{note}: {ratio}"
+    );
+}

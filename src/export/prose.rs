@@ -611,11 +611,14 @@ pub fn converter_levels_words(n: &crate::design::NoiseFigures) -> String {
         return "no converter with a free level".to_string();
     }
     let Some(gain) = n.levels_gain.filter(|_| l.used) else {
-        return format!(
-            "converter levels on the nearest capacitor values (another level would widen the dynamic range by {} dB, less than the {} dB worth a change)",
-            db(l.gain_db.max(0.0)),
-            crate::realize::MIN_GAIN_DB
-        );
+        return match l.gain_db > 0.0 {
+            true => format!(
+                "converter levels on the nearest capacitor values (another level would widen the dynamic range by {} dB, less than the {} dB worth a change)",
+                db(l.gain_db),
+                crate::realize::MIN_GAIN_DB
+            ),
+            false => "converter levels on the nearest capacitor values (no other level widens the dynamic range)".to_string(),
+        };
     };
     let moved: Vec<String> = l
         .converters
@@ -638,6 +641,15 @@ pub fn converter_levels_words(n: &crate::design::NoiseFigures) -> String {
     )
 }
 
+/// A settling band in words: "0.1 %", or, for the band of an
+/// `[adc] bits` converter, "half an LSB of 16 bits (...)".
+pub fn band_words(fraction: f64, lsb_of_bits: Option<u32>) -> String {
+    match lsb_of_bits {
+        Some(n) => format!("half an LSB of {n} bits (the reference level as full scale)"),
+        None => format!("{} %", 100.0 * fraction),
+    }
+}
+
 /// A step response's figures in words: "overshoot 19.2 %, rise time
 /// 179.5 us, settles to 1 % in 2.27 ms, to 0.1 % in 4.37 ms, ...".
 pub fn step_words(f: &crate::analysis::StepFigures, bits: Option<u32>) -> String {
@@ -658,12 +670,7 @@ pub fn step_words(f: &crate::analysis::StepFigures, bits: Option<u32>) -> String
         parts.push(format!("rise time (10 to 90 %) {}", eng(r, "s")));
     }
     for (k, s) in f.settling.iter().enumerate() {
-        let band = match bits {
-            Some(n) if k == f.settling.len() - 1 => {
-                format!("half an LSB of {n} bits (the reference level as full scale)")
-            }
-            _ => format!("{} %", 100.0 * s.fraction),
-        };
+        let band = band_words(s.fraction, bits.filter(|_| k == f.settling.len() - 1));
         parts.push(match s.time_s {
             Some(t) => format!("settles to {band} in {}", eng(t, "s")),
             None => format!("settling to {band} beyond the accuracy of its modes"),

@@ -535,19 +535,21 @@ pub fn step_notes(st: &StepReport, method: Option<Method>) -> Vec<String> {
         }
     }
     // The finest band both builds placed.
+    let last = parts.settling.len().saturating_sub(1);
     let finest = parts
         .settling
         .iter()
         .zip(&ideal.settling)
-        .filter_map(|(a, b)| Some((a.fraction, a.time_s?, b.time_s?)))
+        .enumerate()
+        .filter_map(|(k, (a, b))| Some((k, a.fraction, a.time_s?, b.time_s?)))
         .next_back();
-    if let Some((fraction, slow, fast)) = finest {
+    if let Some((k, fraction, slow, fast)) = finest {
         let ratio = slow / fast;
         if ratio > SLOWER_FACTOR {
             notes.push(format!(
-                "{}: note: settles to {} % {} times later than the passive ideal: a slow mode the active build adds{}",
+                "{}: note: settles to {} {} times later than the passive ideal: a slow mode the active build adds{}",
                 Build::ActiveOnParts,
-                100.0 * fraction,
+                super::prose::band_words(fraction, st.adc_bits.filter(|_| k == last)),
                 super::prose::factor(ratio),
                 match method {
                     Some(Method::Fdnr) => " (an FDNR build's DC-path resistors across the termination capacitors, with those capacitors, make a pole near DC)",
