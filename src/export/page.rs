@@ -14,7 +14,7 @@ use crate::design::{Build, Documents};
 pub const CAUTIONS: [&str; 3] = [
     "These results are a design aid: a prototype built from real parts must be measured against the specification before the design is released.",
     "Mains-powered or safety-related equipment follows local codes and licensed practice; nothing here replaces them.",
-    "Op-amps are simulated with the small-signal model the summary names (ideal, single-pole or two-pole); their input noise enters the noise figures and their slew rate the largest input, as stated in the design file or assumed by default; output current and input bias are not simulated.",
+    "Op-amps are simulated with the small-signal model the summary names (ideal, single-pole or two-pole); their input noise enters the noise figures, and their swing, slew rate and output current bound the largest input, as stated in the design file or assumed by default (limits on the linear response: clipping itself and input bias are not simulated).",
 ];
 
 /// The report page, with the charts as SVG `figures` and the bill of
