@@ -740,3 +740,43 @@ fn regional_orders_keep_a_wide_bandstop_on_the_sparse_path() {
         grid.len()
     );
 }
+
+/// The whole solution of one sweep (what the op-amp levels and output
+/// currents read at every node) against the extended-precision solve on
+/// the random cascades: every node within [`PATHS_REL_TOL`] of the
+/// largest node voltage (a normwise bound: levels and currents are read
+/// against full scale, and a node decades below the rest, down to the
+/// 1e-38 V seen at a stopband node, has no relative accuracy to keep).
+/// Measured worst 3.6e-13 over all 48 cascades.
+#[test]
+fn solution_sweep_matches_an_extended_precision_solve_at_every_node() {
+    let freqs = wide_grid(12);
+    let mut worst = 0.0f64;
+    for (context, netlist) in random_cascades() {
+        let system = AcSystem::new(&netlist).unwrap();
+        let mut sparse = SparseAc::new(&system, BAND.0, BAND.1).unwrap();
+        let mut solutions = vec![Vec::new(); freqs.len()];
+        sparse
+            .solution_sweep(&freqs, |k, x| solutions[k] = x.to_vec())
+            .unwrap();
+        for (&f, got) in freqs.iter().zip(&solutions) {
+            let want: Vec<Complex64> = extended_solution(&system, f)
+                .iter()
+                .map(|x| x.to_f64())
+                .collect();
+            let largest = want.iter().map(|x| x.norm()).fold(0.0, f64::max);
+            for node in 1..netlist.nodes.len() {
+                let u = system.unknown_of_node(node).unwrap();
+                let err = (got[u] - want[u]).norm() / largest;
+                worst = worst.max(err);
+                assert!(
+                    err <= PATHS_REL_TOL,
+                    "{context}, {f:e} Hz, node {node}: {err:.3e}, got {} want {}",
+                    got[u],
+                    want[u]
+                );
+            }
+        }
+    }
+    eprintln!("worst {worst:.1e} of the largest node voltage");
+}

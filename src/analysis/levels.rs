@@ -211,9 +211,9 @@ fn output_gains(
 
 /// V(node)/V(inp) for each of `nodes` at each of `freqs_hz`, one row per
 /// node, through the fastest exact path: the sparse solver over the
-/// grid's span (one sweep per node, each a solve per point reading two
-/// unknowns; its guard sends weak points to the dense LU itself), or the
-/// dense solver's node voltages where no sparse solver can be built
+/// grid's span (one solve of every unknown per point, read at each node;
+/// its guard sends weak points to the dense LU itself), or the dense
+/// solver's node voltages where no sparse solver can be built
 /// (`tests/fast.rs` holds the two paths to 1e-12 of each other).
 fn node_transfers(
     system: &mut AcSystem,
@@ -223,35 +223,39 @@ fn node_transfers(
 ) -> Result<Vec<Vec<Complex64>>, AnalysisError> {
     let lo = freqs_hz.iter().copied().fold(f64::INFINITY, f64::min);
     let hi = freqs_hz.iter().copied().fold(0.0, f64::max);
-    if lo > 0.0 {
-        if let Ok(mut sparse) = SparseAc::new(system, lo, hi) {
-            let mut h = Vec::with_capacity(freqs_hz.len());
-            let mut rows = Vec::with_capacity(nodes.len());
-            for &node in nodes {
-                match node {
-                    0 => rows.push(vec![Complex64::new(0.0, 0.0); freqs_hz.len()]),
-                    _ => {
-                        sparse.sweep_into(freqs_hz, node, inp, &mut h)?;
-                        rows.push(h.clone());
-                    }
-                }
-            }
-            return Ok(rows);
-        }
-    }
-    let mut rows = vec![Vec::with_capacity(freqs_hz.len()); nodes.len()];
-    for &f in freqs_hz {
-        let v = system.node_voltages(f)?;
-        if v[inp].norm() == 0.0 {
-            return Err(CircuitError::ZeroVoltage {
-                node: inp,
-                freq_hz: f,
-            }
-            .into());
+    let mut rows = vec![vec![Complex64::new(0.0, 0.0); freqs_hz.len()]; nodes.len()];
+    let at = |x: &dyn Fn(usize) -> Complex64, node: usize| match node {
+        0 => Complex64::new(0.0, 0.0),
+        _ => x(node),
+    };
+    let mut zero_input = None;
+    let mut fill = |k: usize, voltage: &dyn Fn(usize) -> Complex64| {
+        let vin = at(voltage, inp);
+        if vin.norm() == 0.0 {
+            zero_input.get_or_insert(freqs_hz[k]);
+            return;
         }
         for (row, &node) in rows.iter_mut().zip(nodes) {
-            row.push(v[node] / v[inp]);
+            row[k] = at(voltage, node) / vin;
+        }
+    };
+    let sparse = match lo > 0.0 {
+        true => SparseAc::new(system, lo, hi).ok(),
+        false => None,
+    };
+    match sparse {
+        Some(mut sparse) => {
+            sparse.solution_sweep(freqs_hz, |k, x| fill(k, &|node| x[node - 1]))?;
+        }
+        None => {
+            for (k, &f) in freqs_hz.iter().enumerate() {
+                let v = system.node_voltages(f)?;
+                fill(k, &|node| v[node]);
+            }
         }
     }
-    Ok(rows)
+    match zero_input {
+        Some(freq_hz) => Err(CircuitError::ZeroVoltage { node: inp, freq_hz }.into()),
+        None => Ok(rows),
+    }
 }

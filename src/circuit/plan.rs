@@ -319,6 +319,12 @@ impl Plan {
         self.factor_and_substitute(omega, guard, wanted, false)
     }
 
+    /// [`Plan::solve`] for every unknown (read each with
+    /// [`Plan::unknown`]).
+    pub fn solve_all(&mut self, omega: &[f64; LANES], guard: f64) -> [bool; LANES] {
+        self.factor_and_substitute(omega, guard, [None, None], true)
+    }
+
     /// Factors, plans the back substitution for `wanted` and substitutes
     /// the excitation: for the unknowns `wanted` only, or (`all`) for
     /// every unknown, which the derivative's right-hand side needs.

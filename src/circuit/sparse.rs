@@ -597,6 +597,74 @@ impl SparseAc {
         Ok(())
     }
 
+    /// The whole solution x of (G + j 2 pi f C) x = b at each of
+    /// `freqs_hz`: `visit` gets each point's index and x, indexed by
+    /// unknown (node n at n - 1). One factorization per point serves every
+    /// node, where [`SparseAc::sweep_into`] factors once per node read.
+    /// Sparse passes of [`LANES`] points, the dense path for a lane no
+    /// order solves, the mean of the two sides across a lossless
+    /// resonance (as [`SparseAc::adjoint_sweep`]).
+    pub fn solution_sweep(
+        &mut self,
+        freqs_hz: &[f64],
+        mut visit: impl FnMut(usize, &[Complex64]),
+    ) -> Result<(), CircuitError> {
+        self.check(freqs_hz, 0, 0)?;
+        let n = self.n;
+        let mut x = vec![Complex64::new(0.0, 0.0); n];
+        for (chunk_index, chunk) in freqs_hz.chunks(LANES).enumerate() {
+            let omega = lane_omegas(chunk);
+            let mut done = [false; LANES];
+            for plan in &mut self.plans {
+                if done[..chunk.len()].iter().all(|&d| d) {
+                    break;
+                }
+                let ok = plan.solve_all(&omega, GUARD_THRESHOLD);
+                for k in 0..chunk.len() {
+                    if ok[k] && !done[k] {
+                        for (u, v) in x.iter_mut().enumerate() {
+                            *v = plan.unknown(u, k);
+                        }
+                        if x.iter().all(|v| v.is_finite()) {
+                            done[k] = true;
+                            visit(chunk_index * LANES + k, &x);
+                        }
+                    }
+                }
+            }
+            for k in (0..chunk.len()).filter(|&k| !done[k]) {
+                self.fallbacks += 1;
+                let freq_hz = chunk[k];
+                let d = &mut self.dense;
+                self.plans[0].unload(&mut d.g, &mut d.c, &mut d.b);
+                let mut at = |f: f64, x: &mut [Complex64]| {
+                    for (v, &b) in x.iter_mut().zip(d.b.iter()) {
+                        *v = Complex64::new(b, 0.0);
+                    }
+                    if !d.lu.factor(&d.g, &d.c, Complex64::new(0.0, TAU * f)) {
+                        return false;
+                    }
+                    d.lu.solve(x);
+                    x.iter().all(|v| v.is_finite())
+                };
+                if !at(freq_hz, &mut x) {
+                    let mut above = vec![Complex64::new(0.0, 0.0); n];
+                    let sides = freq_hz > 0.0
+                        && at(freq_hz * (1.0 - RESONANCE_STEP), &mut x)
+                        && at(freq_hz * (1.0 + RESONANCE_STEP), &mut above);
+                    if !sides {
+                        return Err(CircuitError::Singular { freq_hz });
+                    }
+                    for (v, a) in x.iter_mut().zip(&above) {
+                        *v = (*v + a) / 2.0;
+                    }
+                }
+                visit(chunk_index * LANES + k, &x);
+            }
+        }
+        Ok(())
+    }
+
     /// Checks the nodes and frequencies of a solve.
     fn check(&self, freqs_hz: &[f64], out: usize, inp: usize) -> Result<(), CircuitError> {
         if let Some(&freq_hz) = freqs_hz.iter().find(|f| !(f.is_finite() && **f >= 0.0)) {
