@@ -197,8 +197,17 @@ pub struct SummaryPoints {
 pub struct Extreme {
     /// dB per %, with its sign.
     pub db_per_percent: f64,
-    /// Where it occurs, Hz.
+    /// Where it occurs, Hz; NaN where no point of its group had an
+    /// output to be sensitive (see [`summarize`]), and
+    /// [`Extreme::found`] is false.
     pub freq_hz: f64,
+}
+
+impl Extreme {
+    /// Whether a point of its group had a non-vanishing output.
+    pub fn found(&self) -> bool {
+        !self.freq_hz.is_nan()
+    }
 }
 
 /// The sensitivity summary of one parameter.
@@ -257,8 +266,8 @@ pub fn summarize(
     // A point where the output vanishes exactly (a stopband edge decades
     // below a highpass's passband, where the transfer underflows to 0:
     // found by the generative test, seed 9) has no relative sensitivity;
-    // it is left out, and a group left empty reports 0 dB per % at no
-    // frequency.
+    // it is left out, and a group left empty has no extreme
+    // (Extreme::found is false; the tables leave its cells empty).
     let mut kept = [Vec::new(), Vec::new(), Vec::new()];
     for ((_, freqs), kept) in groups.iter().zip(&mut kept) {
         for &f in freqs.iter() {

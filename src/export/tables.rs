@@ -22,16 +22,19 @@ pub fn sensitivity_csv(build: Build, rows: &[SensitivitySummary]) -> String {
             Parameter::Value => "value",
             Parameter::GainBandwidth => "gbw",
         };
+        // A group whose output vanished everywhere has no extreme: empty
+        // cells (see analysis::Extreme::found).
+        let cells = |e: &crate::analysis::Extreme| match e.found() {
+            true => format!("{:.6e},{:.6e}", e.db_per_percent, e.freq_hz),
+            false => ",".to_string(),
+        };
         let _ = writeln!(
             s,
-            "{build},{},{q},{:.6e},{:.6e},{:.6e},{:.6e},{:.6e},{:.6e}",
+            "{build},{},{q},{},{},{}",
             r.name,
-            r.passband_edge.db_per_percent,
-            r.passband_edge.freq_hz,
-            r.passband_worst.db_per_percent,
-            r.passband_worst.freq_hz,
-            r.stopband_edge.db_per_percent,
-            r.stopband_edge.freq_hz
+            cells(&r.passband_edge),
+            cells(&r.passband_worst),
+            cells(&r.stopband_edge)
         );
     }
     s
