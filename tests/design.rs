@@ -5,7 +5,7 @@
 use crate::scipy_cases::{fixture, Case, REFERENCE_FLOOR_DB};
 use crate::util::ngspice_ac;
 use nocoil::circuit::{response, OpAmpModel};
-use nocoil::design::design;
+use nocoil::design::{design, PartClass};
 use nocoil::export::spice::{deck, AcSweep};
 use nocoil::spec::table::PrototypeTable;
 use nocoil::spec::Spec;
@@ -627,4 +627,69 @@ fn verdicts_hold_when_the_grid_doubles() {
         }
     }
     println!("verdicts against the doubled, refined grid: worst {worst:.1e} dB");
+}
+
+/// The yield with one class's tolerance halved is the yield of the same
+/// boards: for resistors and the op-amp GBW it must equal, board for
+/// board, the yield of the design file with that tolerance halved (the
+/// same seed draws the same fraction of each part's tolerance), on a GIC
+/// bandpass and an FDNR Bessel lowpass; the capacitor classes split the
+/// capacitors between the converters and the rest, and each is reported
+/// when it has members.
+#[test]
+fn halving_one_tolerance_is_the_design_file_with_it_halved() {
+    for file in [
+        "examples/birdsong-bandpass.toml",
+        "examples/echo-timing-bessel.toml",
+    ] {
+        let text = std::fs::read_to_string(file).unwrap();
+        let d = crate::util::example(file);
+        let a = d.active().unwrap();
+        let trials = 200;
+        let payoffs = d.tolerance_payoffs(&a, trials, 7).unwrap();
+        let classes: Vec<PartClass> = payoffs.iter().map(|p| p.class).collect();
+        assert_eq!(
+            classes,
+            [
+                PartClass::LadderCapacitors,
+                PartClass::ConverterCapacitors,
+                PartClass::Resistors,
+                PartClass::OpAmpGbw
+            ],
+            "{file}"
+        );
+        let p = &d.spec.parts;
+        for (class, extra) in [
+            (
+                PartClass::Resistors,
+                format!(
+                    "[parts]\nresistor_tolerance = {}\ncapacitor_tolerance = {}\n",
+                    p.resistor_tolerance / 2.0,
+                    p.capacitor_tolerance
+                ),
+            ),
+            (
+                PartClass::OpAmpGbw,
+                format!(
+                    "[montecarlo]\ngbw_spread = {}\n",
+                    d.spec.montecarlo.gbw_spread / 2.0
+                ),
+            ),
+        ] {
+            let halved = Spec::from_toml(Path::new(file), &format!("{text}\n{extra}")).unwrap();
+            let h = design(&halved).unwrap();
+            let ha = h.active().unwrap();
+            let want = h
+                .monte_carlo(&ha.on_parts.netlist, trials, 7, None)
+                .unwrap();
+            let got = payoffs.iter().find(|p| p.class == class).unwrap();
+            eprintln!(
+                "{file}: {class} halved {} of {trials}, design file {}",
+                got.boards_meeting, want.passed
+            );
+            assert_eq!(got.boards_meeting, want.passed, "{file}: {class}");
+            assert!(want.passed > 0, "{file}: {class}: no board passes, nothing compared");
+            assert_eq!(got.boards, trials);
+        }
+    }
 }

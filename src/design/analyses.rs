@@ -106,6 +106,49 @@ pub struct ChartTraces {
     pub opamp_gain_db: Vec<(String, Vec<f64>)>,
 }
 
+/// A class of parts whose tolerance the payoff table halves.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum PartClass {
+    /// The capacitors outside every converter: the ladder's own (a GIC
+    /// build) or the FDNR image's termination capacitors.
+    LadderCapacitors,
+    /// The capacitors inside the converters.
+    ConverterCapacitors,
+    /// Every resistor.
+    Resistors,
+    /// The op-amps' gain-bandwidth.
+    OpAmpGbw,
+}
+
+impl std::fmt::Display for PartClass {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self {
+            PartClass::LadderCapacitors => "ladder capacitors",
+            PartClass::ConverterCapacitors => "converter capacitors",
+            PartClass::Resistors => "resistors",
+            PartClass::OpAmpGbw => "op-amp GBW",
+        })
+    }
+}
+
+/// The yield with one class's tolerance halved.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct TolerancePayoff {
+    /// The class.
+    pub class: PartClass,
+    /// Its tolerance as designed (a fraction; the GBW spread for op-amps).
+    pub tolerance: f64,
+    /// Halved.
+    pub halved_tolerance: f64,
+    /// Boards drawn (the same boards as the design's Monte Carlo).
+    pub boards: usize,
+    /// Boards that meet the specification.
+    pub boards_meeting: usize,
+    /// Their fraction.
+    pub yield_fraction: f64,
+}
+
 /// Everything the documents show beyond the builds themselves.
 #[derive(Debug, Clone)]
 pub struct Analyses {
@@ -115,6 +158,8 @@ pub struct Analyses {
     pub sensitivity: Vec<SensitivitySummary>,
     /// The Monte Carlo run of the active on parts build.
     pub montecarlo: MonteCarloResult,
+    /// The same boards with one class's tolerance halved at a time.
+    pub payoffs: Vec<TolerancePayoff>,
     /// The active exact build against the specification.
     pub active_exact_verdict: MaskVerdict,
     /// The active on parts build against the specification, nominal parts
@@ -266,12 +311,115 @@ impl Design {
         seed: u64,
         progress: Option<&(dyn Fn(usize) + Sync)>,
     ) -> Result<MonteCarloResult, DesignError> {
+        let rules = self.tolerance_rules()?;
+        self.monte_carlo_with(netlist, &rules, trials, seed, progress)
+    }
+
+    /// For each class of the active on parts build's parts, the yield of
+    /// the same boards (the same seed: each part's draw within its
+    /// tolerance is the same fraction of it, so only the halving differs)
+    /// with that class's tolerance halved: where precision pays. A class
+    /// without members or without a tolerance is left out.
+    pub fn tolerance_payoffs(
+        &self,
+        active: &ActiveDesign,
+        trials: usize,
+        seed: u64,
+    ) -> Result<Vec<TolerancePayoff>, DesignError> {
+        let parts = &active.on_parts.netlist;
+        let base = self.tolerance_rules()?;
+        let p = &self.spec.parts;
+        let in_converters: Vec<&str> = active
+            .on_parts
+            .stages
+            .iter()
+            .filter(|s| matches!(s.handles, active::Handles::Converter(_)))
+            .flat_map(|s| s.elements.iter().map(String::as_str))
+            .collect();
+        let capacitors = |converter: bool| -> Vec<Scope> {
+            parts
+                .elements
+                .iter()
+                .filter(|e| e.kind() == crate::circuit::ElementKind::Capacitor)
+                .filter(|e| in_converters.contains(&e.name()) == converter)
+                .map(|e| Scope::Element(e.name().to_string()))
+                .collect()
+        };
+        let dynamic = parts.elements.iter().any(|e| {
+            matches!(e, crate::circuit::Element::OpAmp { model, .. } if model.gbw_hz().is_some())
+        });
+        let classes = [
+            (
+                PartClass::LadderCapacitors,
+                capacitors(false),
+                p.capacitor_tolerance,
+            ),
+            (
+                PartClass::ConverterCapacitors,
+                capacitors(true),
+                p.capacitor_tolerance,
+            ),
+            (
+                PartClass::Resistors,
+                vec![Scope::Resistors],
+                p.resistor_tolerance,
+            ),
+            (
+                PartClass::OpAmpGbw,
+                if dynamic {
+                    vec![Scope::OpAmpGbw]
+                } else {
+                    Vec::new()
+                },
+                self.spec.montecarlo.gbw_spread,
+            ),
+        ];
+        let mut payoffs = Vec::new();
+        for (class, scopes, tolerance) in classes {
+            if scopes.is_empty() || tolerance == 0.0 {
+                continue;
+            }
+            let halved = Tolerance::new(tolerance / 2.0, p.distribution).map_err(|e| {
+                DesignError::Spec(crate::spec::SpecError::Invalid {
+                    file: self.spec.file.clone(),
+                    key: "parts",
+                    got: tolerance.to_string(),
+                    expected: e.to_string(),
+                })
+            })?;
+            let mut rules = base.clone();
+            // Later rules override earlier ones (analysis::ToleranceRule).
+            rules.extend(scopes.into_iter().map(|scope| ToleranceRule {
+                scope,
+                tolerance: halved,
+            }));
+            let mc = self.monte_carlo_with(parts, &rules, trials, seed, None)?;
+            payoffs.push(TolerancePayoff {
+                class,
+                tolerance,
+                halved_tolerance: tolerance / 2.0,
+                boards: mc.trials,
+                boards_meeting: mc.passed,
+                yield_fraction: mc.yield_fraction,
+            });
+        }
+        Ok(payoffs)
+    }
+
+    /// [`Design::monte_carlo`] with the tolerance rules given.
+    fn monte_carlo_with(
+        &self,
+        netlist: &Netlist,
+        rules: &[ToleranceRule],
+        trials: usize,
+        seed: u64,
+        progress: Option<&(dyn Fn(usize) + Sync)>,
+    ) -> Result<MonteCarloResult, DesignError> {
         let circuit = |cause| self.circuit_error(cause);
         let analysis = |cause| self.analysis_error(cause);
         let mask = Mask::new(self.yield_limits()).map_err(analysis)?;
         let delay = self.delay_limit()?;
         let freqs = self.monte_carlo_grid()?;
-        let rules = self.tolerance_rules()?;
         let system = AcSystem::new(netlist).map_err(circuit)?;
         // Only a network with finite-bandwidth op-amps has a verdict (see
         // active::ActiveBuild::stability); a verdict that cannot be
@@ -285,7 +433,7 @@ impl Design {
             out: netlist.require_node("out").map_err(circuit)?,
             inp: netlist.require_node("in").map_err(circuit)?,
             freqs_hz: &freqs,
-            rules: &rules,
+            rules,
             mask: &mask,
             trials,
             seed,
@@ -413,6 +561,7 @@ impl Design {
             traces: self.chart_traces(active)?,
             sensitivity: self.sensitivity(parts)?,
             montecarlo: self.monte_carlo(parts, self.trials(active), mc.seed, progress)?,
+            payoffs: self.tolerance_payoffs(active, self.trials(active), mc.seed)?,
             active_exact_verdict: self.verdict(&active.build.netlist)?,
             active_on_parts_verdict: self.verdict(parts)?,
             delay: self.delay_figures(active)?,

@@ -34,9 +34,9 @@ mod order;
 mod report;
 
 pub use analyses::{
-    default_trials, Analyses, BuildTrace, ChartTraces, DelayFigures, DEFAULT_TRIALS,
-    DEFAULT_TRIALS_OPAMPS, MIN_DEFAULT_TRIALS, MONTE_CARLO_POINTS, SENSITIVITY_POINTS,
-    WORST_TRIALS,
+    default_trials, Analyses, BuildTrace, ChartTraces, DelayFigures, PartClass, TolerancePayoff,
+    DEFAULT_TRIALS, DEFAULT_TRIALS_OPAMPS, MIN_DEFAULT_TRIALS, MONTE_CARLO_POINTS,
+    SENSITIVITY_POINTS, WORST_TRIALS,
 };
 pub use builds::{ActiveDesign, BuildFigures, TopOfRange};
 pub use dynamics::{

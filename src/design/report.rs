@@ -169,6 +169,8 @@ pub struct Outcome {
     /// Boards whose group-delay spread broke the `[delay]` bound (counted
     /// as not meeting it; 0 without one).
     pub boards_over_delay: usize,
+    /// The same boards with one class's tolerance halved at a time.
+    pub tolerance_payoffs: Vec<super::TolerancePayoff>,
     /// The three builds against the `[delay]` specification, if any.
     pub delay: Option<DelayFigures>,
     /// Output noise of the three builds and the dynamic range.
@@ -322,6 +324,7 @@ impl Design {
             boards_meeting: mc.passed,
             boards_unstable: mc.unstable,
             boards_over_delay: mc.delay_failed,
+            tolerance_payoffs: analyses.payoffs.clone(),
             delay: analyses.delay.clone(),
             noise: analyses.noise.clone(),
             step: analyses.step.clone(),

@@ -17,6 +17,15 @@ pub const CAUTIONS: [&str; 3] = [
     "Op-amps are simulated with the small-signal model the summary names (ideal, single-pole or two-pole); their input noise enters the noise figures, and their swing, slew rate and output current bound the largest input, as stated in the design file or assumed by default (limits on the linear response: clipping itself and input bias are not simulated).",
 ];
 
+/// A sensitivity extreme in a table cell: "-" where its group's output
+/// vanished everywhere (see analysis::Extreme::found).
+fn extreme(e: &crate::analysis::Extreme) -> String {
+    match e.found() {
+        true => signed(e.db_per_percent),
+        false => "-".to_string(),
+    }
+}
+
 /// The report page, with the charts as SVG `figures` and the bill of
 /// materials `bom`.
 pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> String {
@@ -200,6 +209,7 @@ pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> Strin
             super::prose::dynamic_range_words(r, n.active_on_parts.input_v_rms),
         ));
     }
+    notes.extend(super::summary::payoff_line(d));
     notes.push(format!(
         "{}: largest noise sources {}",
         Build::ActiveOnParts,
@@ -308,9 +318,9 @@ pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> Strin
                         Parameter::Value => "value".into(),
                         Parameter::GainBandwidth => "GBW".into(),
                     },
-                    signed(s.passband_edge.db_per_percent),
-                    signed(s.passband_worst.db_per_percent),
-                    signed(s.stopband_edge.db_per_percent),
+                    extreme(&s.passband_edge),
+                    extreme(&s.passband_worst),
+                    extreme(&s.stopband_edge),
                 ]
             })
             .collect(),

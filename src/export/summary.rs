@@ -87,6 +87,47 @@ pub fn yield_line(d: &Documents) -> String {
     )
 }
 
+/// Where precision pays: the yield of the same boards with one class's
+/// tolerance halved at a time; `None` without a payoff to show.
+pub fn payoff_line(d: &Documents) -> Option<String> {
+    let payoffs = &d.analyses.payoffs;
+    if payoffs.is_empty() {
+        return None;
+    }
+    let pct = |x: f64| format!("{}", 100.0 * x);
+    let classes: Vec<String> = payoffs
+        .iter()
+        .map(|p| {
+            let (from, to) = match p.class {
+                crate::design::PartClass::OpAmpGbw => (
+                    format!("+-{} %", pct(p.tolerance)),
+                    format!("+-{} %", pct(p.halved_tolerance)),
+                ),
+                _ => (
+                    format!("{} %", pct(p.tolerance)),
+                    format!("{} %", pct(p.halved_tolerance)),
+                ),
+            };
+            format!(
+                "{} {from} -> {to}: {:.2} %",
+                p.class,
+                100.0 * p.yield_fraction
+            )
+        })
+        .collect();
+    // With the nominal board failing, a tolerance only decides how many
+    // boards stray to the passing side: halving one can lower the yield.
+    let nominal = match d.analyses.active_on_parts_verdict.meets {
+        true => "",
+        false => " (the board with nominal parts fails the specification, so no tolerance alone can carry the yield: the design itself must gain margin)",
+    };
+    Some(format!(
+        "{}: yield of the same boards with one tolerance halved: {}{nominal}",
+        Build::ActiveOnParts,
+        classes.join("; ")
+    ))
+}
+
 /// The figures of one build against the passive ideal, one line each.
 fn figures(s: &mut String, build: Build, f: &BuildFigures) {
     let c = &f.comparison;
@@ -293,6 +334,9 @@ pub fn summary(d: &Documents) -> String {
             level
         )
     );
+    if let Some(line) = payoff_line(d) {
+        let _ = writeln!(s, "{line}");
+    }
     if let Some(d) = delay {
         let _ = writeln!(
             s,
