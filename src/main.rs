@@ -641,7 +641,7 @@ impl Progress {
 
     /// The analyses of a design, the Monte Carlo's trials counted.
     fn analyses(&self, d: &Design, active: &ActiveDesign) -> Result<design::Analyses, DesignError> {
-        self.trials(d.trials(active));
+        self.trials(d.trials(active) * d.monte_carlo_runs(active));
         let tick = |_done: usize| self.tick();
         let analyses = d.analyses(active, Some(&tick));
         self.done();

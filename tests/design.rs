@@ -646,7 +646,7 @@ fn halving_one_tolerance_is_the_design_file_with_it_halved() {
         let d = crate::util::example(file);
         let a = d.active().unwrap();
         let trials = 200;
-        let payoffs = d.tolerance_payoffs(&a, trials, 7).unwrap();
+        let payoffs = d.tolerance_payoffs(&a, trials, 7, None).unwrap();
         let classes: Vec<PartClass> = payoffs.iter().map(|p| p.class).collect();
         assert_eq!(
             classes,
@@ -688,7 +688,10 @@ fn halving_one_tolerance_is_the_design_file_with_it_halved() {
                 got.boards_meeting, want.passed
             );
             assert_eq!(got.boards_meeting, want.passed, "{file}: {class}");
-            assert!(want.passed > 0, "{file}: {class}: no board passes, nothing compared");
+            assert!(
+                want.passed > 0,
+                "{file}: {class}: no board passes, nothing compared"
+            );
             assert_eq!(got.boards, trials);
         }
     }

@@ -276,22 +276,26 @@ impl Design {
         Ok(grid)
     }
 
+    /// A relative tolerance with the design file's distribution.
+    fn tolerance(&self, relative: f64) -> Result<Tolerance, DesignError> {
+        Tolerance::new(relative, self.spec.parts.distribution).map_err(|e| {
+            DesignError::Spec(crate::spec::SpecError::Invalid {
+                file: self.spec.file.clone(),
+                key: "parts",
+                got: relative.to_string(),
+                expected: e.to_string(),
+            })
+        })
+    }
+
     /// The tolerance rules of the design file: every resistor, every
     /// capacitor, every op-amp's gain-bandwidth (an active build has no
     /// inductor to vary).
     pub fn tolerance_rules(&self) -> Result<Vec<ToleranceRule>, DesignError> {
         let p = &self.spec.parts;
         let rule = |scope, relative| {
-            Tolerance::new(relative, p.distribution)
+            self.tolerance(relative)
                 .map(|tolerance| ToleranceRule { scope, tolerance })
-                .map_err(|e| {
-                    DesignError::Spec(crate::spec::SpecError::Invalid {
-                        file: self.spec.file.clone(),
-                        key: "parts",
-                        got: relative.to_string(),
-                        expected: e.to_string(),
-                    })
-                })
         };
         Ok(vec![
             rule(Scope::Resistors, p.resistor_tolerance)?,
@@ -325,9 +329,38 @@ impl Design {
         active: &ActiveDesign,
         trials: usize,
         seed: u64,
+        progress: Option<&(dyn Fn(usize) + Sync)>,
     ) -> Result<Vec<TolerancePayoff>, DesignError> {
         let parts = &active.on_parts.netlist;
         let base = self.tolerance_rules()?;
+        let classes = self.payoff_classes(active);
+        let mut payoffs = Vec::new();
+        for (class, scopes, tolerance) in classes {
+            let halved = self.tolerance(tolerance / 2.0)?;
+            let mut rules = base.clone();
+            // Later rules override earlier ones (analysis::ToleranceRule).
+            rules.extend(scopes.into_iter().map(|scope| ToleranceRule {
+                scope,
+                tolerance: halved,
+            }));
+            let mc = self.monte_carlo_with(parts, &rules, trials, seed, progress)?;
+            payoffs.push(TolerancePayoff {
+                class,
+                tolerance,
+                halved_tolerance: tolerance / 2.0,
+                boards: mc.trials,
+                boards_meeting: mc.passed,
+                yield_fraction: mc.yield_fraction,
+            });
+        }
+        Ok(payoffs)
+    }
+
+    /// The part classes of the active on parts build with members and a
+    /// tolerance: each with the scopes that name its members and its
+    /// tolerance as designed.
+    fn payoff_classes(&self, active: &ActiveDesign) -> Vec<(PartClass, Vec<Scope>, f64)> {
+        let parts = &active.on_parts.netlist;
         let p = &self.spec.parts;
         let in_converters: Vec<&str> = active
             .on_parts
@@ -348,7 +381,7 @@ impl Design {
         let dynamic = parts.elements.iter().any(|e| {
             matches!(e, crate::circuit::Element::OpAmp { model, .. } if model.gbw_hz().is_some())
         });
-        let classes = [
+        [
             (
                 PartClass::LadderCapacitors,
                 capacitors(false),
@@ -373,37 +406,17 @@ impl Design {
                 },
                 self.spec.montecarlo.gbw_spread,
             ),
-        ];
-        let mut payoffs = Vec::new();
-        for (class, scopes, tolerance) in classes {
-            if scopes.is_empty() || tolerance == 0.0 {
-                continue;
-            }
-            let halved = Tolerance::new(tolerance / 2.0, p.distribution).map_err(|e| {
-                DesignError::Spec(crate::spec::SpecError::Invalid {
-                    file: self.spec.file.clone(),
-                    key: "parts",
-                    got: tolerance.to_string(),
-                    expected: e.to_string(),
-                })
-            })?;
-            let mut rules = base.clone();
-            // Later rules override earlier ones (analysis::ToleranceRule).
-            rules.extend(scopes.into_iter().map(|scope| ToleranceRule {
-                scope,
-                tolerance: halved,
-            }));
-            let mc = self.monte_carlo_with(parts, &rules, trials, seed, None)?;
-            payoffs.push(TolerancePayoff {
-                class,
-                tolerance,
-                halved_tolerance: tolerance / 2.0,
-                boards: mc.trials,
-                boards_meeting: mc.passed,
-                yield_fraction: mc.yield_fraction,
-            });
-        }
-        Ok(payoffs)
+        ]
+        .into_iter()
+        .filter(|(_, scopes, tolerance)| !scopes.is_empty() && *tolerance > 0.0)
+        .collect()
+    }
+
+    /// How many Monte Carlo runs [`Design::analyses`] makes of
+    /// [`Design::trials`] each: the design's own and one per class of
+    /// [`Design::tolerance_payoffs`] (for a progress display).
+    pub fn monte_carlo_runs(&self, active: &ActiveDesign) -> usize {
+        1 + self.payoff_classes(active).len()
     }
 
     /// [`Design::monte_carlo`] with the tolerance rules given.
@@ -561,7 +574,7 @@ impl Design {
             traces: self.chart_traces(active)?,
             sensitivity: self.sensitivity(parts)?,
             montecarlo: self.monte_carlo(parts, self.trials(active), mc.seed, progress)?,
-            payoffs: self.tolerance_payoffs(active, self.trials(active), mc.seed)?,
+            payoffs: self.tolerance_payoffs(active, self.trials(active), mc.seed, progress)?,
             active_exact_verdict: self.verdict(&active.build.netlist)?,
             active_on_parts_verdict: self.verdict(parts)?,
             delay: self.delay_figures(active)?,
