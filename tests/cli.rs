@@ -988,6 +988,11 @@ fn bad_noise_keys_are_rejected() {
             &["opamp.output_current_a", "output current in A"][..],
         ),
         (
+            "delay band",
+            "[delay]\nmax_spread_s = 1e-4\nband_hz = 1e300\n",
+            &["delay.band_hz", "<= 1e10"][..],
+        ),
+        (
             "band",
             "[noise]\nband_hz = [10000, 10]\n",
             &["noise.band_hz", "low < high"][..],

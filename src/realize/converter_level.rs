@@ -19,10 +19,12 @@
 //! current of every converter found at three common levels (k = 1/2, 1, 2
 //! about the nearest capacitor values: exact fits with ideal op-amps),
 //! the choice over every converter's capacitor-series values is exact:
-//! for each candidate largest input T, each converter takes its quietest
-//! value whose current still allows T, and the T with the widest dynamic
-//! range wins (the sum of convex noises under a common threshold needs no
-//! other search).
+//! the noise is a sum over the converters and the largest input a
+//! minimum, so for a given largest input T each converter takes its
+//! quietest value whose current still allows T, independently of the
+//! others; every T that can decide is one of the candidates' own limits
+//! (or the swing and slew limit), and the one with the widest dynamic
+//! range wins.
 
 use std::collections::HashMap;
 
@@ -77,8 +79,9 @@ pub struct ConverterLevel {
     pub nearest_f: f64,
     /// The value chosen, farad.
     pub chosen_f: f64,
-    /// The impedance level of Z2..Z5 against the nearest (chosen over
-    /// nearest capacitance inverted: below 1 is lower impedance).
+    /// The impedance level of Z2..Z5 against the nearest values: the
+    /// nearest capacitance over the chosen one (below 1 is a lower
+    /// impedance).
     pub level: f64,
     #[serde(skip)]
     stage: usize,
@@ -94,7 +97,7 @@ pub struct ConverterLevels {
     /// The output noise lower than with the nearest values by, dB.
     pub noise_gain_db: f64,
     /// The largest input lower than with the nearest values by, dB
-    /// (negative: the quieter levels took current headroom).
+    /// (positive where the quieter levels took current headroom).
     pub input_loss_db: f64,
     /// The dynamic range wider than with the nearest values by, dB.
     pub gain_db: f64,
