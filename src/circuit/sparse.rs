@@ -531,7 +531,7 @@ impl SparseAc {
         &mut self,
         freqs_hz: &[f64],
         out: usize,
-        mut visit: impl FnMut(usize, &[Complex64]),
+        visit: impl FnMut(usize, &[Complex64]),
     ) -> Result<(), CircuitError> {
         self.check(freqs_hz, out, out)?;
         let Some(u) = out.checked_sub(1) else {
@@ -540,61 +540,21 @@ impl SparseAc {
                 freq_hz: freqs_hz.first().copied().unwrap_or(0.0),
             });
         };
-        let n = self.n;
-        let mut y = vec![Complex64::new(0.0, 0.0); n];
-        for (chunk_index, chunk) in freqs_hz.chunks(LANES).enumerate() {
-            let omega = lane_omegas(chunk);
-            let mut done = [false; LANES];
-            for plan in &mut self.plans {
-                if done[..chunk.len()].iter().all(|&d| d) {
-                    break;
+        self.vector_sweep(
+            freqs_hz,
+            |plan, omega| plan.solve_adjoint(omega, GUARD_THRESHOLD, u),
+            |plan, row, k| plan.adjoint(row, k),
+            |d, f, y| {
+                y.fill(Complex64::new(0.0, 0.0));
+                y[u] = Complex64::new(1.0, 0.0);
+                if !d.lu.factor(&d.g, &d.c, Complex64::new(0.0, TAU * f)) {
+                    return false;
                 }
-                let ok = plan.solve_adjoint(&omega, GUARD_THRESHOLD, u);
-                for k in 0..chunk.len() {
-                    if ok[k] && !done[k] {
-                        for (row, v) in y.iter_mut().enumerate() {
-                            *v = plan.adjoint(row, k);
-                        }
-                        if y.iter().all(|v| v.is_finite()) {
-                            done[k] = true;
-                            visit(chunk_index * LANES + k, &y);
-                        }
-                    }
-                }
-            }
-            for k in (0..chunk.len()).filter(|&k| !done[k]) {
-                self.fallbacks += 1;
-                let freq_hz = chunk[k];
-                let d = &mut self.dense;
-                self.plans[0].unload(&mut d.g, &mut d.c, &mut d.b);
-                let mut at = |f: f64, y: &mut [Complex64]| {
-                    y.fill(Complex64::new(0.0, 0.0));
-                    y[u] = Complex64::new(1.0, 0.0);
-                    if !d.lu.factor(&d.g, &d.c, Complex64::new(0.0, TAU * f)) {
-                        return false;
-                    }
-                    d.lu.solve_transposed(y);
-                    y.iter().all(|v| v.is_finite())
-                };
-                if !at(freq_hz, &mut y) {
-                    // Across a lossless resonance (a passive ideal's
-                    // tank at its own frequency) the mean of the two
-                    // sides, as `AcSystem::transfer` takes it.
-                    let mut above = vec![Complex64::new(0.0, 0.0); n];
-                    let sides = freq_hz > 0.0
-                        && at(freq_hz * (1.0 - RESONANCE_STEP), &mut y)
-                        && at(freq_hz * (1.0 + RESONANCE_STEP), &mut above);
-                    if !sides {
-                        return Err(CircuitError::Singular { freq_hz });
-                    }
-                    for (v, a) in y.iter_mut().zip(&above) {
-                        *v = (*v + a) / 2.0;
-                    }
-                }
-                visit(chunk_index * LANES + k, &y);
-            }
-        }
-        Ok(())
+                d.lu.solve_transposed(y);
+                true
+            },
+            visit,
+        )
     }
 
     /// The whole solution x of (G + j 2 pi f C) x = b at each of
@@ -602,16 +562,49 @@ impl SparseAc {
     /// unknown (node n at n - 1). One factorization per point serves every
     /// node, where [`SparseAc::sweep_into`] factors once per node read.
     /// Sparse passes of [`LANES`] points, the dense path for a lane no
-    /// order solves, the mean of the two sides across a lossless
-    /// resonance (as [`SparseAc::adjoint_sweep`]).
+    /// order solves.
     pub fn solution_sweep(
         &mut self,
         freqs_hz: &[f64],
-        mut visit: impl FnMut(usize, &[Complex64]),
+        visit: impl FnMut(usize, &[Complex64]),
     ) -> Result<(), CircuitError> {
         self.check(freqs_hz, 0, 0)?;
+        self.vector_sweep(
+            freqs_hz,
+            |plan, omega| plan.solve_all(omega, GUARD_THRESHOLD),
+            |plan, u, k| plan.unknown(u, k),
+            |d, f, x| {
+                for (v, &b) in x.iter_mut().zip(d.b.iter()) {
+                    *v = Complex64::new(b, 0.0);
+                }
+                if !d.lu.factor(&d.g, &d.c, Complex64::new(0.0, TAU * f)) {
+                    return false;
+                }
+                d.lu.solve(x);
+                true
+            },
+            visit,
+        )
+    }
+
+    /// One whole vector per point of `freqs_hz` to `visit`: `solve` on
+    /// each order's plan in passes of [`LANES`] points, `read(plan, index,
+    /// lane)` for each entry of a passing lane, and `dense(fallback, f,
+    /// vector)` (false where singular) for a lane no order solves or whose
+    /// numbers are not finite. Across a lossless resonance (a passive
+    /// ideal's tank at its own frequency), where the dense matrix is
+    /// singular, the mean of the two sides, as `AcSystem::transfer` takes
+    /// it.
+    fn vector_sweep(
+        &mut self,
+        freqs_hz: &[f64],
+        solve: impl Fn(&mut Plan, &[f64; LANES]) -> [bool; LANES],
+        read: impl Fn(&Plan, usize, usize) -> Complex64,
+        dense: impl Fn(&mut Dense, f64, &mut [Complex64]) -> bool,
+        mut visit: impl FnMut(usize, &[Complex64]),
+    ) -> Result<(), CircuitError> {
         let n = self.n;
-        let mut x = vec![Complex64::new(0.0, 0.0); n];
+        let mut v = vec![Complex64::new(0.0, 0.0); n];
         for (chunk_index, chunk) in freqs_hz.chunks(LANES).enumerate() {
             let omega = lane_omegas(chunk);
             let mut done = [false; LANES];
@@ -619,15 +612,15 @@ impl SparseAc {
                 if done[..chunk.len()].iter().all(|&d| d) {
                     break;
                 }
-                let ok = plan.solve_all(&omega, GUARD_THRESHOLD);
+                let ok = solve(plan, &omega);
                 for k in 0..chunk.len() {
                     if ok[k] && !done[k] {
-                        for (u, v) in x.iter_mut().enumerate() {
-                            *v = plan.unknown(u, k);
+                        for (i, x) in v.iter_mut().enumerate() {
+                            *x = read(plan, i, k);
                         }
-                        if x.iter().all(|v| v.is_finite()) {
+                        if v.iter().all(|x| x.is_finite()) {
                             done[k] = true;
-                            visit(chunk_index * LANES + k, &x);
+                            visit(chunk_index * LANES + k, &v);
                         }
                     }
                 }
@@ -637,29 +630,21 @@ impl SparseAc {
                 let freq_hz = chunk[k];
                 let d = &mut self.dense;
                 self.plans[0].unload(&mut d.g, &mut d.c, &mut d.b);
-                let mut at = |f: f64, x: &mut [Complex64]| {
-                    for (v, &b) in x.iter_mut().zip(d.b.iter()) {
-                        *v = Complex64::new(b, 0.0);
-                    }
-                    if !d.lu.factor(&d.g, &d.c, Complex64::new(0.0, TAU * f)) {
-                        return false;
-                    }
-                    d.lu.solve(x);
-                    x.iter().all(|v| v.is_finite())
-                };
-                if !at(freq_hz, &mut x) {
+                let mut at =
+                    |f: f64, v: &mut [Complex64]| dense(d, f, v) && v.iter().all(|x| x.is_finite());
+                if !at(freq_hz, &mut v) {
                     let mut above = vec![Complex64::new(0.0, 0.0); n];
                     let sides = freq_hz > 0.0
-                        && at(freq_hz * (1.0 - RESONANCE_STEP), &mut x)
+                        && at(freq_hz * (1.0 - RESONANCE_STEP), &mut v)
                         && at(freq_hz * (1.0 + RESONANCE_STEP), &mut above);
                     if !sides {
                         return Err(CircuitError::Singular { freq_hz });
                     }
-                    for (v, a) in x.iter_mut().zip(&above) {
-                        *v = (*v + a) / 2.0;
+                    for (x, a) in v.iter_mut().zip(&above) {
+                        *x = (*x + a) / 2.0;
                     }
                 }
-                visit(chunk_index * LANES + k, &x);
+                visit(chunk_index * LANES + k, &v);
             }
         }
         Ok(())
