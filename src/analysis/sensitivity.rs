@@ -265,19 +265,24 @@ pub fn summarize(
     }
     // A point where the output vanishes exactly (a stopband edge decades
     // below a highpass's passband, where the transfer underflows to 0:
-    // found by the generative test, seed 9) has no relative sensitivity;
-    // it is left out, and a group left empty has no extreme
-    // (Extreme::found is false; the tables leave its cells empty).
-    let mut kept = [Vec::new(), Vec::new(), Vec::new()];
-    for ((_, freqs), kept) in groups.iter().zip(&mut kept) {
-        for &f in freqs.iter() {
-            if system.transfer(f, out, inp)? != Complex64::new(0.0, 0.0) {
-                kept.push(f);
+    // found by the generative test, seed 9) has no relative sensitivity:
+    // the solve reports it, and it is left out and the rest solved again
+    // (no extra solve where none vanishes). A group left empty has no
+    // extreme (Extreme::found is false; the tables leave its cells empty).
+    let mut kept = groups.map(|(_, freqs)| freqs.clone());
+    let (all, table) = loop {
+        let all: Vec<f64> = kept.concat();
+        match sensitivities(system, out, inp, &all) {
+            Err(AnalysisError::Circuit(CircuitError::ZeroVoltage { node, freq_hz }))
+                if node == out && all.contains(&freq_hz) =>
+            {
+                for group in &mut kept {
+                    group.retain(|&f| f != freq_hz);
+                }
             }
+            done => break (all, done?),
         }
-    }
-    let all: Vec<f64> = kept.concat();
-    let table = sensitivities(system, out, inp, &all)?;
+    };
     let (edge_end, pass_end) = (kept[0].len(), kept[0].len() + kept[1].len());
     let summarize_row = |row: &Sensitivity| {
         let db = row.db_per_percent();
