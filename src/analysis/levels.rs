@@ -128,6 +128,16 @@ pub fn level_traces(
         .collect())
 }
 
+/// The largest input sine (V peak) that keeps an output of gain `gain`
+/// (V/V) at `freq_hz` within `swing_v` and its peak slope 2 pi f V within
+/// `slew_v_per_s` (common practice): [swing limit, slew limit].
+pub fn input_limits_v(gain: f64, freq_hz: f64, swing_v: f64, slew_v_per_s: f64) -> [f64; 2] {
+    [
+        swing_v / gain,
+        slew_v_per_s / (std::f64::consts::TAU * freq_hz * gain),
+    ]
+}
+
 /// The current each op-amp of `levels` delivers from its output into the
 /// network, per volt at node `inp` (A/V, complex), at each of `freqs_hz`:
 /// the sum over the resistors, capacitors and inductors on its output
@@ -138,17 +148,18 @@ pub fn output_currents(
     freqs_hz: &[f64],
     levels: &[OpAmpLevel],
 ) -> Result<Vec<Vec<Complex64>>, AnalysisError> {
+    // Per op-amp, each branch on its output: (other end, G, C, 1/L), so
+    // that Y(s) = G + s C + (1/L)/s.
     let mut nodes: Vec<usize> = Vec::new();
-    let mut branches: Vec<Vec<(usize, &Element)>> = Vec::new();
-    let netlist = system.netlist().clone();
+    let mut branches: Vec<Vec<(usize, f64, f64, f64)>> = Vec::new();
     for level in levels {
         let out = level.out_node;
         let mut attached = Vec::new();
-        for e in &netlist.elements {
-            let (a, b) = match *e {
-                Element::Resistor { a, b, .. }
-                | Element::Capacitor { a, b, .. }
-                | Element::Inductor { a, b, .. } => (a, b),
+        for e in &system.netlist().elements {
+            let (a, b, y) = match *e {
+                Element::Resistor { a, b, ohm, .. } => (a, b, (1.0 / ohm, 0.0, 0.0)),
+                Element::Capacitor { a, b, farad, .. } => (a, b, (0.0, farad, 0.0)),
+                Element::Inductor { a, b, henry, .. } => (a, b, (0.0, 0.0, 1.0 / henry)),
                 _ => continue,
             };
             let other = match (a == out, b == out) {
@@ -156,7 +167,7 @@ pub fn output_currents(
                 (false, true) => a,
                 _ => continue,
             };
-            attached.push((other, e));
+            attached.push((other, y.0, y.1, y.2));
             nodes.extend([out, other]);
         }
         branches.push(attached);
@@ -179,12 +190,12 @@ pub fn output_currents(
                     let s = Complex64::new(0.0, std::f64::consts::TAU * f);
                     attached
                         .iter()
-                        .map(|&(other, e)| {
-                            let y = match *e {
-                                Element::Resistor { ohm, .. } => Complex64::new(1.0 / ohm, 0.0),
-                                Element::Capacitor { farad, .. } => s * farad,
-                                Element::Inductor { henry, .. } => 1.0 / (s * henry),
-                                _ => Complex64::new(0.0, 0.0),
+                        .map(|&(other, g, c, l_inv)| {
+                            // The inductor's term only where there is
+                            // one: (1/L)/s is 0/0 at DC otherwise.
+                            let y = match l_inv {
+                                0.0 => g + s * c,
+                                _ => g + s * c + l_inv / s,
                             };
                             (at(level.out_node, k) - at(other, k)) * y
                         })

@@ -38,7 +38,9 @@ mod sweep;
 
 pub use compare::{compare, passband_level_db, ComparePoints, Comparison, EDGE_WINDOW};
 pub use error::AnalysisError;
-pub use levels::{level_traces, opamp_levels, output_currents, OpAmpLevel, LEVEL_POINTS};
+pub use levels::{
+    input_limits_v, level_traces, opamp_levels, output_currents, OpAmpLevel, LEVEL_POINTS,
+};
 pub use mask::{Limit, Mask, MaskVerdict};
 pub use montecarlo::{
     monte_carlo, Envelope, MonteCarlo, MonteCarloResult, Scope, StabilityJudge, ToleranceRule,

@@ -106,6 +106,14 @@ pub struct ChartTraces {
     pub opamp_gain_db: Vec<(String, Vec<f64>)>,
 }
 
+/// Whether `netlist` has an op-amp with a finite gain-bandwidth: one
+/// whose GBW a Monte Carlo varies and whose stability it judges.
+fn has_finite_gbw(netlist: &Netlist) -> bool {
+    netlist.elements.iter().any(
+        |e| matches!(e, crate::circuit::Element::OpAmp { model, .. } if model.gbw_hz().is_some()),
+    )
+}
+
 /// A class of parts whose tolerance the payoff table halves.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
 #[serde(rename_all = "snake_case")]
@@ -378,9 +386,7 @@ impl Design {
                 .map(|e| Scope::Element(e.name().to_string()))
                 .collect()
         };
-        let dynamic = parts.elements.iter().any(|e| {
-            matches!(e, crate::circuit::Element::OpAmp { model, .. } if model.gbw_hz().is_some())
-        });
+        let dynamic = has_finite_gbw(parts);
         [
             (
                 PartClass::LadderCapacitors,
@@ -438,9 +444,7 @@ impl Design {
         // active::ActiveBuild::stability); a verdict that cannot be
         // computed counts as unstable, the cautious side.
         let judge = |n: &Netlist| active::is_stable(n).is_ok_and(|v| v.stable);
-        let dynamic = netlist.elements.iter().any(|e| {
-            matches!(e, crate::circuit::Element::OpAmp { model, .. } if model.gbw_hz().is_some())
-        });
+        let dynamic = has_finite_gbw(netlist);
         let setup = MonteCarlo {
             stability: dynamic.then_some(&judge as StabilityJudge),
             out: netlist.require_node("out").map_err(circuit)?,

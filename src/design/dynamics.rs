@@ -6,8 +6,8 @@
 
 use super::{ActiveDesign, Build, Design, DesignError};
 use crate::analysis::{
-    a_weighting, integrate, level_traces, noise_band_grid, opamp_levels, output_currents,
-    output_noise, step_figures, step_modes, NoiseKind, NoiseSpectrum, StepFigures,
+    a_weighting, input_limits_v, integrate, level_traces, noise_band_grid, opamp_levels,
+    output_currents, output_noise, step_figures, step_modes, NoiseKind, NoiseSpectrum, StepFigures,
 };
 use crate::circuit::{log_grid, AcSystem, Netlist};
 use crate::realize::{snap_build, LevelGoal};
@@ -433,10 +433,11 @@ impl Design {
         let mut best: Option<(f64, usize, Headroom, f64)> = None;
         for (k, (trace, current)) in traces.iter().zip(&currents).enumerate() {
             for ((&f, &gain_db), i) in grid.iter().zip(trace).zip(current) {
-                let gain = 10f64.powf(gain_db / 20.0);
+                let [by_swing, by_slew] =
+                    input_limits_v(10f64.powf(gain_db / 20.0), f, swing, slew);
                 for (limit, headroom) in [
-                    (swing / gain, Headroom::Swing),
-                    (slew / (std::f64::consts::TAU * f * gain), Headroom::Slew),
+                    (by_swing, Headroom::Swing),
+                    (by_slew, Headroom::Slew),
                     (opamp.output_current_a / i.norm(), Headroom::Current),
                 ] {
                     if best.is_none_or(|b| limit < b.0) {

@@ -33,7 +33,9 @@ use num_complex::Complex64;
 use super::{converters, rescale, Converter, PartsSnapError, RANGE_SLACK};
 use crate::active::chain::{self, is_capacitor, value};
 use crate::active::ActiveBuild;
-use crate::analysis::{integrate, level_traces, opamp_levels, output_currents, output_noise};
+use crate::analysis::{
+    input_limits_v, integrate, level_traces, opamp_levels, output_currents, output_noise,
+};
 use crate::circuit::{AcSystem, Netlist, OpAmpNoise};
 use crate::parts::PartsChoice;
 
@@ -341,10 +343,9 @@ fn fit(
     let at_one = output_currents(&mut system, inp, grid, &opamps)?;
     for trace in level_traces(&mut system, inp, grid, &opamps)? {
         for (&f, &gain_db) in grid.iter().zip(&trace) {
-            let slew = goal.slew_v_per_s / (std::f64::consts::TAU * f);
-            fits.fixed_input_v = fits
-                .fixed_input_v
-                .min(goal.swing_v.min(slew) / 10f64.powf(gain_db / 20.0));
+            let gain = 10f64.powf(gain_db / 20.0);
+            let [by_swing, by_slew] = input_limits_v(gain, f, goal.swing_v, goal.slew_v_per_s);
+            fits.fixed_input_v = fits.fixed_input_v.min(by_swing).min(by_slew);
         }
     }
     let at_two = output_currents(&mut AcSystem::new(&at_levels[2])?, inp, grid, &opamps)?;
