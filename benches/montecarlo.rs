@@ -105,6 +105,7 @@ fn montecarlo(c: &mut Criterion) {
         // trial (active::is_stable), measured separately in its note.
         stability: None,
         delay: None,
+        tuning: None,
     };
     group.throughput(Throughput::Elements(TRIALS as u64));
     for threads in [1, 2] {

@@ -537,8 +537,8 @@ fn run(request: Request) -> anyhow::Result<()> {
             progress.trials(trials);
             let tick = |_done: usize| progress.tick();
             let started = std::time::Instant::now();
-            let result = pool
-                .install(|| d.monte_carlo(&active.on_parts.netlist, trials, seed, Some(&tick)))?;
+            let result =
+                pool.install(|| d.monte_carlo(&active, true, trials, seed, Some(&tick)))?;
             progress.done();
             eprintln!(
                 "nocoil: {trials} trials in {:.3} s on {} threads",
@@ -561,6 +561,7 @@ fn run(request: Request) -> anyhow::Result<()> {
                 seed,
                 shortened_for,
                 level_db,
+                active.on_parts.has_readings(),
             ))?;
             emit(&written)
         }

@@ -796,6 +796,7 @@ fn fdnr_run(
         worst,
         stability: None,
         delay: None,
+        tuning: None,
     };
     monte_carlo(&system(&n), &setup, progress).unwrap()
 }
@@ -947,6 +948,7 @@ fn rc_yield_converges_to_its_closed_form() {
             worst: 0,
             stability: None,
             delay: None,
+            tuning: None,
         };
         let got = monte_carlo(&system(&n), &setup, None)
             .unwrap()
@@ -1000,6 +1002,7 @@ fn rc_stored_run(trials: usize, worst: usize) -> (MonteCarloResult, usize) {
         worst,
         stability: None,
         delay: None,
+        tuning: None,
     };
     (monte_carlo(&system(&n), &setup, None).unwrap(), 2)
 }
@@ -1143,6 +1146,7 @@ fn unstable_trials_fail_in_the_proportion_routh_hurwitz_predicts() {
         worst: trials,
         stability: Some(&judge),
         delay: None,
+        tuning: None,
     };
     let r = monte_carlo(&system(&n), &setup, None).unwrap();
     let got = r.unstable as f64 / trials as f64;
@@ -1204,6 +1208,7 @@ fn monte_carlo_refuses_bad_setups_naming_the_offender() {
         worst: 1,
         stability: None,
         delay: None,
+        tuning: None,
     };
     let err = |setup: MonteCarlo| monte_carlo(&sys, &setup, None).unwrap_err();
     assert_eq!(

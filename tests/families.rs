@@ -826,9 +826,7 @@ fn the_monte_carlo_and_the_headline_judge_the_delay() {
     for (bound, passed) in [(nominal * 1.01, 40), (nominal * 0.99, 0)] {
         let d = nocoil::design::design(&spec_of(&text(&format!("{bound:e}"), "0"))).unwrap();
         let active = d.active().unwrap();
-        let mc = d
-            .monte_carlo(&active.on_parts.netlist, 40, 1, None)
-            .unwrap();
+        let mc = d.monte_carlo(&active, true, 40, 1, None).unwrap();
         assert_eq!(
             (mc.passed, mc.delay_failed),
             (passed, 40 - passed),

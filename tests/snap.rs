@@ -20,13 +20,14 @@ use std::collections::HashSet;
 use std::path::Path;
 
 use crate::util::ngspice_ac;
+use nocoil::active::Handles;
 use nocoil::active::{deviation_db, StageKind, PASSBAND_POINTS};
 use nocoil::circuit::{log_grid, Element, ElementKind, Netlist};
 use nocoil::design::{design, ActiveDesign, Design};
 use nocoil::export::spice::{deck, AcSweep};
 use nocoil::parts::PartsChoice;
 use nocoil::parts::Series;
-use nocoil::realize::{snap_build, PartsSnapError, SnappedBuild, TRIMMER_SERIES};
+use nocoil::realize::{snap_build, PartsSnapError, SnappedBuild, TrimGoal, TRIMMER_SERIES};
 use nocoil::spec::Spec;
 
 /// The FDNR lowpass, the GIC highpass, the GIC bandpass and the GIC
@@ -95,6 +96,7 @@ impl Demo {
             choice,
             &self.bands,
             None,
+            None,
         )
     }
 
@@ -157,6 +159,45 @@ fn gic_value(netlist: &Netlist, kind: StageKind, z: &[String; 5]) -> f64 {
     }
 }
 
+/// How far the converter replacing `replaces` follows its partner's
+/// snapping: a resonance trim (nocoil::realize::tuning) keeps the pair's
+/// product L C (or R D in the FDNR image, where the partner is the
+/// image L / tau of the ladder's inductor, Bruton 1969), so the converter
+/// realizes its ladder value times the partner's value before snapping
+/// over its value on parts; 1 for a preset converter.
+fn follows(d: &Demo, s: &SnappedBuild, replaces: &str) -> f64 {
+    let partner = s.trims.iter().find_map(|t| match &t.goal {
+        TrimGoal::Resonance { partner, .. } if t.stage == replaces => Some(partner.clone()),
+        _ => None,
+    });
+    let Some(partner) = partner else {
+        return 1.0;
+    };
+    let before = match partner.strip_prefix("R_") {
+        Some(inductor) if d.is_fdnr() => value(&d.design.passive, inductor) / image_tau(d, s),
+        _ => value(&d.design.passive, &partner),
+    };
+    before / value(&s.netlist, &partner)
+}
+
+/// Every converter of `s` (by its chains, element indices shared by the
+/// build and its snapped network) scaled in `netlist` by `factor(replaced
+/// element)` through its trim element.
+fn scale_converters(netlist: &mut Netlist, s: &SnappedBuild, factor: impl Fn(&str) -> f64) {
+    for stage in &s.stages {
+        if let Handles::Converter(chains) = &stage.handles {
+            let f = factor(stage.replaces.as_deref().unwrap_or_default());
+            for c in chains {
+                let i = c.trim_element();
+                let v = netlist.elements[i].value().unwrap();
+                netlist
+                    .set_value(i, v * f.powi(c.exponents[c.trim]))
+                    .unwrap();
+            }
+        }
+    }
+}
+
 fn relative(a: f64, b: f64) -> f64 {
     (a / b - 1.0).abs()
 }
@@ -188,7 +229,7 @@ fn trims_restore_every_converter_value_by_the_gic_relation() {
         let mut report = Vec::new();
         for (kind, replaces, z) in chains(&s) {
             let got = gic_value(&s.netlist, kind, &z);
-            let ladder = value(&d.design.passive, &replaces);
+            let ladder = value(&d.design.passive, &replaces) * follows(&d, &s, &replaces);
             let want = if kind == StageKind::Fdnr {
                 ladder * tau
             } else {
@@ -277,10 +318,11 @@ fn with_ideal_opamps_the_trimmed_network_is_the_ladder_of_its_parts() {
         } else {
             let mut ladder = d.design.passive.clone();
             for e in &mut ladder.elements {
-                if matches!(e.kind(), ElementKind::Resistor | ElementKind::Capacitor) {
-                    let v = value(&s.netlist, e.name());
-                    e.set_value(v).unwrap();
-                }
+                let v = match e.kind() {
+                    ElementKind::Resistor | ElementKind::Capacitor => value(&s.netlist, e.name()),
+                    _ => e.value().unwrap() * follows(&d, &s, e.name()),
+                };
+                e.set_value(v).unwrap();
             }
             ladder
         };
@@ -306,7 +348,9 @@ fn bruton_ladder(d: &Demo, s: &SnappedBuild) -> Netlist {
     let mut dc_paths = Vec::new();
     for e in &mut ladder.elements {
         let image = |prefix: &str| value(&s.netlist, &format!("{prefix}_{}", e.name()));
+        let follow = follows(d, s, e.name());
         match *e {
+            Element::Capacitor { farad, .. } => e.set_value(farad * follow).unwrap(),
             Element::Inductor { .. } => {
                 let henry = image("R") * tau;
                 e.set_value(henry).unwrap();
@@ -375,6 +419,8 @@ fn trims_cancel_the_converters_share_of_the_snapping_error() {
                 let i = exact.element_index(&format!("R_{}", l.name())).unwrap();
                 exact.set_value(i, l.value().unwrap() / tau).unwrap();
             }
+            // The FDNRs back on the values that resonate with them.
+            scale_converters(&mut exact, &s, |c| 1.0 / follows(&d, &s, c));
             let got = deviation_db(passive, &exact, &d.grid()).unwrap();
             (got, s.error_db.ideal_values)
         } else {
@@ -393,6 +439,8 @@ fn trims_cancel_the_converters_share_of_the_snapping_error() {
                     e.set_value(v).unwrap();
                 }
             }
+            // The converters following their snapped partners.
+            scale_converters(&mut others_snapped, &s, |c| follows(&d, &s, c));
             let want = deviation_db(passive, &others_snapped, &d.grid()).unwrap();
             (s.error_db.trimmed, want)
         };
@@ -444,7 +492,7 @@ fn capacitors_outside_the_range_are_moved_in_by_rescaling() {
         );
         let tau = if d.is_fdnr() { image_tau(&d, &s) } else { 1.0 };
         for (kind, replaces, z) in chains(&s) {
-            let ladder = value(&d.design.passive, &replaces);
+            let ladder = value(&d.design.passive, &replaces) * follows(&d, &s, &replaces);
             let want = if kind == StageKind::Fdnr {
                 ladder * tau
             } else {
@@ -493,8 +541,16 @@ fn trims_are_bought_as_a_fixed_part_and_a_potentiometer() {
                 // An inductor chain holds one capacitor and four resistors,
                 // an FDNR chain two and three.
                 let caps = if d.is_fdnr() { 2.0 } else { 1.0 };
-                let spread =
-                    caps * choice.capacitor_tolerance + (5.0 - caps) * choice.resistor_tolerance;
+                // A resonance trim takes up its partner's tolerance too: a
+                // ladder capacitor, or in the FDNR image a resistor.
+                let partner = match (&t.goal, d.is_fdnr()) {
+                    (TrimGoal::Preset, _) => 0.0,
+                    (_, true) => choice.resistor_tolerance,
+                    (_, false) => choice.capacitor_tolerance,
+                };
+                let spread = caps * choice.capacitor_tolerance
+                    + (5.0 - caps) * choice.resistor_tolerance
+                    + partner;
                 assert!((t.spread - spread).abs() < 1e-15, "{name}: {t:?}");
                 assert_eq!(series.nearest(t.fixed_ohm).unwrap(), t.fixed_ohm, "{t:?}");
                 assert_eq!(
@@ -563,7 +619,7 @@ fn fdnr_terminations_wider_than_the_range_are_an_error() {
         capacitor_range_f: (1e-9, 1.5e-9),
         ..PartsChoice::default()
     };
-    let err = snap_build(&d2.passive, &active.build, &narrow, &d.bands, None).unwrap_err();
+    let err = snap_build(&d2.passive, &active.build, &narrow, &d.bands, None, None).unwrap_err();
     assert!(
         matches!(err, PartsSnapError::TerminationsSpread { ratio, .. } if relative(ratio, 2.0) < 1e-12),
         "{err:?}"
@@ -617,13 +673,14 @@ fn bad_choices_name_the_key() {
         let text = d.snap(&choice).unwrap_err().to_string();
         assert!(text.contains(words), "{choice:?}: {text}");
     }
-    let none = snap_build(&d.design.passive, &d.active.build, &base, &[], None).unwrap_err();
+    let none = snap_build(&d.design.passive, &d.active.build, &base, &[], None, None).unwrap_err();
     assert_eq!(none, PartsSnapError::NoPassband);
     let bad = snap_build(
         &d.design.passive,
         &d.active.build,
         &base,
         &[[100.0, 10.0]],
+        None,
         None,
     )
     .unwrap_err();

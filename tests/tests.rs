@@ -23,3 +23,4 @@ mod snap;
 mod step;
 mod sweep;
 mod synth;
+mod tuning;

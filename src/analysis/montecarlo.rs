@@ -40,7 +40,7 @@ use rayon::prelude::*;
 
 use super::mask::{closest, Check, Closest, Mask};
 use super::spread::{DelayLimit, DelayVerdict};
-use super::{AnalysisError, Parameter};
+use super::{AnalysisError, Parameter, Tuning};
 use crate::circuit::{AcSystem, CircuitError, Element, ElementKind, Netlist, OpAmpModel, SparseAc};
 use crate::parts::Tolerance;
 
@@ -125,6 +125,9 @@ pub struct MonteCarlo<'a> {
     /// A bound on the group-delay spread every trial must also keep, when
     /// the specification has one (exact delay on the limit's own grid).
     pub delay: Option<&'a DelayLimit>,
+    /// How every board's trimmers are set, when the build has any: left
+    /// at their nominal settings or tuned by the procedure.
+    pub tuning: Option<&'a Tuning>,
 }
 
 /// One varied quantity, as resolved from the rules.
@@ -360,6 +363,9 @@ impl Run<'_> {
                 &mut worker.system,
                 knob.nominal * knob.tolerance.draw(&mut rng),
             )?;
+        }
+        if let Some(tuning) = self.setup.tuning {
+            tuning.apply(&mut worker.system)?;
         }
         worker.sweep(self.setup)?;
         for (slot, &h) in row.iter_mut().zip(&worker.h) {

@@ -139,6 +139,21 @@ impl Element {
         }
     }
 
+    /// The same element with every node index passed through `map`.
+    fn with_nodes(&self, map: &mut impl FnMut(usize) -> usize) -> Element {
+        let mut e = self.clone();
+        match &mut e {
+            Element::Resistor { a, b, .. }
+            | Element::Capacitor { a, b, .. }
+            | Element::Inductor { a, b, .. } => (*a, *b) = (map(*a), map(*b)),
+            Element::VoltageSource { pos, neg, .. } => (*pos, *neg) = (map(*pos), map(*neg)),
+            Element::OpAmp {
+                plus, minus, out, ..
+            } => (*plus, *minus, *out) = (map(*plus), map(*minus), map(*out)),
+        }
+        e
+    }
+
     /// Checks the name's prefix and characters.
     fn check_name(&self) -> Result<(), CircuitError> {
         let name = self.name();
@@ -324,6 +339,20 @@ impl Netlist {
         }
         self.elements.push(element);
         Ok(index)
+    }
+
+    /// A copy without the elements `keep` refuses (by index), and
+    /// without the nodes only they touched, so what is left can be
+    /// solved (a node with nothing on it makes the system singular).
+    pub fn retaining(&self, mut keep: impl FnMut(usize) -> bool) -> Result<Netlist, CircuitError> {
+        let mut out = Netlist::new(self.title.clone());
+        for (i, e) in self.elements.iter().enumerate() {
+            if keep(i) {
+                let moved = e.with_nodes(&mut |n| out.node(&self.nodes[n]));
+                out.add(moved)?;
+            }
+        }
+        Ok(out)
     }
 
     /// The index of the element with this name (ignoring case), or `None`.

@@ -7,7 +7,7 @@ use crate::active;
 use crate::analysis::{
     judged_from_hz, level_traces, monte_carlo, summarize, trace, AnalysisError, DelayLimit,
     DelayVerdict, Mask, MaskVerdict, MonteCarlo, MonteCarloResult, Scope, SensitivitySummary,
-    StabilityJudge, SummaryPoints, ToleranceRule,
+    StabilityJudge, SummaryPoints, ToleranceRule, Tuning,
 };
 use crate::circuit::{band_grid, log_grid, AcSystem, Netlist};
 use crate::parts::Tolerance;
@@ -164,8 +164,12 @@ pub struct Analyses {
     pub traces: ChartTraces,
     /// Sensitivities of the active on parts build.
     pub sensitivity: Vec<SensitivitySummary>,
-    /// The Monte Carlo run of the active on parts build.
+    /// The Monte Carlo run of the active on parts build, every board
+    /// tuned by the tuning procedure.
     pub montecarlo: MonteCarloResult,
+    /// The same boards with the trimmers left at their nominal settings,
+    /// when the procedure tunes any (else tuning changes nothing).
+    pub before_tuning: Option<MonteCarloResult>,
     /// The same boards with one class's tolerance halved at a time.
     pub payoffs: Vec<TolerancePayoff>,
     /// The active exact build against the specification.
@@ -312,19 +316,29 @@ impl Design {
         ])
     }
 
-    /// The Monte Carlo yield of `netlist` (a build of this design) against
-    /// the specification, with the design file's tolerances, and `trials`
-    /// and `seed`. Runs on the current rayon pool; `progress` is told how
-    /// many trials are done.
+    /// The Monte Carlo yield of `active`'s build on parts against the
+    /// specification, with the design file's tolerances, and `trials` and
+    /// `seed`: every board `tuned` by the tuning procedure, or with its
+    /// trimmers left at their nominal settings. Runs on the current rayon
+    /// pool; `progress` is told how many trials are done.
     pub fn monte_carlo(
         &self,
-        netlist: &Netlist,
+        active: &ActiveDesign,
+        tuned: bool,
         trials: usize,
         seed: u64,
         progress: Option<&(dyn Fn(usize) + Sync)>,
     ) -> Result<MonteCarloResult, DesignError> {
         let rules = self.tolerance_rules()?;
-        self.monte_carlo_with(netlist, &rules, trials, seed, progress)
+        let tuning = active.on_parts.tuning(tuned);
+        self.monte_carlo_with(
+            &active.on_parts.netlist,
+            &rules,
+            &tuning,
+            trials,
+            seed,
+            progress,
+        )
     }
 
     /// For each class of the active on parts build's parts, the yield of
@@ -341,6 +355,7 @@ impl Design {
     ) -> Result<Vec<TolerancePayoff>, DesignError> {
         let parts = &active.on_parts.netlist;
         let base = self.tolerance_rules()?;
+        let tuning = active.on_parts.tuning(true);
         let classes = self.payoff_classes(active);
         let mut payoffs = Vec::new();
         for (class, scopes, tolerance) in classes {
@@ -351,7 +366,7 @@ impl Design {
                 scope,
                 tolerance: halved,
             }));
-            let mc = self.monte_carlo_with(parts, &rules, trials, seed, progress)?;
+            let mc = self.monte_carlo_with(parts, &rules, &tuning, trials, seed, progress)?;
             payoffs.push(TolerancePayoff {
                 class,
                 tolerance,
@@ -419,10 +434,11 @@ impl Design {
     }
 
     /// How many Monte Carlo runs [`Design::analyses`] makes of
-    /// [`Design::trials`] each: the design's own and one per class of
+    /// [`Design::trials`] each: the design's own, the same boards before
+    /// tuning when the procedure tunes any trimmer, and one per class of
     /// [`Design::tolerance_payoffs`] (for a progress display).
     pub fn monte_carlo_runs(&self, active: &ActiveDesign) -> usize {
-        1 + self.payoff_classes(active).len()
+        1 + usize::from(active.on_parts.has_readings()) + self.payoff_classes(active).len()
     }
 
     /// [`Design::monte_carlo`] with the tolerance rules given.
@@ -430,6 +446,7 @@ impl Design {
         &self,
         netlist: &Netlist,
         rules: &[ToleranceRule],
+        tuning: &Tuning,
         trials: usize,
         seed: u64,
         progress: Option<&(dyn Fn(usize) + Sync)>,
@@ -456,6 +473,7 @@ impl Design {
             seed,
             worst: WORST_TRIALS,
             delay: delay.as_ref(),
+            tuning: Some(tuning),
         };
         monte_carlo(&system, &setup, progress).map_err(analysis)
     }
@@ -577,7 +595,13 @@ impl Design {
         Ok(Analyses {
             traces: self.chart_traces(active)?,
             sensitivity: self.sensitivity(parts)?,
-            montecarlo: self.monte_carlo(parts, self.trials(active), mc.seed, progress)?,
+            montecarlo: self.monte_carlo(active, true, self.trials(active), mc.seed, progress)?,
+            before_tuning: match active.on_parts.has_readings() {
+                true => {
+                    Some(self.monte_carlo(active, false, self.trials(active), mc.seed, progress)?)
+                }
+                false => None,
+            },
             payoffs: self.tolerance_payoffs(active, self.trials(active), mc.seed, progress)?,
             active_exact_verdict: self.verdict(&active.build.netlist)?,
             active_on_parts_verdict: self.verdict(parts)?,

@@ -11,7 +11,7 @@ use crate::analysis::{Limit, MaskVerdict};
 use crate::approx::{Family, Variant};
 use crate::circuit::{Element, Netlist, OpAmpModel};
 use crate::parts::PartsChoice;
-use crate::realize::{ErrorSteps, LadderLevel, Rescale, Trim};
+use crate::realize::{ErrorSteps, LadderLevel, Rescale, Trim, TuningStep};
 use crate::spec::FrequencyScale;
 use crate::synth::{Arm, Form, Reactance};
 use crate::transform::{Band, Kind};
@@ -83,6 +83,9 @@ pub struct ActiveReport {
     pub parts_error_db: ErrorSteps,
     /// One trim per GIC chain.
     pub trims: Vec<Trim>,
+    /// The tuning procedure, step by step (every trim it does not set is
+    /// preset).
+    pub tuning_procedure: Vec<TuningStep>,
     /// What the rescaling into the capacitor range did.
     pub rescaled: Vec<Rescale>,
     /// The active exact build's elements.
@@ -150,6 +153,15 @@ pub struct Report {
     pub outcome: Option<Outcome>,
 }
 
+/// The Monte Carlo's boards before tuning.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct BeforeTuning {
+    /// Fraction that meet the specification.
+    pub yield_fraction: f64,
+    /// How many meet it.
+    pub boards_meeting: usize,
+}
+
 /// How the active builds stand against the specification.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct Outcome {
@@ -158,12 +170,15 @@ pub struct Outcome {
     /// The active exact build.
     pub active_exact: MaskVerdict,
     /// Fraction of Monte Carlo boards of the active on parts build that
-    /// meet the specification.
+    /// meet the specification, each tuned by the tuning procedure.
     pub yield_fraction: f64,
     /// Boards drawn.
     pub boards: usize,
     /// Boards that meet the specification.
     pub boards_meeting: usize,
+    /// The same boards with every trimmer left at its nominal setting,
+    /// when the procedure tunes any.
+    pub before_tuning: Option<BeforeTuning>,
     /// Boards whose network is unstable (counted as not meeting it).
     pub boards_unstable: usize,
     /// Boards whose group-delay spread broke the `[delay]` bound (counted
@@ -305,6 +320,7 @@ impl Design {
                 parts: self.spec.parts,
                 parts_error_db: active.on_parts.error_db,
                 trims: active.on_parts.trims.clone(),
+                tuning_procedure: active.on_parts.procedure.clone(),
                 rescaled: active.on_parts.rescaled.clone(),
                 active_exact_elements: scaled_elements(&b.netlist),
                 active_on_parts_elements: scaled_elements(&active.on_parts.netlist),
@@ -322,6 +338,10 @@ impl Design {
             yield_fraction: mc.yield_fraction,
             boards: mc.trials,
             boards_meeting: mc.passed,
+            before_tuning: analyses.before_tuning.as_ref().map(|b| BeforeTuning {
+                yield_fraction: b.yield_fraction,
+                boards_meeting: b.passed,
+            }),
             boards_unstable: mc.unstable,
             boards_over_delay: mc.delay_failed,
             tolerance_payoffs: analyses.payoffs.clone(),

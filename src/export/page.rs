@@ -135,6 +135,7 @@ pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> Strin
                 "fixed",
                 "trimmer",
                 "setting",
+                "set by",
             ]
             .map(String::from)
             .to_vec(),
@@ -142,17 +143,45 @@ pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> Strin
                 .trims
                 .iter()
                 .map(|t| {
+                    let trimmer = crate::realize::trimmer_designator(&t.element);
                     vec![
                         t.element.clone(),
                         t.stage.clone(),
                         eng(t.value_ohm, "ohm"),
                         eng(t.fixed_ohm, "ohm"),
-                        eng(t.pot_ohm, "ohm"),
+                        format!("{} {trimmer}", eng(t.pot_ohm, "ohm")),
                         eng(t.setting_ohm, "ohm"),
+                        super::prose::trim_goal_words(&t.goal, &trimmer, &act.tuning_procedure),
                     ]
                 })
                 .collect(),
         });
+        match act.tuning_procedure.is_empty() {
+            true => notes.push(format!(
+                "{}: {}",
+                Build::ActiveOnParts,
+                super::prose::tuning_heading(0)
+            )),
+            false => tables.push(Table {
+                caption: format!(
+                    "{}: {}",
+                    Build::ActiveOnParts,
+                    super::prose::tuning_heading(act.tuning_procedure.len())
+                ),
+                header: ["step", "what to do"].map(String::from).to_vec(),
+                rows: act
+                    .tuning_procedure
+                    .iter()
+                    .enumerate()
+                    .map(|(k, step)| {
+                        vec![
+                            (k + 1).to_string(),
+                            super::prose::tuning_step_words(step, act.swing_v_peak),
+                        ]
+                    })
+                    .collect(),
+            }),
+        }
         if act.active_on_parts.levels.is_empty() {
             summary.push((
                 format!("{}: op-amp levels", Build::ActiveOnParts),

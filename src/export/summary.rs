@@ -5,7 +5,8 @@
 use super::eng::format_trimmed as eng;
 use super::prose::{
     bound_words, converter_levels_words, db, dynamic_range_words, edge_loss_name, level_warnings,
-    noise_words, opamp_model, percent, scale_words, sources_words, step_words,
+    noise_words, opamp_model, percent, scale_words, sources_words, step_words, trim_goal_words,
+    tuning_heading, tuning_step_words,
 };
 use crate::active::Method;
 use crate::analysis::{DelayVerdict, MaskVerdict, EDGE_WINDOW};
@@ -76,8 +77,15 @@ pub fn yield_line(d: &Documents) -> String {
         .and_then(|o| o.boards_shortened_for_opamps)
         .map(|opamps| format!("; {}", super::prose::shortened_default(mc.trials, opamps)))
         .unwrap_or_default();
+    let (tuned, before) = match &d.analyses.before_tuning {
+        Some(b) => (
+            " after tuning",
+            format!("; {:.2} % before tuning", 100.0 * b.yield_fraction),
+        ),
+        None => ("", String::new()),
+    };
     format!(
-        "{}: yield {:.2} % ({} of {} boards meet the specification with the parts' tolerances and the op-amps' GBW spread{}; Monte Carlo seed {}{shortened})",
+        "{}: yield {:.2} %{tuned} ({} of {} boards meet the specification with the parts' tolerances and the op-amps' GBW spread{}{before}; Monte Carlo seed {}{shortened})",
         Build::ActiveOnParts,
         100.0 * mc.yield_fraction,
         mc.passed,
@@ -380,15 +388,31 @@ pub fn summary(d: &Documents) -> String {
         db(e.trimmed)
     );
     for t in &act.trims {
+        let trimmer = crate::realize::trimmer_designator(&t.element);
         let _ = writeln!(
             s,
-            "  trim {} (converter for {}): {} = {} fixed + {} trimmer set to {}",
+            "  trim {} (converter for {}): {} = {} fixed + {} trimmer {trimmer} set to {} ({})",
             t.element,
             t.stage,
             eng(t.value_ohm, "ohm"),
             eng(t.fixed_ohm, "ohm"),
             eng(t.pot_ohm, "ohm"),
-            eng(t.setting_ohm, "ohm")
+            eng(t.setting_ohm, "ohm"),
+            trim_goal_words(&t.goal, &trimmer, &act.tuning_procedure)
+        );
+    }
+    let _ = writeln!(
+        s,
+        "  {}: {}",
+        Build::ActiveOnParts,
+        tuning_heading(act.tuning_procedure.len())
+    );
+    for (k, step) in act.tuning_procedure.iter().enumerate() {
+        let _ = writeln!(
+            s,
+            "    {}. {}",
+            k + 1,
+            tuning_step_words(step, act.swing_v_peak)
         );
     }
     for n in &act.notes {

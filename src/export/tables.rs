@@ -80,20 +80,26 @@ pub fn envelope_csv(r: &MonteCarloResult) -> String {
 /// limit it came closest to (or broke) and where; `level_db` is the
 /// passband level the limits are read against; `shortened_for` is the
 /// build's op-amp count when the default count was shortened for it (see
-/// [`crate::design::default_trials`]).
+/// [`crate::design::default_trials`]); `tuned` when every board was tuned
+/// by the tuning procedure.
 pub fn yield_summary(
     r: &MonteCarloResult,
     seed: u64,
     shortened_for: Option<usize>,
     level_db: f64,
+    tuned: bool,
 ) -> String {
     let trials = r.trials;
     let mut s = format!(
-        "Monte Carlo: {trials} trials, seed {seed}: yield {:.2} % ({} passed{}): boards of the {} build meeting the specification\n",
+        "Monte Carlo: {trials} trials, seed {seed}: yield {:.2} % ({} passed{}): boards of the {} build meeting the specification{}\n",
         100.0 * r.yield_fraction,
         r.passed,
         unstable_words(r),
         Build::ActiveOnParts,
+        match tuned {
+            true => ", each tuned by the tuning procedure",
+            false => "",
+        }
     );
     if let Some(opamps) = shortened_for {
         let _ = writeln!(s, "  {}", super::prose::shortened_default(trials, opamps));

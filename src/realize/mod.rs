@@ -49,14 +49,18 @@ mod converter_level;
 mod error;
 mod level;
 mod trim;
+mod tuning;
 
 pub use converter_level::{choose_levels, ConverterLevel, ConverterLevels, LevelGoal, MIN_GAIN_DB};
 pub use error::PartsSnapError;
 pub use level::{ladder_level, LadderLevel, LadderPart};
 pub use trim::{Trim, TRIMMER_SERIES};
+pub use tuning::{
+    arms, resonators, Arm, Reading, Resonator, TrimGoal, TuningStep, CLIP_OHM, TRIMMER_RESOLUTION,
+};
 
 use crate::active::chain::{self, is_capacitor, scale_impedance, value, Chain, Moves};
-use crate::active::{ActiveBuild, Handles, Meter, Stage, PASSBAND_POINTS};
+use crate::active::{ActiveBuild, DampingResistor, Handles, Meter, Note, Stage, PASSBAND_POINTS};
 use crate::circuit::{band_grid, CircuitError, Element, ElementKind, Netlist};
 use crate::parts::{Distribution, PartsChoice, Tolerance};
 
@@ -179,6 +183,14 @@ pub struct SnappedBuild {
     pub stages: Vec<Stage>,
     /// One trimming resistor per GIC chain, in stage order.
     pub trims: Vec<Trim>,
+    /// The tuning procedure: the steps that set the trims read on the
+    /// bench, in order (every other trim is preset).
+    pub procedure: Vec<TuningStep>,
+    /// The network before the trims were solved: every trim element on
+    /// its nearest series value (what the board is with untrimmed fixed
+    /// resistors).
+    #[serde(skip)]
+    pub untrimmed: Netlist,
     /// What each rescaling did.
     pub rescaled: Vec<Rescale>,
     /// The passband error after each step.
@@ -189,13 +201,16 @@ pub struct SnappedBuild {
 /// `choice` (see the module documentation), measuring the errors over
 /// `passband_hz` (`[low, high]` bands, Hz) on [`PASSBAND_POINTS`]
 /// log-spaced points each; each converter's level capacitor on the value
-/// `levels` chose for it (see [`choose_levels`]), else on the nearest.
+/// `levels` chose for it (see [`choose_levels`]), else on the nearest;
+/// with a `judge`, the trims no step sets kept on their nearest values
+/// where that rates the nominal board higher (see `keep_nearer_presets`).
 pub fn snap_build(
     passive: &Netlist,
     build: &ActiveBuild,
     choice: &PartsChoice,
     passband_hz: &[[f64; 2]],
     levels: Option<&ConverterLevels>,
+    judge: Option<BoardJudge>,
 ) -> Result<SnappedBuild, PartsSnapError> {
     choice.check()?;
     if passband_hz.is_empty() {
@@ -218,25 +233,67 @@ pub fn snap_build(
         .map(|c| c.chains.iter().map(|ch| ch.realized(&netlist)).collect())
         .collect();
     let ideal_values = deviation(&netlist)?;
+    let damping: Vec<DampingResistor> = build
+        .notes
+        .iter()
+        .flat_map(|n| match n {
+            Note::Damped { resistors, .. } => resistors.clone(),
+            _ => Vec::new(),
+        })
+        .collect();
+    let tuning::Procedure {
+        steps: mut procedure,
+        goals,
+        read_by,
+    } = tuning::procedure(
+        passive,
+        &netlist,
+        &build.stages,
+        &damping,
+        &converters
+            .iter()
+            .map(|c| (c.stage, c.chains))
+            .collect::<Vec<_>>(),
+    );
+    let before_snap = netlist.clone();
     snap_all(&mut netlist, choice)?;
     let snapped = deviation(&netlist)?;
+    let untrimmed = netlist.clone();
     let mut trims = Vec::new();
-    for (c, targets) in converters.iter().zip(&targets) {
-        for (chain, &target) in c.chains.iter().zip(targets) {
+    for ((c, targets), goals) in converters.iter().zip(&targets).zip(goals) {
+        // A resonator's converter follows its partner's snapping (every
+        // chain of it, so a floating inductor's two stay matched).
+        let follow = goals
+            .iter()
+            .find_map(|g| match g {
+                TrimGoal::Resonance { partner_index, .. } => {
+                    Some(value(&before_snap, *partner_index) / value(&netlist, *partner_index))
+                }
+                TrimGoal::Preset => None,
+            })
+            .unwrap_or(1.0);
+        for ((chain, &target), goal) in c.chains.iter().zip(targets).zip(goals) {
             trims.push(trim::solve(
                 &mut netlist,
                 c.replaces,
                 chain,
-                target,
+                target * follow,
+                goal,
                 choice,
             )?);
         }
     }
+    if let Some(judge) = judge {
+        keep_nearer_presets(&mut netlist, &untrimmed, &mut trims, choice, judge)?;
+    }
     let trimmed = deviation(&netlist)?;
+    tuning::read_steps(&mut procedure, &netlist, &read_by)?;
     Ok(SnappedBuild {
         stages: realized_stages(&netlist, &build.stages, &converters),
         netlist,
         trims,
+        procedure,
+        untrimmed,
         rescaled,
         error_db: ErrorSteps {
             as_built,
@@ -245,6 +302,64 @@ pub fn snap_build(
             trimmed,
         },
     })
+}
+
+/// How a nominal board stands, the larger the better (the design's
+/// margin against its specification, dB).
+pub type BoardJudge<'a> = &'a dyn Fn(&Netlist) -> f64;
+
+/// A converter whose trims no step sets (every one preset) gains
+/// nothing from restoring its value when its snapped parts, trims on
+/// their nearest series values, leave the board better: the snapping
+/// errors of its chain and of the parts around it may cancel. Converter
+/// by converter, in order, its presets move to those values when `judge`
+/// rates the board higher so; and when the result is still rated below
+/// the board with every preset on those values, that board is taken. So
+/// presets never leave the nominal board worse than untrimmed presets.
+fn keep_nearer_presets(
+    netlist: &mut Netlist,
+    untrimmed: &Netlist,
+    trims: &mut Vec<Trim>,
+    choice: &PartsChoice,
+    judge: BoardJudge,
+) -> Result<(), PartsSnapError> {
+    // Every trim of `stages` (all of them for `None`) on its nearest
+    // series value, bought again.
+    let untrim = |netlist: &Netlist, trims: &[Trim], stage: Option<&str>| {
+        let (mut board, mut bought) = (netlist.clone(), trims.to_vec());
+        for t in &mut bought {
+            if t.goal == TrimGoal::Preset && stage.is_none_or(|s| s == t.stage) {
+                let ohm = value(untrimmed, t.index);
+                board.set_value(t.index, ohm)?;
+                *t = trim::rebuy(t, ohm, choice)?;
+            }
+        }
+        Ok::<_, PartsSnapError>((board, bought))
+    };
+    let mut stages: Vec<String> = Vec::new();
+    for t in trims.iter() {
+        let preset_only = trims
+            .iter()
+            .filter(|u| u.stage == t.stage)
+            .all(|u| u.goal == TrimGoal::Preset);
+        if preset_only && !stages.contains(&t.stage) {
+            stages.push(t.stage.clone());
+        }
+    }
+    if stages.is_empty() {
+        return Ok(());
+    }
+    for stage in &stages {
+        let (board, bought) = untrim(netlist, trims, Some(stage))?;
+        if judge(&board) > judge(netlist) {
+            (*netlist, *trims) = (board, bought);
+        }
+    }
+    let (board, bought) = untrim(netlist, trims, None)?;
+    if judge(&board) > judge(netlist) {
+        (*netlist, *trims) = (board, bought);
+    }
+    Ok(())
 }
 
 /// The designator of the trimmer of trim element `name` ("R_L1_1" ->

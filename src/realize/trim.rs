@@ -13,7 +13,7 @@
 //! With zero tolerances this is the series value just below the solved
 //! value and a potentiometer for the rest.
 
-use super::{Buying, PartsChoice, PartsSnapError};
+use super::{Buying, PartsChoice, PartsSnapError, TrimGoal};
 use crate::active::chain::{value, Chain};
 use crate::circuit::Netlist;
 use crate::parts::Series;
@@ -56,6 +56,9 @@ pub struct Trim {
     /// The relative spread of the trim value that fixed part and
     /// potentiometer cover: the sum of the tolerances of the chain's parts.
     pub spread: f64,
+    /// What the trim is set for.
+    #[serde(flatten)]
+    pub goal: TrimGoal,
 }
 
 /// Sets the trim element of `chain` so that it realizes `target`, and
@@ -65,30 +68,56 @@ pub(super) fn solve(
     stage: &str,
     chain: &Chain,
     target: f64,
+    goal: TrimGoal,
     choice: &PartsChoice,
 ) -> Result<Trim, PartsSnapError> {
     let index = chain.z[chain.trim];
     let ratio = target / chain.realized(netlist);
     let value_ohm = value(netlist, index) * ratio.powi(chain.exponents[chain.trim]);
     netlist.set_value(index, value_ohm)?;
+    buy(netlist, stage, chain, index, value_ohm, goal, choice)
+}
+
+/// Trim `t` bought again for the value `value_ohm`.
+pub(super) fn rebuy(
+    t: &Trim,
+    value_ohm: f64,
+    choice: &PartsChoice,
+) -> Result<Trim, PartsSnapError> {
+    let (fixed_ohm, pot_ohm) = fixed_and_pot(value_ohm, t.spread, choice, &t.element)?;
+    Ok(Trim {
+        value_ohm,
+        fixed_ohm,
+        pot_ohm,
+        setting_ohm: value_ohm - fixed_ohm,
+        ..t.clone()
+    })
+}
+
+/// How trim element `index` of `chain`, solved to `value_ohm`, is bought.
+fn buy(
+    netlist: &Netlist,
+    stage: &str,
+    chain: &Chain,
+    index: usize,
+    value_ohm: f64,
+    goal: TrimGoal,
+    choice: &PartsChoice,
+) -> Result<Trim, PartsSnapError> {
     let element = netlist.elements[index].name().to_string();
-    let snap = |cause| PartsSnapError::Snap {
-        element: element.clone(),
-        cause,
+
+    // A resonance trim also takes up its partner's tolerance.
+    let partner = match goal {
+        TrimGoal::Resonance { partner_index, .. } => choice.tolerance_of(netlist, partner_index),
+        TrimGoal::Preset => 0.0,
     };
     let spread: f64 = chain
         .z
         .iter()
         .map(|&i| choice.tolerance_of(netlist, i))
-        .sum();
-    let low = value_ohm / (1.0 + spread);
-    let fixed_ohm = choice
-        .resistor_series
-        .snap_down(low * (1.0 - STRICTLY_BELOW))
-        .map_err(snap)?;
-    let pot_ohm = TRIMMER_SERIES
-        .snap_up(value_ohm * (1.0 + spread) - fixed_ohm)
-        .map_err(snap)?;
+        .sum::<f64>()
+        + partner;
+    let (fixed_ohm, pot_ohm) = fixed_and_pot(value_ohm, spread, choice, &element)?;
     Ok(Trim {
         stage: stage.to_string(),
         element,
@@ -98,5 +127,30 @@ pub(super) fn solve(
         pot_ohm,
         setting_ohm: value_ohm - fixed_ohm,
         spread,
+        goal,
     })
+}
+
+/// The fixed resistor (the series value below value / (1 + spread)) and
+/// the potentiometer (reaching value (1 + spread)) that buy a trim of
+/// `value_ohm`.
+fn fixed_and_pot(
+    value_ohm: f64,
+    spread: f64,
+    choice: &PartsChoice,
+    element: &str,
+) -> Result<(f64, f64), PartsSnapError> {
+    let snap = |cause| PartsSnapError::Snap {
+        element: element.to_string(),
+        cause,
+    };
+    let low = value_ohm / (1.0 + spread);
+    let fixed_ohm = choice
+        .resistor_series
+        .snap_down(low * (1.0 - STRICTLY_BELOW))
+        .map_err(snap)?;
+    let pot_ohm = TRIMMER_SERIES
+        .snap_up(value_ohm * (1.0 + spread) - fixed_ohm)
+        .map_err(snap)?;
+    Ok((fixed_ohm, pot_ohm))
 }
