@@ -466,7 +466,6 @@ fn converter_levels_lower_the_noise_as_stated_in_ngspice() {
             &d.spec.parts,
             &d.passbands_hz(),
             None,
-            Some(&|n: &nocoil::circuit::Netlist| d.margin_db(n)),
         )
         .unwrap();
         let band = d.noise_band_hz();

@@ -96,7 +96,6 @@ impl Demo {
             choice,
             &self.bands,
             None,
-            None,
         )
     }
 
@@ -619,7 +618,7 @@ fn fdnr_terminations_wider_than_the_range_are_an_error() {
         capacitor_range_f: (1e-9, 1.5e-9),
         ..PartsChoice::default()
     };
-    let err = snap_build(&d2.passive, &active.build, &narrow, &d.bands, None, None).unwrap_err();
+    let err = snap_build(&d2.passive, &active.build, &narrow, &d.bands, None).unwrap_err();
     assert!(
         matches!(err, PartsSnapError::TerminationsSpread { ratio, .. } if relative(ratio, 2.0) < 1e-12),
         "{err:?}"
@@ -673,14 +672,13 @@ fn bad_choices_name_the_key() {
         let text = d.snap(&choice).unwrap_err().to_string();
         assert!(text.contains(words), "{choice:?}: {text}");
     }
-    let none = snap_build(&d.design.passive, &d.active.build, &base, &[], None, None).unwrap_err();
+    let none = snap_build(&d.design.passive, &d.active.build, &base, &[], None).unwrap_err();
     assert_eq!(none, PartsSnapError::NoPassband);
     let bad = snap_build(
         &d.design.passive,
         &d.active.build,
         &base,
         &[[100.0, 10.0]],
-        None,
         None,
     )
     .unwrap_err();

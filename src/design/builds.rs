@@ -112,7 +112,6 @@ impl Design {
             &self.spec.parts,
             &opts.passband_hz,
             Some(&levels),
-            Some(&|n: &Netlist| self.margin_db(n)),
         )
         .map_err(parts)?;
         let points = self.compare_points()?;
@@ -123,15 +122,6 @@ impl Design {
             on_parts,
             levels,
         })
-    }
-
-    /// How `netlist` (a nominal board of this design) keeps the
-    /// specification, dB (negative: fails it by that much; minus
-    /// infinity when it cannot be judged): what the parts stage keeps
-    /// preset trims on their nearest values by.
-    pub fn margin_db(&self, netlist: &Netlist) -> f64 {
-        self.verdict(netlist)
-            .map_or(f64::NEG_INFINITY, |v| v.margin_db)
     }
 
     /// One build's figures.

@@ -360,7 +360,6 @@ impl Design {
                     &self.spec.parts,
                     &self.passbands_hz(),
                     None,
-                    Some(&|n: &Netlist| self.margin_db(n)),
                 )
                 .map_err(|cause| DesignError::Parts {
                     file: self.spec.file.clone(),

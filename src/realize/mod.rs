@@ -201,16 +201,13 @@ pub struct SnappedBuild {
 /// `choice` (see the module documentation), measuring the errors over
 /// `passband_hz` (`[low, high]` bands, Hz) on [`PASSBAND_POINTS`]
 /// log-spaced points each; each converter's level capacitor on the value
-/// `levels` chose for it (see [`choose_levels`]), else on the nearest;
-/// with a `judge`, the trims no step sets kept on their nearest values
-/// where that rates the nominal board higher (see `keep_nearer_presets`).
+/// `levels` chose for it (see [`choose_levels`]), else on the nearest.
 pub fn snap_build(
     passive: &Netlist,
     build: &ActiveBuild,
     choice: &PartsChoice,
     passband_hz: &[[f64; 2]],
     levels: Option<&ConverterLevels>,
-    judge: Option<BoardJudge>,
 ) -> Result<SnappedBuild, PartsSnapError> {
     choice.check()?;
     if passband_hz.is_empty() {
@@ -283,9 +280,6 @@ pub fn snap_build(
             )?);
         }
     }
-    if let Some(judge) = judge {
-        keep_nearer_presets(&mut netlist, &untrimmed, &mut trims, choice, judge)?;
-    }
     let trimmed = deviation(&netlist)?;
     tuning::read_steps(&mut procedure, &netlist, &read_by)?;
     Ok(SnappedBuild {
@@ -302,64 +296,6 @@ pub fn snap_build(
             trimmed,
         },
     })
-}
-
-/// How a nominal board stands, the larger the better (the design's
-/// margin against its specification, dB).
-pub type BoardJudge<'a> = &'a dyn Fn(&Netlist) -> f64;
-
-/// A converter whose trims no step sets (every one preset) gains
-/// nothing from restoring its value when its snapped parts, trims on
-/// their nearest series values, leave the board better: the snapping
-/// errors of its chain and of the parts around it may cancel. Converter
-/// by converter, in order, its presets move to those values when `judge`
-/// rates the board higher so; and when the result is still rated below
-/// the board with every preset on those values, that board is taken. So
-/// presets never leave the nominal board worse than untrimmed presets.
-fn keep_nearer_presets(
-    netlist: &mut Netlist,
-    untrimmed: &Netlist,
-    trims: &mut Vec<Trim>,
-    choice: &PartsChoice,
-    judge: BoardJudge,
-) -> Result<(), PartsSnapError> {
-    // Every trim of `stages` (all of them for `None`) on its nearest
-    // series value, bought again.
-    let untrim = |netlist: &Netlist, trims: &[Trim], stage: Option<&str>| {
-        let (mut board, mut bought) = (netlist.clone(), trims.to_vec());
-        for t in &mut bought {
-            if t.goal == TrimGoal::Preset && stage.is_none_or(|s| s == t.stage) {
-                let ohm = value(untrimmed, t.index);
-                board.set_value(t.index, ohm)?;
-                *t = trim::rebuy(t, ohm, choice)?;
-            }
-        }
-        Ok::<_, PartsSnapError>((board, bought))
-    };
-    let mut stages: Vec<String> = Vec::new();
-    for t in trims.iter() {
-        let preset_only = trims
-            .iter()
-            .filter(|u| u.stage == t.stage)
-            .all(|u| u.goal == TrimGoal::Preset);
-        if preset_only && !stages.contains(&t.stage) {
-            stages.push(t.stage.clone());
-        }
-    }
-    if stages.is_empty() {
-        return Ok(());
-    }
-    for stage in &stages {
-        let (board, bought) = untrim(netlist, trims, Some(stage))?;
-        if judge(&board) > judge(netlist) {
-            (*netlist, *trims) = (board, bought);
-        }
-    }
-    let (board, bought) = untrim(netlist, trims, None)?;
-    if judge(&board) > judge(netlist) {
-        (*netlist, *trims) = (board, bought);
-    }
-    Ok(())
 }
 
 /// The designator of the trimmer of trim element `name` ("R_L1_1" ->

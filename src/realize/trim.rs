@@ -78,22 +78,6 @@ pub(super) fn solve(
     buy(netlist, stage, chain, index, value_ohm, goal, choice)
 }
 
-/// Trim `t` bought again for the value `value_ohm`.
-pub(super) fn rebuy(
-    t: &Trim,
-    value_ohm: f64,
-    choice: &PartsChoice,
-) -> Result<Trim, PartsSnapError> {
-    let (fixed_ohm, pot_ohm) = fixed_and_pot(value_ohm, t.spread, choice, &t.element)?;
-    Ok(Trim {
-        value_ohm,
-        fixed_ohm,
-        pot_ohm,
-        setting_ohm: value_ohm - fixed_ohm,
-        ..t.clone()
-    })
-}
-
 /// How trim element `index` of `chain`, solved to `value_ohm`, is bought.
 fn buy(
     netlist: &Netlist,
