@@ -125,7 +125,7 @@ pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> Strin
         ));
         tables.push(Table {
             caption: format!(
-                "Trims of the {} build (set each trimmer to its setting, then check the response)",
+                "Trims of the {} build (every trimmer preset to its setting, then those the tuning procedure names set by its steps)",
                 Build::ActiveOnParts
             ),
             header: [

@@ -728,7 +728,15 @@ pub fn tuning_step_words(step: &TuningStep, swing_v_peak: f64) -> String {
     let mut setup = Vec::new();
     if !step.shorted.is_empty() {
         let arms: Vec<String> = step.shorted.iter().map(arm_words).collect();
-        setup.push(format!("short {} with a clip lead", arms.join(" and ")));
+        let leads: usize = step.shorted.iter().map(|a| 1 + a.inner.len()).sum();
+        setup.push(format!(
+            "short {} with {}",
+            arms.join(" and "),
+            match leads {
+                1 => "a clip lead",
+                _ => "clip leads",
+            }
+        ));
     }
     if !step.out_of_circuit.is_empty() {
         let arms: Vec<String> = step.out_of_circuit.iter().map(arm_words).collect();
