@@ -1504,3 +1504,27 @@ fn opamp_levels_agree_with_the_dense_node_voltages() {
         }
     }
 }
+
+/// Wilson's score interval against the worked values of Newcombe,
+/// "Two-sided confidence intervals for the single proportion: comparison
+/// of seven methods", Statistics in Medicine 1998 (from memory, to the
+/// four decimals printed there): 81 of 263 gives 0.2553 to 0.3662, 0 of
+/// 20 gives 0 to 0.1611, 1 of 29 gives 0.0061 to 0.1718; and the interval
+/// of n of n mirrors that of 0 of n.
+#[test]
+fn wilson_intervals_match_newcombes_examples() {
+    use nocoil::analysis::{wilson_interval, Z95};
+    for (passed, trials, lo, hi) in [
+        (81, 263, 0.2553, 0.3662),
+        (0, 20, 0.0, 0.1611),
+        (1, 29, 0.0061, 0.1718),
+    ] {
+        let (a, b) = wilson_interval(passed, trials, Z95);
+        assert!(
+            (a - lo).abs() < 5e-5 && (b - hi).abs() < 5e-5,
+            "{passed} of {trials}: {a:.4} to {b:.4}, published {lo} to {hi}"
+        );
+    }
+    let (a, b) = wilson_interval(20, 20, Z95);
+    assert!((a - (1.0 - 0.1611)).abs() < 5e-5 && b == 1.0, "{a} {b}");
+}

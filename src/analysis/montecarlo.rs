@@ -233,6 +233,29 @@ pub struct MonteCarloResult {
     pub trials: usize,
 }
 
+/// The two-sided 95 % normal quantile (common practice).
+pub const Z95: f64 = 1.959_963_984_540_054;
+
+/// Wilson's score interval for a proportion of `passed` in `trials`
+/// (E. B. Wilson, "Probable inference, the law of succession, and
+/// statistical inference", J. Amer. Statist. Assoc. 1927), with normal
+/// quantile `z`: well behaved near 0 and 1, where a yield often is
+/// (R. G. Newcombe, "Two-sided confidence intervals for the single
+/// proportion: comparison of seven methods", Statistics in Medicine
+/// 1998). `(0, 1)` for no trials.
+pub fn wilson_interval(passed: usize, trials: usize, z: f64) -> (f64, f64) {
+    if trials == 0 {
+        return (0.0, 1.0);
+    }
+    let n = trials as f64;
+    let p = passed as f64 / n;
+    let z2 = z * z;
+    let scale = 1.0 + z2 / n;
+    let centre = (p + z2 / (2.0 * n)) / scale;
+    let half = z * (p * (1.0 - p) / n + z2 / (4.0 * n * n)).sqrt() / scale;
+    ((centre - half).max(0.0), (centre + half).min(1.0))
+}
+
 /// How to write a drawn value back into the system.
 #[derive(Debug, Clone, Copy)]
 enum Setter {

@@ -44,7 +44,10 @@ pub use dynamics::{
     StepChart, StepReport, NOISE_CHART_POINTS, STEP_CHART_POINTS, TOP_CONTRIBUTORS,
 };
 pub use order::{order_table, OrderRow, OrderTable};
-pub use report::{ActiveReport, Documents, NormalizedElement, Outcome, Report, ScaledElement};
+pub use report::{
+    interval_95, ActiveReport, BeforeTuning, Documents, NormalizedElement, Outcome, Report,
+    ScaledElement,
+};
 
 /// The three builds of a design, named so wherever a figure is shown.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]

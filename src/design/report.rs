@@ -158,6 +158,8 @@ pub struct Report {
 pub struct BeforeTuning {
     /// Fraction that meet the specification.
     pub yield_fraction: f64,
+    /// Its 95 % interval (Wilson's score interval).
+    pub yield_interval_95: [f64; 2],
     /// How many meet it.
     pub boards_meeting: usize,
 }
@@ -172,6 +174,8 @@ pub struct Outcome {
     /// Fraction of Monte Carlo boards of the active on parts build that
     /// meet the specification, each tuned by the tuning procedure.
     pub yield_fraction: f64,
+    /// Its 95 % interval (Wilson's score interval).
+    pub yield_interval_95: [f64; 2],
     /// Boards drawn.
     pub boards: usize,
     /// Boards that meet the specification.
@@ -336,10 +340,12 @@ impl Design {
             active_on_parts: analyses.active_on_parts_verdict,
             active_exact: analyses.active_exact_verdict,
             yield_fraction: mc.yield_fraction,
+            yield_interval_95: interval_95(mc),
             boards: mc.trials,
             boards_meeting: mc.passed,
             before_tuning: analyses.before_tuning.as_ref().map(|b| BeforeTuning {
                 yield_fraction: b.yield_fraction,
+                yield_interval_95: interval_95(b),
                 boards_meeting: b.passed,
             }),
             boards_unstable: mc.unstable,
@@ -376,4 +382,10 @@ impl Design {
             .max()
             .unwrap_or(0)
     }
+}
+
+/// The 95 % interval of a run's yield (Wilson's score interval).
+pub fn interval_95(mc: &crate::analysis::MonteCarloResult) -> [f64; 2] {
+    let (lo, hi) = crate::analysis::wilson_interval(mc.passed, mc.trials, crate::analysis::Z95);
+    [lo, hi]
 }

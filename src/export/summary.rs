@@ -77,17 +77,26 @@ pub fn yield_line(d: &Documents) -> String {
         .and_then(|o| o.boards_shortened_for_opamps)
         .map(|opamps| format!("; {}", super::prose::shortened_default(mc.trials, opamps)))
         .unwrap_or_default();
+    let interval = |r: &crate::analysis::MonteCarloResult| {
+        let [lo, hi] = crate::design::interval_95(r);
+        format!("95 % interval {:.1} % to {:.1} %", 100.0 * lo, 100.0 * hi)
+    };
     let (tuned, before) = match &d.analyses.before_tuning {
         Some(b) => (
             " after tuning",
-            format!("; {:.2} % before tuning", 100.0 * b.yield_fraction),
+            format!(
+                "; {:.2} % before tuning ({})",
+                100.0 * b.yield_fraction,
+                interval(b)
+            ),
         ),
         None => ("", String::new()),
     };
     format!(
-        "{}: yield {:.2} %{tuned} ({} of {} boards meet the specification with the parts' tolerances and the op-amps' GBW spread{}{before}; Monte Carlo seed {}{shortened})",
+        "{}: yield {:.2} %{tuned} ({}; {} of {} boards meet the specification with the parts' tolerances and the op-amps' GBW spread{}{before}; Monte Carlo seed {}{shortened})",
         Build::ActiveOnParts,
         100.0 * mc.yield_fraction,
+        interval(mc),
         mc.passed,
         mc.trials,
         super::tables::unstable_words(mc),

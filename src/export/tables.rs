@@ -90,8 +90,9 @@ pub fn yield_summary(
     tuned: bool,
 ) -> String {
     let trials = r.trials;
+    let interval = crate::design::interval_95(r);
     let mut s = format!(
-        "Monte Carlo: {trials} trials, seed {seed}: yield {:.2} % ({} passed{}): boards of the {} build meeting the specification{}\n",
+        "Monte Carlo: {trials} trials, seed {seed}: yield {:.2} % ({} passed{}): boards of the {} build meeting the specification{}; 95 % interval {:.1} % to {:.1} %\n",
         100.0 * r.yield_fraction,
         r.passed,
         unstable_words(r),
@@ -99,7 +100,9 @@ pub fn yield_summary(
         match tuned {
             true => ", each tuned by the tuning procedure",
             false => "",
-        }
+        },
+        100.0 * interval[0],
+        100.0 * interval[1],
     );
     if let Some(opamps) = shortened_for {
         let _ = writeln!(s, "  {}", super::prose::shortened_default(trials, opamps));
