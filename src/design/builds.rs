@@ -7,7 +7,7 @@ use super::{Design, DesignError};
 use crate::active::{self, ActiveBuild, Options};
 use crate::analysis::{compare, opamp_levels, ComparePoints, Comparison, OpAmpLevel, LEVEL_POINTS};
 use crate::circuit::{band_grid, log_grid, response, AcSystem, Netlist};
-use crate::realize::{choose_levels, snap_build, ConverterLevels, SnappedBuild};
+use crate::realize::{choose_levels, generator_level_v, snap_build, ConverterLevels, SnappedBuild};
 
 /// How one build compares with the passive ideal, and its op-amp levels.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
@@ -106,7 +106,7 @@ impl Design {
             Err(cause) if cause.is_bad_input() => return Err(parts(cause)),
             Err(cause) => ConverterLevels::unchosen(cause.to_string()),
         };
-        let on_parts = snap_build(
+        let mut on_parts = snap_build(
             &self.passive,
             &build,
             &self.spec.parts,
@@ -114,6 +114,9 @@ impl Design {
             Some(&levels),
         )
         .map_err(parts)?;
+        for step in &mut on_parts.procedure {
+            step.generator_v_peak = generator_level_v(step.opamp_gain, self.spec.opamp.swing_v);
+        }
         let points = self.compare_points()?;
         Ok(ActiveDesign {
             exact_figures: self.figures(&build.netlist, &points)?,

@@ -174,10 +174,7 @@ pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> Strin
                     .iter()
                     .enumerate()
                     .map(|(k, step)| {
-                        vec![
-                            (k + 1).to_string(),
-                            super::prose::tuning_step_words(step, act.swing_v_peak),
-                        ]
+                        vec![(k + 1).to_string(), super::prose::tuning_step_words(step)]
                     })
                     .collect(),
             }),

@@ -681,25 +681,10 @@ pub fn step_words(f: &crate::analysis::StepFigures, bits: Option<u32>) -> String
     parts.join(", ")
 }
 
-/// The generator level for a tuning step, volt peak: the 1-2-5 value at
-/// or below 1 V that keeps every op-amp output within half its swing
-/// (`opamp_gain` volt per volt at the input): small enough that no
-/// op-amp clips, large enough to read on a bench (common practice).
-pub fn generator_level_v(opamp_gain: f64, swing_v_peak: f64) -> f64 {
-    let most = (swing_v_peak / (2.0 * opamp_gain)).min(1.0);
-    if !(most.is_finite() && most > 0.0) {
-        return 1.0;
-    }
-    let decade = 10f64.powf(most.log10().floor());
-    [5.0, 2.0, 1.0]
-        .into_iter()
-        .map(|m| m * decade)
-        .find(|&v| v <= most * (1.0 + 1e-12))
-        .unwrap_or(decade)
-}
-
-/// An arm in words: its parts and its ends ("L3, C3 (n2 to out)").
-fn arm_words(arm: &Arm) -> String {
+/// An arm in words: its parts and its ends ("L3, C3 (n2 to out)"), or
+/// with `joined` every node of it to be joined ("L1, C1 (n1, n5 and n2
+/// together)").
+fn arm_words(arm: &Arm, joined: bool) -> String {
     let end = |n: &str| match n {
         "0" => "ground".to_string(),
         other => other.to_string(),
@@ -710,24 +695,33 @@ fn arm_words(arm: &Arm) -> String {
         _ => [&arm.ends[0], &arm.ends[1]],
     };
     match arm.inner.as_slice() {
-        [] => format!("{} ({} to {})", arm.parts.join(", "), end(a), end(b)),
-        inner => format!(
+        inner if joined && !inner.is_empty() => format!(
             "{} ({}, {} and {} together)",
             arm.parts.join(", "),
             end(a),
             inner.join(", "),
             end(b)
         ),
+        _ => format!("{} ({} to {})", arm.parts.join(", "), end(a), end(b)),
+    }
+}
+
+/// "a", "a and b", "a, b and c".
+fn and_list(items: &[&str]) -> String {
+    match items {
+        [] => String::new(),
+        [one] => (*one).to_string(),
+        [rest @ .., last] => format!("{} and {last}", rest.join(", ")),
     }
 }
 
 /// One step of the tuning procedure in words: the trimmer and its pair,
 /// what to short and take out of circuit, the generator, where to
 /// measure and what to set.
-pub fn tuning_step_words(step: &TuningStep, swing_v_peak: f64) -> String {
+pub fn tuning_step_words(step: &TuningStep) -> String {
     let mut setup = Vec::new();
     if !step.shorted.is_empty() {
-        let arms: Vec<String> = step.shorted.iter().map(arm_words).collect();
+        let arms: Vec<String> = step.shorted.iter().map(|a| arm_words(a, true)).collect();
         let leads: usize = step.shorted.iter().map(|a| 1 + a.inner.len()).sum();
         setup.push(format!(
             "short {} with {}",
@@ -739,8 +733,21 @@ pub fn tuning_step_words(step: &TuningStep, swing_v_peak: f64) -> String {
         ));
     }
     if !step.out_of_circuit.is_empty() {
-        let arms: Vec<String> = step.out_of_circuit.iter().map(arm_words).collect();
-        setup.push(format!("take {} out of circuit", arms.join(" and ")));
+        let arms: Vec<String> = step
+            .out_of_circuit
+            .iter()
+            .map(|a| arm_words(a, false))
+            .collect();
+        let lift: Vec<&str> = step
+            .out_of_circuit
+            .iter()
+            .flat_map(|a| a.lift.iter().map(String::as_str))
+            .collect();
+        setup.push(format!(
+            "take {} out of circuit (lift {} at one end, and the converters' op-amp inputs there)",
+            arms.join(" and "),
+            and_list(&lift)
+        ));
     }
     let setup = match setup.is_empty() {
         true => "as assembled".to_string(),
@@ -750,15 +757,20 @@ pub fn tuning_step_words(step: &TuningStep, swing_v_peak: f64) -> String {
         Reading::DeepestMinimum => format!("the deepest minimum at {}", step.node),
         Reading::InPhase => format!("zero phase of {} against in", step.node),
     };
+    let ideal = match step.found_with_model {
+        true => format!("{} with ideal op-amps", eng(step.ideal_frequency_hz, "Hz")),
+        false => {
+            "with ideal op-amps; the design's op-amps show no such reading near it".to_string()
+        }
+    };
     format!(
-        "{} (converter for {}, with {}): {setup}; generator {} peak at in, {}; set {} for {read} ({} with ideal op-amps)",
+        "{} (converter for {}, with {}): {setup}; generator {} peak at in, {}; set {} for {read} ({ideal})",
         step.trimmer,
         step.converter_for,
         step.partner,
-        eng(generator_level_v(step.opamp_gain, swing_v_peak), "V"),
+        eng(step.generator_v_peak, "V"),
         eng(step.frequency_hz, "Hz"),
         step.trimmer,
-        eng(step.ideal_frequency_hz, "Hz"),
     )
 }
 
@@ -779,7 +791,7 @@ pub fn tuning_heading(steps: usize) -> String {
     match steps {
         0 => "no converter has a resonance to read, so every trimmer is preset: set it with an ohmmeter to its setting before fitting it".to_string(),
         n => format!(
-            "tuning procedure ({n} step{}, in order, each trimmer set to {} % of its value; every other trimmer preset with an ohmmeter to its setting before fitting it):",
+            "tuning procedure ({n} step{}, in order, each trimmer settable in steps of {} % of its value; every other trimmer preset with an ohmmeter to its setting before fitting it):",
             if n == 1 { "" } else { "s" },
             100.0 * TRIMMER_RESOLUTION
         ),
@@ -835,16 +847,5 @@ mod tests {
             "single-pole op-amps, GBW 10 MHz, A0 100 dB"
         );
         assert_eq!(opamp_model(&OpAmpModel::Ideal), "ideal op-amps");
-    }
-
-    /// The generator level is the 1-2-5 value (common practice) at or
-    /// below both 1 V and half the swing over the largest op-amp gain.
-    #[test]
-    fn generator_levels_keep_half_the_swing() {
-        assert_eq!(generator_level_v(1.5, 12.0), 1.0);
-        assert_eq!(generator_level_v(10.0, 12.0), 0.5);
-        assert_eq!(generator_level_v(30.0, 12.0), 0.2);
-        assert_eq!(generator_level_v(100.0, 12.0), 0.05);
-        assert_eq!(generator_level_v(0.0, 12.0), 1.0);
     }
 }

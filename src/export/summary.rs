@@ -417,12 +417,7 @@ pub fn summary(d: &Documents) -> String {
         tuning_heading(act.tuning_procedure.len())
     );
     for (k, step) in act.tuning_procedure.iter().enumerate() {
-        let _ = writeln!(
-            s,
-            "    {}. {}",
-            k + 1,
-            tuning_step_words(step, act.swing_v_peak)
-        );
+        let _ = writeln!(s, "    {}. {}", k + 1, tuning_step_words(step));
     }
     for n in &act.notes {
         let _ = writeln!(s, "  {}: note: {n}", Build::ActiveExact);

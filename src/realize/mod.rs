@@ -56,7 +56,8 @@ pub use error::PartsSnapError;
 pub use level::{ladder_level, LadderLevel, LadderPart};
 pub use trim::{Trim, TRIMMER_SERIES};
 pub use tuning::{
-    arms, resonators, Arm, Reading, Resonator, TrimGoal, TuningStep, CLIP_OHM, TRIMMER_RESOLUTION,
+    arms, generator_level_v, resonators, Arm, Reading, Resonator, TrimGoal, TuningStep, CLIP_OHM,
+    TRIMMER_RESOLUTION,
 };
 
 use crate::active::chain::{self, is_capacitor, scale_impedance, value, Chain, Moves};

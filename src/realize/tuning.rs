@@ -261,9 +261,15 @@ pub struct Arm {
     /// The nodes inside it, between its elements (a series pair's
     /// middle), by name.
     pub inner: Vec<String>,
+    /// The parts to lift to take it out of circuit: its capacitors and
+    /// damping resistors, and each converter's input resistor (Z1, with
+    /// the converter's op-amp inputs at the same nodes, so none is left
+    /// floating); the passive ideal's own for [`arms`].
+    pub lift: Vec<String>,
     /// Every element of the board that belongs to it (a converter's
-    /// parts and op-amps, a damping resistor), by designator; the passive
-    /// ideal's own for [`arms`].
+    /// parts and op-amps, a damping resistor), by designator: what taking
+    /// it out of circuit disconnects; the passive ideal's own for
+    /// [`arms`].
     #[serde(skip)]
     pub elements: Vec<String>,
 }
@@ -360,6 +366,7 @@ pub fn arms(passive: &Netlist) -> Option<Vec<Arm>> {
                 inner.sort();
                 inner.dedup();
                 Some(Arm {
+                    lift: parts.clone(),
                     elements: parts.clone(),
                     parts,
                     ends: [passive.nodes[a].clone(), passive.nodes[b].clone()],
@@ -408,6 +415,12 @@ pub struct TuningStep {
     /// Where it shows it with ideal op-amps, Hz: the pair's resonance on
     /// the nominal board, 1 / (2 pi sqrt(L C)) (or sqrt(R D)).
     pub ideal_frequency_hz: f64,
+    /// Whether the reading was found with the build's op-amp model; if
+    /// not, `frequency_hz` is the ideal frequency.
+    pub found_with_model: bool,
+    /// The generator's level at `in`, volt peak (see
+    /// [`generator_level_v`]; set by the design, which knows the swing).
+    pub generator_v_peak: f64,
     /// The arms shorted for the step: clip leads join all their nodes.
     pub shorted: Vec<Arm>,
     /// The arms taken out of circuit for the step.
@@ -458,6 +471,11 @@ pub(super) fn procedure(
                 .parts
                 .iter()
                 .flat_map(|part| on_board(part, stages, damping))
+                .collect(),
+            lift: arm
+                .parts
+                .iter()
+                .flat_map(|part| to_lift(part, build, stages, damping))
                 .collect(),
             ..arm
         })
@@ -517,6 +535,8 @@ pub(super) fn procedure(
             // Both found once the trims are solved (see `read_steps`).
             frequency_hz: r.frequency_hz,
             ideal_frequency_hz: r.frequency_hz,
+            found_with_model: false,
+            generator_v_peak: 1.0,
             opamp_gain: f64::NAN,
             shorted,
             out_of_circuit,
@@ -560,6 +580,34 @@ fn on_board(part: &str, stages: &[Stage], damping: &[DampingResistor]) -> Vec<St
     let mut out: Vec<String> = match stages.iter().find(|s| s.replaces.as_deref() == Some(part)) {
         Some(s) => s.elements.iter().chain(&s.opamps).cloned().collect(),
         None => vec![part.to_string()],
+    };
+    out.extend(
+        damping
+            .iter()
+            .filter(|d| d.inductor == part)
+            .map(|d| d.designator.clone()),
+    );
+    out
+}
+
+/// The board's parts to lift so that the passive ideal's `part` carries
+/// no current: a converter's input resistors (Z1 of each chain), or the
+/// part itself, and its damping resistor.
+fn to_lift(
+    part: &str,
+    build: &Netlist,
+    stages: &[Stage],
+    damping: &[DampingResistor],
+) -> Vec<String> {
+    let mut out: Vec<String> = match stages.iter().find(|s| s.replaces.as_deref() == Some(part)) {
+        Some(Stage {
+            handles: Handles::Converter(chains),
+            ..
+        }) => chains
+            .iter()
+            .map(|c| build.elements[c.z[0]].name().to_string())
+            .collect(),
+        _ => vec![part.to_string()],
     };
     out.extend(
         damping
@@ -732,9 +780,11 @@ pub const CLIP_OHM: f64 = 0.01;
 
 impl TuningStep {
     /// `board` (an active on parts network, as the design holds it or as
-    /// soldered) set up for this step: the nodes of each arm of `shorted`
-    /// joined by clip leads of [`CLIP_OHM`], each arm of `out_of_circuit`
-    /// removed with its converters' parts, op-amps and trimmers.
+    /// soldered) set up for this step: the nodes of each arm of
+    /// `shorted` joined by clip leads of [`CLIP_OHM`], each arm of
+    /// `out_of_circuit` disconnected whole (its converters' parts,
+    /// op-amps and trimmers too): what lifting its `lift` parts and its
+    /// converters' op-amp inputs leaves of the board.
     pub fn configure(&self, board: &Netlist) -> Result<Netlist, CircuitError> {
         let removed: Vec<String> = self
             .out_of_circuit
@@ -766,12 +816,16 @@ impl TuningStep {
     }
 }
 
-/// Points of the scan for a step's reading, over +-[`SCAN_SPAN`] of its
-/// ideal frequency: a point every 0.05 %.
+/// Points of the scan for a step's reading per ratio of 1.1/0.9 of its
+/// span: a point every 0.05 %.
 const SCAN_POINTS: usize = 401;
 
-/// Half the span of that scan, relative: an op-amp shifts a reading by
-/// a fraction of a percent; a reading beyond 10 % is not the pair's.
+/// How far the scan reaches beyond the pair's resonance in the passive
+/// ideal and its resonance with ideal op-amps on the nominal board,
+/// relative. Converters compensated for slow op-amps realize values
+/// far from the ladder's with ideal op-amps (a 40 kHz bandpass on 2 MHz
+/// op-amps: 45.6 kHz) and near it with their own; a reading beyond 10 %
+/// of both is not the pair's.
 const SCAN_SPAN: f64 = 0.1;
 
 /// Bisection or golden-section steps after the scan: each narrows the
@@ -792,9 +846,12 @@ pub(super) fn read_steps(
 ) -> Result<(), CircuitError> {
     for (step, &(chain, partner)) in steps.iter_mut().zip(read) {
         let product = chain.realized(board) * value(board, partner);
+        let passive_hz = step.frequency_hz;
         step.ideal_frequency_hz = 1.0 / (std::f64::consts::TAU * product.sqrt());
         let net = step.configure(board)?;
-        step.frequency_hz = find_reading(&net, step).unwrap_or(step.ideal_frequency_hz);
+        let found = find_reading(&net, step, passive_hz);
+        step.found_with_model = found.is_some();
+        step.frequency_hz = found.unwrap_or(step.ideal_frequency_hz);
         step.opamp_gain = largest_opamp_gain(&net, step.frequency_hz)?;
     }
     Ok(())
@@ -815,16 +872,20 @@ fn largest_opamp_gain(net: &Netlist, freq_hz: f64) -> Result<f64, CircuitError> 
         .fold(0.0, f64::max))
 }
 
-/// Where `net` shows `step`'s reading near its ideal frequency.
-fn find_reading(net: &Netlist, step: &TuningStep) -> Option<f64> {
+/// Where `net` shows `step`'s reading between its ideal frequency and
+/// `passive_hz` (the pair's resonance in the passive ideal), each
+/// widened by [`SCAN_SPAN`]; a phase crossing nearest `passive_hz`.
+fn find_reading(net: &Netlist, step: &TuningStep, passive_hz: f64) -> Option<f64> {
     let mut system = crate::circuit::AcSystem::new(net).ok()?;
     let node = net.node_index(&step.node)?;
     let inp = net.node_index("in")?;
     let mut at = |f: f64| system.transfer(f, node, inp).ok();
-    let f0 = step.ideal_frequency_hz;
-    let grid =
-        crate::circuit::log_grid(f0 * (1.0 - SCAN_SPAN), f0 * (1.0 + SCAN_SPAN), SCAN_POINTS)
-            .ok()?;
+    let f0 = passive_hz;
+    let lo = step.ideal_frequency_hz.min(passive_hz) * (1.0 - SCAN_SPAN);
+    let hi = step.ideal_frequency_hz.max(passive_hz) * (1.0 + SCAN_SPAN);
+    let per_span = ((1.0 + SCAN_SPAN) / (1.0 - SCAN_SPAN)).ln();
+    let points = ((hi / lo).ln() / per_span * SCAN_POINTS as f64).ceil() as usize;
+    let grid = crate::circuit::log_grid(lo, hi, points.max(SCAN_POINTS)).ok()?;
     let h: Vec<num_complex::Complex64> = grid.iter().map(|&f| at(f)).collect::<Option<_>>()?;
     match step.reading {
         Reading::DeepestMinimum => {
@@ -865,5 +926,38 @@ fn find_reading(net: &Netlist, step: &TuningStep) -> Option<f64> {
             }
             Some((lo + hi) / 2.0)
         }
+    }
+}
+
+/// The generator level for a tuning step, volt peak: the 1-2-5 value at
+/// or below 1 V that keeps every op-amp output within half its swing
+/// (`opamp_gain` volt per volt at the input): small enough that no
+/// op-amp clips, large enough to read on a bench (common practice).
+pub fn generator_level_v(opamp_gain: f64, swing_v_peak: f64) -> f64 {
+    let most = (swing_v_peak / (2.0 * opamp_gain)).min(1.0);
+    if !(most.is_finite() && most > 0.0) {
+        return 1.0;
+    }
+    let decade = 10f64.powf(most.log10().floor());
+    [5.0, 2.0, 1.0]
+        .into_iter()
+        .map(|m| m * decade)
+        .find(|&v| v <= most * (1.0 + 1e-12))
+        .unwrap_or(decade)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::generator_level_v;
+
+    /// The generator level is the 1-2-5 value (common practice) at or
+    /// below both 1 V and half the swing over the largest op-amp gain.
+    #[test]
+    fn generator_levels_keep_half_the_swing() {
+        assert_eq!(generator_level_v(1.5, 12.0), 1.0);
+        assert_eq!(generator_level_v(10.0, 12.0), 0.5);
+        assert_eq!(generator_level_v(30.0, 12.0), 0.2);
+        assert_eq!(generator_level_v(100.0, 12.0), 0.05);
+        assert_eq!(generator_level_v(0.0, 12.0), 1.0);
     }
 }
