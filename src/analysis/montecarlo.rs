@@ -15,7 +15,8 @@
 //! allocates nothing: it refills values, solves into the system's own
 //! buffers and writes its dB row into one block table allocated up front.
 //! Each job also clones one [`SparseAc`] built from the nominal system over
-//! the analysis band (pivot order chosen once), refilled per trial from
+//! the analysis band (pivot order chosen once), and one over the delay
+//! limit's band when the run has one, each refilled per trial from
 //! the job's system: a few hundred nanoseconds per point instead of the
 //! dense solve's tens of microseconds. Its result depends only on the
 //! trial's values (the same order on every thread), so reproducibility
@@ -440,9 +441,12 @@ impl Run<'_> {
 struct Worker {
     system: AcSystem,
     sparse: Option<SparseAc>,
+    /// The sparse solver over the delay limit's band, apart from the
+    /// analysis band's: one pivot order over both failed its guard below
+    /// a few hertz on a delay band from DC (a 7th-order bandstop at 1 Hz
+    /// took 16 ms per board in the dense fallback, 2.5 ms so).
+    delay_sparse: Option<SparseAc>,
     h: Vec<num_complex::Complex64>,
-    /// Whether `sparse` holds the current values (set by each sweep).
-    refilled: bool,
     /// The delay grid's transfer and delay (unused without a limit).
     hd: Vec<num_complex::Complex64>,
     delay_s: Vec<f64>,
@@ -457,7 +461,6 @@ impl Worker {
             Some(sparse) => sparse.refill(&self.system).is_ok(),
             None => false,
         };
-        self.refilled = refilled;
         match self.sparse.as_mut() {
             Some(sparse) if refilled => {
                 sparse.sweep_into(setup.freqs_hz, setup.out, setup.inp, &mut self.h)
@@ -473,17 +476,20 @@ impl Worker {
         }
     }
 
-    /// How the delay over `grid` (the limit's) of the values
-    /// [`Worker::sweep`] left stands against `limit` (its refill serves
-    /// this sweep too).
+    /// How the delay over `grid` (the limit's) of the system's current
+    /// values stands against `limit`.
     fn delay_verdict(
         &mut self,
         setup: &MonteCarlo<'_>,
         limit: &DelayLimit,
         grid: &[f64],
     ) -> Result<DelayVerdict, CircuitError> {
-        match self.sparse.as_mut() {
-            Some(sparse) if self.refilled => sparse.sweep_delay_into(
+        let refilled = match self.delay_sparse.as_mut() {
+            Some(sparse) => sparse.refill(&self.system).is_ok(),
+            None => false,
+        };
+        match self.delay_sparse.as_mut() {
+            Some(sparse) if refilled => sparse.sweep_delay_into(
                 grid,
                 setup.out,
                 setup.inp,
@@ -524,18 +530,20 @@ pub fn monte_carlo(
     let checks = setup.mask.checks(setup.freqs_hz)?;
     let knobs = knobs(system, setup.rules)?;
     let delay_grid = setup.delay.map(DelayLimit::grid).unwrap_or_default();
-    let (lo, hi) = setup
-        .freqs_hz
-        .iter()
-        .chain(&delay_grid)
-        .fold((f64::INFINITY, 0.0_f64), |(lo, hi), &f| {
+    let over = |grid: &[f64]| {
+        let (lo, hi) = grid.iter().fold((f64::INFINITY, 0.0_f64), |(lo, hi), &f| {
             (lo.min(f), hi.max(f))
         });
+        SparseAc::new(system, lo, hi).ok()
+    };
     let worker = Worker {
         system: system.clone(),
-        sparse: SparseAc::new(system, lo, hi).ok(),
+        sparse: over(setup.freqs_hz),
+        delay_sparse: match delay_grid.is_empty() {
+            true => None,
+            false => over(&delay_grid),
+        },
         h: Vec::with_capacity(n),
-        refilled: false,
         hd: Vec::with_capacity(delay_grid.len()),
         delay_s: Vec::with_capacity(delay_grid.len()),
     };

@@ -31,10 +31,13 @@ pub const DEFAULT_TRIALS: usize = 1000;
 /// (measured per board on one core: 9.6 ms at 34 op-amps, an 11th-order
 /// bandstop; 33 ms at 56, a 12th-order elliptic bandstop; 69 ms at 76, a
 /// 25th-order bandpass, whose 1,000 default boards took 35 s on two
-/// cores). Up to 24 op-amps the default run costs at most about 4 s of
-/// CPU; beyond, the default count shrinks to keep that cost, so a design
-/// run without a count stays within seconds.
-pub const DEFAULT_TRIALS_OPAMPS: usize = 24;
+/// cores). A design runs the count up to six times (the yield, the same
+/// boards before tuning, four with one tolerance halved): at 22
+/// op-amps, a 7th-order bandstop with a delay limit, 1,000 boards took
+/// 9.9 s in all on two cores, the 14-op-amp mains notch 2.4 s. Up to 16
+/// op-amps the default stays; beyond, the count shrinks, so a design run
+/// without a count stays within a few seconds.
+pub const DEFAULT_TRIALS_OPAMPS: usize = 16;
 
 /// The fewest boards a shortened default draws (the largest builds, about
 /// 100 op-amps, get 28 by the rule): a rough yield, its count stated

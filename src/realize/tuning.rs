@@ -466,18 +466,17 @@ pub(super) fn procedure(
     let arms: Vec<Arm> = arms(passive)
         .unwrap_or_default()
         .into_iter()
-        .map(|arm| Arm {
-            elements: arm
+        .map(|arm| {
+            let (elements, lift): (Vec<Vec<String>>, Vec<Vec<String>>) = arm
                 .parts
                 .iter()
-                .flat_map(|part| on_board(part, stages, damping))
-                .collect(),
-            lift: arm
-                .parts
-                .iter()
-                .flat_map(|part| to_lift(part, build, stages, damping))
-                .collect(),
-            ..arm
+                .map(|part| on_board(part, build, stages, damping))
+                .unzip();
+            Arm {
+                elements: elements.concat(),
+                lift: lift.concat(),
+                ..arm
+            }
         })
         .collect();
     let fdnr = stages
@@ -573,49 +572,35 @@ pub(super) struct Procedure {
     pub read_by: Vec<(Chain, usize)>,
 }
 
-/// The board's elements standing for the passive ideal's `part`: its
-/// converter's parts and op-amps and its damping resistor, or the part
-/// itself.
-fn on_board(part: &str, stages: &[Stage], damping: &[DampingResistor]) -> Vec<String> {
-    let mut out: Vec<String> = match stages.iter().find(|s| s.replaces.as_deref() == Some(part)) {
-        Some(s) => s.elements.iter().chain(&s.opamps).cloned().collect(),
-        None => vec![part.to_string()],
-    };
-    out.extend(
-        damping
-            .iter()
-            .filter(|d| d.inductor == part)
-            .map(|d| d.designator.clone()),
-    );
-    out
-}
-
-/// The board's parts to lift so that the passive ideal's `part` carries
-/// no current: a converter's input resistors (Z1 of each chain), or the
-/// part itself, and its damping resistor.
-fn to_lift(
+/// The board's elements standing for the passive ideal's `part` (its
+/// converter's parts and op-amps, or the part itself, and its damping
+/// resistor) and those of them to lift so that it carries no current (a
+/// converter's input resistors, Z1 of each chain, in place of the rest).
+fn on_board(
     part: &str,
     build: &Netlist,
     stages: &[Stage],
     damping: &[DampingResistor],
-) -> Vec<String> {
-    let mut out: Vec<String> = match stages.iter().find(|s| s.replaces.as_deref() == Some(part)) {
-        Some(Stage {
-            handles: Handles::Converter(chains),
-            ..
-        }) => chains
-            .iter()
-            .map(|c| build.elements[c.z[0]].name().to_string())
-            .collect(),
-        _ => vec![part.to_string()],
+) -> (Vec<String>, Vec<String>) {
+    let (mut elements, mut lift) = match stages.iter().find(|s| s.replaces.as_deref() == Some(part))
+    {
+        Some(s) => (
+            s.elements.iter().chain(&s.opamps).cloned().collect(),
+            match &s.handles {
+                Handles::Converter(chains) => chains
+                    .iter()
+                    .map(|c| build.elements[c.z[0]].name().to_string())
+                    .collect(),
+                _ => s.elements.clone(),
+            },
+        ),
+        None => (vec![part.to_string()], vec![part.to_string()]),
     };
-    out.extend(
-        damping
-            .iter()
-            .filter(|d| d.inductor == part)
-            .map(|d| d.designator.clone()),
-    );
-    out
+    for d in damping.iter().filter(|d| d.inductor == part) {
+        elements.push(d.designator.clone());
+        lift.push(d.designator.clone());
+    }
+    (elements, lift)
 }
 
 /// Relative distance under which two resonances count as one frequency.
@@ -879,10 +864,23 @@ fn find_reading(net: &Netlist, step: &TuningStep, passive_hz: f64) -> Option<f64
     let mut system = crate::circuit::AcSystem::new(net).ok()?;
     let node = net.node_index(&step.node)?;
     let inp = net.node_index("in")?;
-    let mut at = |f: f64| system.transfer(f, node, inp).ok();
     let f0 = passive_hz;
     let lo = step.ideal_frequency_hz.min(passive_hz) * (1.0 - SCAN_SPAN);
     let hi = step.ideal_frequency_hz.max(passive_hz) * (1.0 + SCAN_SPAN);
+    // The sparse solver where its pivot order holds over the scan (a
+    // dense solve per point made a 24-converter bandstop's procedure
+    // take 2 s); the dense one where it does not.
+    let mut sparse = crate::circuit::SparseAc::new(&system, lo, hi).ok();
+    let mut one = Vec::with_capacity(1);
+    let mut at = |f: f64| {
+        let swept = sparse
+            .as_mut()
+            .is_some_and(|s| s.sweep_into(&[f], node, inp, &mut one).is_ok());
+        match swept {
+            true => one.first().copied(),
+            false => system.transfer(f, node, inp).ok(),
+        }
+    };
     let per_span = ((1.0 + SCAN_SPAN) / (1.0 - SCAN_SPAN)).ln();
     let points = ((hi / lo).ln() / per_span * SCAN_POINTS as f64).ceil() as usize;
     let grid = crate::circuit::log_grid(lo, hi, points.max(SCAN_POINTS)).ok()?;
