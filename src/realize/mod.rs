@@ -26,9 +26,13 @@
 //!    other capacitor to the nearest capacitor-series value in range.
 //! 4. One resistor per GIC chain (Z1 of an inductor, outside both op-amp
 //!    loops; a loop resistor of an FDNR, whose Z1 is a capacitor) is solved
-//!    so the chain realizes its ideal value again with the snapped others
-//!    ([`Trim`]); a floating inductor has two chains, and both must match
-//!    or it leaks to ground, so it gets two trims.
+//!    with the snapped others ([`Trim`]): so that the converter resonates
+//!    with its partner as snapped where it belongs to an L-C pair (the
+//!    pair's product restored, see `tuning`), else so that it realizes
+//!    its ideal value again; a floating inductor has two chains, and both
+//!    must match or it leaks to ground, so it gets two trims, both to the
+//!    same value. The tuning procedure's steps (`tuning`) read the
+//!    resonances on the bench.
 //!
 //! The largest passband deviation from the passive ideal is measured with
 //! the build's own op-amps after each step ([`ErrorSteps`]). The trims
@@ -43,7 +47,8 @@
 //! the range (but a ladder capacitor outside a default range, on its
 //! nearest series value); every converter realizes, with ideal op-amps, the value it
 //! realized in the build (an FDNR's D divided by the image level of step
-//! 1, which multiplied every impedance of the image).
+//! 1, which multiplied every impedance of the image), times its partner's
+//! value before snapping over its snapped value where it has one.
 
 mod converter_level;
 mod error;
@@ -180,7 +185,7 @@ pub struct SnappedBuild {
     /// The network, trimmed: every trim at its solved value.
     pub netlist: Netlist,
     /// The build's stages with the values the snapped network realizes
-    /// (converters: their ideal value, restored by the trims).
+    /// (converters: the value their trims set).
     pub stages: Vec<Stage>,
     /// One trimming resistor per GIC chain, in stage order.
     pub trims: Vec<Trim>,

@@ -7,8 +7,9 @@
 //! target exactly in one step.
 //!
 //! Buying: with real parts the value the trim must take spreads by about
-//! the sum of the tolerances of the chain's five parts (first order, worst
-//! case), so the fixed part is the resistor-series value below
+//! the sum of the tolerances of the chain's five parts, and of its
+//! partner's for a resonance trim (first order, worst case; see
+//! [`super::TrimGoal`]), so the fixed part is the resistor-series value below
 //! value/(1 + spread) and the potentiometer reaches value (1 + spread).
 //! With zero tolerances this is the series value just below the solved
 //! value and a potentiometer for the rest.
@@ -54,7 +55,8 @@ pub struct Trim {
     /// The potentiometer's setting with nominal parts, value - fixed, ohm.
     pub setting_ohm: f64,
     /// The relative spread of the trim value that fixed part and
-    /// potentiometer cover: the sum of the tolerances of the chain's parts.
+    /// potentiometer cover: the sum of the tolerances of the chain's parts
+    /// (and of the partner's, for a resonance trim).
     pub spread: f64,
     /// What the trim is set for.
     #[serde(flatten)]
