@@ -89,6 +89,42 @@ fn resonance(netlist: &Netlist, inductor: usize, capacitor: usize) -> Option<f64
     Some(1.0 / (henry * farad).sqrt())
 }
 
+/// An inductor and a capacitor of a passive netlist that resonate
+/// together: in series through a node nothing else touches (nor `in` or
+/// `out`), or in parallel between the same two nodes. What the parts
+/// stage tunes each converter's trim by (`realize::tuning`).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct LcPair {
+    /// The inductor's index.
+    pub inductor: usize,
+    /// The capacitor's index.
+    pub capacitor: usize,
+    /// The node between them, for a series pair (`None`: a tank).
+    pub middle: Option<usize>,
+    /// Its resonance, rad/s.
+    pub w_rad_s: f64,
+}
+
+/// The L-C pairs of `netlist` (a passive network to the active stage's
+/// contract, else none).
+pub fn lc_pairs(netlist: &Netlist) -> Vec<LcPair> {
+    let Ok(passive) = Passive::read(netlist) else {
+        return Vec::new();
+    };
+    resonators(&passive)
+        .into_iter()
+        .map(|r| LcPair {
+            inductor: r.inductor,
+            capacitor: r.capacitor,
+            middle: match r.joint {
+                Joint::Series { middle } => Some(middle),
+                Joint::Parallel => None,
+            },
+            w_rad_s: r.w_rad_s,
+        })
+        .collect()
+}
+
 /// Every series L-C pair and every parallel L-C tank of the netlist.
 fn resonators(passive: &Passive) -> Vec<Resonator> {
     let netlist = &passive.netlist;

@@ -56,7 +56,7 @@ mod stability;
 use std::f64::consts::TAU;
 
 pub use compensate::realized_value;
-pub use damping::DampingResistor;
+pub use damping::{lc_pairs, DampingResistor, LcPair};
 pub use error::ActiveError;
 pub use refine::{deviation_db, Meter, PASSBAND_POINTS};
 pub use stability::{

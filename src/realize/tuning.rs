@@ -28,8 +28,8 @@ use crate::analysis::{Product, Trimmer, Tuning};
 use crate::circuit::{CircuitError, Element, ElementKind, Netlist};
 
 /// A resonator of the passive ideal: an inductor and a capacitor that
-/// only resonate together, in series through a node no other element
-/// touches, or in parallel between the same two nodes.
+/// resonate together, in series through a node no other element touches,
+/// or in parallel between the same two nodes.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Resonator {
     /// The inductor's name.
@@ -44,70 +44,20 @@ pub struct Resonator {
     pub internal: Option<String>,
 }
 
-/// The resonators of a passive ideal, in element order of their inductor.
-/// A node counts as internal to a series pair when exactly these two
-/// elements touch it and it is neither ground, `in` nor `out`; a tank is
-/// the one capacitor between the inductor's two nodes. An inductor with
-/// neither (an all-pole ladder's) has no resonator.
+/// The resonators of a passive ideal (its L-C pairs, see
+/// [`crate::active::lc_pairs`]), by name and frequency.
 pub fn resonators(passive: &Netlist) -> Vec<Resonator> {
-    let touching = |node: usize| -> Vec<usize> {
-        passive
-            .elements
-            .iter()
-            .enumerate()
-            .filter(|(_, e)| e.terminals().iter().any(|t| t.0 == node))
-            .map(|(i, _)| i)
-            .collect()
-    };
-    let ends = |e: &Element| match *e {
-        Element::Inductor { a, b, .. } | Element::Capacitor { a, b, .. } => Some((a, b)),
-        _ => None,
-    };
-    let terminal = |node: usize| {
-        node == 0
-            || ["in", "out"]
-                .iter()
-                .any(|n| passive.node_index(n) == Some(node))
-    };
-    let mut out = Vec::new();
-    for (i, e) in passive.elements.iter().enumerate() {
-        let Element::Inductor { a, b, henry, .. } = *e else {
-            continue;
-        };
-        let same_nodes: Vec<usize> = passive
-            .elements
-            .iter()
-            .enumerate()
-            .filter(|&(j, f)| {
-                j != i
-                    && f.kind() == ElementKind::Capacitor
-                    && ends(f).is_some_and(|(c, d)| (c, d) == (a, b) || (d, c) == (a, b))
-            })
-            .map(|(j, _)| j)
-            .collect();
-        let series = [a, b].into_iter().find_map(|node| {
-            let t = touching(node);
-            let other = t.iter().copied().find(|&j| j != i)?;
-            (!terminal(node)
-                && t.len() == 2
-                && passive.elements[other].kind() == ElementKind::Capacitor)
-                .then_some((node, other))
-        });
-        let (capacitor, tank, internal) = match (same_nodes.as_slice(), series) {
-            ([c], None) => (*c, true, None),
-            ([], Some((node, c))) => (c, false, Some(passive.nodes[node].clone())),
-            _ => continue,
-        };
-        let farad = value(passive, capacitor);
-        out.push(Resonator {
-            inductor: e.name().to_string(),
-            capacitor: passive.elements[capacitor].name().to_string(),
-            frequency_hz: 1.0 / (std::f64::consts::TAU * (henry * farad).sqrt()),
-            tank,
-            internal,
-        });
-    }
-    out
+    let name = |i: usize| passive.elements[i].name().to_string();
+    crate::active::lc_pairs(passive)
+        .into_iter()
+        .map(|p| Resonator {
+            inductor: name(p.inductor),
+            capacitor: name(p.capacitor),
+            frequency_hz: p.w_rad_s / std::f64::consts::TAU,
+            tank: p.middle.is_none(),
+            internal: p.middle.map(|m| passive.nodes[m].clone()),
+        })
+        .collect()
 }
 
 /// What one trim is set for.
