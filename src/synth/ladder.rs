@@ -50,6 +50,18 @@ impl Ladder {
         }
     }
 
+    /// The same ladder with its passband edge moved from 1 rad/s to
+    /// `edge_rad_s`: every reactance divided by it (frequency scaling,
+    /// s -> s / edge), so the response at `edge_rad_s * w` is this
+    /// ladder's at `w`.
+    pub fn with_edge_at(&self, edge_rad_s: f64) -> Ladder {
+        let mut scaled = self.clone();
+        for e in &mut scaled.elements {
+            e.value /= edge_rad_s;
+        }
+        scaled
+    }
+
     /// The voltage transfer V(load) / V(source EMF) at the complex
     /// frequency `s`, source and load resistances included.
     ///
@@ -231,6 +243,27 @@ mod tests {
         let z = 2.0 * branch / (2.0 + branch);
         assert!((ladder.transfer(s) - z / (1.0 + z)).norm() < 1e-15);
         assert!(ladder.transfer(Complex64::new(0.0, 1.0)).norm() < 1e-15);
+    }
+
+    /// The notch of a shunt resonator (1 H, 1 F: 1 rad/s) moves to the
+    /// new edge, and the response at k w is the old one's at w (frequency
+    /// scaling, worked by hand).
+    #[test]
+    fn edge_moves_with_the_reactances() {
+        let ladder = Ladder::from_arms(
+            [ArmValues::ShuntResonator(1.0, 1.0), ArmValues::SeriesL(0.5)],
+            2.0,
+        );
+        let k = 1.25;
+        let moved = ladder.with_edge_at(k);
+        assert!(moved.transfer(Complex64::new(0.0, k)).norm() < 1e-15);
+        for w in [0.1, 0.8, 3.0] {
+            let (a, b) = (
+                ladder.transfer(Complex64::new(0.0, w)),
+                moved.transfer(Complex64::new(0.0, k * w)),
+            );
+            assert!((a - b).norm() < 1e-14 * a.norm(), "w = {w}");
+        }
     }
 
     /// Bad node numbers give NaN, not a panic.
