@@ -247,7 +247,32 @@ pub struct Spec {
     /// The resolution of the converter after the filter (`[adc] bits`),
     /// for the time to settle within half an LSB.
     pub adc_bits: Option<u32>,
+    /// The `[yield]` table: nocoil then chooses the order and the
+    /// margins the ladder is synthesized with (see
+    /// [`crate::design::design_for_yield`]).
+    pub yield_goal: Option<YieldGoal>,
 }
+
+/// The `[yield]` table.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct YieldGoal {
+    /// The fraction of boards that must meet the specification after
+    /// tuning.
+    pub target: f64,
+    /// How far above the minimum order the search may go (default
+    /// [`DEFAULT_EXTRA_ORDER`]).
+    pub max_extra_order: usize,
+}
+
+/// The default of `yield.max_extra_order`.
+pub const DEFAULT_EXTRA_ORDER: usize = 2;
+
+/// The largest `yield.max_extra_order`: each order adds about one
+/// converter and a Monte Carlo per margin tried, and a design four orders
+/// above its minimum has margin to spare on any tolerance the parts
+/// stage accepts (a choice of the project, to keep the search within
+/// seconds).
+pub const MAX_EXTRA_ORDER: usize = 4;
 
 /// The `[delay]` table: the group-delay spread the boards must keep.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]

@@ -3,7 +3,8 @@
 
 use super::{
     ActiveSpec, DelaySpec, FrequencyScale, MonteCarloSpec, NoiseSpec, OpAmpSpec, PrototypeSource,
-    Spec, SpecError, SpreadBound, Weighting, MAX_TRIALS,
+    Spec, SpecError, SpreadBound, Weighting, YieldGoal, DEFAULT_EXTRA_ORDER, MAX_EXTRA_ORDER,
+    MAX_TRIALS,
 };
 use crate::active::{Method, Refine};
 use crate::approx::{self, BesselScale, Family};
@@ -35,6 +36,16 @@ struct RawSpec {
     #[serde(default)]
     noise: RawNoise,
     adc: Option<RawAdc>,
+    #[serde(rename = "yield")]
+    yield_goal: Option<RawYield>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawYield {
+    #[serde(default, deserialize_with = "number")]
+    target: Option<f64>,
+    max_extra_order: Option<i64>,
 }
 
 #[derive(Deserialize, Default)]
@@ -316,6 +327,10 @@ pub(super) fn parse(file: &Path, text: &str) -> Result<Spec, SpecError> {
             ))
         }
     };
+    let yield_goal = match &raw.yield_goal {
+        Some(y) => Some(yield_goal(&c, y, &prototype)?),
+        None => None,
+    };
     // The passband margin tightens the ripple limit; at or beyond the
     // ripple the limit would sit above the passband level, which no
     // board reaches.
@@ -354,6 +369,50 @@ pub(super) fn parse(file: &Path, text: &str) -> Result<Spec, SpecError> {
         delay,
         noise,
         adc_bits,
+        yield_goal,
+    })
+}
+
+/// The `[yield]` table: a fraction strictly between 0 and 1 (a target of
+/// 1 no finite Monte Carlo can confirm), and at most
+/// [`MAX_EXTRA_ORDER`] orders above the minimum; a prototype table fixes
+/// the ladder, so there is nothing to search.
+fn yield_goal(
+    c: &Checker,
+    raw: &RawYield,
+    prototype: &PrototypeSource,
+) -> Result<YieldGoal, SpecError> {
+    if let PrototypeSource::Table { .. } = prototype {
+        return Err(c.invalid(
+            "yield",
+            "(a table)",
+            "expected no [yield] table beside filter.prototype: a prototype table fixes the ladder, so there is no order or margin to choose; give a family instead",
+        ));
+    }
+    let target = match raw.target {
+        Some(t) if t > 0.0 && t < 1.0 => t,
+        got => {
+            return Err(c.invalid(
+                "yield.target",
+                got.map_or("(missing)".to_string(), |t| t.to_string()),
+                "expected the fraction of boards that must meet the specification, above 0 and below 1 (0.99 is 99 %)",
+            ))
+        }
+    };
+    let max_extra_order = match raw.max_extra_order {
+        None => DEFAULT_EXTRA_ORDER,
+        Some(n) if (0..=MAX_EXTRA_ORDER as i64).contains(&n) => n as usize,
+        Some(n) => {
+            return Err(c.invalid(
+                "yield.max_extra_order",
+                n,
+                format!("expected a whole number from 0 to {MAX_EXTRA_ORDER}"),
+            ))
+        }
+    };
+    Ok(YieldGoal {
+        target,
+        max_extra_order,
     })
 }
 
