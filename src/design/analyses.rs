@@ -332,16 +332,7 @@ impl Design {
         seed: u64,
         progress: Option<&(dyn Fn(usize) + Sync)>,
     ) -> Result<MonteCarloResult, DesignError> {
-        let rules = self.tolerance_rules()?;
-        let tuning = active.on_parts.tuning(tuned);
-        self.monte_carlo_with(
-            &active.on_parts.netlist,
-            &rules,
-            &tuning,
-            trials,
-            seed,
-            progress,
-        )
+        self.monte_carlo_tightened(active, tuned, &[], trials, seed, progress)
     }
 
     /// For each class of the active on parts build's parts, the yield of
@@ -356,20 +347,16 @@ impl Design {
         seed: u64,
         progress: Option<&(dyn Fn(usize) + Sync)>,
     ) -> Result<Vec<TolerancePayoff>, DesignError> {
-        let parts = &active.on_parts.netlist;
-        let base = self.tolerance_rules()?;
-        let tuning = active.on_parts.tuning(true);
-        let classes = self.payoff_classes(active);
         let mut payoffs = Vec::new();
-        for (class, scopes, tolerance) in classes {
-            let halved = self.tolerance(tolerance / 2.0)?;
-            let mut rules = base.clone();
-            // Later rules override earlier ones (analysis::ToleranceRule).
-            rules.extend(scopes.into_iter().map(|scope| ToleranceRule {
-                scope,
-                tolerance: halved,
-            }));
-            let mc = self.monte_carlo_with(parts, &rules, &tuning, trials, seed, progress)?;
+        for (class, scopes, tolerance) in self.payoff_classes(active) {
+            let mc = self.monte_carlo_tightened(
+                active,
+                true,
+                &[(scopes, tolerance / 2.0)],
+                trials,
+                seed,
+                progress,
+            )?;
             payoffs.push(TolerancePayoff {
                 class,
                 tolerance,
@@ -382,10 +369,44 @@ impl Design {
         Ok(payoffs)
     }
 
+    /// [`Design::monte_carlo`] with the tolerances of some parts changed:
+    /// each entry's scopes get its tolerance, the rest the design file's.
+    pub(super) fn monte_carlo_tightened(
+        &self,
+        active: &ActiveDesign,
+        tuned: bool,
+        changes: &[(Vec<Scope>, f64)],
+        trials: usize,
+        seed: u64,
+        progress: Option<&(dyn Fn(usize) + Sync)>,
+    ) -> Result<MonteCarloResult, DesignError> {
+        let mut rules = self.tolerance_rules()?;
+        for (scopes, relative) in changes {
+            let tolerance = self.tolerance(*relative)?;
+            // Later rules override earlier ones (analysis::ToleranceRule).
+            rules.extend(scopes.iter().map(|scope| ToleranceRule {
+                scope: scope.clone(),
+                tolerance,
+            }));
+        }
+        let tuning = active.on_parts.tuning(tuned);
+        self.monte_carlo_with(
+            &active.on_parts.netlist,
+            &rules,
+            &tuning,
+            trials,
+            seed,
+            progress,
+        )
+    }
+
     /// The part classes of the active on parts build with members and a
     /// tolerance: each with the scopes that name its members and its
     /// tolerance as designed.
-    fn payoff_classes(&self, active: &ActiveDesign) -> Vec<(PartClass, Vec<Scope>, f64)> {
+    pub(super) fn payoff_classes(
+        &self,
+        active: &ActiveDesign,
+    ) -> Vec<(PartClass, Vec<Scope>, f64)> {
         let parts = &active.on_parts.netlist;
         let p = &self.spec.parts;
         let in_converters: Vec<&str> = active

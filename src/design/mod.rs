@@ -32,6 +32,7 @@ mod builds;
 mod dynamics;
 mod order;
 mod report;
+mod search;
 
 pub use analyses::{
     default_trials, Analyses, BuildTrace, ChartTraces, DelayFigures, PartClass, TolerancePayoff,
@@ -47,6 +48,9 @@ pub use order::{order_table, OrderRow, OrderTable};
 pub use report::{
     interval_95, ActiveReport, BeforeTuning, Documents, NormalizedElement, Outcome, Report,
     ScaledElement,
+};
+pub use search::{
+    design_for_yield, Candidate, CandidateResult, SearchProgress, ToleranceChange, YieldSearch,
 };
 
 /// The three builds of a design, named so wherever a figure is shown.
@@ -100,6 +104,41 @@ pub enum OrderChoice {
     },
     /// Fixed by a prototype table.
     Table,
+    /// Chosen by the design for yield's search, at or above `minimum`,
+    /// the order [`design`] takes for the specification.
+    ForYield {
+        /// The order the specification alone asks for.
+        minimum: usize,
+    },
+}
+
+/// What the ladder is synthesized for inside the specification: the
+/// internal margins a design for yield chooses, so that boards whose
+/// parts stray still meet the specification.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct Margins {
+    /// How much less passband ripple (for the all-pole families without
+    /// ripple, loss at the edge) the prototype has than the
+    /// specification allows, dB.
+    pub passband_ripple_db: f64,
+    /// How much more stopband attenuation the prototype is synthesized
+    /// for than the specification asks (the families with finite
+    /// transmission zeros, whose attenuation is a parameter), dB.
+    pub stopband_attenuation_db: f64,
+    /// The normalized frequency the prototype's passband edge is put at
+    /// (1: on the specification's edge; above 1 the passband is
+    /// pre-widened and the transition pulled in toward the stopband
+    /// edge).
+    pub edge_scale: f64,
+}
+
+impl Margins {
+    /// The ladder synthesized for the specification itself.
+    pub const NONE: Margins = Margins {
+        passband_ripple_db: 0.0,
+        stopband_attenuation_db: 0.0,
+        edge_scale: 1.0,
+    };
 }
 
 /// Where the surplus of a computed order goes.
@@ -150,6 +189,12 @@ pub struct Design {
     pub mask: MaskCheck,
     /// The normalized ladder (1 ohm source, 1 rad/s edge).
     pub ladder: Ladder,
+    /// The margins inside the specification the ladder was synthesized
+    /// with ([`Margins::NONE`] unless a design for yield chose them).
+    pub margins: Margins,
+    /// How the order and the margins were chosen, when the design file
+    /// asks for a yield (`[yield]`).
+    pub yield_search: Option<YieldSearch>,
     /// The impedance level of the passive ideal: the terminations used
     /// and what they do to the parts the build keeps from the ladder.
     pub level: LadderLevel,
@@ -290,8 +335,29 @@ impl DesignError {
     }
 }
 
-/// Runs the pipeline up to the passive ideal.
+/// Runs the pipeline up to the passive ideal, the ladder synthesized for
+/// the specification itself.
 pub fn design(spec: &Spec) -> Result<Design, DesignError> {
+    design_for(spec, None, Margins::NONE)
+}
+
+/// A ladder of a chosen order, within the design for yield's search.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(crate) struct SearchOrder {
+    /// The order to synthesize.
+    pub order: usize,
+    /// The order [`design`] chooses for the specification.
+    pub minimum: usize,
+}
+
+/// The pipeline up to the passive ideal, the ladder synthesized with
+/// `margins` inside the specification, at the `searched` order when
+/// given.
+pub(crate) fn design_for(
+    spec: &Spec,
+    searched: Option<SearchOrder>,
+    margins: Margins,
+) -> Result<Design, DesignError> {
     let ratio = spec.load_ohm / spec.source_ohm;
     let ws = spec.band.normalized_stopband();
     let file = || spec.file.clone();
@@ -302,11 +368,14 @@ pub fn design(spec: &Spec) -> Result<Design, DesignError> {
             passband_ripple_db,
             stopband_attenuation_db,
         } => {
-            let attenuation = stopband_attenuation_db.unwrap_or(0.0);
-            let ask = match (order, ws) {
-                (Some(n), _) => OrderAsk::Given(*n),
-                (None, Some(ws)) => OrderAsk::ForMask(ws),
-                (None, None) => {
+            let attenuation =
+                stopband_attenuation_db.unwrap_or(0.0) + margins.stopband_attenuation_db;
+            let passband_ripple_db = &(passband_ripple_db - margins.passband_ripple_db);
+            let ask = match (searched, order, ws) {
+                (Some(s), _, _) => OrderAsk::Searched(s),
+                (None, Some(n), _) => OrderAsk::Given(*n),
+                (None, None, Some(ws)) => OrderAsk::ForMask(ws),
+                (None, None, None) => {
                     return Err(SpecError::Invalid {
                         file: file(),
                         key: "filter.order",
@@ -347,10 +416,11 @@ pub fn design(spec: &Spec) -> Result<Design, DesignError> {
             (Origin::Table(table), OrderChoice::Table, ladder)
         }
     };
-    let mask = mask_check(&origin, ws, stopband_attenuation(spec));
+    let mask = mask_check(&origin, ws, stopband_attenuation(spec), margins.edge_scale);
     let title = format!("nocoil passive ideal: {}", spec.file.display());
+    let built = ladder.with_edge_at(margins.edge_scale);
     let scaled = |source_ohm: f64| {
-        passive_netlist(&ladder, spec.band, source_ohm, &title).map_err(|cause| {
+        passive_netlist(&built, spec.band, source_ohm, &title).map_err(|cause| {
             DesignError::Circuit {
                 file: file(),
                 cause,
@@ -387,6 +457,8 @@ pub fn design(spec: &Spec) -> Result<Design, DesignError> {
         order_choice,
         mask,
         ladder,
+        margins,
+        yield_search: None,
         level,
         passive,
     })
@@ -457,6 +529,8 @@ fn ladder(spec: &Spec, proto: &Prototype, ratio: f64) -> Result<Ladder, DesignEr
 enum OrderAsk {
     /// Given in the design file.
     Given(usize),
+    /// Chosen by the design for yield's search.
+    Searched(SearchOrder),
     /// The minimum for the normalized stopband edge (rad/s).
     ForMask(f64),
 }
@@ -474,6 +548,9 @@ fn choose_prototype(
     let build = |n: usize| prototype_at(family, n, ripple_db, attenuation_db, ratio);
     let ws = match ask {
         OrderAsk::Given(n) => return Ok((build(n)?, OrderChoice::Given)),
+        OrderAsk::Searched(SearchOrder { order, minimum }) => {
+            return Ok((build(order)?, OrderChoice::ForYield { minimum }))
+        }
         OrderAsk::ForMask(ws) => ws,
     };
     let minimum = approx::min_order(family, ws, ripple_db, attenuation_db)?;
@@ -624,12 +701,18 @@ fn meets_stopband(proto: &Prototype, ws: f64, attenuation_db: f64) -> bool {
     proto.attenuation_db(ws) >= attenuation_db - MASK_SLACK_DB
 }
 
-fn mask_check(origin: &Origin, ws: Option<f64>, attenuation_db: Option<f64>) -> MaskCheck {
+/// The mask against a prototype whose edge is put at `edge_scale`.
+fn mask_check(
+    origin: &Origin,
+    ws: Option<f64>,
+    attenuation_db: Option<f64>,
+    edge_scale: f64,
+) -> MaskCheck {
     let proto = match origin {
         Origin::Family(p) => Some(p),
         Origin::Table(_) => None,
     };
-    let attenuation = proto.zip(ws).map(|(p, w)| p.attenuation_db(w));
+    let attenuation = proto.zip(ws).map(|(p, w)| p.attenuation_db(w / edge_scale));
     let meets_mask = attenuation
         .zip(attenuation_db)
         .map(|(got, asked)| got >= asked - MASK_SLACK_DB);
@@ -642,7 +725,7 @@ fn mask_check(origin: &Origin, ws: Option<f64>, attenuation_db: Option<f64>) -> 
     MaskCheck {
         required_stopband_edge_rad_s: ws,
         gain_at_stopband_edge_db: attenuation.map(|a| -a),
-        realized_stopband_edge_rad_s: proto.and_then(|p| p.stopband_edge),
+        realized_stopband_edge_rad_s: proto.and_then(|p| p.stopband_edge).map(|w| w * edge_scale),
         margin,
         meets_mask,
     }
@@ -720,11 +803,19 @@ impl Design {
         }
     }
 
-    /// The passband ripple (Butterworth: loss at the edge), dB.
+    /// The passband ripple the specification allows (Butterworth: loss
+    /// at the edge), dB; the prototype's own is this less
+    /// [`Design::margins`].
     pub fn passband_ripple_db(&self) -> f64 {
-        match &self.origin {
-            Origin::Family(p) => p.params.passband_ripple_db,
-            Origin::Table(t) => t.passband_ripple_db,
+        match (&self.spec.prototype, &self.origin) {
+            (
+                PrototypeSource::Family {
+                    passband_ripple_db, ..
+                },
+                _,
+            ) => *passband_ripple_db,
+            (_, Origin::Table(t)) => t.passband_ripple_db,
+            (_, Origin::Family(p)) => p.params.passband_ripple_db,
         }
     }
 

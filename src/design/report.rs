@@ -130,6 +130,12 @@ pub struct Report {
     pub realized_stopband_edge_hz: Option<Vec<f64>>,
     /// The mask after the order was chosen (normalized frequencies).
     pub mask: MaskCheck,
+    /// The margins inside the specification the ladder was synthesized
+    /// with.
+    pub margins: super::Margins,
+    /// How a design for yield chose the order and the margins: every
+    /// candidate tried, with its yield.
+    pub yield_search: Option<super::YieldSearch>,
     /// The passband level of the terminations' divider, dB.
     pub passband_level_db: f64,
     /// Source resistance of the passive ideal, ohm.
@@ -278,6 +284,8 @@ impl Design {
                 .realized_stopband_edge_rad_s
                 .map(|w| self.spec.band.frequencies_hz(w)),
             mask: self.mask.clone(),
+            margins: self.margins,
+            yield_search: self.yield_search.clone(),
             passband_level_db: self.passband_level_db(),
             source_ohm: self.level.source_ohm,
             load_ohm: self.level.load_ohm,
@@ -374,7 +382,7 @@ impl Design {
     }
 
     /// The order: the number of arms of the ladder.
-    fn ladder_order(&self) -> usize {
+    pub(crate) fn ladder_order(&self) -> usize {
         self.ladder
             .elements
             .iter()

@@ -1,0 +1,538 @@
+//! Design for yield (`[yield]`): the order and the margins inside the
+//! specification that the ladder is synthesized with, chosen so that the
+//! tuned build on parts meets the specification on the asked fraction of
+//! boards.
+//!
+//! The specification stays the mask every build is judged against; only
+//! the target the ladder is synthesized for moves inside it: less
+//! passband ripple, more stopband attenuation (the families with finite
+//! zeros), and the passband edge pre-widened into the slack an order's
+//! selectivity leaves before the stopband edge (see [`Margins`]). Every
+//! candidate's boards are drawn with the same seed (common random
+//! numbers: a part at the same place in the same topology gets the same
+//! draw, so a difference between candidates is the design's, not the
+//! draw's).
+
+use super::{
+    design, design_for, interval_95, prototype_at, ActiveDesign, Blame, Design, DesignError,
+    Margins, PartClass, SearchOrder,
+};
+use crate::approx::Prototype;
+use crate::circuit::ElementKind;
+use crate::spec::{PrototypeSource, Spec, YieldGoal};
+use crate::synth;
+
+/// Fractions of the specification's passband ripple the candidates keep
+/// (the rest is margin), halving down to an eighth: a tuned board's
+/// deviation from its nominal is a share of the ripple that depends on
+/// the tolerances, and on the demos it took from half the ripple (the
+/// bird survey's 3 dB edge, 1 % resistors and 5 % capacitors) to more
+/// than two thirds (the vibration example's 0.1 dB) to reach 99 %
+/// (measured with this search; a choice of the project).
+const RIPPLE_KEPT: [f64; 4] = [1.0, 0.5, 0.25, 0.125];
+
+/// Where the margin of selectivity goes, as fractions: for the all-pole
+/// families, of the frequency slack (in octaves) given to the passband
+/// edge (the rest stays at the stopband edge); for the families with
+/// finite zeros, of the largest extra attenuation the order can carry
+/// at the stopband edge given to the attenuation (the frequency slack
+/// left is split evenly between the two edges).
+const SELECTIVITY_SPLIT: [f64; 3] = [0.25, 0.5, 0.75];
+
+/// Standard part tolerances, loosest first: the steps a tolerance
+/// suggestion is chosen from (the series of tolerances part makers
+/// offer, common practice).
+const TOLERANCE_STEPS: [f64; 7] = [0.1, 0.05, 0.02, 0.01, 0.005, 0.0025, 0.001];
+
+/// What became of one candidate.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+#[serde(tag = "status", rename_all = "snake_case")]
+pub enum CandidateResult {
+    /// Built and its boards drawn.
+    Measured {
+        /// Op-amps of the build on parts.
+        opamps: usize,
+        /// Resistors, capacitors, trimmers and op-amps of the build on
+        /// parts.
+        parts: usize,
+        /// The nominal build on parts (tuned) against the specification,
+        /// dB (negative: broken).
+        nominal_margin_db: f64,
+        /// Boards drawn.
+        boards: usize,
+        /// Boards that meet the specification after tuning.
+        boards_meeting: usize,
+        /// Their fraction.
+        yield_fraction: f64,
+        /// Its 95 % interval (Wilson's score interval).
+        yield_interval_95: [f64; 2],
+    },
+    /// Built, but it needs more op-amps or parts than a candidate that
+    /// already reaches the target, so it cannot be chosen and its boards
+    /// were not drawn.
+    Outnumbered {
+        /// Op-amps of the build on parts.
+        opamps: usize,
+        /// Parts of the build on parts.
+        parts: usize,
+    },
+    /// No build: the prototype misses the specification's stopband, the
+    /// ladder has no positive elements, the converters cannot serve it.
+    Refused {
+        /// Why, in the words of the refusal.
+        why: String,
+    },
+}
+
+/// One design the search tried.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct Candidate {
+    /// Its order.
+    pub order: usize,
+    /// The margins its ladder was synthesized with.
+    pub margins: Margins,
+    /// What became of it.
+    pub result: CandidateResult,
+}
+
+impl Candidate {
+    /// Its yield after tuning, when its boards were drawn.
+    pub fn yield_fraction(&self) -> Option<f64> {
+        match self.result {
+            CandidateResult::Measured { yield_fraction, .. } => Some(yield_fraction),
+            _ => None,
+        }
+    }
+}
+
+/// A tolerance change tried on the delivered design when no candidate
+/// reaches the target.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct ToleranceChange {
+    /// The class of parts whose tolerance changes (every class at once
+    /// when `None`).
+    pub class: Option<PartClass>,
+    /// The tolerance tried, a fraction.
+    pub tolerance: f64,
+    /// Boards drawn (the same boards as the design's).
+    pub boards: usize,
+    /// Boards that meet the specification.
+    pub boards_meeting: usize,
+    /// Their fraction.
+    pub yield_fraction: f64,
+    /// Its 95 % interval.
+    pub yield_interval_95: [f64; 2],
+    /// Whether it reaches the target.
+    pub reaches_target: bool,
+}
+
+/// The account of a design for yield.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct YieldSearch {
+    /// The `[yield]` table.
+    pub goal: YieldGoal,
+    /// The order the specification alone asks for (or the design file
+    /// gives): where the search starts.
+    pub minimum_order: usize,
+    /// The seed every candidate's boards were drawn with.
+    pub seed: u64,
+    /// Every candidate, in the order tried.
+    pub candidates: Vec<Candidate>,
+    /// The index of the delivered one in `candidates`.
+    pub chosen: usize,
+    /// Whether the delivered one reaches the target.
+    pub reached: bool,
+    /// When it does not: for each class of parts, the loosest standard
+    /// tolerance that reaches the target on the delivered design (or the
+    /// tightest tried, which does not), then every class at once when no
+    /// class alone does.
+    pub tolerance_changes: Vec<ToleranceChange>,
+}
+
+impl YieldSearch {
+    /// The delivered candidate.
+    pub fn chosen(&self) -> &Candidate {
+        &self.candidates[self.chosen]
+    }
+}
+
+/// How far the search has come: candidates tried and the most it may
+/// try, for a progress display.
+pub type SearchProgress<'a> = &'a (dyn Fn(usize, usize) + Sync);
+
+/// The design whose tuned build on parts reaches the `[yield]` target
+/// with the fewest op-amps, then the fewest parts, then the widest
+/// nominal margin; when none does, the one with the highest yield, with
+/// the tolerance changes that would reach it. Orders from the one
+/// [`design`] takes up to `yield.max_extra_order` above it; at each order
+/// [`RIPPLE_KEPT`] times [`SELECTIVITY_SPLIT`] margins. The delivered
+/// [`Design`] carries the account in [`Design::yield_search`].
+pub fn design_for_yield(
+    spec: &Spec,
+    progress: Option<SearchProgress>,
+) -> Result<(Design, ActiveDesign), DesignError> {
+    let base = design(spec)?;
+    let Some(goal) = spec.yield_goal else {
+        let active = base.active()?;
+        return Ok((base, active));
+    };
+    let Some(family) = base.prototype().map(|p| p.params.family) else {
+        // A prototype table is refused beside [yield] when the file is
+        // read; were one to get here, it is delivered as it stands.
+        let active = base.active()?;
+        return Ok((base, active));
+    };
+    let minimum = base.ladder_order();
+    let seed = spec.montecarlo.seed;
+    // The ladder for the specification itself comes first: the baseline
+    // every margin is measured against.
+    let plan: Vec<(usize, Margins)> = std::iter::once((minimum, Margins::NONE))
+        .chain(
+            (minimum..=minimum + goal.max_extra_order).flat_map(|order| {
+                candidate_margins(spec, order)
+                    .into_iter()
+                    .map(move |m| (order, m))
+            }),
+        )
+        .collect();
+    let mut candidates = Vec::new();
+    // The best so far: its index, standing and builds.
+    let mut best: Option<(usize, Rank, Design, ActiveDesign)> = None;
+    let mut first_refusal = None;
+    for (i, &(order, margins)) in plan.iter().enumerate() {
+        if let Some(report) = progress {
+            report(i, plan.len());
+        }
+        let refuse = |why: String| Candidate {
+            order,
+            margins,
+            result: CandidateResult::Refused { why },
+        };
+        if order > synth::max_order(family) {
+            candidates.push(refuse(format!(
+                "order {order} is above the highest to which {family} ladders are synthesized accurately ({})",
+                synth::max_order(family)
+            )));
+            continue;
+        }
+        let (d, active) = match build(spec, order, minimum, margins) {
+            Ok(Ok(b)) => b,
+            Ok(Err(why)) => {
+                candidates.push(refuse(why));
+                continue;
+            }
+            Err(e) if e.blame() == Blame::Input => {
+                candidates.push(refuse(e.to_string()));
+                first_refusal.get_or_insert(e);
+                continue;
+            }
+            Err(fault) => return Err(fault),
+        };
+        let opamps = active.on_parts.netlist.count(ElementKind::OpAmp);
+        let parts = count_parts(&active);
+        let outnumbered = best.as_ref().is_some_and(|(_, rank, ..)| {
+            rank.reaches && (opamps, parts) > (rank.opamps, rank.parts)
+        });
+        if outnumbered {
+            candidates.push(Candidate {
+                order,
+                margins,
+                result: CandidateResult::Outnumbered { opamps, parts },
+            });
+            continue;
+        }
+        let mc = d.monte_carlo(&active, true, d.trials(&active), seed, None)?;
+        let nominal_margin_db = d.verdict(&active.on_parts.netlist)?.margin_db;
+        let rank = Rank {
+            reaches: mc.yield_fraction >= goal.target,
+            opamps,
+            parts,
+            yield_fraction: mc.yield_fraction,
+            margin_db: nominal_margin_db,
+        };
+        candidates.push(Candidate {
+            order,
+            margins,
+            result: CandidateResult::Measured {
+                opamps,
+                parts,
+                nominal_margin_db,
+                boards: mc.trials,
+                boards_meeting: mc.passed,
+                yield_fraction: mc.yield_fraction,
+                yield_interval_95: interval_95(&mc),
+            },
+        });
+        if best.as_ref().is_none_or(|(_, b, ..)| rank.better_than(b)) {
+            best = Some((candidates.len() - 1, rank, d, active));
+        }
+    }
+    let Some((chosen, rank, mut d, active)) = best else {
+        // Nothing could be built: the minimum order's own refusal says why.
+        return Err(first_refusal.unwrap_or_else(|| unreachable_refusal(spec)));
+    };
+    let tolerance_changes = match rank.reaches {
+        true => Vec::new(),
+        false => tolerance_changes(&d, &active, goal.target, seed)?,
+    };
+    d.yield_search = Some(YieldSearch {
+        goal,
+        minimum_order: minimum,
+        seed,
+        candidates,
+        chosen,
+        reached: rank.reaches,
+        tolerance_changes,
+    });
+    Ok((d, active))
+}
+
+/// A measured candidate's standing.
+#[derive(Debug, Clone, Copy)]
+struct Rank {
+    reaches: bool,
+    opamps: usize,
+    parts: usize,
+    yield_fraction: f64,
+    margin_db: f64,
+}
+
+impl Rank {
+    /// Reaching the target first; among those, fewer op-amps, fewer
+    /// parts, a wider nominal margin; among those that do not, the
+    /// higher yield, then fewer op-amps.
+    fn better_than(&self, other: &Rank) -> bool {
+        use std::cmp::Ordering::*;
+        match (self.reaches, other.reaches) {
+            (true, false) => true,
+            (false, true) => false,
+            (true, true) => match (self.opamps, self.parts).cmp(&(other.opamps, other.parts)) {
+                Less => true,
+                Greater => false,
+                Equal => self.margin_db > other.margin_db,
+            },
+            (false, false) => match self.yield_fraction.total_cmp(&other.yield_fraction) {
+                Greater => true,
+                Less => false,
+                Equal => self.opamps < other.opamps,
+            },
+        }
+    }
+}
+
+/// The builds of one candidate, or why the prototype cannot serve (it
+/// misses the specification's stopband with these margins).
+fn build(
+    spec: &Spec,
+    order: usize,
+    minimum: usize,
+    margins: Margins,
+) -> Result<Result<(Design, ActiveDesign), String>, DesignError> {
+    let d = design_for(spec, Some(SearchOrder { order, minimum }), margins)?;
+    if d.mask.meets_mask == Some(false) {
+        return Ok(Err(format!(
+            "the order-{order} prototype with these margins misses the stopband attenuation at the stopband edge"
+        )));
+    }
+    let active = d.active()?;
+    Ok(Ok((d, active)))
+}
+
+/// The error for a search with no candidate at all (every order above
+/// the synthesis limit, which the minimum order is not: [`design`]
+/// refuses it first).
+fn unreachable_refusal(spec: &Spec) -> DesignError {
+    crate::spec::SpecError::Invalid {
+        file: spec.file.clone(),
+        key: "yield.max_extra_order",
+        got: "(no order)".to_string(),
+        expected: "an order the synthesis holds".to_string(),
+    }
+    .into()
+}
+
+/// Every part of the build on parts: resistors, capacitors, op-amps.
+fn count_parts(active: &ActiveDesign) -> usize {
+    let n = &active.on_parts.netlist;
+    [
+        ElementKind::Resistor,
+        ElementKind::Capacitor,
+        ElementKind::OpAmp,
+    ]
+    .into_iter()
+    .map(|k| n.count(k))
+    .sum()
+}
+
+/// The margins tried at `order`: [`RIPPLE_KEPT`] times
+/// [`SELECTIVITY_SPLIT`]. Without a stopband in the specification only
+/// the ripple moves; a split the order's selectivity cannot carry (the
+/// prototype with less ripple misses the stopband edge) is left out.
+fn candidate_margins(spec: &Spec, order: usize) -> Vec<Margins> {
+    let PrototypeSource::Family {
+        family,
+        passband_ripple_db,
+        stopband_attenuation_db,
+        ..
+    } = spec.prototype
+    else {
+        return Vec::new();
+    };
+    let ratio = spec.load_ohm / spec.source_ohm;
+    let mask = spec.band.normalized_stopband().zip(stopband_attenuation_db);
+    let mut out = Vec::new();
+    for kept in RIPPLE_KEPT {
+        let ripple_db = passband_ripple_db * kept;
+        let ripple_margin = passband_ripple_db - ripple_db;
+        let Some((ws, attenuation_db)) = mask else {
+            out.push(Margins {
+                passband_ripple_db: ripple_margin,
+                ..Margins::NONE
+            });
+            continue;
+        };
+        let proto = |att: f64| prototype_at(family, order, ripple_db, att, ratio).ok();
+        for split in SELECTIVITY_SPLIT {
+            let (extra_db, p) = if family.finite_zeros() {
+                let Some(most) = most_attenuation(&proto, attenuation_db, ws) else {
+                    continue;
+                };
+                let extra = split * (most - attenuation_db);
+                (extra, proto(attenuation_db + extra))
+            } else {
+                (0.0, proto(attenuation_db))
+            };
+            let Some(reached) = p.and_then(|p| reach(&p, attenuation_db, ws)) else {
+                continue;
+            };
+            let octaves = (ws / reached).log2();
+            let edge_share = if family.finite_zeros() { 0.5 } else { split };
+            out.push(Margins {
+                passband_ripple_db: ripple_margin,
+                stopband_attenuation_db: extra_db,
+                edge_scale: 2f64.powf(edge_share * octaves),
+            });
+        }
+    }
+    out
+}
+
+/// Where `p` first reaches `attenuation_db` at or below `ws` (normalized
+/// rad/s), by bisection over the transition band, where the loss rises
+/// monotonically (beyond it, a family with finite zeros stays above its
+/// floor); `None` when it does not reach it by `ws`.
+fn reach(p: &Prototype, attenuation_db: f64, ws: f64) -> Option<f64> {
+    if p.attenuation_db(ws) < attenuation_db {
+        return None;
+    }
+    let (mut lo, mut hi) = (1.0, ws);
+    // 60 halvings of at most a few decades: far below any part's
+    // tolerance.
+    for _ in 0..60 {
+        let mid = (lo * hi).sqrt();
+        if p.attenuation_db(mid) >= attenuation_db {
+            hi = mid;
+        } else {
+            lo = mid;
+        }
+    }
+    Some(hi)
+}
+
+/// The largest stopband floor, dB, a finite-zero prototype of this order
+/// and ripple carries while still reaching `attenuation_db` at `ws`
+/// (by bisection over the floor: a deeper floor moves the stopband edge
+/// out); `None` when even `attenuation_db` itself misses `ws`.
+fn most_attenuation(
+    proto: &dyn Fn(f64) -> Option<Prototype>,
+    attenuation_db: f64,
+    ws: f64,
+) -> Option<f64> {
+    let meets = |floor: f64| proto(floor).is_some_and(|p| p.attenuation_db(ws) >= floor);
+    if !meets(attenuation_db) {
+        return None;
+    }
+    // 60 dB above the floor asked for is beyond what any order's slack
+    // carries at the orders the synthesis holds, so the bound brackets.
+    let (mut lo, mut hi) = (attenuation_db, attenuation_db + 60.0);
+    for _ in 0..40 {
+        let mid = 0.5 * (lo + hi);
+        if meets(mid) {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    Some(lo)
+}
+
+/// For each class of parts (not the op-amps' gain-bandwidth, which no
+/// part order buys), the loosest standard tolerance below the design
+/// file's that makes `d` reach `target` on the same boards; a class no
+/// step of [`TOLERANCE_STEPS`] gets there is reported at the tightest;
+/// and when no class alone gets there, every class at once.
+fn tolerance_changes(
+    d: &Design,
+    active: &ActiveDesign,
+    target: f64,
+    seed: u64,
+) -> Result<Vec<ToleranceChange>, DesignError> {
+    let trials = d.trials(active);
+    let classes: Vec<_> = d
+        .payoff_classes(active)
+        .into_iter()
+        .filter(|(class, ..)| *class != PartClass::OpAmpGbw)
+        .collect();
+    let run = |class: Option<PartClass>,
+               changes: &[(Vec<crate::analysis::Scope>, f64)],
+               tolerance: f64| {
+        d.monte_carlo_tightened(active, true, changes, trials, seed, None)
+            .map(|mc| ToleranceChange {
+                class,
+                tolerance,
+                boards: mc.trials,
+                boards_meeting: mc.passed,
+                yield_fraction: mc.yield_fraction,
+                yield_interval_95: interval_95(&mc),
+                reaches_target: mc.yield_fraction >= target,
+            })
+    };
+    let mut out = Vec::new();
+    for (class, scopes, tolerance) in &classes {
+        let steps: Vec<f64> = TOLERANCE_STEPS
+            .into_iter()
+            .filter(|&t| t < *tolerance)
+            .collect();
+        let Some(&tightest) = steps.last() else {
+            continue;
+        };
+        let at = |t: f64| run(Some(*class), &[(scopes.clone(), t)], t);
+        let mut found = at(tightest)?;
+        if found.reaches_target {
+            // The yield grows as the tolerance shrinks on the same boards
+            // (each draw is the same fraction of it), so bisect the steps
+            // for the loosest that still reaches.
+            let (mut lo, mut hi) = (0, steps.len() - 1);
+            while lo < hi {
+                let mid = (lo + hi) / 2;
+                let change = at(steps[mid])?;
+                if change.reaches_target {
+                    hi = mid;
+                    found = change;
+                } else {
+                    lo = mid + 1;
+                }
+            }
+        }
+        out.push(found);
+    }
+    if !out.iter().any(|c| c.reaches_target) && classes.len() > 1 {
+        let tightest = TOLERANCE_STEPS[TOLERANCE_STEPS.len() - 1];
+        let all: Vec<_> = classes
+            .iter()
+            .map(|(_, scopes, _)| (scopes.clone(), tightest))
+            .collect();
+        out.push(run(None, &all, tightest)?);
+    }
+    Ok(out)
+}
