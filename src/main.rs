@@ -438,32 +438,35 @@ fn emit(text: &str) -> anyhow::Result<()> {
     Ok(())
 }
 
-fn load(spec: &Path) -> Result<Design, DesignError> {
-    design::design(&Spec::load(spec)?)
+/// The design and its active builds (by a design for yield's search when
+/// the file has a `[yield]` table), with a progress display on a terminal
+/// while they are computed (a high-order band filter takes seconds, a
+/// search more).
+fn load_active(spec: &Path) -> Result<(Design, ActiveDesign), DesignError> {
+    build_design(&Spec::load(spec)?, &Progress::new())
 }
 
-/// The design and its active builds, with a spinner on a terminal while
-/// they are computed (a high-order band filter takes seconds).
-fn load_active(spec: &Path) -> Result<(Design, ActiveDesign), DesignError> {
-    let progress = Progress::new();
+/// [`design::design_for_yield`], its candidates counted on `progress`.
+fn build_design(spec: &Spec, progress: &Progress) -> Result<(Design, ActiveDesign), DesignError> {
     progress.stage("building the active builds");
-    let d = load(spec)?;
-    let active = d.active()?;
-    Ok((d, active))
+    let candidate = |tried: usize, most: usize| progress.candidates(tried, most);
+    let built = design::design_for_yield(spec, Some(&candidate));
+    progress.done();
+    built
 }
 
 fn run(request: Request) -> anyhow::Result<()> {
     match request {
         Request::Design { spec, out } => {
             prepare_out_dir(&out)?;
+            let spec = Spec::load(&spec).map_err(DesignError::from)?;
             let progress = Progress::new();
-            progress.stage("building the active builds");
-            let d = load(&spec)?;
-            let active = match d.active() {
-                Ok(active) => active,
-                // A refused active build still leaves the passive ideal.
+            let (d, active) = match build_design(&spec, &progress) {
+                Ok(built) => built,
+                // A refused active build still leaves the passive ideal
+                // (a refused passive ideal is refused again here).
                 Err(refusal) if refusal.blame() == Blame::Input => {
-                    progress.done();
+                    let d = design::design(&spec)?;
                     let written = write_files(&out, &passive_files(&d)?)?;
                     emit(&summary::passive_summary(&d.report(), &refusal.to_string()))?;
                     emit(&written)?;
@@ -633,6 +636,19 @@ impl Progress {
         self.0.set_message("Monte Carlo");
         self.0.set_length(trials as u64);
         self.0.set_position(0);
+    }
+
+    /// A design for yield's search has tried `tried` of at most `most`
+    /// candidates.
+    fn candidates(&self, tried: usize, most: usize) {
+        if let Ok(style) = indicatif::ProgressStyle::with_template(
+            "{msg} [{elapsed_precise}] {wide_bar} {pos}/{len} candidates",
+        ) {
+            self.0.set_style(style);
+        }
+        self.0.set_message("design for yield");
+        self.0.set_length(most as u64);
+        self.0.set_position(tried as u64);
     }
 
     /// One more trial done.

@@ -11,6 +11,7 @@
 //! - `csv`: long numeric tables, fast and round-tripping; `sweep`: the
 //!   sweep table, streamed block by block.
 //! - `charts`: the charts of a design, as [`plot::Chart`] data.
+//! - `search`: a design for yield's margins, outcome and candidates.
 //! - `page`: the HTML report of a design, through [`html`].
 //! - `files`: every file of an output set, in memory first.
 
@@ -23,6 +24,7 @@ pub mod html;
 pub mod page;
 pub mod plot;
 pub mod prose;
+pub mod search;
 pub mod spice;
 pub mod summary;
 pub mod sweep;

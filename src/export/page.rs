@@ -6,6 +6,7 @@ use super::bom::{tally, BomRow};
 use super::eng::format_trimmed as eng;
 use super::html::{html_report, Figure, ReportDoc, Table};
 use super::prose::{db, factor, level_warnings, opamp_model, scale_words, signed};
+use super::search::{margins_words, search_table, search_words};
 use super::summary::{edges, verdict_line, yield_line};
 use crate::analysis::Parameter;
 use crate::design::{Build, Documents};
@@ -81,7 +82,16 @@ pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> Strin
         ),
         ("impedance level".to_string(), r.level.to_string()),
     ];
+    if let Some(search) = &r.yield_search {
+        summary.insert(2, ("design for yield".to_string(), search_words(search)));
+    }
+    if let Some(words) = margins_words(r) {
+        summary.push(("margins".to_string(), words));
+    }
     let mut tables = Vec::new();
+    if let Some(search) = &r.yield_search {
+        tables.push(search_table(search));
+    }
     let mut notes = level_warnings(&r.level);
     if let Some(act) = &r.active {
         summary.push((

@@ -368,6 +368,12 @@ impl Display for OrderChoice {
         match self {
             OrderChoice::Given => f.write_str("given"),
             OrderChoice::Table => f.write_str("from the table"),
+            OrderChoice::ForYield { minimum } => {
+                write!(
+                    f,
+                    "chosen for yield, searched from {minimum}, the order without [yield]"
+                )
+            }
             OrderChoice::Computed {
                 minimum,
                 raised_for_form,
@@ -707,11 +713,22 @@ fn arm_words(arm: &Arm, joined: bool) -> String {
 }
 
 /// "a", "a and b", "a, b and c".
-fn and_list(items: &[&str]) -> String {
-    match items {
+pub fn and_list<S: AsRef<str>>(items: &[S]) -> String {
+    joined(items, "and")
+}
+
+/// "a", "a or b", "a, b or c".
+pub fn or_list<S: AsRef<str>>(items: &[S]) -> String {
+    joined(items, "or")
+}
+
+/// The items, the last joined by `word`.
+fn joined<S: AsRef<str>>(items: &[S], word: &str) -> String {
+    let items: Vec<&str> = items.iter().map(AsRef::as_ref).collect();
+    match items.as_slice() {
         [] => String::new(),
         [one] => (*one).to_string(),
-        [rest @ .., last] => format!("{} and {last}", rest.join(", ")),
+        [rest @ .., last] => format!("{} {word} {last}", rest.join(", ")),
     }
 }
 

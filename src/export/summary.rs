@@ -235,6 +235,9 @@ fn passive(s: &mut String, r: &Report) {
         edge_loss_name(r.family),
         db(r.passband_ripple_db)
     );
+    if let Some(words) = super::search::margins_words(r) {
+        let _ = writeln!(s, "  {words}");
+    }
     let stop = r.band.stopband_edges_hz();
     if let (false, Some(a)) = (stop.is_empty(), r.stopband_attenuation_db) {
         let reached = r
@@ -341,6 +344,9 @@ pub fn summary(d: &Documents) -> String {
         )
     );
     let _ = writeln!(s, "{}", yield_line(d));
+    if let Some(search) = &r.yield_search {
+        let _ = writeln!(s, "{}", super::search::search_words(search));
+    }
     let _ = writeln!(
         s,
         "{}",
