@@ -147,6 +147,48 @@ fn good_spec_designs() {
 /// replace, what the message must contain).
 const BAD_EDITS: &[(&str, &str, &str, &[&str])] = &[
     (
+        "yield-target-one",
+        "load_ohm = 600\n",
+        "load_ohm = 600\n[yield]\ntarget = 1\n",
+        &["yield.target = 1", "above 0 and below 1"],
+    ),
+    (
+        "yield-target-zero",
+        "load_ohm = 600\n",
+        "load_ohm = 600\n[yield]\ntarget = 0\n",
+        &["yield.target = 0", "above 0 and below 1"],
+    ),
+    (
+        "yield-target-percent",
+        "load_ohm = 600\n",
+        "load_ohm = 600\n[yield]\ntarget = 99\n",
+        &["yield.target = 99", "0.99 is 99 %"],
+    ),
+    (
+        "yield-target-missing",
+        "load_ohm = 600\n",
+        "load_ohm = 600\n[yield]\nmax_extra_order = 1\n",
+        &["yield.target = (missing)"],
+    ),
+    (
+        "yield-negative-extra-order",
+        "load_ohm = 600\n",
+        "load_ohm = 600\n[yield]\ntarget = 0.9\nmax_extra_order = -1\n",
+        &["yield.max_extra_order = -1", "from 0 to 4"],
+    ),
+    (
+        "yield-extra-order-too-high",
+        "load_ohm = 600\n",
+        "load_ohm = 600\n[yield]\ntarget = 0.9\nmax_extra_order = 9\n",
+        &["yield.max_extra_order = 9", "from 0 to 4"],
+    ),
+    (
+        "yield-unknown-key",
+        "load_ohm = 600\n",
+        "load_ohm = 600\n[yield]\ntarget = 0.9\nmargin = 1\n",
+        &["unknown field `margin`", "max_extra_order"],
+    ),
+    (
         "missing",
         "passband_edge_hz = 1000.0\n",
         "",
@@ -793,6 +835,19 @@ fn passband_margin_beyond_the_ripple() {
         "margin",
         &(GOOD.to_string() + "[montecarlo]\npassband_margin_db = 0.5\n"),
         &["montecarlo.passband_margin_db", "below the passband ripple"],
+    );
+}
+
+/// A `[yield]` table beside a prototype table has nothing to choose: the
+/// table fixes the ladder. Refused naming the key.
+#[test]
+fn yield_beside_a_prototype_table() {
+    let text = with("family = \"chebyshev\"", "prototype = \"any-table.toml\"")
+        + "[yield]\ntarget = 0.9\n";
+    rejects(
+        "yield-table",
+        &text,
+        &["yield", "prototype table fixes the ladder"],
     );
 }
 

@@ -9,6 +9,7 @@ mod cli;
 mod compensation;
 mod damping;
 mod design;
+mod design_for_yield;
 mod export;
 mod families;
 mod fast;
