@@ -95,10 +95,13 @@ fn the_first_candidate_is_the_plain_design_on_the_same_boards() {
         (first.order, first.margins),
         (s.minimum_order, Margins::NONE)
     );
+    let CandidateResult::Measured { boards, .. } = first.result else {
+        panic!("{first:?}");
+    };
     let plain = design(&spec).unwrap();
     let a = plain.active().unwrap();
     let mc = plain
-        .monte_carlo(&a, true, plain.trials(&a), spec.montecarlo.seed, None)
+        .monte_carlo(&a, true, boards, spec.montecarlo.seed, None)
         .unwrap();
     assert_eq!(first.yield_fraction(), Some(mc.yield_fraction));
 }

@@ -35,6 +35,10 @@ const CI_CASES: usize = 240;
 /// A run taking longer than this is a hang (the hardening issue's bound).
 const HANG_S: u64 = 10;
 
+/// The same for a design file with a `[yield]` table, whose search draws
+/// a Monte Carlo per candidate (the design-for-yield issue's bound).
+const SEARCH_HANG_S: u64 = 20;
+
 /// The binary under test.
 fn binary() -> &'static str {
     env!("CARGO_BIN_EXE_nocoil")
@@ -309,6 +313,13 @@ impl Gen {
         if self.chance(5) {
             s += "colour = \"blue\"\n";
         }
+        if self.chance(10) {
+            s += "\n[yield]\n";
+            self.maybe_key(&mut s, 90, "target", (0.001, 1.2));
+            if self.chance(50) {
+                s += &format!("max_extra_order = {}\n", self.int((-1, 5)));
+            }
+        }
         if self.chance(12) {
             s += "\n[delay]\n";
             self.maybe_key(&mut s, 60, "max_spread_s", (1e-9, 1e-2));
@@ -535,11 +546,15 @@ fn run(case: &Case) -> Outcome {
     let stdout = drain(Box::new(child.stdout.take().expect("stdout")));
     let stderr = drain(Box::new(child.stderr.take().expect("stderr")));
     let started = Instant::now();
+    let hang_s = match case.spec.contains("[yield]") {
+        true => SEARCH_HANG_S,
+        false => HANG_S,
+    };
     let status = loop {
         if let Some(status) = child.try_wait().expect("wait") {
             break Some(status);
         }
-        if started.elapsed() > Duration::from_secs(HANG_S) {
+        if started.elapsed() > Duration::from_secs(hang_s) {
             let _ = child.kill();
             let _ = child.wait();
             break None;
@@ -551,7 +566,7 @@ fn run(case: &Case) -> Outcome {
         stderr.join().unwrap_or_default(),
     );
     let Some(status) = status else {
-        return Outcome::Broken(format!("hang: still running after {HANG_S} s"));
+        return Outcome::Broken(format!("hang: still running after {hang_s} s"));
     };
     match status.code() {
         Some(0) => check_success(&stdout, &out),

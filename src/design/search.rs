@@ -17,6 +17,7 @@ use super::{
     design, design_for, interval_95, prototype_at, ActiveDesign, Blame, Design, DesignError,
     Margins, PartClass, SearchOrder,
 };
+use crate::analysis::{wilson_interval, MonteCarloResult};
 use crate::approx::Prototype;
 use crate::circuit::ElementKind;
 use crate::spec::{PrototypeSource, Spec, YieldGoal};
@@ -38,6 +39,36 @@ const RIPPLE_KEPT: [f64; 4] = [1.0, 0.5, 0.25, 0.125];
 /// at the stopband edge given to the attenuation (the frequency slack
 /// left is split evenly between the two edges).
 const SELECTIVITY_SPLIT: [f64; 3] = [0.25, 0.5, 0.75];
+
+/// Boards a candidate is first drawn on. One whose yield's 99 % interval
+/// on them lies wholly below the target cannot reach it (the chance that
+/// one truly at the target is dropped is 0.5 %) and keeps that count; any
+/// other is drawn on the full count, whose first boards are these (trial
+/// t draws from its own stream). Most candidates of a search are far
+/// from the target: on the README demos this drew a quarter of the
+/// boards a full count for every candidate would (measured with this
+/// search).
+const SCREEN_BOARDS: usize = 200;
+
+/// The 99 % two-sided normal quantile (common practice).
+const SCREEN_Z: f64 = 2.575_829_303_548_901;
+
+/// A Monte Carlo run of `trials` boards, or of [`SCREEN_BOARDS`] when
+/// those already rule out `target`; `run` draws the first `n` boards.
+fn screened(
+    target: f64,
+    trials: usize,
+    run: impl Fn(usize) -> Result<MonteCarloResult, DesignError>,
+) -> Result<MonteCarloResult, DesignError> {
+    if trials <= SCREEN_BOARDS {
+        return run(trials);
+    }
+    let first = run(SCREEN_BOARDS)?;
+    match wilson_interval(first.passed, first.trials, SCREEN_Z).1 < target {
+        true => Ok(first),
+        false => run(trials),
+    }
+}
 
 /// Standard part tolerances, loosest first: the steps a tolerance
 /// suggestion is chosen from (the series of tolerances part makers
@@ -164,9 +195,14 @@ pub type SearchProgress<'a> = &'a (dyn Fn(usize, usize) + Sync);
 /// with the fewest op-amps, then the fewest parts, then the widest
 /// nominal margin; when none does, the one with the highest yield, with
 /// the tolerance changes that would reach it. Orders from the one
-/// [`design`] takes up to `yield.max_extra_order` above it; at each order
-/// [`RIPPLE_KEPT`] times [`SELECTIVITY_SPLIT`] margins. The delivered
-/// [`Design`] carries the account in [`Design::yield_search`].
+/// [`design`] takes up to `yield.max_extra_order` above it, the ladder
+/// for the specification itself first; at each order a coordinate
+/// search: every ripple of [`RIPPLE_KEPT`] with the middle split of
+/// [`SELECTIVITY_SPLIT`], then the other splits at the best of those
+/// ripples (at every ripple when none of them built). An order whose build needs more op-amps or parts than a
+/// candidate that already reaches the target is built once and not
+/// drawn. The delivered [`Design`] carries the account in
+/// [`Design::yield_search`].
 pub fn design_for_yield(
     spec: &Spec,
     progress: Option<SearchProgress>,
@@ -183,108 +219,212 @@ pub fn design_for_yield(
         return Ok((base, active));
     };
     let minimum = base.ladder_order();
-    let seed = spec.montecarlo.seed;
-    // The ladder for the specification itself comes first: the baseline
-    // every margin is measured against.
-    let plan: Vec<(usize, Margins)> = std::iter::once((minimum, Margins::NONE))
-        .chain(
-            (minimum..=minimum + goal.max_extra_order).flat_map(|order| {
-                candidate_margins(spec, order)
-                    .into_iter()
-                    .map(move |m| (order, m))
-            }),
-        )
-        .collect();
-    let mut candidates = Vec::new();
-    // The best so far: its index, standing and builds.
-    let mut best: Option<(usize, Rank, Design, ActiveDesign)> = None;
-    let mut first_refusal = None;
-    for (i, &(order, margins)) in plan.iter().enumerate() {
-        if let Some(report) = progress {
-            report(i, plan.len());
+    let orders = minimum..=(minimum + goal.max_extra_order).min(synth::max_order(family));
+    let per_order = RIPPLE_KEPT.len() * SELECTIVITY_SPLIT.len();
+    let mut search = Search {
+        spec,
+        goal,
+        minimum,
+        most: 1 + per_order * orders.clone().count(),
+        progress,
+        candidates: Vec::new(),
+        best: None,
+        first_refusal: None,
+        size: None,
+    };
+    search.try_candidate(minimum, Margins::NONE)?;
+    for order in orders {
+        search.size = None;
+        let middle = SELECTIVITY_SPLIT[SELECTIVITY_SPLIT.len() / 2];
+        let mut best_kept: Option<(f64, Rank)> = None;
+        for kept in RIPPLE_KEPT {
+            let Some(margins) = margins_at(spec, order, kept, middle) else {
+                continue;
+            };
+            if let Some(rank) = search.try_candidate(order, margins)? {
+                if best_kept.is_none_or(|(_, b)| rank.better_than(&b)) {
+                    best_kept = Some((kept, rank));
+                }
+            }
         }
-        let refuse = |why: String| Candidate {
-            order,
-            margins,
-            result: CandidateResult::Refused { why },
+        // The other splits at the best ripple; when no ripple built at
+        // the middle split (a deeper floor can push a ladder part out of
+        // its range), at every ripple.
+        let ripples = match best_kept {
+            Some((kept, _)) => vec![kept],
+            None => RIPPLE_KEPT.to_vec(),
         };
-        if order > synth::max_order(family) {
-            candidates.push(refuse(format!(
-                "order {order} is above the highest to which {family} ladders are synthesized accurately ({})",
-                synth::max_order(family)
-            )));
-            continue;
+        for kept in ripples {
+            for split in SELECTIVITY_SPLIT.into_iter().filter(|&s| s != middle) {
+                if let Some(margins) = margins_at(spec, order, kept, split) {
+                    search.try_candidate(order, margins)?;
+                }
+            }
         }
-        let (d, active) = match build(spec, order, minimum, margins) {
+    }
+    search.finish()
+}
+
+/// The state of a search: every candidate so far and the best.
+struct Search<'a> {
+    spec: &'a Spec,
+    goal: YieldGoal,
+    minimum: usize,
+    /// The most candidates it may try, for the progress display.
+    most: usize,
+    progress: Option<SearchProgress<'a>>,
+    candidates: Vec<Candidate>,
+    /// The best so far: its index, standing and builds.
+    best: Option<(usize, Rank, Design, ActiveDesign)>,
+    /// The first refusal, for a search that builds nothing.
+    first_refusal: Option<DesignError>,
+    /// Op-amps and parts of the current order's builds (the margins
+    /// change values, not the topology).
+    size: Option<(usize, usize)>,
+}
+
+impl Search<'_> {
+    /// Whether a build of this size cannot beat a candidate that already
+    /// reaches the target.
+    fn outnumbered(&self, size: (usize, usize)) -> bool {
+        self.best
+            .as_ref()
+            .is_some_and(|(_, rank, ..)| rank.reaches && size > (rank.opamps, rank.parts))
+    }
+
+    /// Builds a candidate and draws its boards (unless it is refused or
+    /// outnumbered); returns its standing when drawn.
+    fn try_candidate(
+        &mut self,
+        order: usize,
+        margins: Margins,
+    ) -> Result<Option<Rank>, DesignError> {
+        if let Some(report) = self.progress {
+            report(self.candidates.len(), self.most);
+        }
+        let push = |search: &mut Self, result| {
+            search.candidates.push(Candidate {
+                order,
+                margins,
+                result,
+            })
+        };
+        if let Some((opamps, parts)) = self.size.filter(|&size| self.outnumbered(size)) {
+            push(self, CandidateResult::Outnumbered { opamps, parts });
+            return Ok(None);
+        }
+        let (d, active) = match build(self.spec, order, self.minimum, margins) {
             Ok(Ok(b)) => b,
             Ok(Err(why)) => {
-                candidates.push(refuse(why));
-                continue;
+                push(self, CandidateResult::Refused { why });
+                return Ok(None);
             }
             Err(e) if e.blame() == Blame::Input => {
-                candidates.push(refuse(e.to_string()));
-                first_refusal.get_or_insert(e);
-                continue;
+                push(self, CandidateResult::Refused { why: e.to_string() });
+                self.first_refusal.get_or_insert(e);
+                return Ok(None);
             }
             Err(fault) => return Err(fault),
         };
-        let opamps = active.on_parts.netlist.count(ElementKind::OpAmp);
-        let parts = count_parts(&active);
-        let outnumbered = best.as_ref().is_some_and(|(_, rank, ..)| {
-            rank.reaches && (opamps, parts) > (rank.opamps, rank.parts)
-        });
-        if outnumbered {
-            candidates.push(Candidate {
-                order,
-                margins,
-                result: CandidateResult::Outnumbered { opamps, parts },
-            });
-            continue;
+        let size = (
+            active.on_parts.netlist.count(ElementKind::OpAmp),
+            count_parts(&active),
+        );
+        let (opamps, parts) = size;
+        self.size = Some(size);
+        if self.outnumbered(size) {
+            push(self, CandidateResult::Outnumbered { opamps, parts });
+            return Ok(None);
         }
-        let mc = d.monte_carlo(&active, true, d.trials(&active), seed, None)?;
+        let seed = self.spec.montecarlo.seed;
+        let mc = screened(self.goal.target, d.trials(&active), |boards| {
+            d.monte_carlo(&active, true, boards, seed, None)
+        })?;
         let nominal_margin_db = d.verdict(&active.on_parts.netlist)?.margin_db;
         let rank = Rank {
-            reaches: mc.yield_fraction >= goal.target,
+            reaches: mc.yield_fraction >= self.goal.target,
             opamps,
             parts,
             yield_fraction: mc.yield_fraction,
             margin_db: nominal_margin_db,
         };
-        candidates.push(Candidate {
-            order,
-            margins,
-            result: CandidateResult::Measured {
-                opamps,
-                parts,
-                nominal_margin_db,
-                boards: mc.trials,
-                boards_meeting: mc.passed,
-                yield_fraction: mc.yield_fraction,
-                yield_interval_95: interval_95(&mc),
-            },
-        });
-        if best.as_ref().is_none_or(|(_, b, ..)| rank.better_than(b)) {
-            best = Some((candidates.len() - 1, rank, d, active));
+        push(self, measured(&mc, opamps, parts, nominal_margin_db));
+        if self
+            .best
+            .as_ref()
+            .is_none_or(|(_, b, ..)| rank.better_than(b))
+        {
+            self.best = Some((self.candidates.len() - 1, rank, d, active));
         }
+        Ok(Some(rank))
     }
-    let Some((chosen, rank, mut d, active)) = best else {
-        // Nothing could be built: the minimum order's own refusal says why.
-        return Err(first_refusal.unwrap_or_else(|| unreachable_refusal(spec)));
-    };
-    let tolerance_changes = match rank.reaches {
-        true => Vec::new(),
-        false => tolerance_changes(&d, &active, goal.target, seed)?,
-    };
-    d.yield_search = Some(YieldSearch {
-        goal,
-        minimum_order: minimum,
-        seed,
-        candidates,
-        chosen,
-        reached: rank.reaches,
-        tolerance_changes,
-    });
-    Ok((d, active))
+
+    /// The delivered design with the search's account.
+    fn finish(self) -> Result<(Design, ActiveDesign), DesignError> {
+        let Search {
+            spec,
+            goal,
+            minimum,
+            mut candidates,
+            best,
+            first_refusal,
+            ..
+        } = self;
+        let Some((chosen, rank, mut d, active)) = best else {
+            // Nothing could be built: the minimum order's own refusal
+            // says why.
+            return Err(first_refusal.unwrap_or_else(|| nothing_built(spec)));
+        };
+        let seed = spec.montecarlo.seed;
+        // A delivered candidate that was screened out on its first boards
+        // is drawn on the full count, so that its row and the delivered
+        // design's yield are one figure.
+        if let CandidateResult::Measured {
+            boards,
+            opamps,
+            parts,
+            nominal_margin_db,
+            ..
+        } = candidates[chosen].result
+        {
+            if boards < d.trials(&active) {
+                let mc = d.monte_carlo(&active, true, d.trials(&active), seed, None)?;
+                candidates[chosen].result = measured(&mc, opamps, parts, nominal_margin_db);
+            }
+        }
+        let tolerance_changes = match rank.reaches {
+            true => Vec::new(),
+            false => tolerance_changes(&d, &active, goal.target, seed)?,
+        };
+        d.yield_search = Some(YieldSearch {
+            goal,
+            minimum_order: minimum,
+            seed,
+            candidates,
+            chosen,
+            reached: rank.reaches,
+            tolerance_changes,
+        });
+        Ok((d, active))
+    }
+}
+
+/// A candidate with its boards drawn.
+fn measured(
+    mc: &MonteCarloResult,
+    opamps: usize,
+    parts: usize,
+    nominal_margin_db: f64,
+) -> CandidateResult {
+    CandidateResult::Measured {
+        opamps,
+        parts,
+        nominal_margin_db,
+        boards: mc.trials,
+        boards_meeting: mc.passed,
+        yield_fraction: mc.yield_fraction,
+        yield_interval_95: interval_95(mc),
+    }
 }
 
 /// A measured candidate's standing.
@@ -320,8 +460,8 @@ impl Rank {
     }
 }
 
-/// The builds of one candidate, or why the prototype cannot serve (it
-/// misses the specification's stopband with these margins).
+/// The builds of one candidate, or why the prototype cannot serve (with
+/// margins, it misses the specification's stopband).
 fn build(
     spec: &Spec,
     order: usize,
@@ -329,7 +469,10 @@ fn build(
     margins: Margins,
 ) -> Result<Result<(Design, ActiveDesign), String>, DesignError> {
     let d = design_for(spec, Some(SearchOrder { order, minimum }), margins)?;
-    if d.mask.meets_mask == Some(false) {
+    // The ladder for the specification itself is built as the design
+    // file asks even when a given order misses the mask (the verdicts
+    // then say so, as without [yield]).
+    if margins != Margins::NONE && d.mask.meets_mask == Some(false) {
         return Ok(Err(format!(
             "the order-{order} prototype with these margins misses the stopband attenuation at the stopband edge"
         )));
@@ -338,15 +481,15 @@ fn build(
     Ok(Ok((d, active)))
 }
 
-/// The error for a search with no candidate at all (every order above
-/// the synthesis limit, which the minimum order is not: [`design`]
-/// refuses it first).
-fn unreachable_refusal(spec: &Spec) -> DesignError {
+/// The error for a search that built nothing and met no refusal on the
+/// way (the ladder for the specification itself is never refused for its
+/// mask, so this does not arise; it is said as what it would mean).
+fn nothing_built(spec: &Spec) -> DesignError {
     crate::spec::SpecError::Invalid {
         file: spec.file.clone(),
-        key: "yield.max_extra_order",
-        got: "(no order)".to_string(),
-        expected: "an order the synthesis holds".to_string(),
+        key: "yield",
+        got: "(no candidate)".to_string(),
+        expected: "a specification some candidate order and margins can build".to_string(),
     }
     .into()
 }
@@ -364,11 +507,12 @@ fn count_parts(active: &ActiveDesign) -> usize {
     .sum()
 }
 
-/// The margins tried at `order`: [`RIPPLE_KEPT`] times
-/// [`SELECTIVITY_SPLIT`]. Without a stopband in the specification only
-/// the ripple moves; a split the order's selectivity cannot carry (the
-/// prototype with less ripple misses the stopband edge) is left out.
-fn candidate_margins(spec: &Spec, order: usize) -> Vec<Margins> {
+/// The margins at `order` that keep `kept` of the specification's ripple
+/// and give the selectivity's slack by `split` (see
+/// [`SELECTIVITY_SPLIT`]); without a stopband in the specification only
+/// the ripple moves. `None` when the order cannot carry them (the
+/// prototype with less ripple misses the stopband edge).
+fn margins_at(spec: &Spec, order: usize, kept: f64, split: f64) -> Option<Margins> {
     let PrototypeSource::Family {
         family,
         passband_ripple_db,
@@ -376,45 +520,34 @@ fn candidate_margins(spec: &Spec, order: usize) -> Vec<Margins> {
         ..
     } = spec.prototype
     else {
-        return Vec::new();
+        return None;
+    };
+    let ripple_db = passband_ripple_db * kept;
+    let ripple_margin = passband_ripple_db - ripple_db;
+    let Some((ws, attenuation_db)) = spec.band.normalized_stopband().zip(stopband_attenuation_db)
+    else {
+        return Some(Margins {
+            passband_ripple_db: ripple_margin,
+            ..Margins::NONE
+        });
     };
     let ratio = spec.load_ohm / spec.source_ohm;
-    let mask = spec.band.normalized_stopband().zip(stopband_attenuation_db);
-    let mut out = Vec::new();
-    for kept in RIPPLE_KEPT {
-        let ripple_db = passband_ripple_db * kept;
-        let ripple_margin = passband_ripple_db - ripple_db;
-        let Some((ws, attenuation_db)) = mask else {
-            out.push(Margins {
-                passband_ripple_db: ripple_margin,
-                ..Margins::NONE
-            });
-            continue;
-        };
-        let proto = |att: f64| prototype_at(family, order, ripple_db, att, ratio).ok();
-        for split in SELECTIVITY_SPLIT {
-            let (extra_db, p) = if family.finite_zeros() {
-                let Some(most) = most_attenuation(&proto, attenuation_db, ws) else {
-                    continue;
-                };
-                let extra = split * (most - attenuation_db);
-                (extra, proto(attenuation_db + extra))
-            } else {
-                (0.0, proto(attenuation_db))
-            };
-            let Some(reached) = p.and_then(|p| reach(&p, attenuation_db, ws)) else {
-                continue;
-            };
-            let octaves = (ws / reached).log2();
-            let edge_share = if family.finite_zeros() { 0.5 } else { split };
-            out.push(Margins {
-                passband_ripple_db: ripple_margin,
-                stopband_attenuation_db: extra_db,
-                edge_scale: 2f64.powf(edge_share * octaves),
-            });
-        }
-    }
-    out
+    let proto = |att: f64| prototype_at(family, order, ripple_db, att, ratio).ok();
+    let (extra_db, p) = if family.finite_zeros() {
+        let most = most_attenuation(&proto, attenuation_db, ws)?;
+        let extra = split * (most - attenuation_db);
+        (extra, proto(attenuation_db + extra))
+    } else {
+        (0.0, proto(attenuation_db))
+    };
+    let reached = reach(&p?, attenuation_db, ws)?;
+    let octaves = (ws / reached).log2();
+    let edge_share = if family.finite_zeros() { 0.5 } else { split };
+    Some(Margins {
+        passband_ripple_db: ripple_margin,
+        stopband_attenuation_db: extra_db,
+        edge_scale: 2f64.powf(edge_share * octaves),
+    })
 }
 
 /// Where `p` first reaches `attenuation_db` at or below `ws` (normalized
@@ -486,16 +619,18 @@ fn tolerance_changes(
     let run = |class: Option<PartClass>,
                changes: &[(Vec<crate::analysis::Scope>, f64)],
                tolerance: f64| {
-        d.monte_carlo_tightened(active, true, changes, trials, seed, None)
-            .map(|mc| ToleranceChange {
-                class,
-                tolerance,
-                boards: mc.trials,
-                boards_meeting: mc.passed,
-                yield_fraction: mc.yield_fraction,
-                yield_interval_95: interval_95(&mc),
-                reaches_target: mc.yield_fraction >= target,
-            })
+        screened(target, trials, |boards| {
+            d.monte_carlo_tightened(active, true, changes, boards, seed, None)
+        })
+        .map(|mc| ToleranceChange {
+            class,
+            tolerance,
+            boards: mc.trials,
+            boards_meeting: mc.passed,
+            yield_fraction: mc.yield_fraction,
+            yield_interval_95: interval_95(&mc),
+            reaches_target: mc.yield_fraction >= target,
+        })
     };
     let mut out = Vec::new();
     for (class, scopes, tolerance) in &classes {

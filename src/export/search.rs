@@ -158,6 +158,7 @@ pub fn search_table(s: &YieldSearch) -> Table {
                     opamps,
                     parts,
                     nominal_margin_db,
+                    boards,
                     yield_fraction,
                     yield_interval_95,
                     ..
@@ -165,7 +166,10 @@ pub fn search_table(s: &YieldSearch) -> Table {
                     opamps.to_string(),
                     parts.to_string(),
                     db(*nominal_margin_db),
-                    yield_words(*yield_fraction, *yield_interval_95),
+                    format!(
+                        "{} of {boards} boards",
+                        yield_words(*yield_fraction, *yield_interval_95)
+                    ),
                 ],
                 CandidateResult::Outnumbered { opamps, parts } => vec![
                     opamps.to_string(),
@@ -188,7 +192,7 @@ pub fn search_table(s: &YieldSearch) -> Table {
         .collect();
     Table {
         caption: format!(
-            "Design for yield: every candidate tried, its boards drawn with seed {} (the same boards for every candidate) and tuned; the {} build's nominal margin against the specification",
+            "Design for yield: every candidate tried, its boards drawn with seed {} (the same boards for every candidate, the first of them only where those already rule the target out) and tuned; the {} build's nominal margin against the specification",
             s.seed,
             Build::ActiveOnParts
         ),
