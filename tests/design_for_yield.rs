@@ -13,10 +13,12 @@ use nocoil::spec::Spec;
 
 use crate::tuning::{ngspice_yield_z, Z99};
 
-/// A shipped example with `extra` appended to its design file.
+/// A shipped example with its own `[yield]` table (the last) replaced by
+/// `extra`.
 fn example_with(file: &str, extra: &str) -> Spec {
     let path = Path::new("examples").join(file);
-    let text = std::fs::read_to_string(&path).unwrap() + extra;
+    let text = std::fs::read_to_string(&path).unwrap();
+    let text = text.split("\n[yield]").next().unwrap().to_string() + extra;
     Spec::from_toml(&path, &text).unwrap()
 }
 
@@ -170,18 +172,51 @@ fn a_missed_target_keeps_its_margins_and_names_a_tolerance_that_reaches_it() {
 
 /// The delivered design's yield before tuning against an independent
 /// Monte Carlo in ngspice on its own soldered deck (see
-/// `tuning::ngspice_yield_z`): the vibration example searched without
-/// op-amp spread, whose delivered design (order 9, ripple and floor
-/// margins, edge pre-widened) yields about half its boards before
-/// tuning, where a wrong draw or a wrong margin shows most.
-#[test]
-fn the_delivered_design_agrees_with_a_monte_carlo_in_ngspice() {
-    let spec = example_with(
-        "vibration-antialias.toml",
-        "\n[yield]\ntarget = 0.99\n[montecarlo]\ngbw_spread = 0\n",
-    );
-    let (d, a) = searched(&spec);
-    assert_ne!(d.margins, Margins::NONE);
+/// `tuning::ngspice_yield_z`), searched without op-amp spread (which
+/// ngspice's `alter` cannot vary): within the 99 % two-proportion
+/// interval (common practice).
+fn delivered_agrees_with_ngspice(spec: &Spec) {
+    let (mut d, a) = searched(spec);
+    // The check reads magnitudes from ngspice: a [delay] bound (the echo
+    // example's) is left to nocoil's own delay checks, and both sides
+    // judge the boards by the magnitude mask alone.
+    d.spec.delay = None;
     let z = ngspice_yield_z(&d, &a);
-    assert!(z.abs() < Z99, "z = {z}");
+    assert!(z.abs() < Z99, "{}: z = {z}", spec.file.display());
+}
+
+/// The search's goal without op-amp spread.
+const GOAL_NO_SPREAD: &str = "\n[yield]\ntarget = 0.99\n[montecarlo]\ngbw_spread = 0\n";
+
+/// The vibration example, whose delivered design (ripple and floor
+/// margins, edge pre-widened, a higher order) yields about half its
+/// boards before tuning, where a wrong draw or a wrong margin shows most.
+#[test]
+fn the_delivered_vibration_design_agrees_with_ngspice() {
+    let spec = example_with("vibration-antialias.toml", GOAL_NO_SPREAD);
+    delivered_agrees_with_ngspice(&spec);
+}
+
+/// The other examples with a `[yield]` table.
+#[test]
+fn the_other_delivered_examples_agree_with_ngspice() {
+    for file in [
+        "birdsong-bandpass.toml",
+        "echo-timing-bessel.toml",
+        "mains-notch.toml",
+        "rumble-highpass.toml",
+    ] {
+        delivered_agrees_with_ngspice(&example_with(file, GOAL_NO_SPREAD));
+    }
+}
+
+/// The Q = 20 bandpass and the 60 Hz bandstop the design-for-yield issue
+/// names (tuning::BAND_FILTERS).
+#[test]
+fn the_delivered_band_filters_agree_with_ngspice() {
+    for (name, text) in &crate::tuning::BAND_FILTERS[1..] {
+        let path = Path::new(name).with_extension("toml");
+        let spec = Spec::from_toml(&path, &(text.to_string() + GOAL_NO_SPREAD)).unwrap();
+        delivered_agrees_with_ngspice(&spec);
+    }
 }

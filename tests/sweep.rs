@@ -158,8 +158,10 @@ fn sweep_command_prints_the_dense_values() {
         "{}",
         String::from_utf8_lossy(&run.stderr)
     );
-    let d = design(&Spec::load(&spec).unwrap()).unwrap();
-    let on_parts = d.active().unwrap().on_parts.netlist;
+    // The example has a [yield] table: the command sweeps the delivered
+    // design of its search.
+    let (d, a) = nocoil::design::design_for_yield(&Spec::load(&spec).unwrap(), None).unwrap();
+    let on_parts = a.on_parts.netlist;
     let (lo, hi) = d.view_hz();
     let freqs = log_grid(lo, hi, 301).unwrap();
     let mut reader = csv::Reader::from_reader(run.stdout.as_slice());

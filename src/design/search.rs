@@ -299,6 +299,14 @@ impl Search<'_> {
         order: usize,
         margins: Margins,
     ) -> Result<Option<Rank>, DesignError> {
+        // Without a stopband the splits give the same margins: tried once.
+        if self
+            .candidates
+            .iter()
+            .any(|c| (c.order, c.margins) == (order, margins))
+        {
+            return Ok(None);
+        }
         if let Some(report) = self.progress {
             report(self.candidates.len(), self.most);
         }
@@ -510,7 +518,9 @@ fn count_parts(active: &ActiveDesign) -> usize {
 /// The margins at `order` that keep `kept` of the specification's ripple
 /// and give the selectivity's slack by `split` (see
 /// [`SELECTIVITY_SPLIT`]); without a stopband in the specification only
-/// the ripple moves. `None` when the order cannot carry them (the
+/// the ripple moves: the selectivity is then not the search's to spend
+/// (a Q = 20 bandpass widened would meet its passband mask better and be
+/// a different filter). `None` when the order cannot carry them (the
 /// prototype with less ripple misses the stopband edge).
 fn margins_at(spec: &Spec, order: usize, kept: f64, split: f64) -> Option<Margins> {
     let PrototypeSource::Family {

@@ -371,7 +371,7 @@ impl Display for OrderChoice {
             OrderChoice::ForYield { minimum } => {
                 write!(
                     f,
-                    "chosen for yield, searched from {minimum}, the order without [yield]"
+                    "chosen by the search over orders from {minimum}, the order of the specification alone"
                 )
             }
             OrderChoice::Computed {

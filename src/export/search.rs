@@ -102,7 +102,10 @@ pub fn search_words(s: &YieldSearch) -> String {
         ..
     } = c.result
     else {
-        return format!("design for yield: {target} asked; {tried}");
+        return format!(
+            "design for yield ({}): {target} asked; {tried}",
+            Build::ActiveOnParts
+        );
     };
     let delivered = format!(
         "order {} (searched from {}), {opamps} op-amps: {} after tuning",
@@ -112,7 +115,8 @@ pub fn search_words(s: &YieldSearch) -> String {
     );
     if s.reached {
         return format!(
-            "design for yield: {target} of boards asked, reached by {delivered} ({tried})"
+            "design for yield ({}): {target} of boards asked, reached by {delivered} ({tried})",
+            Build::ActiveOnParts
         );
     }
     let top = s.minimum_order + s.goal.max_extra_order;
@@ -135,7 +139,8 @@ pub fn search_words(s: &YieldSearch) -> String {
         )
     };
     format!(
-        "design for yield: {target} of boards asked and not reached by any candidate up to order {top}; delivered the highest yield, {delivered}; {next} ({tried})"
+        "design for yield ({}): {target} of boards asked and not reached by any candidate up to order {top}; delivered the highest yield, {delivered}; {next} ({tried})",
+        Build::ActiveOnParts
     )
 }
 
