@@ -609,11 +609,40 @@ fn most_attenuation(
     Some(lo)
 }
 
+/// The loosest of `steps` (loosest first) whose change reaches the
+/// target, or the tightest when none does (`None` without steps). The
+/// yield grows as a tolerance shrinks on the same boards (each draw is
+/// the same fraction of it), so the steps are bisected.
+fn loosest(
+    steps: &[f64],
+    at: impl Fn(f64) -> Result<ToleranceChange, DesignError>,
+) -> Result<Option<ToleranceChange>, DesignError> {
+    let Some(&tightest) = steps.last() else {
+        return Ok(None);
+    };
+    let mut found = at(tightest)?;
+    if found.reaches_target {
+        let (mut lo, mut hi) = (0, steps.len() - 1);
+        while lo < hi {
+            let mid = (lo + hi) / 2;
+            let change = at(steps[mid])?;
+            if change.reaches_target {
+                hi = mid;
+                found = change;
+            } else {
+                lo = mid + 1;
+            }
+        }
+    }
+    Ok(Some(found))
+}
+
 /// For each class of parts (not the op-amps' gain-bandwidth, which no
 /// part order buys), the loosest standard tolerance below the design
 /// file's that makes `d` reach `target` on the same boards; a class no
 /// step of [`TOLERANCE_STEPS`] gets there is reported at the tightest;
-/// and when no class alone gets there, every class at once.
+/// and when no class alone gets there, the loosest step for every class
+/// at once (a class already tighter keeps its own).
 fn tolerance_changes(
     d: &Design,
     active: &ActiveDesign,
@@ -648,36 +677,26 @@ fn tolerance_changes(
             .into_iter()
             .filter(|&t| t < *tolerance)
             .collect();
-        let Some(&tightest) = steps.last() else {
-            continue;
-        };
-        let at = |t: f64| run(Some(*class), &[(scopes.clone(), t)], t);
-        let mut found = at(tightest)?;
-        if found.reaches_target {
-            // The yield grows as the tolerance shrinks on the same boards
-            // (each draw is the same fraction of it), so bisect the steps
-            // for the loosest that still reaches.
-            let (mut lo, mut hi) = (0, steps.len() - 1);
-            while lo < hi {
-                let mid = (lo + hi) / 2;
-                let change = at(steps[mid])?;
-                if change.reaches_target {
-                    hi = mid;
-                    found = change;
-                } else {
-                    lo = mid + 1;
-                }
-            }
+        if let Some(found) = loosest(&steps, |t| run(Some(*class), &[(scopes.clone(), t)], t))? {
+            out.push(found);
         }
-        out.push(found);
     }
     if !out.iter().any(|c| c.reaches_target) && classes.len() > 1 {
-        let tightest = TOLERANCE_STEPS[TOLERANCE_STEPS.len() - 1];
-        let all: Vec<_> = classes
-            .iter()
-            .map(|(_, scopes, _)| (scopes.clone(), tightest))
+        // Every class at one step: below the loosest class's tolerance.
+        let loosest_class = classes.iter().map(|c| c.2).fold(0.0, f64::max);
+        let steps: Vec<f64> = TOLERANCE_STEPS
+            .into_iter()
+            .filter(|&t| t < loosest_class)
             .collect();
-        out.push(run(None, &all, tightest)?);
+        let all = |t: f64| -> Vec<_> {
+            classes
+                .iter()
+                .map(|(_, scopes, tolerance)| (scopes.clone(), t.min(*tolerance)))
+                .collect()
+        };
+        if let Some(found) = loosest(&steps, |t| run(None, &all(t), t))? {
+            out.push(found);
+        }
     }
     Ok(out)
 }
