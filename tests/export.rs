@@ -941,6 +941,11 @@ fn report_renders_in_headless_chromium() {
     );
 }
 
+/// The screenshot's size, pixels.
+const SHOT_WIDTH: usize = 1000;
+/// See [`SHOT_WIDTH`].
+const SHOT_HEIGHT: usize = 1800;
+
 /// Screenshots `page` in headless Chromium into `shot` and checks it is a
 /// real page with the charts drawn; returns the browser, or `None` where
 /// Chromium is not installed outside CI (see
@@ -957,14 +962,17 @@ fn assert_renders(page: &Path, shot: &Path) -> Option<PathBuf> {
     let _ = std::fs::remove_file(shot);
     let args = [
         format!("--screenshot={}", shot.display()),
-        "--window-size=1000,1400".to_string(),
+        // Tall enough for the summary (which grows by a row for a yield
+        // below 99 %: the next step) and the first two rows of figures,
+        // where the mask's limits are drawn.
+        format!("--window-size={SHOT_WIDTH},{SHOT_HEIGHT}"),
         "--hide-scrollbars".to_string(),
     ];
     let took = chromium(&browser, &args, page);
     eprintln!("chromium screenshot of the report took {took:.1?}");
     let bytes = std::fs::read(shot).expect("chromium wrote the screenshot");
     let pixels = Pixels::decode(&bytes);
-    assert_eq!((pixels.width, pixels.height), (1000, 1400));
+    assert_eq!((pixels.width, pixels.height), (SHOT_WIDTH, SHOT_HEIGHT));
     let white = near(&pixels, (255, 255, 255), 0);
     let total = pixels.width * pixels.height;
     let colors: std::collections::HashSet<&[u8]> = pixels.rgb.chunks(3).collect();

@@ -6,7 +6,7 @@ use super::bom::{tally, BomRow};
 use super::eng::format_trimmed as eng;
 use super::html::{html_report, Figure, ReportDoc, Table};
 use super::prose::{db, factor, level_warnings, opamp_model, scale_words, signed};
-use super::search::{margins_words, search_table, search_words};
+use super::search::{margins_words, next_step_words, search_table, search_words};
 use super::summary::{edges, verdict_line, yield_line};
 use crate::analysis::Parameter;
 use crate::design::{Build, Documents};
@@ -84,6 +84,9 @@ pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> Strin
     ];
     if let Some(search) = &r.yield_search {
         summary.insert(2, ("design for yield".to_string(), search_words(search)));
+    }
+    if let Some(words) = next_step_words(r) {
+        summary.insert(2, ("next step".to_string(), words));
     }
     if let Some(words) = margins_words(r) {
         summary.push(("margins".to_string(), words));

@@ -66,6 +66,20 @@ pub fn margins_words(r: &Report) -> Option<String> {
     Some(format!("synthesized for {}", and_list(&parts)))
 }
 
+/// What to do next when a design without a `[yield]` table yields below
+/// 99 % of boards (a family's: a prototype table fixes its ladder):
+/// `None` otherwise.
+pub fn next_step_words(r: &Report) -> Option<String> {
+    let o = r.outcome.as_ref()?;
+    let open = r.yield_search.is_none() && r.family.is_some() && o.yield_fraction < 0.99;
+    open.then(|| {
+        format!(
+            "{}: to raise the yield, a [yield] table (target = 0.99) lets nocoil choose the order and the margins inside the specification, and name the tolerances that reach it",
+            Build::ActiveOnParts
+        )
+    })
+}
+
 /// A tolerance change in words: "ladder capacitors at 0.5 %: 99.40 %
 /// (95 % interval ...)".
 fn change_words(c: &ToleranceChange) -> String {

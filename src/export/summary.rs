@@ -360,6 +360,9 @@ pub fn summary(d: &Documents) -> String {
     if let Some(line) = payoff_line(d) {
         let _ = writeln!(s, "{line}");
     }
+    if let Some(line) = super::search::next_step_words(r) {
+        let _ = writeln!(s, "{line}");
+    }
     if let Some(d) = delay {
         let _ = writeln!(
             s,
