@@ -306,9 +306,9 @@ const NGSPICE_BOARDS: usize = 400;
 const NOCOIL_BOARDS: usize = 2000;
 
 /// Points per decade of the ngspice sweeps, interpolated (linear in dB
-/// over log frequency) onto nocoil's Monte Carlo grid: at 400 the
-/// interpolation moves the bird-survey response by under 1e-4 dB
-/// between points, far below what decides a board.
+/// over log frequency) onto nocoil's Monte Carlo grid and its
+/// refinements: at 400 the interpolation moves the bird-survey response
+/// by under 1e-4 dB between points, far below what decides a board.
 const NGSPICE_PER_DECADE: usize = 400;
 
 /// The 99 % two-sided normal quantile (common practice).
@@ -367,17 +367,27 @@ pub fn ngspice_yield_z(d: &Design, a: &ActiveDesign) -> f64 {
     let grid = d.monte_carlo_grid().unwrap();
     let mask = nocoil::analysis::Mask::new(d.yield_limits()).unwrap();
     let mut met = 0;
+    // Each board judged as nocoil judges its own: on the Monte Carlo grid,
+    // refined around its ripple peaks, ngspice's response read at any
+    // frequency by interpolation (linear in dB over log frequency).
     for b in rows.chunks(per_board) {
-        let gain: Vec<f64> = grid
-            .iter()
-            .map(|&f| {
-                let i = b.partition_point(|r| r[0] < f).clamp(1, b.len() - 1);
-                let (f0, f1) = (b[i - 1][0].ln(), b[i][0].ln());
-                let t = (f.ln() - f0) / (f1 - f0);
-                b[i - 1][1] + t * (b[i][1] - b[i - 1][1])
+        let at = |freqs: &[f64]| -> Vec<f64> {
+            freqs
+                .iter()
+                .map(|&f| {
+                    let i = b.partition_point(|r| r[0] < f).clamp(1, b.len() - 1);
+                    let (f0, f1) = (b[i - 1][0].ln(), b[i][0].ln());
+                    let t = (f.ln() - f0) / (f1 - f0);
+                    b[i - 1][1] + t * (b[i][1] - b[i - 1][1])
+                })
+                .collect()
+        };
+        let v = mask
+            .refined_verdict(&grid, &at(&grid), nocoil::analysis::REFINE_BAND_DB, |z| {
+                Ok::<_, nocoil::analysis::AnalysisError>(at(z))
             })
-            .collect();
-        met += usize::from(mask.verdict(&grid, &gain).unwrap().meets);
+            .unwrap();
+        met += usize::from(v.meets);
     }
     // nocoil's boards judged as ngspice's are, by the magnitude mask
     // alone: an AC analysis cannot see that a board is unstable, which

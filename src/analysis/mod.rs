@@ -42,7 +42,7 @@ pub use error::AnalysisError;
 pub use levels::{
     input_limits_v, level_traces, opamp_levels, output_currents, OpAmpLevel, LEVEL_POINTS,
 };
-pub use mask::{Limit, Mask, MaskVerdict};
+pub use mask::{Limit, Mask, MaskVerdict, REFINE_BAND_DB, VERDICT_ZOOMS, VERDICT_ZOOM_POINTS};
 pub use montecarlo::{
     monte_carlo, wilson_interval, Envelope, MonteCarlo, MonteCarloResult, Scope, StabilityJudge,
     ToleranceRule, TrialSummary, Varied, BLOCK_TRIALS, MEDIAN_BINS, Z95,

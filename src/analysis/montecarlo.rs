@@ -39,7 +39,7 @@ use rand_chacha::rand_core::SeedableRng;
 use rand_chacha::ChaCha8Rng;
 use rayon::prelude::*;
 
-use super::mask::{closest, Check, Closest, Mask};
+use super::mask::{closest, Check, Closest, Mask, REFINE_BAND_DB};
 use super::spread::{DelayLimit, DelayVerdict};
 use super::{AnalysisError, Parameter, Tuning};
 use crate::circuit::{AcSystem, CircuitError, Element, ElementKind, Netlist, OpAmpModel, SparseAc};
@@ -380,7 +380,7 @@ impl Run<'_> {
         worker: &mut Worker,
         trial: usize,
         row: &mut [f64],
-    ) -> Result<TrialSummary, CircuitError> {
+    ) -> Result<TrialSummary, AnalysisError> {
         let mut rng = trial_rng(self.setup.seed, trial);
         for knob in self.knobs {
             knob.set(
@@ -403,7 +403,27 @@ impl Run<'_> {
             limit_db: f64::INFINITY,
             lower_bound: false,
         });
-        let margin_db = near.margin_db;
+        let (mut margin_db, mut at_hz, mut gain_db, mut limit_db, mut lower_bound) = (
+            near.margin_db,
+            self.setup.freqs_hz[near.point],
+            row[near.point],
+            near.limit_db,
+            near.lower_bound,
+        );
+        // A board is judged as the verdicts are, refined around every
+        // ripple peak that may come within REFINE_BAND_DB of a limit, so
+        // neither its pass nor its margin depends on where the grid's
+        // points fell.
+        let v =
+            self.setup
+                .mask
+                .refined_verdict(self.setup.freqs_hz, row, REFINE_BAND_DB, |zoom| {
+                    worker.gains_db(self.setup, zoom)
+                })?;
+        if v.margin_db < margin_db {
+            (margin_db, at_hz, gain_db, limit_db, lower_bound) =
+                (v.margin_db, v.at_hz, v.gain_db, v.limit_db, v.lower_bound);
+        }
         let delay = match self.setup.delay {
             Some(limit) => Some(worker.delay_verdict(self.setup, limit, self.delay_grid)?),
             None => None,
@@ -424,10 +444,10 @@ impl Run<'_> {
             passed: margin_db >= 0.0 && stable && delay_ok,
             stable,
             margin_db,
-            at_hz: self.setup.freqs_hz[near.point],
-            gain_db: row[near.point],
-            limit_db: near.limit_db,
-            lower_bound: near.lower_bound,
+            at_hz,
+            gain_db,
+            limit_db,
+            lower_bound,
             max_deviation_db,
             delay_spread_s,
             delay_ok,
@@ -447,12 +467,35 @@ struct Worker {
     /// took 16 ms per board in the dense fallback, 2.5 ms so).
     delay_sparse: Option<SparseAc>,
     h: Vec<num_complex::Complex64>,
+    /// Whether `sparse` holds the current board (its refill succeeded).
+    sparse_current: bool,
     /// The delay grid's transfer and delay (unused without a limit).
     hd: Vec<num_complex::Complex64>,
     delay_s: Vec<f64>,
 }
 
 impl Worker {
+    /// The gain, dB, of the board the system holds (after
+    /// [`Worker::sweep`]) at `freqs_hz` within the grid's span.
+    fn gains_db(
+        &mut self,
+        setup: &MonteCarlo<'_>,
+        freqs_hz: &[f64],
+    ) -> Result<Vec<f64>, AnalysisError> {
+        let mut h = Vec::with_capacity(freqs_hz.len());
+        match self.sparse.as_mut() {
+            Some(sparse) if self.sparse_current => {
+                sparse.sweep_into(freqs_hz, setup.out, setup.inp, &mut h)?
+            }
+            _ => {
+                for &f in freqs_hz {
+                    h.push(self.system.transfer(f, setup.out, setup.inp)?);
+                }
+            }
+        }
+        Ok(h.into_iter().map(db).collect())
+    }
+
     /// Sweeps the system's current values into `h`.
     fn sweep(&mut self, setup: &MonteCarlo<'_>) -> Result<(), CircuitError> {
         // A copy of the nominal system keeps its topology, so the refill
@@ -461,6 +504,7 @@ impl Worker {
             Some(sparse) => sparse.refill(&self.system).is_ok(),
             None => false,
         };
+        self.sparse_current = refilled;
         match self.sparse.as_mut() {
             Some(sparse) if refilled => {
                 sparse.sweep_into(setup.freqs_hz, setup.out, setup.inp, &mut self.h)
@@ -544,6 +588,7 @@ pub fn monte_carlo(
             false => over(&delay_grid),
         },
         h: Vec::with_capacity(n),
+        sparse_current: false,
         hd: Vec::with_capacity(delay_grid.len()),
         delay_s: Vec::with_capacity(delay_grid.len()),
     };
@@ -582,9 +627,12 @@ pub fn monte_carlo(
             .collect_into_vec(&mut outcomes);
         // In trial order: the first trial that failed is the lowest.
         for (i, outcome) in outcomes.drain(..).enumerate() {
-            let summary = outcome.map_err(|source| AnalysisError::Trial {
-                trial: first + i,
-                source,
+            let summary = outcome.map_err(|e| match e {
+                AnalysisError::Circuit(source) => AnalysisError::Trial {
+                    trial: first + i,
+                    source,
+                },
+                other => other,
             })?;
             tally.add(summary);
         }

@@ -64,15 +64,6 @@ fn opamps(active: &ActiveDesign) -> usize {
         .count(crate::circuit::ElementKind::OpAmp)
 }
 
-/// Refinements of a verdict around its closest point, and the points each
-/// spreads between that point's two neighbours: two zooms of 32 narrow a
-/// 201-point log grid's step (2 % over two decades) to 4e-5 of the
-/// frequency, where a ripple peak's loss is within 1e-6 dB of its top.
-pub const VERDICT_ZOOMS: usize = 2;
-
-/// See [`VERDICT_ZOOMS`].
-pub const VERDICT_ZOOM_POINTS: usize = 32;
-
 /// How many of the worst trials a run reports.
 pub const WORST_TRIALS: usize = 5;
 
@@ -553,41 +544,17 @@ impl Design {
     }
 
     /// How `netlist` (a build of this design) stands against the
-    /// specification: on the Monte Carlo grid, then refined around the
-    /// closest point, [`VERDICT_ZOOMS`] times, by [`VERDICT_ZOOM_POINTS`]
-    /// points spanning its two neighbours (a ripple peak falls between
-    /// grid points: unrefined, the vibration example's margin on parts
-    /// moved by 1.9e-3 dB and a 7th-order Chebyshev highpass's by 1.0e-3
-    /// dB when the grid was doubled; refined, no verdict of
-    /// tests/design.rs's `verdicts_hold_when_the_grid_doubles` moves by
-    /// more than 1.3e-6 dB).
+    /// specification: on the Monte Carlo grid, refined around the closest
+    /// point ([`Mask::refined_verdict`]).
     pub fn verdict(&self, netlist: &Netlist) -> Result<MaskVerdict, DesignError> {
         let analysis = |cause| self.analysis_error(cause);
         let mask = Mask::new(self.mask_limits()).map_err(analysis)?;
-        let mut freqs = self.monte_carlo_grid()?;
-        let mut gain = trace(netlist, &freqs, false).map_err(analysis)?.gain_db;
-        let mut v = mask.verdict(&freqs, &gain).map_err(analysis)?;
-        for _ in 0..VERDICT_ZOOMS {
-            let i = freqs.partition_point(|&f| f < v.at_hz);
-            let (lo, hi) = (
-                freqs[i.saturating_sub(1)],
-                freqs[(i + 1).min(freqs.len() - 1)],
-            );
-            let zoom: Vec<f64> = (1..VERDICT_ZOOM_POINTS)
-                .map(|k| lo + (hi - lo) * k as f64 / VERDICT_ZOOM_POINTS as f64)
-                .filter(|f| !freqs.contains(f))
-                .collect();
-            let zoom_gain = trace(netlist, &zoom, false).map_err(analysis)?.gain_db;
-            let mut merged: Vec<(f64, f64)> = freqs
-                .into_iter()
-                .zip(gain)
-                .chain(zoom.into_iter().zip(zoom_gain))
-                .collect();
-            merged.sort_by(|a, b| a.0.total_cmp(&b.0));
-            (freqs, gain) = merged.into_iter().unzip();
-            v = mask.verdict(&freqs, &gain).map_err(analysis)?;
-        }
-        Ok(v)
+        let freqs = self.monte_carlo_grid()?;
+        let gain = trace(netlist, &freqs, false).map_err(analysis)?.gain_db;
+        mask.refined_verdict(&freqs, &gain, f64::INFINITY, |zoom| {
+            trace(netlist, zoom, false).map(|t| t.gain_db)
+        })
+        .map_err(analysis)
     }
 
     /// The Monte Carlo boards of `active`: the design file's count, or
