@@ -83,9 +83,10 @@ pub fn next_step_words(r: &Report) -> Option<String> {
 /// A tolerance change in words: "ladder capacitors at 0.5 %: 99.40 %
 /// (95 % interval ...)".
 fn change_words(c: &ToleranceChange) -> String {
-    let class = c
-        .class
-        .map_or("every part".to_string(), |class| class.to_string());
+    let class = c.class.map_or(
+        "every part (those already tighter keeping theirs)".to_string(),
+        |class| class.to_string(),
+    );
     format!(
         "{class} at {}: {}",
         percent(c.tolerance),
@@ -113,6 +114,7 @@ pub fn search_words(s: &YieldSearch) -> String {
         opamps,
         yield_fraction,
         yield_interval_95,
+        nominal_margin_db,
         ..
     } = c.result
     else {
@@ -122,10 +124,11 @@ pub fn search_words(s: &YieldSearch) -> String {
         );
     };
     let delivered = format!(
-        "order {} (searched from {}), {opamps} op-amps: {} after tuning",
+        "order {} (searched from {}), {opamps} op-amps: {}{}",
         c.order,
         s.minimum_order,
-        yield_words(yield_fraction, yield_interval_95)
+        yield_words(yield_fraction, yield_interval_95),
+        if s.tuned { " after tuning" } else { "" }
     );
     if s.reached {
         return format!(
@@ -140,6 +143,12 @@ pub fn search_words(s: &YieldSearch) -> String {
         .filter(|c| c.reaches_target)
         .map(change_words)
         .collect();
+    // A board of nominal parts that already fails is the preferred
+    // values' doing, which no tolerance changes.
+    let nominal = match nominal_margin_db < 0.0 {
+        true => "; its board of nominal parts already fails the specification (the preferred values' steps: a finer series is the first change)",
+        false => "",
+    };
     let next = if reaching.is_empty() {
         let tried: Vec<String> = s.tolerance_changes.iter().map(change_words).collect();
         format!(
@@ -153,7 +162,7 @@ pub fn search_words(s: &YieldSearch) -> String {
         )
     };
     format!(
-        "design for yield ({}): {target} of boards asked and not reached by any candidate up to order {top}; delivered the highest yield, {delivered}; {next} ({tried})",
+        "design for yield ({}): {target} of boards asked and not reached by any candidate up to order {top}; delivered the highest yield, {delivered}{nominal}; {next} ({tried})",
         Build::ActiveOnParts
     )
 }
@@ -211,20 +220,20 @@ pub fn search_table(s: &YieldSearch) -> Table {
         .collect();
     Table {
         caption: format!(
-            "Design for yield: every candidate tried, its boards drawn with seed {} (the same boards for every candidate, the first of them only where those already rule the target out) and tuned; the {} build's nominal margin against the specification",
+            "Design for yield: every candidate tried, its boards drawn with seed {} (the same boards for every candidate, the first of them only where those already rule the target out) and tuned where the procedure has steps; the {} build's nominal margin against the specification",
             s.seed,
             Build::ActiveOnParts
         ),
         header: [
             "order",
-            "ripple inside, dB",
-            "attenuation deeper, dB",
+            "ripple (or edge loss) inside, dB",
+            "floor deeper, dB",
             "edge pre-widened",
             "op-amps",
             "parts",
             "nominal margin, dB",
-            "yield after tuning",
-            "",
+            "yield",
+            "choice",
         ]
         .map(String::from)
         .to_vec(),
