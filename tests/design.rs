@@ -567,6 +567,28 @@ fn monte_carlo_trials_name_the_limit_and_where() {
     );
 }
 
+/// Every example's design file.
+fn example_specs() -> Vec<Spec> {
+    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples");
+    std::fs::read_dir(&dir)
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .filter(|p| p.extension().and_then(|e| e.to_str()) == Some("toml"))
+        .map(|p| Spec::load(&p).unwrap())
+        .collect()
+}
+
+/// `grid` with every geometric midpoint added.
+fn doubled(grid: &[f64]) -> Vec<f64> {
+    let mut doubled: Vec<f64> = grid
+        .windows(2)
+        .map(|w| (w[0] * w[1]).sqrt())
+        .chain(grid.iter().copied())
+        .collect();
+    doubled.sort_by(f64::total_cmp);
+    doubled
+}
+
 /// A verdict does not move by more than 0.001 dB against its grid doubled
 /// and then split 16 times more finely, refined around the closest point
 /// (the reference's grid once only doubled missed a deeper ripple trough
@@ -576,13 +598,7 @@ fn monte_carlo_trials_name_the_limit_and_where() {
 /// Chebyshev highpass), active exact and active on parts.
 #[test]
 fn verdicts_hold_when_the_grid_doubles() {
-    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples");
-    let mut specs: Vec<Spec> = std::fs::read_dir(&dir)
-        .unwrap()
-        .map(|e| e.unwrap().path())
-        .filter(|p| p.extension().and_then(|e| e.to_str()) == Some("toml"))
-        .map(|p| Spec::load(&p).unwrap())
-        .collect();
+    let mut specs = example_specs();
     for text in [
         "[filter]\nkind = \"lowpass\"\nfamily = \"chebyshev\"\norder = 9\npassband_edge_hz = 1000\npassband_ripple_db = 0.1\n",
         "[filter]\nkind = \"bandpass\"\nfamily = \"elliptic\"\norder = 5\npassband_edge_hz = [900, 1100]\nstopband_edge_hz = [800, 1250]\npassband_ripple_db = 0.2\nstopband_attenuation_db = 40\n",
@@ -597,12 +613,7 @@ fn verdicts_hold_when_the_grid_doubles() {
         let a = d.active().unwrap();
         let mask = nocoil::analysis::Mask::new(d.mask_limits()).unwrap();
         let grid = d.monte_carlo_grid().unwrap();
-        let mut doubled: Vec<f64> = grid
-            .windows(2)
-            .map(|w| (w[0] * w[1]).sqrt())
-            .chain(grid.iter().copied())
-            .collect();
-        doubled.sort_by(f64::total_cmp);
+        let doubled = doubled(&grid);
         for net in [&a.build.netlist, &a.on_parts.netlist] {
             let v = d.verdict(net).unwrap();
             // The doubled grid split 16 times more finely throughout (so
@@ -663,13 +674,7 @@ fn verdicts_hold_when_the_grid_doubles() {
 /// that may come within `analysis::REFINE_BAND_DB` of a limit).
 #[test]
 fn monte_carlo_figures_hold_when_the_grid_doubles() {
-    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples");
-    let mut specs: Vec<Spec> = std::fs::read_dir(&dir)
-        .unwrap()
-        .map(|e| e.unwrap().path())
-        .filter(|p| p.extension().and_then(|e| e.to_str()) == Some("toml"))
-        .map(|p| Spec::load(&p).unwrap())
-        .collect();
+    let mut specs = example_specs();
     let text = "[filter]\nkind = \"highpass\"\nfamily = \"chebyshev\"\norder = 7\npassband_edge_hz = 300\npassband_ripple_db = 0.05\n[terminations]\nsource_ohm = 600\nload_ohm = 600\n";
     specs.push(Spec::from_toml(Path::new("grid.toml"), text).unwrap());
     let mut worst: f64 = 0.0;
@@ -682,12 +687,7 @@ fn monte_carlo_figures_hold_when_the_grid_doubles() {
         let tuning = a.on_parts.tuning(true);
         let system = nocoil::circuit::AcSystem::new(net).unwrap();
         let grid = d.monte_carlo_grid().unwrap();
-        let mut doubled: Vec<f64> = grid
-            .windows(2)
-            .map(|w| (w[0] * w[1]).sqrt())
-            .chain(grid.iter().copied())
-            .collect();
-        doubled.sort_by(f64::total_cmp);
+        let doubled = doubled(&grid);
         let run = |freqs_hz: &[f64]| {
             let setup = nocoil::analysis::MonteCarlo {
                 out: net.require_node("out").unwrap(),
