@@ -169,19 +169,40 @@ impl Mask {
         freqs_hz: &[f64],
         db: &[f64],
         ceiling_db: f64,
+        gain_db_at: impl FnMut(&[f64]) -> Result<Vec<f64>, E>,
+    ) -> Result<MaskVerdict, E> {
+        let checks = self.checks(freqs_hz)?;
+        self.refined_verdict_on(&checks, freqs_hz, db, ceiling_db, gain_db_at)
+    }
+
+    /// [`Mask::refined_verdict`] with the checks of `freqs_hz` already
+    /// made (a Monte Carlo makes them once for every board, and most
+    /// boards need no zoom: nothing else is computed for them).
+    pub(crate) fn refined_verdict_on<E: From<AnalysisError>>(
+        &self,
+        checks: &[Check],
+        freqs_hz: &[f64],
+        db: &[f64],
+        ceiling_db: f64,
         mut gain_db_at: impl FnMut(&[f64]) -> Result<Vec<f64>, E>,
     ) -> Result<MaskVerdict, E> {
-        let mut v = self.verdict(freqs_hz, db)?;
-        let (mut freqs, mut gain) = (freqs_hz.to_vec(), db.to_vec());
+        let first = closest(checks, db).ok_or(AnalysisError::EmptyMask)?;
+        let mut v = first.verdict(freqs_hz, db);
+        let mut margins = point_margins(checks, db);
+        // The grid as refined so far: the caller's until a zoom is made.
+        let mut refined: Option<(Vec<f64>, Vec<f64>)> = None;
         for _ in 0..VERDICT_ZOOMS {
-            let margins = self.point_margins(&freqs, &gain)?;
+            let (freqs, gain) = match &refined {
+                Some((f, g)) => (f.as_slice(), g.as_slice()),
+                None => (freqs_hz, db),
+            };
             let within = (v.margin_db + REFINE_BAND_DB).min(ceiling_db);
             let last = freqs.len() - 1;
             let mut zoom = Vec::new();
             for i in 0..freqs.len() {
                 let m = margins[i];
                 let local = (i == 0 || m <= margins[i - 1]) && (i == last || m <= margins[i + 1]);
-                if !(local && m.min(parabola_minimum(&freqs, &margins, i)) <= within) {
+                if !(local && m.min(parabola_minimum(freqs, &margins, i)) <= within) {
                     continue;
                 }
                 let (lo, hi) = (freqs[i.saturating_sub(1)], freqs[(i + 1).min(last)]);
@@ -198,28 +219,34 @@ impl Mask {
             }
             let zoom_gain = gain_db_at(&zoom)?;
             let mut merged: Vec<(f64, f64)> = freqs
-                .into_iter()
-                .zip(gain)
+                .iter()
+                .copied()
+                .zip(gain.iter().copied())
                 .chain(zoom.into_iter().zip(zoom_gain))
                 .collect();
             merged.sort_by(|a, b| a.0.total_cmp(&b.0));
-            (freqs, gain) = merged.into_iter().unzip();
-            v = self.verdict(&freqs, &gain)?;
+            let (freqs, gain): (Vec<f64>, Vec<f64>) = merged.into_iter().unzip();
+            let checks = self.checks(&freqs)?;
+            v = closest(&checks, &gain)
+                .ok_or(AnalysisError::EmptyMask)?
+                .verdict(&freqs, &gain);
+            margins = point_margins(&checks, &gain);
+            refined = Some((freqs, gain));
         }
         Ok(v)
     }
+}
 
-    /// At each point of `freqs_hz`, the distance of `db` to the nearest
-    /// bound that applies there, dB (infinite where none does).
-    fn point_margins(&self, freqs_hz: &[f64], db: &[f64]) -> Result<Vec<f64>, AnalysisError> {
-        let mut margins = vec![f64::INFINITY; freqs_hz.len()];
-        for c in self.checks(freqs_hz)? {
-            let g = db[c.point];
-            let m = (g - c.min_db).min(c.max_db - g);
-            margins[c.point] = margins[c.point].min(m);
-        }
-        Ok(margins)
+/// At each point of a response `db`, its distance to the nearest bound
+/// of `checks` that applies there, dB (infinite where none does).
+fn point_margins(checks: &[Check], db: &[f64]) -> Vec<f64> {
+    let mut margins = vec![f64::INFINITY; db.len()];
+    for c in checks {
+        let g = db[c.point];
+        let m = (g - c.min_db).min(c.max_db - g);
+        margins[c.point] = margins[c.point].min(m);
     }
+    margins
 }
 
 /// The least of the parabola through the distances at points `i - 1`,

@@ -414,12 +414,13 @@ impl Run<'_> {
         // ripple peak that may come within REFINE_BAND_DB of a limit, so
         // neither its pass nor its margin depends on where the grid's
         // points fell.
-        let v =
-            self.setup
-                .mask
-                .refined_verdict(self.setup.freqs_hz, row, REFINE_BAND_DB, |zoom| {
-                    worker.gains_db(self.setup, zoom)
-                })?;
+        let v = self.setup.mask.refined_verdict_on(
+            self.checks,
+            self.setup.freqs_hz,
+            row,
+            REFINE_BAND_DB,
+            |zoom| worker.gains_db(self.setup, zoom),
+        )?;
         if v.margin_db < margin_db {
             (margin_db, at_hz, gain_db, limit_db, lower_bound) =
                 (v.margin_db, v.at_hz, v.gain_db, v.limit_db, v.lower_bound);
