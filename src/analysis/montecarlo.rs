@@ -39,7 +39,7 @@ use rand_chacha::rand_core::SeedableRng;
 use rand_chacha::ChaCha8Rng;
 use rayon::prelude::*;
 
-use super::mask::{closest, Check, Closest, Mask, REFINE_BAND_DB};
+use super::mask::{Check, Mask, MaskVerdict, REFINE_BAND_DB};
 use super::spread::{DelayLimit, DelayVerdict};
 use super::{AnalysisError, Parameter, Tuning};
 use crate::circuit::{AcSystem, CircuitError, Element, ElementKind, Netlist, OpAmpModel, SparseAc};
@@ -395,25 +395,11 @@ impl Run<'_> {
         for (slot, &h) in row.iter_mut().zip(&worker.h) {
             *slot = db(h);
         }
-        // Every limit has a finite bound (Mask::new), so one is closest;
-        // without any, nothing could fail.
-        let near = closest(self.checks, row).unwrap_or(Closest {
-            margin_db: f64::INFINITY,
-            point: 0,
-            limit_db: f64::INFINITY,
-            lower_bound: false,
-        });
-        let (mut margin_db, mut at_hz, mut gain_db, mut limit_db, mut lower_bound) = (
-            near.margin_db,
-            self.setup.freqs_hz[near.point],
-            row[near.point],
-            near.limit_db,
-            near.lower_bound,
-        );
         // A board is judged as the verdicts are, refined around every
         // ripple peak that may come within REFINE_BAND_DB of a limit, so
         // neither its pass nor its margin depends on where the grid's
-        // points fell.
+        // points fell. Every limit is sampled and has a finite bound
+        // (Mask::checks, Mask::new), so a board always has a closest one.
         let v = self.setup.mask.refined_verdict_on(
             self.checks,
             self.setup.freqs_hz,
@@ -421,10 +407,14 @@ impl Run<'_> {
             REFINE_BAND_DB,
             |zoom| worker.gains_db(self.setup, zoom),
         )?;
-        if v.margin_db < margin_db {
-            (margin_db, at_hz, gain_db, limit_db, lower_bound) =
-                (v.margin_db, v.at_hz, v.gain_db, v.limit_db, v.lower_bound);
-        }
+        let MaskVerdict {
+            margin_db,
+            at_hz,
+            gain_db,
+            limit_db,
+            lower_bound,
+            ..
+        } = v;
         let delay = match self.setup.delay {
             Some(limit) => Some(worker.delay_verdict(self.setup, limit, self.delay_grid)?),
             None => None,
