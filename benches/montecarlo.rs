@@ -101,9 +101,9 @@ fn montecarlo(c: &mut Criterion) {
         trials: TRIALS,
         seed: SEED,
         worst: 10,
-        // The sweep engine alone; a design adds a stability verdict per
-        // trial (active::is_stable), measured separately in its note.
-        stability: None,
+        // The sweep engine alone; a design adds natural frequencies per
+        // trial (active::roots_and_verdict), measured separately in its note.
+        roots: None,
         delay: None,
         tuning: None,
     };

@@ -794,7 +794,7 @@ fn fdnr_run(
         trials,
         seed,
         worst,
-        stability: None,
+        roots: None,
         delay: None,
         tuning: None,
     };
@@ -946,7 +946,7 @@ fn rc_yield_converges_to_its_closed_form() {
             trials,
             seed: 7,
             worst: 0,
-            stability: None,
+            roots: None,
             delay: None,
             tuning: None,
         };
@@ -1000,7 +1000,7 @@ fn rc_stored_run(trials: usize, worst: usize) -> (MonteCarloResult, usize) {
         trials,
         seed: 17,
         worst,
-        stability: None,
+        roots: None,
         delay: None,
         tuning: None,
     };
@@ -1131,7 +1131,10 @@ fn unstable_trials_fail_in_the_proportion_routh_hurwitz_predicts() {
         max_db: 1.0,
     }])
     .unwrap();
-    let judge = |n: &Netlist| nocoil::active::is_stable(n).is_ok_and(|v| v.stable);
+    let judge = |n: &Netlist| nocoil::analysis::BoardRoots {
+        stable: nocoil::active::is_stable(n).is_ok_and(|v| v.stable),
+        roots_rad_s: Vec::new(),
+    };
     let rules = [rule(Scope::OpAmpGbw, uniform(t))];
     let trials = 2000;
     let setup = MonteCarlo {
@@ -1144,7 +1147,7 @@ fn unstable_trials_fail_in_the_proportion_routh_hurwitz_predicts() {
         seed: 3,
         // Every trial kept as a worst one, to read each one's verdict.
         worst: trials,
-        stability: Some(&judge),
+        roots: Some(&judge),
         delay: None,
         tuning: None,
     };
@@ -1206,7 +1209,7 @@ fn monte_carlo_refuses_bad_setups_naming_the_offender() {
         trials: 4,
         seed: 0,
         worst: 1,
-        stability: None,
+        roots: None,
         delay: None,
         tuning: None,
     };

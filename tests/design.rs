@@ -5,7 +5,7 @@
 use crate::scipy_cases::{fixture, Case, REFERENCE_FLOOR_DB};
 use crate::util::ngspice_ac;
 use nocoil::circuit::{response, OpAmpModel};
-use nocoil::design::{design, PartClass};
+use nocoil::design::{design, Design, PartClass};
 use nocoil::export::spice::{deck, AcSweep};
 use nocoil::spec::table::PrototypeTable;
 use nocoil::spec::Spec;
@@ -524,11 +524,14 @@ fn monte_carlo_trials_name_the_limit_and_where() {
     // refined as a board near its limit is (the zoom's points solved by
     // another path: to rounding).
     let net = &active.on_parts.netlist;
-    let nominal = nocoil::analysis::Mask::new(d.yield_limits())
-        .unwrap()
+    let mask = nocoil::analysis::Mask::new(d.yield_limits()).unwrap();
+    let roots = nocoil::active::natural_frequencies(net).unwrap();
+    let span = [mc.freq_hz[0], mc.freq_hz[mc.freq_hz.len() - 1]];
+    let nominal = mask
         .refined_verdict(
             &mc.freq_hz,
             &mc.nominal_db,
+            &mask.resonance_points(&roots, span),
             nocoil::analysis::REFINE_BAND_DB,
             |zoom| nocoil::analysis::trace(net, zoom, false).map(|t| t.gain_db),
         )
@@ -665,30 +668,63 @@ fn verdicts_hold_when_the_grid_doubles() {
     println!("verdicts against the doubled, refined grid: worst {worst:.1e} dB");
 }
 
-/// A Monte Carlo's figures do not move by more than 0.001 dB when its
-/// grid is doubled (every geometric midpoint added): on the examples
-/// (designed for the specification alone) and the Chebyshev highpass of
-/// ripple peaks between grid points, the same boards meet the
-/// specification on both grids, and every failing board's margin agrees
-/// within 0.001 dB (a board is judged refined around every ripple peak
-/// that may come within `analysis::REFINE_BAND_DB` of a limit).
+/// A Monte Carlo's figures do not move by more than 0.001 dB on a grid
+/// much finer than its own: the view's grid doubled twice with 2,000
+/// points more across each limit's range, judged without the boards'
+/// resonances. On the examples as delivered for their `[yield]` target
+/// (the mains notch's draws part a near-cancelled pole pair of Q 734 in
+/// its stopband: a peak 0.14 % wide) and the Chebyshev highpass of ripple
+/// peaks between grid points, boards tuned and untuned: the same boards
+/// meet the specification on both grids, and every failing board's margin
+/// agrees within 0.001 dB.
 #[test]
-fn monte_carlo_figures_hold_when_the_grid_doubles() {
-    let mut specs = example_specs();
-    let text = "[filter]\nkind = \"highpass\"\nfamily = \"chebyshev\"\norder = 7\npassband_edge_hz = 300\npassband_ripple_db = 0.05\n[terminations]\nsource_ohm = 600\nload_ohm = 600\n";
-    specs.push(Spec::from_toml(Path::new("grid.toml"), text).unwrap());
-    let mut worst: f64 = 0.0;
-    for spec in specs {
-        let d = design(&spec).unwrap();
+fn monte_carlo_figures_hold_on_a_finer_grid() {
+    let mut designs: Vec<(Design, nocoil::design::ActiveDesign)> = example_specs()
+        .iter()
+        .map(|spec| nocoil::design::design_for_yield(spec, None).unwrap())
+        .collect();
+    for text in [
+        "[filter]\nkind = \"highpass\"\nfamily = \"chebyshev\"\norder = 7\npassband_edge_hz = 300\npassband_ripple_db = 0.05\n",
+        "[filter]\nkind = \"bandpass\"\nfamily = \"chebyshev\"\norder = 5\npassband_edge_hz = [975, 1025]\npassband_ripple_db = 0.1\n",
+        "[filter]\nkind = \"bandstop\"\nfamily = \"elliptic\"\npassband_edge_hz = [900, 1100]\nstopband_edge_hz = [990, 1010]\npassband_ripple_db = 0.5\nstopband_attenuation_db = 30\n",
+    ] {
+        let text = format!("{text}[terminations]\nsource_ohm = 600\nload_ohm = 600\n");
+        let d = design(&Spec::from_toml(Path::new("grid.toml"), &text).unwrap()).unwrap();
         let a = d.active().unwrap();
+        designs.push((d, a));
+    }
+    let mut worst: f64 = 0.0;
+    for ((d, a), tuned) in designs.iter().flat_map(|da| [(da, true), (da, false)]) {
         let net = &a.on_parts.netlist;
         let mask = nocoil::analysis::Mask::new(d.yield_limits()).unwrap();
         let rules = d.tolerance_rules().unwrap();
-        let tuning = a.on_parts.tuning(true);
+        let tuning = a.on_parts.tuning(tuned);
         let system = nocoil::circuit::AcSystem::new(net).unwrap();
         let grid = d.monte_carlo_grid().unwrap();
-        let doubled = doubled(&grid);
-        let run = |freqs_hz: &[f64]| {
+        let mut fine = doubled(&doubled(&grid));
+        for l in d.yield_limits().iter().filter(|l| l.to_hz > l.from_hz) {
+            fine.extend(nocoil::circuit::log_grid(l.from_hz, l.to_hz, 2000).unwrap());
+        }
+        fine.sort_by(f64::total_cmp);
+        fine.dedup();
+        // As the design judges its boards (design::Design::monte_carlo),
+        // and the reference by the same stability verdict alone.
+        let dynamic = d.spec.opamp.model.gbw_hz().is_some();
+        let judge = |n: &nocoil::circuit::Netlist| match nocoil::active::roots_and_verdict(n) {
+            Ok((roots_rad_s, v)) => nocoil::analysis::BoardRoots {
+                stable: v.stable || !dynamic,
+                roots_rad_s,
+            },
+            Err(_) => nocoil::analysis::BoardRoots {
+                stable: false,
+                roots_rad_s: Vec::new(),
+            },
+        };
+        let stable_only = |n: &nocoil::circuit::Netlist| nocoil::analysis::BoardRoots {
+            roots_rad_s: Vec::new(),
+            ..judge(n)
+        };
+        let run = |freqs_hz: &[f64], roots: nocoil::analysis::BoardJudge| {
             let setup = nocoil::analysis::MonteCarlo {
                 out: net.require_node("out").unwrap(),
                 inp: net.require_node("in").unwrap(),
@@ -698,22 +734,21 @@ fn monte_carlo_figures_hold_when_the_grid_doubles() {
                 trials: 200,
                 seed: 1,
                 worst: 200,
-                // The stability verdict does not depend on the grid.
-                stability: None,
+                roots: Some(roots),
                 delay: None,
                 tuning: Some(&tuning),
             };
             nocoil::analysis::monte_carlo(&system, &setup, None).unwrap()
         };
-        let (once, twice) = (run(&grid), run(&doubled));
-        let name = spec.file.display();
-        assert_eq!(once.passed, twice.passed, "{name}: boards meeting it");
+        let (own, reference) = (run(&grid, &judge), run(&fine, &stable_only));
+        let name = format!("{} (tuned: {tuned})", d.spec.file.display());
+        assert_eq!(own.passed, reference.passed, "{name}: boards meeting it");
         // Every board is listed (worst = trials): compared board for
         // board, the margins of those that fail (the worst trials
         // printed); a passing board's margin beyond REFINE_BAND_DB is read
         // on the grid.
-        for a in once.worst.iter().filter(|a| a.margin_db < 0.0) {
-            let b = twice
+        for a in own.worst.iter().filter(|a| a.margin_db < 0.0) {
+            let b = reference
                 .worst
                 .iter()
                 .find(|b| b.trial == a.trial)
@@ -721,7 +756,7 @@ fn monte_carlo_figures_hold_when_the_grid_doubles() {
             worst = worst.max((a.margin_db - b.margin_db).abs());
             assert!(
                 (a.margin_db - b.margin_db).abs() <= 1e-3,
-                "{name}: board {}: {} dB at {} Hz, doubled grid {} dB at {} Hz",
+                "{name}: board {}: {} dB at {} Hz, finer grid {} dB at {} Hz",
                 a.trial,
                 a.margin_db,
                 a.at_hz,
@@ -729,8 +764,14 @@ fn monte_carlo_figures_hold_when_the_grid_doubles() {
                 b.at_hz
             );
         }
+        println!(
+            "{name}: {} of 200 boards meet it, {} points against {}",
+            own.passed,
+            grid.len(),
+            fine.len()
+        );
     }
-    println!("Monte Carlo boards against the doubled grid: worst {worst:.1e} dB");
+    println!("Monte Carlo boards against the finer grid: worst {worst:.1e} dB");
 }
 
 /// The yield with one class's tolerance halved is the yield of the same

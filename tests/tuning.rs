@@ -311,6 +311,12 @@ const NOCOIL_BOARDS: usize = 2000;
 /// by under 1e-4 dB between points, far below what decides a board.
 const NGSPICE_PER_DECADE: usize = 400;
 
+/// Points of an ngspice linear sweep across each limit narrower than an
+/// octave, where nocoil judges a board at its resonances: 1,000 put 0.01
+/// Hz between points across the mains notch's 45 to 55 Hz stopband, where
+/// a drawn board's peak of pole Q 734 is 0.07 Hz wide.
+const NGSPICE_NARROW_POINTS: usize = 1000;
+
 /// The 99 % two-sided normal quantile (common practice).
 pub const Z99: f64 = 2.576;
 
@@ -359,8 +365,20 @@ pub fn ngspice_yield_z(d: &Design, a: &ActiveDesign) -> f64 {
         ));
     }
     control.push_str(&format!(
-        "ac dec {NGSPICE_PER_DECADE} {lo:e} {hi:e}\nwrdata DATA vdb(out)\ndestroy all\nend\n"
+        "ac dec {NGSPICE_PER_DECADE} {lo:e} {hi:e}\nwrdata DATA vdb(out)\n"
     ));
+    let narrow: Vec<[f64; 2]> = d
+        .yield_limits()
+        .iter()
+        .filter(|l| l.to_hz > l.from_hz && l.to_hz < 2.0 * l.from_hz)
+        .map(|l| [l.from_hz, l.to_hz])
+        .collect();
+    for [from, to] in &narrow {
+        control.push_str(&format!(
+            "ac lin {NGSPICE_NARROW_POINTS} {from:e} {to:e}\nwrdata DATA vdb(out)\n"
+        ));
+    }
+    control.push_str("destroy all\nend\n");
     let rows = ngspice_rows(&control_deck(&board, &control));
     let per_board = rows.len() / NGSPICE_BOARDS;
     assert_eq!(per_board * NGSPICE_BOARDS, rows.len());
@@ -369,8 +387,16 @@ pub fn ngspice_yield_z(d: &Design, a: &ActiveDesign) -> f64 {
     let mut met = 0;
     // Each board judged as nocoil judges its own: on the Monte Carlo grid,
     // refined around its ripple peaks, ngspice's response read at any
-    // frequency by interpolation (linear in dB over log frequency).
+    // frequency by interpolation (linear in dB over log frequency); and at
+    // every point of its narrow limits' sweeps, where nocoil judges a board
+    // at its resonances.
     for b in rows.chunks(per_board) {
+        let dense: Vec<f64> = b[per_board - narrow.len() * NGSPICE_NARROW_POINTS..]
+            .iter()
+            .map(|r| r[0])
+            .collect();
+        let mut b = b.to_vec();
+        b.sort_by(|x, y| x[0].total_cmp(&y[0]));
         let at = |freqs: &[f64]| -> Vec<f64> {
             freqs
                 .iter()
@@ -383,16 +409,24 @@ pub fn ngspice_yield_z(d: &Design, a: &ActiveDesign) -> f64 {
                 .collect()
         };
         let v = mask
-            .refined_verdict(&grid, &at(&grid), nocoil::analysis::REFINE_BAND_DB, |z| {
-                Ok::<_, nocoil::analysis::AnalysisError>(at(z))
-            })
+            .refined_verdict(
+                &grid,
+                &at(&grid),
+                &dense,
+                nocoil::analysis::REFINE_BAND_DB,
+                |z| Ok::<_, nocoil::analysis::AnalysisError>(at(z)),
+            )
             .unwrap();
         met += usize::from(v.meets);
     }
     // nocoil's boards judged as ngspice's are, by the magnitude mask
     // alone: an AC analysis cannot see that a board is unstable, which
     // nocoil's yield counts as a failure (0.7 % of the mains notch's
-    // boards, measured).
+    // boards, measured). Each at its resonances too, as the design judges.
+    let judge = |n: &nocoil::circuit::Netlist| nocoil::analysis::BoardRoots {
+        stable: true,
+        roots_rad_s: nocoil::active::natural_frequencies(n).unwrap(),
+    };
     let parts_net = &a.on_parts.netlist;
     let rules = d.tolerance_rules().unwrap();
     let tuning = a.on_parts.tuning(false);
@@ -405,7 +439,7 @@ pub fn ngspice_yield_z(d: &Design, a: &ActiveDesign) -> f64 {
         trials: NOCOIL_BOARDS,
         seed: 3,
         worst: 1,
-        stability: None,
+        roots: Some(&judge),
         delay: None,
         tuning: Some(&tuning),
     };

@@ -60,8 +60,8 @@ pub use damping::{lc_pairs, DampingResistor, LcPair};
 pub use error::ActiveError;
 pub use refine::{deviation_db, Meter, PASSBAND_POINTS};
 pub use stability::{
-    corner_models, corner_verdicts, is_stable, natural_frequencies, with_model, CornerVerdict,
-    NaturalFrequency, StabilityVerdict, OUTPUT_OHM_FACTORS, STABILITY_MARGIN,
+    corner_models, corner_verdicts, is_stable, natural_frequencies, roots_and_verdict, with_model,
+    CornerVerdict, NaturalFrequency, StabilityVerdict, OUTPUT_OHM_FACTORS, STABILITY_MARGIN,
 };
 
 use build::{bruton_terminations, dc_path_resistors, fdnr_opamps, gic_opamps, Bruton, Plan};

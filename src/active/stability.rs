@@ -204,7 +204,23 @@ pub fn natural_frequencies(netlist: &Netlist) -> Result<Vec<Complex64>, ActiveEr
 
 /// The stability verdict of `netlist` with its own op-amp models.
 pub fn is_stable(netlist: &Netlist) -> Result<StabilityVerdict, ActiveError> {
-    let mut roots = natural_frequencies(netlist)?;
+    let roots = natural_frequencies(netlist)?;
+    Ok(verdict_of(netlist, roots))
+}
+
+/// The natural frequencies of `netlist` ([`natural_frequencies`]) and
+/// their stability verdict ([`is_stable`]) from one eigenproblem: a Monte
+/// Carlo board needs both, the verdict and where its resonances lie.
+pub fn roots_and_verdict(
+    netlist: &Netlist,
+) -> Result<(Vec<Complex64>, StabilityVerdict), ActiveError> {
+    let roots = natural_frequencies(netlist)?;
+    let verdict = verdict_of(netlist, roots.clone());
+    Ok((roots, verdict))
+}
+
+/// The verdict of `netlist`'s natural frequencies `roots`.
+fn verdict_of(netlist: &Netlist, mut roots: Vec<Complex64>) -> StabilityVerdict {
     let count = roots.len();
     let charge_modes = charge_modes(netlist).min(count);
     roots.sort_by(|a, b| a.norm().total_cmp(&b.norm()));
@@ -216,12 +232,12 @@ pub fn is_stable(netlist: &Netlist) -> Result<StabilityVerdict, ActiveError> {
             // Growing real roots all have ratio -1: the fastest decides.
             (a.damping_ratio.total_cmp(&b.damping_ratio)).then(b.re_rad_s.total_cmp(&a.re_rad_s))
         });
-    Ok(StabilityVerdict {
+    StabilityVerdict {
         stable: deciding.iter().all(|s| s.re < -STABILITY_MARGIN * s.norm()),
         least_damped,
         count,
         charge_modes,
-    })
+    }
 }
 
 /// Roots farther than this from the shift, as a multiple of it, are

@@ -44,8 +44,8 @@ pub use levels::{
 };
 pub use mask::{Limit, Mask, MaskVerdict, REFINE_BAND_DB, VERDICT_ZOOMS, VERDICT_ZOOM_POINTS};
 pub use montecarlo::{
-    monte_carlo, wilson_interval, Envelope, MonteCarlo, MonteCarloResult, Scope, StabilityJudge,
-    ToleranceRule, TrialSummary, Varied, BLOCK_TRIALS, MEDIAN_BINS, Z95,
+    monte_carlo, wilson_interval, BoardJudge, BoardRoots, Envelope, MonteCarlo, MonteCarloResult,
+    Scope, ToleranceRule, TrialSummary, Varied, BLOCK_TRIALS, MEDIAN_BINS, Z95,
 };
 pub use noise::{
     a_weighting, integrate, noise_band_grid, output_noise, NoiseKind, NoiseSource, NoiseSpectrum,

@@ -44,6 +44,7 @@ use super::spread::{DelayLimit, DelayVerdict};
 use super::{AnalysisError, Parameter, Tuning};
 use crate::circuit::{AcSystem, CircuitError, Element, ElementKind, Netlist, OpAmpModel, SparseAc};
 use crate::parts::Tolerance;
+use num_complex::Complex64;
 
 /// Trials per block: the block's trials are solved in parallel into one
 /// table of BLOCK_TRIALS x points dB values (6.5 MB on a design's 200
@@ -96,9 +97,20 @@ pub struct ToleranceRule {
     pub tolerance: Tolerance,
 }
 
-/// Whether a drawn board is stable: true when it is. The analysis stage
-/// sees only circuits, so the stage that owns the verdict passes it in.
-pub type StabilityJudge<'a> = &'a (dyn Fn(&Netlist) -> bool + Sync);
+/// What a drawn board's natural frequencies say. The analysis stage sees
+/// only circuits, so the stage that owns the roots passes a judge in.
+#[derive(Debug, Clone, PartialEq)]
+pub struct BoardRoots {
+    /// Whether the board is stable.
+    pub stable: bool,
+    /// Its natural frequencies, rad/s: a narrow peak or dip lies at a
+    /// resonance ([`Mask::resonance_points`]), so the board is judged
+    /// there too.
+    pub roots_rad_s: Vec<Complex64>,
+}
+
+/// The natural frequencies of a drawn board (see [`BoardRoots`]).
+pub type BoardJudge<'a> = &'a (dyn Fn(&Netlist) -> BoardRoots + Sync);
 
 /// A Monte Carlo run: what to sweep, what to vary, what must hold.
 #[derive(Clone, Copy)]
@@ -119,10 +131,11 @@ pub struct MonteCarlo<'a> {
     pub seed: u64,
     /// How many of the worst trials to report.
     pub worst: usize,
-    /// Judges every trial's stability, when given; an unstable trial
-    /// fails whatever its response (a sweep of an unstable circuit is the
-    /// steady state it never reaches).
-    pub stability: Option<StabilityJudge<'a>>,
+    /// Finds every trial's natural frequencies, when given: an unstable
+    /// trial fails whatever its response (a sweep of an unstable circuit
+    /// is the steady state it never reaches), and every trial is also
+    /// judged at its resonances within the mask.
+    pub roots: Option<BoardJudge<'a>>,
     /// A bound on the group-delay spread every trial must also keep, when
     /// the specification has one (exact delay on the limit's own grid).
     pub delay: Option<&'a DelayLimit>,
@@ -395,15 +408,26 @@ impl Run<'_> {
         for (slot, &h) in row.iter_mut().zip(&worker.h) {
             *slot = db(h);
         }
-        // A board is judged as the verdicts are, refined around every
-        // ripple peak that may come within REFINE_BAND_DB of a limit, so
-        // neither its pass nor its margin depends on where the grid's
-        // points fell. Every limit is sampled and has a finite bound
-        // (Mask::checks, Mask::new), so a board always has a closest one.
+        let roots = self.setup.roots.map(|judge| judge(worker.system.netlist()));
+        let stable = roots.as_ref().is_none_or(|r| r.stable);
+        let freqs = self.setup.freqs_hz;
+        let resonances_hz = roots
+            .map(|r| {
+                let span = [freqs[0], freqs[freqs.len() - 1]];
+                self.setup.mask.resonance_points(&r.roots_rad_s, span)
+            })
+            .unwrap_or_default();
+        // A board is judged as the verdicts are, at its resonances and
+        // refined around every ripple peak that may come within
+        // REFINE_BAND_DB of a limit, so neither its pass nor its margin
+        // depends on where the grid's points fell. Every limit is sampled
+        // and has a finite bound (Mask::checks, Mask::new), so a board
+        // always has a closest one.
         let v = self.setup.mask.refined_verdict_on(
             self.checks,
-            self.setup.freqs_hz,
+            freqs,
             row,
+            &resonances_hz,
             REFINE_BAND_DB,
             |zoom| worker.gains_db(self.setup, zoom),
         )?;
@@ -421,10 +445,6 @@ impl Run<'_> {
         };
         let delay_spread_s = delay.map(|v| v.spread_s);
         let delay_ok = delay.is_none_or(|v| v.meets);
-        let stable = self
-            .setup
-            .stability
-            .is_none_or(|judge| judge(worker.system.netlist()));
         let max_deviation_db = row
             .iter()
             .zip(self.nominal_db)

@@ -5,9 +5,9 @@
 use super::{ActiveDesign, Design, DesignError};
 use crate::active;
 use crate::analysis::{
-    judged_from_hz, level_traces, monte_carlo, summarize, trace, AnalysisError, DelayLimit,
-    DelayVerdict, Mask, MaskVerdict, MonteCarlo, MonteCarloResult, Scope, SensitivitySummary,
-    StabilityJudge, SummaryPoints, ToleranceRule, Tuning,
+    judged_from_hz, level_traces, monte_carlo, summarize, trace, AnalysisError, BoardJudge,
+    BoardRoots, DelayLimit, DelayVerdict, Mask, MaskVerdict, MonteCarlo, MonteCarloResult, Scope,
+    SensitivitySummary, SummaryPoints, ToleranceRule, Tuning,
 };
 use crate::circuit::{band_grid, log_grid, AcSystem, Netlist};
 use crate::parts::Tolerance;
@@ -270,6 +270,8 @@ impl Design {
 
     /// The Monte Carlo frequency grid: log-spaced over the view, with every
     /// mask edge added so each limit is sampled where it is tightest.
+    /// What falls between its points is found by refinement and at each
+    /// board's resonances ([`Mask::refined_verdict`]).
     pub fn monte_carlo_grid(&self) -> Result<Vec<f64>, DesignError> {
         let (lo, hi) = self.view_hz();
         let mut grid =
@@ -472,13 +474,23 @@ impl Design {
         let delay = self.delay_limit()?;
         let freqs = self.monte_carlo_grid()?;
         let system = AcSystem::new(netlist).map_err(circuit)?;
-        // Only a network with finite-bandwidth op-amps has a verdict (see
-        // active::ActiveBuild::stability); a verdict that cannot be
-        // computed counts as unstable, the cautious side.
-        let judge = |n: &Netlist| active::is_stable(n).is_ok_and(|v| v.stable);
+        // Only a network with finite-bandwidth op-amps has a stability
+        // verdict (see active::ActiveBuild::stability); every board's
+        // resonances are wanted. Roots that cannot be computed count as
+        // unstable, the cautious side.
         let dynamic = has_finite_gbw(netlist);
+        let judge = |n: &Netlist| match active::roots_and_verdict(n) {
+            Ok((roots_rad_s, verdict)) => BoardRoots {
+                stable: verdict.stable || !dynamic,
+                roots_rad_s,
+            },
+            Err(_) => BoardRoots {
+                stable: false,
+                roots_rad_s: Vec::new(),
+            },
+        };
         let setup = MonteCarlo {
-            stability: dynamic.then_some(&judge as StabilityJudge),
+            roots: Some(&judge as BoardJudge),
             out: netlist.require_node("out").map_err(circuit)?,
             inp: netlist.require_node("in").map_err(circuit)?,
             freqs_hz: &freqs,
@@ -544,14 +556,19 @@ impl Design {
     }
 
     /// How `netlist` (a build of this design) stands against the
-    /// specification: on the Monte Carlo grid, refined around the closest
-    /// point ([`Mask::refined_verdict`]).
+    /// specification: on the Monte Carlo grid and at its resonances,
+    /// refined around the closest point ([`Mask::refined_verdict`]).
     pub fn verdict(&self, netlist: &Netlist) -> Result<MaskVerdict, DesignError> {
         let analysis = |cause| self.analysis_error(cause);
         let mask = Mask::new(self.mask_limits()).map_err(analysis)?;
         let freqs = self.monte_carlo_grid()?;
         let gain = trace(netlist, &freqs, false).map_err(analysis)?.gain_db;
-        mask.refined_verdict(&freqs, &gain, f64::INFINITY, |zoom| {
+        let roots = active::natural_frequencies(netlist).map_err(|cause| DesignError::Active {
+            file: self.spec.file.clone(),
+            cause,
+        })?;
+        let resonances_hz = mask.resonance_points(&roots, [freqs[0], freqs[freqs.len() - 1]]);
+        mask.refined_verdict(&freqs, &gain, &resonances_hz, f64::INFINITY, |zoom| {
             trace(netlist, zoom, false).map(|t| t.gain_db)
         })
         .map_err(analysis)
