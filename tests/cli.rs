@@ -354,6 +354,24 @@ const BAD_EDITS: &[(&str, &str, &str, &[&str])] = &[
         ],
     ),
     (
+        "resistor-range",
+        "load_ohm = 600",
+        "load_ohm = 600\n[parts]\nresistor_range = [1e6, 100]",
+        &["parts.resistor_range", "low < high", "ohm"],
+    ),
+    (
+        "resistor-range-one",
+        "load_ohm = 600",
+        "load_ohm = 600\n[parts]\nresistor_range = [100]",
+        &["parts.resistor_range", "[low, high]"],
+    ),
+    (
+        "dc-path-max",
+        "load_ohm = 600",
+        "load_ohm = 600\n[parts]\ndc_path_max_ohm = -1",
+        &["parts.dc_path_max_ohm = -1", "1e-3 <= value"],
+    ),
+    (
         "level",
         "load_ohm = 600",
         "load_ohm = 600\nlevel = \"sometimes\"",
@@ -985,6 +1003,37 @@ fn a_refused_active_build_still_writes_the_passive_ideal() {
     assert_eq!(names, ["passive.cir", "report.json"]);
     let report = std::fs::read_to_string(out.join("report.json")).unwrap();
     assert!(report.contains("\"active\": null"), "{report}");
+}
+
+/// A resistor range no build fits refuses the active build, as any
+/// refusal does: exit 2 naming the key, the resistor and what to change,
+/// the passive ideal alone written. The FDNR image's resistors (the
+/// ladder's inductors over tau, about 12 kohm here) and its converters'
+/// 10 kohm fit no range of 20 to 30 kohm.
+#[test]
+fn a_resistor_range_no_build_fits_is_refused() {
+    let dir = scratch("resistor-range-unmet");
+    let text = with(
+        "load_ohm = 600",
+        "load_ohm = 600\n[parts]\nresistor_range = [20000, 30000]",
+    );
+    let out = dir.join("out");
+    let run = design_into(&spec_in(&dir, &text), &out);
+    let stderr = String::from_utf8_lossy(&run.stderr);
+    assert_eq!(run.status.code(), Some(2), "{stderr}");
+    for needle in [
+        "parts.resistor_range = [2e4, 3e4]",
+        "lies outside",
+        "widen the range",
+    ] {
+        assert!(stderr.contains(needle), "{needle:?} in {stderr}");
+    }
+    let mut names: Vec<String> = std::fs::read_dir(&out)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    names.sort();
+    assert_eq!(names, ["passive.cir", "report.json"]);
 }
 
 /// `nocoil noise` and `nocoil step` print the three builds' figures, each

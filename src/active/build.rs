@@ -387,19 +387,23 @@ fn buffer(
     })
 }
 
-/// Sets the DC-path resistors of `bruton` for the factor `k` (wb T):
-/// Rb = T RL / tau, and Ra from the DC-gain rule with Rser measured by a
-/// DC solve of the image (ideal op-amps, which draw no input current, so
-/// the FDNR inputs are open at DC and the image is Ra, Rser, Rb in
-/// series).
+/// Sets the DC-path resistors of `bruton` for the factor `k` (wb T), or
+/// the smaller factor that keeps both within `max_ohm`: Rb = T RL / tau,
+/// and Ra from the DC-gain rule with Rser measured by a DC solve of the
+/// image (ideal op-amps, which draw no input current, so the FDNR inputs
+/// are open at DC and the image is Ra, Rser, Rb in series; Ra is below
+/// its open value Rb RS / RL, so bounding that bounds Ra).
 pub(crate) fn dc_path_resistors(
     passive: &Passive,
     bruton: &mut Bruton,
     tuning: &Tuning,
     k: f64,
+    max_ohm: f64,
 ) -> Result<(), ActiveError> {
     let value = |i: usize| passive.netlist.elements[i].value().unwrap_or(f64::NAN);
     let (rs, rl) = (value(bruton.source), value(bruton.load));
+    let per_k = rl.max(rs) / (tuning.balance_rad_s * bruton.tau_s);
+    let k = k.min(max_ohm / per_k);
     let rb = k / tuning.balance_rad_s * rl / bruton.tau_s;
     let ra_open = rb * rs / rl;
     bruton.dc_path_ohm = [ra_open, rb];

@@ -164,6 +164,13 @@ pub const DEFAULT_IMPEDANCE_OHM: f64 = 10e3;
 /// (about 100 Mohm at 10 kohm).
 pub const DEFAULT_DC_PATH_FACTOR: f64 = 1e4;
 
+/// Default largest FDNR DC-path resistor, ohm: 10 Mohm is the top of the
+/// common 1 % resistor series as stocked, and with an op-amp input bias
+/// of 100 nA it puts 1 V at the FDNR inputs; the 100 Mohm the default
+/// factor alone asks for is neither stocked in tolerance nor above a
+/// board's own leakage (common practice).
+pub const DEFAULT_DC_PATH_MAX_OHM: f64 = 10e6;
+
 /// How far below the balance frequency the DC-path resistors' effect is
 /// reported: four decades reach well below 1/T = wb/K for the default K,
 /// where the effect has its low-frequency plateau.
@@ -199,6 +206,9 @@ pub struct Options {
     /// branches against the balance frequency; larger values disturb the
     /// passband less and need larger resistors (Rb = T RL / tau).
     pub dc_path_factor: f64,
+    /// FDNR only: the largest DC-path resistor, ohm; the factor is
+    /// lowered to keep both within it.
+    pub dc_path_max_ohm: f64,
     /// Relative spread of the op-amps' gain-bandwidth: the stability
     /// verdict is repeated at its corners (see [`corner_models`]).
     pub gbw_spread: f64,
@@ -217,6 +227,7 @@ impl Options {
             impedance_ohm: DEFAULT_IMPEDANCE_OHM,
             passband_hz: Vec::new(),
             dc_path_factor: DEFAULT_DC_PATH_FACTOR,
+            dc_path_max_ohm: DEFAULT_DC_PATH_MAX_OHM,
             gbw_spread: 0.0,
         }
     }
@@ -238,6 +249,7 @@ impl Options {
         positive("balance_hz", self.balance_hz)?;
         positive("impedance_ohm", self.impedance_ohm)?;
         positive("dc_path_factor", self.dc_path_factor)?;
+        positive("dc_path_max_ohm", self.dc_path_max_ohm)?;
         if !(0.0..1.0).contains(&self.gbw_spread) {
             return Err(ActiveError::BadOption {
                 option: "gbw_spread",
@@ -916,7 +928,13 @@ fn choose(
                 load,
                 dc_path_ohm: [f64::NAN; 2],
             };
-            dc_path_resistors(&fdnr, &mut bruton, balanced, opts.dc_path_factor)?;
+            dc_path_resistors(
+                &fdnr,
+                &mut bruton,
+                balanced,
+                opts.dc_path_factor,
+                opts.dc_path_max_ohm,
+            )?;
             Ok((Plan::Fdnr(fdnr, bruton), why, fdnr_notes))
         }
         _ => Ok((Plan::Gic(gic), why, gic_notes)),

@@ -22,6 +22,12 @@ const CHART_POINTS: usize = 600;
 /// Points of the Monte Carlo frequency grid (the mask edges are added).
 pub const MONTE_CARLO_POINTS: usize = 200;
 
+/// Points per decade of the Monte Carlo grid below the view, down to
+/// [`Design::dc_reach_hz`]: the DC-path step there is first order, and
+/// tests/design.rs's `monte_carlo_figures_hold_on_a_finer_grid` holds its
+/// figures against this grid doubled twice.
+const DC_REACH_POINTS_PER_DECADE: usize = 4;
+
 /// Monte Carlo boards when the design file gives no count, for builds of
 /// up to [`DEFAULT_TRIALS_OPAMPS`] op-amps.
 pub const DEFAULT_TRIALS: usize = 1000;
@@ -273,9 +279,15 @@ impl Design {
     /// What falls between its points is found by refinement and at each
     /// board's resonances ([`Mask::refined_verdict`]).
     pub fn monte_carlo_grid(&self) -> Result<Vec<f64>, DesignError> {
+        let circuit = |cause| self.circuit_error(cause);
         let (lo, hi) = self.view_hz();
-        let mut grid =
-            log_grid(lo, hi, MONTE_CARLO_POINTS).map_err(|cause| self.circuit_error(cause))?;
+        let mut grid = log_grid(lo, hi, MONTE_CARLO_POINTS).map_err(circuit)?;
+        if let Some(reach) = self.dc_reach_hz() {
+            let decades = (lo / reach).log10().ceil() as usize;
+            grid.extend(
+                log_grid(reach, lo, decades * DC_REACH_POINTS_PER_DECADE + 1).map_err(circuit)?,
+            );
+        }
         for l in self.yield_limits().into_iter().chain(self.mask_limits()) {
             grid.extend([l.from_hz, l.to_hz]);
         }

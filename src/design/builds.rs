@@ -71,6 +71,7 @@ impl Design {
             passband_ripple_db: Some(self.passband_ripple_db()),
             passband_hz: self.passbands_hz(),
             gbw_spread: self.spec.montecarlo.gbw_spread,
+            dc_path_max_ohm: self.spec.parts.dc_path_max_ohm,
             ..Options::new(1.0)
         }
     }

@@ -679,6 +679,17 @@ fn raise_for_delay(
     })
 }
 
+/// How far below the view a lowpass passband is judged, a factor: an
+/// FDNR build's DC-path resistors and termination capacitors set its
+/// gain below about wb / K (K the DC-path factor, at most
+/// [`active::DEFAULT_DC_PATH_FACTOR`], so at least 1e-4 of the balance
+/// frequency, 1e-2 of the view's low end) by the resistors' ratio and
+/// above it by the capacitors': a step where their tolerances differ,
+/// which four decades below the view has finished (0.42 dB from a 5 %
+/// capacitor mismatch below a few mHz, where the view began at 0.5
+/// Hz).
+pub const DC_REACH: f64 = 1e4;
+
 /// The top of the op-amp range as a fraction of the gain-bandwidth: a
 /// highpass or bandstop passband is open above, and its active builds
 /// depart from the passive ideal as the converters' value error, about
@@ -843,15 +854,22 @@ impl Design {
         self.limits(mc.passband_margin_db, mc.stopband_margin_db)
     }
 
+    /// Where a lowpass passband, which reaches DC, is judged from below
+    /// the view: [`DC_REACH`] times lower; `None` for the other kinds.
+    pub fn dc_reach_hz(&self) -> Option<f64> {
+        matches!(self.spec.band, Band::Lowpass { .. }).then(|| self.view_hz().0 / DC_REACH)
+    }
+
     /// The specification's limits tightened by these margins, dB.
     fn limits(&self, passband_margin_db: f64, stopband_margin_db: f64) -> Vec<Limit> {
         let view = self.view_hz();
         let level = self.passband_level_db();
         let ripple = self.passband_ripple_db();
+        let judged = (self.dc_reach_hz().unwrap_or(view.0), view.1);
         let mut limits: Vec<Limit> = self
             .spec
             .band
-            .passbands_hz(view)
+            .passbands_hz(judged)
             .into_iter()
             .map(|[from_hz, to_hz]| Limit {
                 from_hz,

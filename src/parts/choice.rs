@@ -21,9 +21,18 @@ pub struct PartsChoice {
     /// that needs a capacitor outside it is refused) or the default
     /// stands (a preference: a capacitor outside it is a warning).
     pub capacitor_range_given: bool,
-    /// Smallest and largest resistor the ladder's terminations are
-    /// bought as, ohm; a preference, as no design-file key sets it yet.
+    /// Smallest and largest signal resistor bought, ohm: the converters'
+    /// resistors, the damping resistors and (with `[terminations] level =
+    /// "free"`) the terminations.
     pub resistor_range_ohm: (f64, f64),
+    /// Whether the design file sets `resistor_range` (a limit: a build
+    /// that needs a signal resistor outside it is refused) or the default
+    /// stands (a preference the converters' levels keep to).
+    pub resistor_range_given: bool,
+    /// The largest FDNR DC-path resistor, ohm (`parts.dc_path_max_ohm`):
+    /// it carries DC and the op-amps' bias current only, so it may lie
+    /// above the signal range.
+    pub dc_path_max_ohm: f64,
     /// How values scatter within their tolerance in a Monte Carlo run.
     pub distribution: Distribution,
 }
@@ -44,6 +53,8 @@ impl Default for PartsChoice {
             capacitor_range_f: (100e-12, 1e-6),
             capacitor_range_given: false,
             resistor_range_ohm: (100.0, 1e6),
+            resistor_range_given: false,
+            dc_path_max_ohm: crate::active::DEFAULT_DC_PATH_MAX_OHM,
             distribution: Distribution::Uniform,
         }
     }

@@ -40,6 +40,18 @@ pub enum PartsSnapError {
         /// Upper end, farad.
         high_f: f64,
     },
+    /// A resistor nocoil chose outside a range the design file sets.
+    #[error("{element} = {ohm:e} ohm lies outside parts.resistor_range = [{low_ohm:e}, {high_ohm:e}]: widen the range (the converters' resistors follow their capacitors, which parts.capacitor_range bounds, and the terminations' level)")]
+    ResistorOutOfRange {
+        /// The resistor.
+        element: String,
+        /// Its value, ohm.
+        ohm: f64,
+        /// Lower end of the range, ohm.
+        low_ohm: f64,
+        /// Upper end of the range, ohm.
+        high_ohm: f64,
+    },
     /// A capacitor outside a range the design file sets that no
     /// converter's level or image level moves.
     #[error("{stage}: {element} = {farad:e} F lies outside parts.capacitor_range = [{low_f:e}, {high_f:e}], and no converter moves it: {why}")]
@@ -144,6 +156,7 @@ impl PartsSnapError {
                 | PartsSnapError::BadRange { .. }
                 | PartsSnapError::NoSeriesValue { .. }
                 | PartsSnapError::OutOfRange { .. }
+                | PartsSnapError::ResistorOutOfRange { .. }
                 | PartsSnapError::LevelOutOfRange { .. }
                 | PartsSnapError::NoLevelFits { .. }
                 | PartsSnapError::TerminationsSpread { .. }

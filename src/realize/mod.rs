@@ -260,6 +260,7 @@ pub fn snap_build(
     );
     let before_snap = netlist.clone();
     snap_all(&mut netlist, choice)?;
+    check_resistors(passive, &netlist, &build.stages, choice)?;
     let snapped = deviation(&netlist)?;
     let untrimmed = netlist.clone();
     let mut trims = Vec::new();
@@ -548,21 +549,64 @@ fn check_plain_capacitors(
     Ok(())
 }
 
+/// Every resistor nocoil chose (not the ladder's own, which the design
+/// file or the level choice set, nor an FDNR DC-path resistor, held to
+/// its own bound) must lie in a resistor range the design file sets.
+fn check_resistors(
+    passive: &Netlist,
+    netlist: &Netlist,
+    stages: &[Stage],
+    choice: &PartsChoice,
+) -> Result<(), PartsSnapError> {
+    if !choice.resistor_range_given {
+        return Ok(());
+    }
+    let (low_ohm, high_ohm) = choice.resistor_range_ohm;
+    let dc_paths: Vec<usize> = stages
+        .iter()
+        .filter_map(|s| match s.handles {
+            Handles::Termination { dc_path, .. } => Some(dc_path),
+            _ => None,
+        })
+        .collect();
+    let ladders_own = |name: &str| passive.elements.iter().any(|e| e.name() == name);
+    for (i, e) in netlist.elements.iter().enumerate() {
+        let ohm = value(netlist, i);
+        let inside = ohm >= low_ohm * (1.0 - RANGE_SLACK) && ohm <= high_ohm * (1.0 + RANGE_SLACK);
+        if e.kind() != ElementKind::Resistor
+            || inside
+            || dc_paths.contains(&i)
+            || ladders_own(e.name())
+        {
+            continue;
+        }
+        return Err(PartsSnapError::ResistorOutOfRange {
+            element: e.name().to_string(),
+            ohm,
+            low_ohm,
+            high_ohm,
+        });
+    }
+    Ok(())
+}
+
 /// Step 3: every resistor to its nearest series value, every capacitor to
 /// the nearest series value in range (see `Buying::snap_capacitor`).
 fn snap_all(netlist: &mut Netlist, choice: &PartsChoice) -> Result<(), PartsSnapError> {
     for index in 0..netlist.elements.len() {
         let v = value(netlist, index);
+        let snap = |cause| PartsSnapError::Snap {
+            element: netlist.elements[index].name().to_string(),
+            cause,
+        };
         let snapped = match netlist.elements[index].kind() {
-            ElementKind::Resistor => {
-                choice
-                    .resistor_series
-                    .nearest(v)
-                    .map_err(|cause| PartsSnapError::Snap {
-                        element: netlist.elements[index].name().to_string(),
-                        cause,
-                    })?
-            }
+            // Only an FDNR DC-path resistor comes near the bound, when the
+            // image level has scaled it up past it.
+            ElementKind::Resistor if v > choice.dc_path_max_ohm => choice
+                .resistor_series
+                .snap_down(choice.dc_path_max_ohm)
+                .map_err(snap)?,
+            ElementKind::Resistor => choice.resistor_series.nearest(v).map_err(snap)?,
             ElementKind::Capacitor => choice.snap_capacitor(v)?,
             _ => continue,
         };

@@ -83,6 +83,9 @@ struct RawParts {
     #[serde(default, deserialize_with = "number")]
     capacitor_tolerance: Option<f64>,
     capacitor_range: Option<toml::Value>,
+    resistor_range: Option<toml::Value>,
+    #[serde(default, deserialize_with = "number")]
+    dc_path_max_ohm: Option<f64>,
     distribution: Option<Distribution>,
 }
 
@@ -655,24 +658,72 @@ const OPAMP_FREQUENCY_RANGE_HZ: (f64, f64) = (1.0, 1e14);
 /// 72397); real op-amps swing from millivolts to a few hundred volts.
 const SWING_RANGE_V: (f64, f64) = (1e-3, 1e4);
 
+/// The resistor values a design file may give (`parts.resistor_range`,
+/// `parts.dc_path_max_ohm`), ohm: from a milliohm (below any resistor a
+/// filter uses) to 1 Tohm (above any a board's leakage lets work).
+const RESISTOR_RANGE_LIMITS_OHM: (f64, f64) = (1e-3, 1e12);
+
+/// A `[low, high]` range of `key` within `(min, max)`, in `unit`, or
+/// `default` when not given.
+fn range(
+    c: &Checker,
+    key: &'static str,
+    given: Option<&toml::Value>,
+    (min, max): (f64, f64),
+    unit: &str,
+    example: &str,
+    default: (f64, f64),
+) -> Result<(f64, f64), SpecError> {
+    let Some(v) = given else {
+        return Ok(default);
+    };
+    let pair = match v {
+        toml::Value::Array(a) if a.len() == 2 => {
+            let number = |x: &toml::Value| x.as_float().or(x.as_integer().map(|i| i as f64));
+            number(&a[0]).zip(number(&a[1]))
+        }
+        _ => None,
+    };
+    match pair {
+        Some((lo, hi)) if min <= lo && lo < hi && hi <= max => Ok((lo, hi)),
+        _ => Err(c.invalid(
+            key,
+            v,
+            format!("expected [low, high] in {unit} with {min:e} <= low < high <= {max:e}, e.g. {example}"),
+        )),
+    }
+}
+
 fn parts(c: &Checker, raw: &RawParts) -> Result<PartsChoice, SpecError> {
     let d = PartsChoice::default();
-    let range = match &raw.capacitor_range {
-        None => d.capacitor_range_f,
-        Some(v) => {
-            let pair = match v {
-                toml::Value::Array(a) if a.len() == 2 => a[0].as_float().zip(a[1].as_float()),
-                _ => None,
-            };
-            let (min, max) = CAPACITOR_RANGE_LIMITS_F;
-            match pair {
-                    Some((lo, hi)) if min <= lo && lo < hi && hi <= max => (lo, hi),
-                    _ => return Err(c.invalid(
-                        "parts.capacitor_range",
-                        v,
-                        format!("expected [low, high] in farad with {min:e} <= low < high <= {max:e}, e.g. [100e-12, 1e-6]"),
-                    )),
-                }
+    let capacitor_range_f = range(
+        c,
+        "parts.capacitor_range",
+        raw.capacitor_range.as_ref(),
+        CAPACITOR_RANGE_LIMITS_F,
+        "farad",
+        "[100e-12, 1e-6]",
+        d.capacitor_range_f,
+    )?;
+    let resistor_range_ohm = range(
+        c,
+        "parts.resistor_range",
+        raw.resistor_range.as_ref(),
+        RESISTOR_RANGE_LIMITS_OHM,
+        "ohm",
+        "[100, 1e6]",
+        d.resistor_range_ohm,
+    )?;
+    let (min, max) = RESISTOR_RANGE_LIMITS_OHM;
+    let dc_path_max_ohm = match raw.dc_path_max_ohm {
+        None => d.dc_path_max_ohm,
+        Some(ohm) if (min..=max).contains(&ohm) => ohm,
+        Some(ohm) => {
+            return Err(c.invalid(
+                "parts.dc_path_max_ohm",
+                ohm,
+                format!("expected ohm with {min:e} <= value <= {max:e}, e.g. 10e6"),
+            ))
         }
     };
     Ok(PartsChoice {
@@ -690,9 +741,11 @@ fn parts(c: &Checker, raw: &RawParts) -> Result<PartsChoice, SpecError> {
             raw.capacitor_tolerance,
             d.capacitor_tolerance,
         )?,
-        capacitor_range_f: range,
+        capacitor_range_f,
         capacitor_range_given: raw.capacitor_range.is_some(),
-        resistor_range_ohm: d.resistor_range_ohm,
+        resistor_range_ohm,
+        resistor_range_given: raw.resistor_range.is_some(),
+        dc_path_max_ohm,
         distribution: raw.distribution.unwrap_or(d.distribution),
     })
 }
