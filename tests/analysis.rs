@@ -1531,3 +1531,83 @@ fn wilson_intervals_match_newcombes_examples() {
     let (a, b) = wilson_interval(20, 20, Z95);
     assert!((a - (1.0 - 0.1611)).abs() < 5e-5 && b == 1.0, "{a} {b}");
 }
+
+/// The DC the op-amps' input bias currents put on a build, against
+/// ngspice's operating point of the exported deck of the active on parts
+/// build with a current source drawing the bias current from every op-amp
+/// input node (the input source at 0 V): at `out` and at the op-amp
+/// output nocoil names as furthest from 0 V, within 0.1 % (an FDNR
+/// lowpass with its DC-path resistors, GIC band filters with grounded
+/// and floating simulated inductors, a GIC highpass).
+#[test]
+fn bias_offsets_agree_with_the_ngspice_operating_point() {
+    use nocoil::export::spice::{deck, AcSweep};
+    for file in [
+        "examples/vibration-antialias.toml",
+        "examples/birdsong-bandpass.toml",
+        "examples/mains-notch.toml",
+        "examples/rumble-highpass.toml",
+    ] {
+        let d = crate::util::example(file);
+        let a = d.active().unwrap();
+        let net = &a.on_parts.netlist;
+        let bias = a
+            .on_parts_figures
+            .bias
+            .clone()
+            .unwrap_or_else(|| panic!("{file}: a DC path for the bias currents"));
+        assert_eq!(bias.bias_current_a, d.spec.opamp.bias_current_a);
+        let sweep = AcSweep {
+            points_per_decade: 1,
+            start_hz: 1.0,
+            stop_hz: 10.0,
+        };
+        let text = deck(net, &sweep).unwrap();
+        let mut lines: Vec<String> = text
+            .lines()
+            .filter(|l| {
+                let l = l.to_ascii_lowercase();
+                !(l.starts_with(".ac") || l.starts_with(".print") || l.trim() == ".end")
+            })
+            .map(String::from)
+            .collect();
+        let mut k = 0;
+        for e in &net.elements {
+            if let Element::OpAmp { plus, minus, .. } = e {
+                for node in [*plus, *minus].into_iter().filter(|&n| n != 0) {
+                    k += 1;
+                    lines.push(format!(
+                        "IBIAS{k} {} 0 DC {:e}",
+                        net.nodes[node], bias.bias_current_a
+                    ));
+                }
+            }
+        }
+        lines.push(".op\n.end".to_string());
+        let plot = crate::util::ngspice_plot(&lines.join("\n"), "Operating");
+        let largest_node = net
+            .elements
+            .iter()
+            .find_map(|e| match e {
+                Element::OpAmp { name, out, .. } if *name == bias.largest_designator => {
+                    Some(net.nodes[*out].to_ascii_lowercase())
+                }
+                _ => None,
+            })
+            .unwrap();
+        for (node, ours) in [
+            ("out".to_string(), bias.out_v),
+            (largest_node, bias.largest_v),
+        ] {
+            let theirs = plot.vector(&format!("v({node})"))[0].re;
+            assert!(
+                (ours - theirs).abs() <= 1e-3 * theirs.abs() + 1e-9,
+                "{file}: V({node}) nocoil {ours} V, ngspice {theirs} V"
+            );
+        }
+        println!(
+            "{file}: out {:.4e} V, {} {:.4e} V",
+            bias.out_v, bias.largest_designator, bias.largest_v
+        );
+    }
+}

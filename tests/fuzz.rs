@@ -263,6 +263,7 @@ impl Gen {
             self.maybe_key(&mut s, 20, "in_corner_hz", (0.0, 1e4));
             self.maybe_key(&mut s, 20, "slew_v_per_s", (1e4, 1e9));
             self.maybe_key(&mut s, 20, "output_current_a", (1e-5, 1.0));
+            self.maybe_key(&mut s, 20, "bias_current_a", (0.0, 1e-5));
         }
         if self.chance(10) {
             s += "\n[noise]\n";
@@ -293,6 +294,12 @@ impl Gen {
                 let b = self.number((1e-8, 1e-4));
                 s += &format!("capacitor_range = [{a}, {b}]\n");
             }
+            if self.chance(20) {
+                let a = self.number((1.0, 1e4));
+                let b = self.number((1e4, 1e8));
+                s += &format!("resistor_range = [{a}, {b}]\n");
+            }
+            self.maybe_key(&mut s, 20, "dc_path_max_ohm", (1e3, 1e9));
             if self.chance(20) {
                 s += &format!(
                     "distribution = \"{}\"\n",

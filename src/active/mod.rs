@@ -161,15 +161,9 @@ pub const DEFAULT_IMPEDANCE_OHM: f64 = 10e3;
 /// network is held to against the passive ideal (measured with ideal
 /// op-amps on the fixture's lowpass designs, orders 4 to 25: at most
 /// 1.8e-3 dB). The resistors come out near K times the converters' level
-/// (about 100 Mohm at 10 kohm).
+/// (about 100 Mohm at 10 kohm), so an FDNR image's level is lowered to
+/// keep them within a bound (see `fdnr_level_ohm`).
 pub const DEFAULT_DC_PATH_FACTOR: f64 = 1e4;
-
-/// Default largest FDNR DC-path resistor, ohm: 10 Mohm is the top of the
-/// common 1 % resistor series as stocked, and with an op-amp input bias
-/// of 100 nA it puts 1 V at the FDNR inputs; the 100 Mohm the default
-/// factor alone asks for is neither stocked in tolerance nor above a
-/// board's own leakage (common practice).
-pub const DEFAULT_DC_PATH_MAX_OHM: f64 = 10e6;
 
 /// How far below the balance frequency the DC-path resistors' effect is
 /// reported: four decades reach well below 1/T = wb/K for the default K,
@@ -206,8 +200,9 @@ pub struct Options {
     /// branches against the balance frequency; larger values disturb the
     /// passband less and need larger resistors (Rb = T RL / tau).
     pub dc_path_factor: f64,
-    /// FDNR only: the largest DC-path resistor, ohm; the factor is
-    /// lowered to keep both within it.
+    /// FDNR only: the largest DC-path resistor, ohm (infinite: no bound;
+    /// the parts a design buys from set one); the converters' level, and
+    /// below its floor the factor, is lowered to keep both within it.
     pub dc_path_max_ohm: f64,
     /// Relative spread of the op-amps' gain-bandwidth: the stability
     /// verdict is repeated at its corners (see [`corner_models`]).
@@ -227,7 +222,7 @@ impl Options {
             impedance_ohm: DEFAULT_IMPEDANCE_OHM,
             passband_hz: Vec::new(),
             dc_path_factor: DEFAULT_DC_PATH_FACTOR,
-            dc_path_max_ohm: DEFAULT_DC_PATH_MAX_OHM,
+            dc_path_max_ohm: f64::INFINITY,
             gbw_spread: 0.0,
         }
     }
@@ -249,7 +244,13 @@ impl Options {
         positive("balance_hz", self.balance_hz)?;
         positive("impedance_ohm", self.impedance_ohm)?;
         positive("dc_path_factor", self.dc_path_factor)?;
-        positive("dc_path_max_ohm", self.dc_path_max_ohm)?;
+        if self.dc_path_max_ohm.is_nan() || self.dc_path_max_ohm <= 0.0 {
+            return Err(ActiveError::BadOption {
+                option: "dc_path_max_ohm",
+                accepted: "> 0 (infinite: no bound)",
+                value: self.dc_path_max_ohm,
+            });
+        }
         if !(0.0..1.0).contains(&self.gbw_spread) {
             return Err(ActiveError::BadOption {
                 option: "gbw_spread",
@@ -499,7 +500,7 @@ pub fn realize(passive: &Netlist, opts: &Options) -> Result<ActiveBuild, ActiveE
         correction: 1.0,
         compensate: false,
     };
-    let (plan, why, mut notes) = choose(&Passive::read(passive)?, opts, &balanced)?;
+    let (plan, why, mut notes, balanced) = choose(&Passive::read(passive)?, opts, &balanced)?;
     let plan = damped(plan, opts, &balanced, &mut notes)?;
     let grid = refine::passband_grid(&opts.passband_hz)?;
     let meter = Meter::new(passive, grid)?;
@@ -869,6 +870,32 @@ impl Candidates {
     }
 }
 
+/// The converters' level of an FDNR image of terminations `rs`, `rl`:
+/// [`Options::impedance_ohm`], or lower so that the DC-path resistors at
+/// the full factor stay within [`Options::dc_path_max_ohm`] (Rb = K RL R /
+/// sqrt(RS RL), Ra below K RS R / sqrt(RS RL)), but not below
+/// [`FDNR_LEVEL_FLOOR`] of it, where the factor gives way instead (see
+/// `build::dc_path_resistors`). A lower factor disturbs the passband by
+/// about 1 / K: at K = 1e3 a 4th-order Butterworth of unequal
+/// terminations read 0.019 dB low a decade below its edge with ideal
+/// op-amps (tests/scipy_cases.rs), where the full factor keeps 1e-3 dB.
+fn fdnr_level_ohm(opts: &Options, rs: f64, rl: f64) -> f64 {
+    let within = opts.dc_path_max_ohm * (rs * rl).sqrt() / (opts.dc_path_factor * rs.max(rl));
+    within.clamp(FDNR_LEVEL_FLOOR * opts.impedance_ohm, opts.impedance_ohm)
+}
+
+/// How far [`fdnr_level_ohm`] may lower the converters' level: to 1 kohm
+/// from the default 10 kohm, the bottom of the range where op-amp output
+/// loading stays small (see [`DEFAULT_IMPEDANCE_OHM`]).
+pub const FDNR_LEVEL_FLOOR: f64 = 0.1;
+
+/// Whether the build of `passive` for `asked` is the FDNR image (see
+/// [`Method::Auto`]). Fails as [`realize`] does when `asked` cannot serve
+/// the ladder.
+pub fn uses_fdnr(passive: &Netlist, asked: Method) -> Result<bool, ActiveError> {
+    Ok(Candidates::new(&Passive::read(passive)?, asked)?.use_fdnr)
+}
+
 /// The elements of `passive` (by index) that its build for `asked` keeps
 /// as parts at the ladder's own impedance level, the one its terminations
 /// set: every resistor and capacitor of a simulated-inductor build, which
@@ -877,7 +904,7 @@ impl Candidates {
 /// (see `choose`), so the image does not change with their level. Fails
 /// as [`realize`] does when `asked` cannot serve the ladder.
 pub fn kept_elements(passive: &Netlist, asked: Method) -> Result<Vec<usize>, ActiveError> {
-    if Candidates::new(&Passive::read(passive)?, asked)?.use_fdnr {
+    if uses_fdnr(passive, asked)? {
         return Ok(Vec::new());
     }
     Ok((0..passive.elements.len())
@@ -890,13 +917,14 @@ pub fn kept_elements(passive: &Netlist, asked: Method) -> Result<Vec<usize>, Act
         .collect())
 }
 
-/// The plan of the method asked for (or chosen), why, and the notes of
-/// its series swaps.
+/// The plan of the method asked for (or chosen), why, the notes of its
+/// series swaps, and its balanced free values: `balanced`, or for an
+/// FDNR image the level [`fdnr_level_ohm`] gives.
 fn choose(
     base: &Passive,
     opts: &Options,
     balanced: &Tuning,
-) -> Result<(Plan, Why, Vec<Note>), ActiveError> {
+) -> Result<(Plan, Why, Vec<Note>, Tuning), ActiveError> {
     let Candidates {
         gic: (gic, gic_notes),
         fdnr: (fdnr, fdnr_notes),
@@ -917,11 +945,15 @@ fn choose(
     match (use_fdnr, terminations) {
         (true, Ok((source, load))) => {
             let ohm = |i: usize| fdnr.netlist.elements[i].value().unwrap_or(f64::NAN);
+            let balanced = Tuning {
+                level_ohm: fdnr_level_ohm(opts, ohm(source), ohm(load)),
+                ..*balanced
+            };
             // wb tau = sqrt(RS RL) / R: the image's impedances at wb sit at
             // the converters' level R where the ladder's sat at its
             // terminations'.
             let tau_s =
-                (ohm(source) * ohm(load)).sqrt() / (opts.impedance_ohm * balanced.balance_rad_s);
+                (ohm(source) * ohm(load)).sqrt() / (balanced.level_ohm * balanced.balance_rad_s);
             let mut bruton = Bruton {
                 tau_s,
                 source,
@@ -931,13 +963,13 @@ fn choose(
             dc_path_resistors(
                 &fdnr,
                 &mut bruton,
-                balanced,
+                &balanced,
                 opts.dc_path_factor,
                 opts.dc_path_max_ohm,
             )?;
-            Ok((Plan::Fdnr(fdnr, bruton), why, fdnr_notes))
+            Ok((Plan::Fdnr(fdnr, bruton), why, fdnr_notes, balanced))
         }
-        _ => Ok((Plan::Gic(gic), why, gic_notes)),
+        _ => Ok((Plan::Gic(gic), why, gic_notes, *balanced)),
     }
 }
 

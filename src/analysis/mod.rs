@@ -31,6 +31,7 @@ mod levels;
 mod mask;
 mod montecarlo;
 mod noise;
+mod offset;
 mod retune;
 mod sensitivity;
 mod spread;
@@ -51,6 +52,7 @@ pub use noise::{
     a_weighting, integrate, noise_band_grid, output_noise, NoiseKind, NoiseSource, NoiseSpectrum,
     MIN_NOISE_POINTS, NOISE_POINTS_PER_DECADE,
 };
+pub use offset::{bias_offsets, BiasOffsets};
 pub use retune::{Product, Trimmer, Tuning};
 pub use sensitivity::{
     sensitivities, summarize, Extreme, Parameter, Sensitivity, SensitivitySummary,

@@ -5,7 +5,10 @@
 
 use super::{Design, DesignError};
 use crate::active::{self, ActiveBuild, Options};
-use crate::analysis::{compare, opamp_levels, ComparePoints, Comparison, OpAmpLevel, LEVEL_POINTS};
+use crate::analysis::{
+    bias_offsets, compare, opamp_levels, BiasOffsets, ComparePoints, Comparison, OpAmpLevel,
+    LEVEL_POINTS,
+};
 use crate::circuit::{band_grid, log_grid, response, AcSystem, Netlist};
 use crate::realize::{choose_levels, generator_level_v, snap_build, ConverterLevels, SnappedBuild};
 
@@ -21,6 +24,9 @@ pub struct BuildFigures {
     /// Where a highpass or bandstop passband stops being checked
     /// ([`Design::top_of_range_hz`]), and the build's deviation there.
     pub top_of_range: Option<TopOfRange>,
+    /// The DC the op-amps' input bias currents put at `out` and at the
+    /// op-amp outputs; `None` when no DC path takes them (or no op-amp).
+    pub bias: Option<BiasOffsets>,
 }
 
 /// A build at the top of the op-amp range.
@@ -151,11 +157,16 @@ impl Design {
             }
             None => None,
         };
+        let circuit = |cause| self.circuit_error(cause);
+        let out = netlist.require_node("out").map_err(circuit)?;
+        let system = AcSystem::new(netlist).map_err(circuit)?;
         Ok(BuildFigures {
             comparison: compare(&self.passive, netlist, points)
                 .map_err(|cause| self.analysis_error(cause))?,
             levels: self.levels(netlist, &grid)?,
             top_of_range,
+            bias: bias_offsets(&system, out, self.spec.opamp.bias_current_a)
+                .map_err(|cause| self.analysis_error(cause))?,
         })
     }
 

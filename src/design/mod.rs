@@ -683,12 +683,11 @@ fn raise_for_delay(
 /// FDNR build's DC-path resistors and termination capacitors set its
 /// gain below about wb / K (K the DC-path factor, at most
 /// [`active::DEFAULT_DC_PATH_FACTOR`], so at least 1e-4 of the balance
-/// frequency, 1e-2 of the view's low end) by the resistors' ratio and
-/// above it by the capacitors': a step where their tolerances differ,
-/// which four decades below the view has finished (0.42 dB from a 5 %
-/// capacitor mismatch below a few mHz, where the view began at 0.5
-/// Hz).
-pub const DC_REACH: f64 = 1e4;
+/// frequency, 1e-3 of the view's low end a decade below the passband
+/// edge) by the resistors' ratio, and above it by the capacitors': a step
+/// where their tolerances differ (0.21 dB from a 5 % capacitor mismatch,
+/// tests/design.rs), finished a decade below that corner.
+pub const DC_REACH: f64 = 1e5;
 
 /// The top of the op-amp range as a fraction of the gain-bandwidth: a
 /// highpass or bandstop passband is open above, and its active builds
@@ -854,10 +853,13 @@ impl Design {
         self.limits(mc.passband_margin_db, mc.stopband_margin_db)
     }
 
-    /// Where a lowpass passband, which reaches DC, is judged from below
-    /// the view: [`DC_REACH`] times lower; `None` for the other kinds.
+    /// Where the passband of a lowpass built as an FDNR image, which
+    /// reaches DC through its DC-path resistors, is judged from below the
+    /// view: [`DC_REACH`] times lower; `None` for the other builds.
     pub fn dc_reach_hz(&self) -> Option<f64> {
-        matches!(self.spec.band, Band::Lowpass { .. }).then(|| self.view_hz().0 / DC_REACH)
+        let fdnr = active::uses_fdnr(&self.passive, self.spec.active.method);
+        (matches!(self.spec.band, Band::Lowpass { .. }) && fdnr.unwrap_or(false))
+            .then(|| self.view_hz().0 / DC_REACH)
     }
 
     /// The specification's limits tightened by these margins, dB.

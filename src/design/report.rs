@@ -57,6 +57,8 @@ pub struct ActiveReport {
     pub opamp_noise: crate::circuit::OpAmpNoise,
     /// The op-amps' slew rate, V/s.
     pub slew_v_per_s: f64,
+    /// The op-amps' input bias current, A.
+    pub bias_current_a: f64,
     /// Number of op-amps.
     pub opamps: usize,
     /// Number of capacitors.
@@ -320,6 +322,7 @@ impl Design {
                 swing_v_peak: self.spec.opamp.swing_v,
                 opamp_noise: self.spec.opamp.noise,
                 slew_v_per_s: self.spec.opamp.slew_v_per_s,
+                bias_current_a: self.spec.opamp.bias_current_a,
                 opamps: b.opamps,
                 capacitors: b.capacitors,
                 capacitor_spread: b.capacitor_spread,

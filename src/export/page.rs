@@ -85,6 +85,11 @@ pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> Strin
     if let Some(search) = &r.yield_search {
         summary.insert(2, ("design for yield".to_string(), search_words(search)));
     }
+    if let Some(words) = r.active.as_ref().and_then(|act| {
+        super::prose::bias_warning(act.active_on_parts.bias.as_ref(), act.swing_v_peak)
+    }) {
+        summary.insert(1, ("DC from input bias".to_string(), words));
+    }
     if let Some(words) = next_step_words(r) {
         summary.insert(2, ("next step".to_string(), words));
     }
@@ -123,6 +128,12 @@ pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> Strin
                 summary.push((
                     format!("{build}: attenuation at {}", eng(*hz, "Hz")),
                     format!("{} dB", db(-g)),
+                ));
+            }
+            if !f.levels.is_empty() {
+                summary.push((
+                    format!("{build}: DC from input bias"),
+                    super::prose::bias_words(act.bias_current_a, f.bias.as_ref(), act.swing_v_peak),
                 ));
             }
         }

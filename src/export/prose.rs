@@ -6,6 +6,7 @@
 
 use super::eng::{format_trimmed as eng, HUMAN_DIGITS};
 use crate::active::{CornerVerdict, Method, NaturalFrequency, Note, Why};
+use crate::analysis::BiasOffsets;
 use crate::approx::Family;
 use crate::circuit::OpAmpModel;
 use crate::design::{ActiveReport, Margin, OrderChoice, TopOfRange, TOP_OF_RANGE};
@@ -419,6 +420,65 @@ pub fn top_of_range(top: &TopOfRange) -> String {
         db(top.deviation_db)
     )
 }
+
+/// "op-amp input bias 100 nA into each input: out at -1.2 mV DC, op-amp
+/// outputs within 1.05 V of 0 V (X_RS)", with what to do when an output
+/// sits beyond [`BIAS_SHARE`] of `swing_v`; or why the bias has no DC
+/// path.
+pub fn bias_words(bias_current_a: f64, bias: Option<&BiasOffsets>, swing_v: f64) -> String {
+    match bias {
+        Some(b) => {
+            let advice = if b.largest_v.abs() > swing_v {
+                format!(
+                    ": beyond the {} swing, so that op-amp saturates and the filter does not work; {PICOAMPERE}",
+                    eng(swing_v, "V")
+                )
+            } else if b.largest_v.abs() > BIAS_SHARE * swing_v {
+                format!(
+                    ": {} of the {} swing gone at DC; {PICOAMPERE}",
+                    super::search::percent(b.largest_v.abs() / swing_v),
+                    eng(swing_v, "V")
+                )
+            } else {
+                String::new()
+            };
+            format!(
+                "op-amp input bias {} into each input puts out at {} DC and {} at {} by the linear model{advice}",
+                eng(b.bias_current_a, "A"),
+                eng(b.out_v, "V"),
+                b.largest_designator,
+                eng(b.largest_v, "V")
+            )
+        }
+        None => format!(
+            "op-amp input bias {}: no DC path takes it (a node only capacitors reach), so it charges that node until an op-amp saturates",
+            eng(bias_current_a, "A")
+        ),
+    }
+}
+
+/// What keeps the bias currents' DC small.
+const PICOAMPERE: &str =
+    "op-amps of picoampere bias (FET inputs) keep it small (set [opamp] bias_current_a to theirs)";
+
+/// "WARNING: active on parts: ..." when the bias currents drive an op-amp
+/// of the build on parts beyond the swing at DC; `None` otherwise.
+pub fn bias_warning(bias: Option<&BiasOffsets>, swing_v: f64) -> Option<String> {
+    let b = bias.filter(|b| b.largest_v.abs() > swing_v)?;
+    Some(format!(
+        "WARNING: {}: the op-amps' input bias ({} each) drives {} to {} at DC, beyond the {} swing: that op-amp saturates and the board does not work; {PICOAMPERE}",
+        crate::design::Build::ActiveOnParts,
+        eng(b.bias_current_a, "A"),
+        b.largest_designator,
+        eng(b.largest_v, "V"),
+        eng(swing_v, "V")
+    ))
+}
+
+/// The share of the swing an op-amp output may sit at DC from the bias
+/// currents before the words say what to do: a tenth, past which the
+/// signal's headroom visibly shrinks (a choice of the project).
+pub const BIAS_SHARE: f64 = 0.1;
 
 /// "R1 = 1 kohm", one per resistor given as (designator, ohm).
 fn resistor_list<'a>(resistors: impl Iterator<Item = (&'a String, f64)>) -> Vec<String> {

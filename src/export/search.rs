@@ -19,7 +19,7 @@ fn yield_words(fraction: f64, interval: [f64; 2]) -> String {
 
 /// A fraction as a percentage the way a part or a target is written:
 /// "0.5 %", "99 %" (to 0.001 %, trailing zeros dropped).
-fn percent(x: f64) -> String {
+pub(super) fn percent(x: f64) -> String {
     let digits = format!("{:.3}", 100.0 * x);
     format!("{} %", digits.trim_end_matches('0').trim_end_matches('.'))
 }

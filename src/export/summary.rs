@@ -146,7 +146,7 @@ pub fn payoff_line(d: &Documents) -> Option<String> {
 }
 
 /// The figures of one build against the passive ideal, one line each.
-fn figures(s: &mut String, build: Build, f: &BuildFigures) {
+fn figures(s: &mut String, build: Build, f: &BuildFigures, bias_current_a: f64, swing_v: f64) {
     let c = &f.comparison;
     let _ = writeln!(
         s,
@@ -201,6 +201,13 @@ fn figures(s: &mut String, build: Build, f: &BuildFigures) {
         );
     } else {
         let _ = writeln!(s, "  {build}: {}", super::prose::NO_OPAMPS);
+    }
+    if !f.levels.is_empty() {
+        let _ = writeln!(
+            s,
+            "  {build}: {}",
+            super::prose::bias_words(bias_current_a, f.bias.as_ref(), swing_v)
+        );
     }
 }
 
@@ -343,6 +350,11 @@ pub fn summary(d: &Documents) -> String {
             level
         )
     );
+    if let Some(line) = r.active.as_ref().and_then(|act| {
+        super::prose::bias_warning(act.active_on_parts.bias.as_ref(), act.swing_v_peak)
+    }) {
+        let _ = writeln!(s, "{line}");
+    }
     let _ = writeln!(s, "{}", yield_line(d));
     if let Some(search) = &r.yield_search {
         let _ = writeln!(s, "{}", super::search::search_words(search));
@@ -394,8 +406,20 @@ pub fn summary(d: &Documents) -> String {
         opamp_model(&act.opamp)
     );
     let _ = writeln!(s, "  why: {}", act.why);
-    figures(&mut s, Build::ActiveExact, &act.active_exact);
-    figures(&mut s, Build::ActiveOnParts, &act.active_on_parts);
+    figures(
+        &mut s,
+        Build::ActiveExact,
+        &act.active_exact,
+        act.bias_current_a,
+        act.swing_v_peak,
+    );
+    figures(
+        &mut s,
+        Build::ActiveOnParts,
+        &act.active_on_parts,
+        act.bias_current_a,
+        act.swing_v_peak,
+    );
     let e = &act.parts_error_db;
     let _ = writeln!(
         s,

@@ -37,6 +37,13 @@ pub struct PartsChoice {
     pub distribution: Distribution,
 }
 
+/// Default largest FDNR DC-path resistor, ohm: 10 Mohm is the top of the
+/// common 1 % resistor series as stocked, and with an op-amp input bias
+/// of 100 nA it puts 1 V at the FDNR inputs; the 100 Mohm the DC-path
+/// factor alone asks for at a 10 kohm level is neither stocked in
+/// tolerance nor above a board's own leakage (common practice).
+pub const DEFAULT_DC_PATH_MAX_OHM: f64 = 10e6;
+
 impl Default for PartsChoice {
     /// 1 % resistors from E96, 5 % capacitors from E12, 100 pF to 1 uF,
     /// spread uniformly: a common stock of metal-film resistors and film
@@ -54,7 +61,7 @@ impl Default for PartsChoice {
             capacitor_range_given: false,
             resistor_range_ohm: (100.0, 1e6),
             resistor_range_given: false,
-            dc_path_max_ohm: crate::active::DEFAULT_DC_PATH_MAX_OHM,
+            dc_path_max_ohm: DEFAULT_DC_PATH_MAX_OHM,
             distribution: Distribution::Uniform,
         }
     }

@@ -19,7 +19,7 @@ mod error;
 mod series;
 mod tolerance;
 
-pub use choice::{ImpedanceLevel, PartsChoice};
+pub use choice::{ImpedanceLevel, PartsChoice, DEFAULT_DC_PATH_MAX_OHM};
 pub use error::PartsError;
 pub use series::Series;
 pub use tolerance::{Distribution, Tolerance, MAX_TOLERANCE};

@@ -67,7 +67,7 @@ pub use tuning::{
 
 use crate::active::chain::{self, is_capacitor, scale_impedance, value, Chain, Moves};
 use crate::active::{ActiveBuild, DampingResistor, Handles, Meter, Note, Stage, PASSBAND_POINTS};
-use crate::circuit::{band_grid, CircuitError, Element, ElementKind, Netlist};
+use crate::circuit::{band_grid, AcSystem, CircuitError, Element, ElementKind, Netlist};
 use crate::parts::{Distribution, PartsChoice, Tolerance};
 
 /// Relative slack on the capacitor range for values placed on one of its
@@ -259,7 +259,7 @@ pub fn snap_build(
             .collect::<Vec<_>>(),
     );
     let before_snap = netlist.clone();
-    snap_all(&mut netlist, choice)?;
+    snap_all(&mut netlist, &dc_path_resistors(&build.stages), choice)?;
     check_resistors(passive, &netlist, &build.stages, choice)?;
     let snapped = deviation(&netlist)?;
     let untrimmed = netlist.clone();
@@ -562,13 +562,7 @@ fn check_resistors(
         return Ok(());
     }
     let (low_ohm, high_ohm) = choice.resistor_range_ohm;
-    let dc_paths: Vec<usize> = stages
-        .iter()
-        .filter_map(|s| match s.handles {
-            Handles::Termination { dc_path, .. } => Some(dc_path),
-            _ => None,
-        })
-        .collect();
+    let dc_paths = dc_path_resistors(stages);
     let ladders_own = |name: &str| passive.elements.iter().any(|e| e.name() == name);
     for (i, e) in netlist.elements.iter().enumerate() {
         let ohm = value(netlist, i);
@@ -590,9 +584,29 @@ fn check_resistors(
     Ok(())
 }
 
+/// The element indices of the FDNR image's DC-path resistors.
+fn dc_path_resistors(stages: &[Stage]) -> Vec<usize> {
+    stages
+        .iter()
+        .filter_map(|s| match s.handles {
+            Handles::Termination { dc_path, .. } => Some(dc_path),
+            _ => None,
+        })
+        .collect()
+}
+
 /// Step 3: every resistor to its nearest series value, every capacitor to
-/// the nearest series value in range (see `Buying::snap_capacitor`).
-fn snap_all(netlist: &mut Netlist, choice: &PartsChoice) -> Result<(), PartsSnapError> {
+/// the nearest series value in range (see `Buying::snap_capacitor`); the
+/// DC-path resistors (`dc_paths`) first held within
+/// `PartsChoice::dc_path_max_ohm` ([`hold_dc_paths`]), and none snapped
+/// above it.
+fn snap_all(
+    netlist: &mut Netlist,
+    dc_paths: &[usize],
+    choice: &PartsChoice,
+) -> Result<(), PartsSnapError> {
+    let bound = choice.dc_path_max_ohm;
+    hold_dc_paths(netlist, dc_paths, bound)?;
     for index in 0..netlist.elements.len() {
         let v = value(netlist, index);
         let snap = |cause| PartsSnapError::Snap {
@@ -600,18 +614,58 @@ fn snap_all(netlist: &mut Netlist, choice: &PartsChoice) -> Result<(), PartsSnap
             cause,
         };
         let snapped = match netlist.elements[index].kind() {
-            // Only an FDNR DC-path resistor comes near the bound, when the
-            // image level has scaled it up past it.
-            ElementKind::Resistor if v > choice.dc_path_max_ohm => choice
-                .resistor_series
-                .snap_down(choice.dc_path_max_ohm)
-                .map_err(snap)?,
-            ElementKind::Resistor => choice.resistor_series.nearest(v).map_err(snap)?,
+            ElementKind::Resistor => match choice.resistor_series.nearest(v).map_err(snap)? {
+                near if near > bound && dc_paths.contains(&index) => {
+                    choice.resistor_series.snap_down(bound).map_err(snap)?
+                }
+                near => near,
+            },
             ElementKind::Capacitor => choice.snap_capacitor(v)?,
             _ => continue,
         };
         netlist.set_value(index, snapped)?;
     }
+    Ok(())
+}
+
+/// Scales the FDNR image's DC-path resistors `dc_paths` together into
+/// `bound` when the image level put the larger above it (a 2 Hz FDNR
+/// lowpass whose termination capacitors rose to 1 uF would have wanted
+/// 800 Mohm), then sets the source side's (the one at `in`) so that the
+/// DC gain is what it was: with the image's own DC resistance Rser
+/// between them, V(out)/V(in) = Rb / (Ra + Rser + Rb), so Ra moves by Rb
+/// (1/h before - 1/h after), one DC solve each side.
+fn hold_dc_paths(
+    netlist: &mut Netlist,
+    dc_paths: &[usize],
+    bound: f64,
+) -> Result<(), PartsSnapError> {
+    let largest = dc_paths
+        .iter()
+        .map(|&i| value(netlist, i))
+        .fold(0.0, f64::max);
+    if largest <= bound {
+        return Ok(());
+    }
+    let inp = netlist.require_node("in")?;
+    let out = netlist.require_node("out")?;
+    let dc_gain = |n: &Netlist| -> Result<f64, CircuitError> {
+        Ok(AcSystem::new(n)?.transfer(0.0, out, inp)?.re)
+    };
+    let before = dc_gain(netlist)?;
+    for &i in dc_paths {
+        netlist.set_value(i, value(netlist, i) * bound / largest)?;
+    }
+    let after = dc_gain(netlist)?;
+    let touches_in = |i: usize| netlist.elements[i].terminals().iter().any(|t| t.0 == inp);
+    let (Some(&ra), Some(&rb)) = (
+        dc_paths.iter().find(|&&i| touches_in(i)),
+        dc_paths.iter().find(|&&i| !touches_in(i)),
+    ) else {
+        return Ok(());
+    };
+    let held = value(netlist, ra) + value(netlist, rb) * (1.0 / before - 1.0 / after);
+    netlist.set_value(ra, held)?;
     Ok(())
 }
 

@@ -53,6 +53,11 @@ pub struct OpAmpSpec {
     /// Largest output current, A peak (default 10 mA: an assumption of
     /// the same generic op-amp, which drives 1 kohm to its 10 V swing).
     pub output_current_a: f64,
+    /// Input bias current, A, into every input (default 100 nA: the
+    /// magnitude a bipolar-input low-noise op-amp's data sheet quotes,
+    /// as the noise above; a FET-input one draws picoamperes, common
+    /// practice).
+    pub bias_current_a: f64,
 }
 
 /// The input noise of the default op-amp: a generic modern low-noise
@@ -80,6 +85,7 @@ impl Default for OpAmpSpec {
             noise: DEFAULT_OPAMP_NOISE,
             slew_v_per_s: 10e6,
             output_current_a: 10e-3,
+            bias_current_a: 100e-9,
         }
     }
 }

@@ -135,6 +135,8 @@ struct RawOpAmp {
     slew_v_per_s: Option<f64>,
     #[serde(default, deserialize_with = "number")]
     output_current_a: Option<f64>,
+    #[serde(default, deserialize_with = "number")]
+    bias_current_a: Option<f64>,
 }
 
 #[derive(Deserialize)]
@@ -922,14 +924,26 @@ fn opamp(c: &Checker, raw: &RawOpAmp) -> Result<OpAmpSpec, SpecError> {
         OUTPUT_CURRENT_RANGE_A,
         "a largest output current in A",
     )?;
+    let bias_current_a = density(
+        "opamp.bias_current_a",
+        raw.bias_current_a,
+        d.bias_current_a,
+        BIAS_RANGE_A,
+        "an input bias current in A",
+    )?;
     Ok(OpAmpSpec {
         model: OpAmpModel::from_data_sheet(kind, gbw_hz, dc_gain_db, second_pole_hz, output_ohm),
         swing_v,
         noise,
         slew_v_per_s,
         output_current_a,
+        bias_current_a,
     })
 }
+
+/// Input bias currents a design file may give, A: 0 (none) to 1 mA, far
+/// above any op-amp's.
+const BIAS_RANGE_A: (f64, f64) = (0.0, 1e-3);
 
 /// Input voltage noise densities a design file may give, V/sqrt(Hz): 0
 /// (noiseless) to 1 uV/sqrt(Hz), far above any op-amp's.
