@@ -1092,6 +1092,11 @@ fn bad_noise_keys_are_rejected() {
             &["opamp.output_current_a", "output current in A"][..],
         ),
         (
+            "bias",
+            "[opamp]\nbias_current_a = -1e-9\n",
+            &["opamp.bias_current_a", "input bias current in A"][..],
+        ),
+        (
             "delay band",
             "[delay]\nmax_spread_s = 1e-4\nband_hz = 1e300\n",
             &["delay.band_hz", "<= 1e10"][..],

@@ -66,14 +66,14 @@ struct Demo {
 }
 
 impl Demo {
-    /// The example `name` with `extra` TOML appended (e.g. an `[opamp]`
-    /// table; the examples have none, so they use the default single-pole
+    /// The example `name` with `extra` TOML added (e.g. an `[opamp]`
+    /// model; the examples give none, so they use the default single-pole
     /// model).
     fn load(name: &str, extra: &str) -> Demo {
         let path = Path::new(env!("CARGO_MANIFEST_DIR"))
             .join("examples")
             .join(name);
-        let text = std::fs::read_to_string(&path).unwrap() + extra;
+        let text = crate::util::with_tables(&std::fs::read_to_string(&path).unwrap(), extra);
         let design = design(&Spec::from_toml(&path, &text).unwrap()).unwrap();
         let active = design.active().unwrap();
         // The band's own passbands, not those reaching up to a tenth of

@@ -320,3 +320,29 @@ pub fn driven(elements: &[(&str, &str, &str, f64)]) -> nocoil::circuit::Netlist 
 pub fn example(file: &str) -> nocoil::design::Design {
     nocoil::design::design(&nocoil::spec::Spec::load(Path::new(file)).unwrap()).unwrap()
 }
+
+/// `text` (a design file) with the TOML of `extra` added: the keys of
+/// each of its tables into that table where `text` has it (a table may
+/// appear once), the rest appended.
+pub fn with_tables(text: &str, extra: &str) -> String {
+    let mut text = text.to_string();
+    let mut appended = String::new();
+    for chunk in extra
+        .split_inclusive('\n')
+        .fold(Vec::<String>::new(), |mut chunks, line| {
+            match (line.starts_with('['), chunks.last_mut()) {
+                (false, Some(last)) => last.push_str(line),
+                _ => chunks.push(line.to_string()),
+            }
+            chunks
+        })
+    {
+        let header = chunk.lines().next().unwrap_or_default().to_string();
+        let at = format!("\n{header}\n");
+        match header.starts_with('[') && text.contains(&at) {
+            true => text = text.replacen(&at, &format!("\n{chunk}"), 1),
+            false => appended.push_str(&chunk),
+        }
+    }
+    format!("{text}\n{appended}")
+}

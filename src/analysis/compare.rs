@@ -40,7 +40,7 @@ pub struct Comparison {
     /// Largest |gain difference| from the passive ideal over the passband
     /// grid, dB.
     pub passband_deviation_db: f64,
-    /// The passband edges of the specification, Hz.
+    /// The passband edges the ladder was synthesized for, Hz.
     pub passband_edge_hz: Vec<f64>,
     /// Where the build crosses the passive ideal's gain at each edge, Hz
     /// (`None` if not within [`EDGE_WINDOW`] of the edge).

@@ -530,6 +530,7 @@ pub fn stability(act: &ActiveReport) -> String {
         .collect();
     match (act.stability_corners.len(), unstable.first()) {
         (0, _) => {}
+        (2, None) => s += "; stable at both corners of the op-amp spread",
         (n, None) => s += &format!("; stable at all {n} corners of the op-amp spread"),
         (n, Some(_)) => {
             let named: Vec<String> = unstable

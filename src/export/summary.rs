@@ -10,7 +10,9 @@ use super::prose::{
 };
 use crate::active::Method;
 use crate::analysis::{DelayVerdict, MaskVerdict, EDGE_WINDOW};
-use crate::design::{Build, BuildFigures, Documents, NoiseFigures, Report, StepReport};
+use crate::design::{
+    ActiveReport, Build, BuildFigures, Documents, NoiseFigures, Report, StepReport,
+};
 use std::fmt::Write as _;
 
 /// The edges of a band as "3 kHz" or "300 Hz and 3.4 kHz".
@@ -146,7 +148,9 @@ pub fn payoff_line(d: &Documents) -> Option<String> {
 }
 
 /// The figures of one build against the passive ideal, one line each.
-fn figures(s: &mut String, build: Build, f: &BuildFigures, bias_current_a: f64, swing_v: f64) {
+fn figures(s: &mut String, build: Build, f: &BuildFigures, act: &ActiveReport, prewidened: bool) {
+    let as_synthesized = if prewidened { " as synthesized" } else { "" };
+    let (bias_current_a, swing_v) = (act.bias_current_a, act.swing_v_peak);
     let c = &f.comparison;
     let _ = writeln!(
         s,
@@ -166,7 +170,7 @@ fn figures(s: &mut String, build: Build, f: &BuildFigures, bias_current_a: f64, 
             (Some(a), Some(p)) => {
                 let _ = writeln!(
                     s,
-                    "  {build}: passband edge {} moves to {} ({})",
+                    "  {build}: passband edge{as_synthesized} {} moves to {} ({})",
                     eng(*e, "Hz"),
                     eng(*a, "Hz"),
                     percent(*p)
@@ -175,7 +179,7 @@ fn figures(s: &mut String, build: Build, f: &BuildFigures, bias_current_a: f64, 
             _ => {
                 let _ = writeln!(
                     s,
-                    "  {build}: passband edge {}: no crossing within {} % of it",
+                    "  {build}: passband edge{as_synthesized} {}: no crossing within {} % of it",
                     eng(*e, "Hz"),
                     super::prose::factor(100.0 * (EDGE_WINDOW - 1.0))
                 );
@@ -406,19 +410,20 @@ pub fn summary(d: &Documents) -> String {
         opamp_model(&act.opamp)
     );
     let _ = writeln!(s, "  why: {}", act.why);
+    let prewidened = r.margins.edge_scale != 1.0;
     figures(
         &mut s,
         Build::ActiveExact,
         &act.active_exact,
-        act.bias_current_a,
-        act.swing_v_peak,
+        act,
+        prewidened,
     );
     figures(
         &mut s,
         Build::ActiveOnParts,
         &act.active_on_parts,
-        act.bias_current_a,
-        act.swing_v_peak,
+        act,
+        prewidened,
     );
     let e = &act.parts_error_db;
     let _ = writeln!(
