@@ -15,7 +15,7 @@ use crate::design::{Build, Documents};
 pub const CAUTIONS: [&str; 3] = [
     "These results are a design aid: a prototype built from real parts must be measured against the specification before the design is released.",
     "Mains-powered or safety-related equipment follows local codes and licensed practice; nothing here replaces them.",
-    "Op-amps are simulated with the small-signal model the summary names (ideal, single-pole or two-pole); their input noise enters the noise figures, and their swing, slew rate and output current bound the largest input, as stated in the design file or assumed by default (limits on the linear response: clipping itself and input bias are not simulated).",
+    "Op-amps are simulated with the small-signal model the summary names (ideal, single-pole or two-pole); their input noise enters the noise figures, and their swing, slew rate and output current bound the largest input, and their input bias current sets the DC reported, as stated in the design file or assumed by default (limits on the linear response: clipping itself and the input offset voltage are not simulated).",
 ];
 
 /// A sensitivity extreme in a table cell: "-" where its group's output
@@ -32,7 +32,6 @@ fn extreme(e: &crate::analysis::Extreme) -> String {
 pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> String {
     let r = &d.report;
     let a = &d.analyses;
-    let level = r.passband_level_db;
     let mut summary = vec![
         (
             "verdict".to_string(),
@@ -40,7 +39,7 @@ pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> Strin
                 Build::ActiveOnParts,
                 &a.active_on_parts_verdict,
                 a.delay.as_ref().map(|d| &d.active_on_parts),
-                level,
+                r,
             ),
         ),
         ("yield".to_string(), yield_line(d)),
@@ -50,7 +49,7 @@ pub fn design_page(d: &Documents, figures: Vec<Figure>, bom: &[BomRow]) -> Strin
                 Build::ActiveExact,
                 &a.active_exact_verdict,
                 a.delay.as_ref().map(|d| &d.active_exact),
-                level,
+                r,
             ),
         ),
         ("design file".to_string(), r.design_file.clone()),

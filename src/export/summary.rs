@@ -25,15 +25,20 @@ pub fn edges(hz: &[f64]) -> String {
 
 /// One line on a build against the specification, in the designer's
 /// terms: the loss in the passband or the attenuation in the stopband,
-/// both measured from the passband level `level_db` (the terminations'
+/// both measured from the report's passband level (the terminations'
 /// divider), against what the specification allows or asks.
 pub fn verdict_line(
     build: Build,
     v: &MaskVerdict,
     delay: Option<&DelayVerdict>,
-    level_db: f64,
+    r: &Report,
 ) -> String {
-    let bound = bound_words(v.gain_db, v.limit_db, v.lower_bound, level_db);
+    let bound = bound_words(v.gain_db, v.limit_db, v.lower_bound, r.passband_level_db);
+    // Below the view only a lowpass's DC end is judged (Design::dc_reach_hz).
+    let at = match v.at_hz < r.band.view_hz().0 {
+        true => format!("{}, toward DC", eng(v.at_hz, "Hz")),
+        false => eng(v.at_hz, "Hz"),
+    };
     let delay_words = delay
         .map(|d| format!("; {}", spread_words(d)))
         .unwrap_or_default();
@@ -44,14 +49,12 @@ pub fn verdict_line(
             db(v.margin_db)
         ),
         (true, _) => format!(
-            "{build}: meets the specification with {} dB to spare (closest at {}: {bound}){delay_words}",
+            "{build}: meets the specification with {} dB to spare (closest at {at}: {bound}){delay_words}",
             db(v.margin_db),
-            eng(v.at_hz, "Hz"),
         ),
         (false, _) => format!(
-            "{build}: FAILS the specification by {} dB at {} ({bound}){delay_words}",
+            "{build}: FAILS the specification by {} dB at {at} ({bound}){delay_words}",
             db(-v.margin_db),
-            eng(v.at_hz, "Hz"),
         ),
     }
 }
@@ -342,7 +345,6 @@ pub fn summary(d: &Documents) -> String {
     let r = &d.report;
     let a = &d.analyses;
     let mut s = String::new();
-    let level = r.passband_level_db;
     let delay = a.delay.as_ref();
     let _ = writeln!(
         s,
@@ -351,7 +353,7 @@ pub fn summary(d: &Documents) -> String {
             Build::ActiveOnParts,
             &a.active_on_parts_verdict,
             delay.map(|d| &d.active_on_parts),
-            level
+            r
         )
     );
     if let Some(line) = r.active.as_ref().and_then(|act| {
@@ -370,7 +372,7 @@ pub fn summary(d: &Documents) -> String {
             Build::ActiveExact,
             &a.active_exact_verdict,
             delay.map(|d| &d.active_exact),
-            level
+            r
         )
     );
     if let Some(line) = payoff_line(d) {
