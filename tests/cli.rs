@@ -995,21 +995,26 @@ fn a_refused_active_build_still_writes_the_passive_ideal() {
     assert_eq!(run.status.code(), Some(2), "{stderr}");
     assert!(stderr.contains("not stable") && stderr.contains("try a faster op-amp"));
     assert!(stdout.starts_with("active exact: none: "), "{stdout}");
-    let mut names: Vec<String> = std::fs::read_dir(&out)
+    assert_eq!(file_names(&out), ["passive.cir", "report.json"]);
+    let report = std::fs::read_to_string(out.join("report.json")).unwrap();
+    assert!(report.contains("\"active\": null"), "{report}");
+}
+
+/// The names of the files in `dir`, sorted.
+fn file_names(dir: &Path) -> Vec<String> {
+    let mut names: Vec<String> = std::fs::read_dir(dir)
         .unwrap()
         .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
         .collect();
     names.sort();
-    assert_eq!(names, ["passive.cir", "report.json"]);
-    let report = std::fs::read_to_string(out.join("report.json")).unwrap();
-    assert!(report.contains("\"active\": null"), "{report}");
+    names
 }
 
 /// A resistor range no build fits refuses the active build, as any
 /// refusal does: exit 2 naming the key, the resistor and what to change,
 /// the passive ideal alone written. The FDNR image's resistors (the
-/// ladder's inductors over tau, about 12 kohm here) and its converters'
-/// 10 kohm fit no range of 20 to 30 kohm.
+/// ladder's inductors over tau) and its converters, at 1 kohm for the
+/// DC-path resistors' bound, fit no range of 20 to 30 kohm.
 #[test]
 fn a_resistor_range_no_build_fits_is_refused() {
     let dir = scratch("resistor-range-unmet");
@@ -1028,12 +1033,7 @@ fn a_resistor_range_no_build_fits_is_refused() {
     ] {
         assert!(stderr.contains(needle), "{needle:?} in {stderr}");
     }
-    let mut names: Vec<String> = std::fs::read_dir(&out)
-        .unwrap()
-        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
-        .collect();
-    names.sort();
-    assert_eq!(names, ["passive.cir", "report.json"]);
+    assert_eq!(file_names(&out), ["passive.cir", "report.json"]);
 }
 
 /// `nocoil noise` and `nocoil step` print the three builds' figures, each

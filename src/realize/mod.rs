@@ -459,15 +459,26 @@ fn rescale(
     Ok((netlist, done))
 }
 
-/// The element indices of the FDNR image's termination capacitors.
-fn termination_capacitors(stages: &[Stage]) -> Vec<usize> {
+/// The element indices of the FDNR image's terminations: each
+/// capacitor and the DC-path resistor across it.
+fn terminations(stages: &[Stage]) -> Vec<(usize, usize)> {
     stages
         .iter()
         .filter_map(|s| match s.handles {
-            Handles::Termination { capacitor, .. } => Some(capacitor),
+            Handles::Termination { capacitor, dc_path } => Some((capacitor, dc_path)),
             _ => None,
         })
         .collect()
+}
+
+/// The FDNR image's termination capacitors.
+fn termination_capacitors(stages: &[Stage]) -> Vec<usize> {
+    terminations(stages).into_iter().map(|(c, _)| c).collect()
+}
+
+/// The FDNR image's DC-path resistors.
+fn dc_path_resistors(stages: &[Stage]) -> Vec<usize> {
+    terminations(stages).into_iter().map(|(_, r)| r).collect()
 }
 
 /// The factor on every impedance of an FDNR image that puts one of its
@@ -582,17 +593,6 @@ fn check_resistors(
         });
     }
     Ok(())
-}
-
-/// The element indices of the FDNR image's DC-path resistors.
-fn dc_path_resistors(stages: &[Stage]) -> Vec<usize> {
-    stages
-        .iter()
-        .filter_map(|s| match s.handles {
-            Handles::Termination { dc_path, .. } => Some(dc_path),
-            _ => None,
-        })
-        .collect()
 }
 
 /// Step 3: every resistor to its nearest series value, every capacitor to
