@@ -494,16 +494,7 @@ impl Worker {
         freqs_hz: &[f64],
     ) -> Result<Vec<f64>, AnalysisError> {
         let mut h = Vec::with_capacity(freqs_hz.len());
-        match self.sparse.as_mut() {
-            Some(sparse) if self.sparse_current => {
-                sparse.sweep_into(freqs_hz, setup.out, setup.inp, &mut h)?
-            }
-            _ => {
-                for &f in freqs_hz {
-                    h.push(self.system.transfer(f, setup.out, setup.inp)?);
-                }
-            }
-        }
+        self.transfers_into(setup, freqs_hz, &mut h)?;
         Ok(h.into_iter().map(db).collect())
     }
 
@@ -511,20 +502,33 @@ impl Worker {
     fn sweep(&mut self, setup: &MonteCarlo<'_>) -> Result<(), CircuitError> {
         // A copy of the nominal system keeps its topology, so the refill
         // cannot fail; should it, the dense path sweeps.
-        let refilled = match self.sparse.as_mut() {
+        self.sparse_current = match self.sparse.as_mut() {
             Some(sparse) => sparse.refill(&self.system).is_ok(),
             None => false,
         };
-        self.sparse_current = refilled;
+        let mut h = std::mem::take(&mut self.h);
+        let swept = self.transfers_into(setup, setup.freqs_hz, &mut h);
+        self.h = h;
+        swept
+    }
+
+    /// The transfer of the board the system holds at `freqs_hz` into `h`
+    /// (cleared first): by the sparse solver when it holds the board, else
+    /// by the dense one.
+    fn transfers_into(
+        &mut self,
+        setup: &MonteCarlo<'_>,
+        freqs_hz: &[f64],
+        h: &mut Vec<Complex64>,
+    ) -> Result<(), CircuitError> {
         match self.sparse.as_mut() {
-            Some(sparse) if refilled => {
-                sparse.sweep_into(setup.freqs_hz, setup.out, setup.inp, &mut self.h)
+            Some(sparse) if self.sparse_current => {
+                sparse.sweep_into(freqs_hz, setup.out, setup.inp, h)
             }
             _ => {
-                self.h.clear();
-                for &f in setup.freqs_hz {
-                    let h = self.system.transfer(f, setup.out, setup.inp)?;
-                    self.h.push(h);
+                h.clear();
+                for &f in freqs_hz {
+                    h.push(self.system.transfer(f, setup.out, setup.inp)?);
                 }
                 Ok(())
             }

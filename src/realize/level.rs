@@ -29,7 +29,7 @@
 //!   are kept and the preferences missed by as little as possible (the
 //!   middle of their conflicting bounds, on a log scale), with a warning.
 
-use super::{Buying, PartsSnapError, RANGE_SLACK};
+use super::{within, Buying, PartsSnapError, RANGE_SLACK};
 use crate::circuit::{Element, Netlist};
 use crate::parts::{ImpedanceLevel, PartsChoice, Series};
 use std::f64::consts::LN_10;
@@ -93,8 +93,7 @@ impl LadderPart {
 
     /// Whether its value at t lies in its range (within [`RANGE_SLACK`]).
     fn fits_at(&self, t: f64) -> bool {
-        let v = self.at(t);
-        v >= self.low * (1.0 - RANGE_SLACK) && v <= self.high * (1.0 + RANGE_SLACK)
+        within(self.at(t), (self.low, self.high))
     }
 }
 

@@ -75,6 +75,11 @@ use crate::parts::{Distribution, PartsChoice, Tolerance};
 /// place outside the end it aimed at. Far below any part tolerance.
 const RANGE_SLACK: f64 = 1e-9;
 
+/// Whether `value` lies in `(low, high)` within [`RANGE_SLACK`].
+fn within(value: f64, (low, high): (f64, f64)) -> bool {
+    value >= low * (1.0 - RANGE_SLACK) && value <= high * (1.0 + RANGE_SLACK)
+}
+
 /// What the parts stage asks of a [`PartsChoice`].
 trait Buying {
     fn check(&self) -> Result<(), PartsSnapError>;
@@ -106,8 +111,7 @@ impl Buying for PartsChoice {
 
     /// Whether `farad` lies in the range (within [`RANGE_SLACK`]).
     fn contains(&self, farad: f64) -> bool {
-        let (low, high) = self.capacitor_range_f;
-        farad >= low * (1.0 - RANGE_SLACK) && farad <= high * (1.0 + RANGE_SLACK)
+        within(farad, self.capacitor_range_f)
     }
 
     /// The capacitor-series value in range nearest to `farad` (the range
@@ -577,9 +581,8 @@ fn check_resistors(
     let ladders_own = |name: &str| passive.elements.iter().any(|e| e.name() == name);
     for (i, e) in netlist.elements.iter().enumerate() {
         let ohm = value(netlist, i);
-        let inside = ohm >= low_ohm * (1.0 - RANGE_SLACK) && ohm <= high_ohm * (1.0 + RANGE_SLACK);
         if e.kind() != ElementKind::Resistor
-            || inside
+            || within(ohm, (low_ohm, high_ohm))
             || dc_paths.contains(&i)
             || ladders_own(e.name())
         {
